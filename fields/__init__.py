@@ -1,0 +1,28 @@
+"""slipfield random fields: anisotropic Gaussian fields parametrised by the
+scale of fluctuation θ, their generators and local averaging.
+
+Imports nothing from ``slope``.
+"""
+from .averaging import (cell_average_covariance, grid_cell_covariance, variance_function,
+                        variance_function_2d)
+from .errors import InputError
+from .generators import FieldGenerator, make_generator
+from .grid import RegularGrid
+from .models import MODEL_NAMES, CorrelationModel, get_model
+from .seeding import realisation_rng, realisation_rngs
+
+__all__ = [
+    "InputError",
+    "CorrelationModel",
+    "get_model",
+    "MODEL_NAMES",
+    "RegularGrid",
+    "FieldGenerator",
+    "make_generator",
+    "variance_function",
+    "variance_function_2d",
+    "grid_cell_covariance",
+    "cell_average_covariance",
+    "realisation_rng",
+    "realisation_rngs",
+]
