@@ -1,0 +1,48 @@
+"""Report layer: figures, risk chart, tables and the self-contained HTML report.
+
+Everything here takes plain data (numpy arrays, lists, dicts) so it can be
+used and tested without the engines; see each module's "Input shapes".
+"""
+from .figures import (
+    fit_fs_distributions,
+    plot_failure_map,
+    plot_field_realisation,
+    plot_fs_distribution,
+    plot_pf_convergence,
+    plot_pf_vs_theta,
+    plot_section,
+    plot_tornado,
+    plot_variance_reduction,
+)
+from .html import CAUTION, figure_png_bytes, figure_svg_text, render_report, save_figure, write_report
+from .risk import annual_probability, plot_risk_chart, risk_points
+from .style import CYCLE, PALETTE, report_style
+from .tables import format_value, summary_table, table_to_html, write_csv
+
+__all__ = [
+    "CAUTION",
+    "CYCLE",
+    "PALETTE",
+    "annual_probability",
+    "figure_png_bytes",
+    "figure_svg_text",
+    "fit_fs_distributions",
+    "format_value",
+    "plot_failure_map",
+    "plot_field_realisation",
+    "plot_fs_distribution",
+    "plot_pf_convergence",
+    "plot_pf_vs_theta",
+    "plot_risk_chart",
+    "plot_section",
+    "plot_tornado",
+    "plot_variance_reduction",
+    "render_report",
+    "report_style",
+    "risk_points",
+    "save_figure",
+    "summary_table",
+    "table_to_html",
+    "write_csv",
+    "write_report",
+]

@@ -1,0 +1,238 @@
+"""Risk chart: annual probability of failure against consequence.
+
+The annual probability of failure of a scenario is either given directly or
+obtained as
+
+    P_annual = pf × P(loading in a year),
+
+where pf is the conditional probability of failure given the loading (from
+the reliability analysis or the simulator) and P(loading in a year) is the
+user's annual exceedance probability of that loading (e.g. a flood level).
+This product assumes the failure is governed by that one loading event and at
+most one such event counts per year — a common simplification; the user owns
+the choice.
+
+Tolerability criteria
+---------------------
+**None are built in.** Limits on societal or individual risk differ between
+countries, owners and industries, so the user supplies every line with the
+source it comes from; the chart names each source in its footnote. A line
+without a source is refused.
+
+Input shapes
+------------
+scenario dict
+    ``{"label": str, "consequence": float > 0,
+    "pf": float in [0, 1], "annual_exceedance": float in (0, 1]}`` or
+    ``{"label", "consequence", "annual_probability": float in [0, 1]}``;
+    optionally ``"pf_interval": (lo, hi)`` (the pf's confidence bounds,
+    scaled by the same annual exceedance) or ``"annual_interval": (lo, hi)``.
+tolerability line dict
+    ``{"label": str, "source": str, "consequence": [..] > 0,
+    "annual_probability": [..] in (0, 1]}``: a polyline on the chart (e.g.
+    the end points of a straight line on log–log axes).
+"""
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+
+from ..errors import InputError
+from .style import CYCLE, new_figure, report_style
+
+__all__ = ["annual_probability", "risk_points", "plot_risk_chart"]
+
+_LINE_STYLES = ("--", "-.", ":", (0, (5, 1, 1, 1)))
+
+
+def annual_probability(pf, annual_exceedance):
+    """Annual probability of failure, pf × annual exceedance probability of the loading.
+
+    Parameters
+    ----------
+    pf : float or array_like
+        Probability of failure given the loading, in [0, 1].
+    annual_exceedance : float or array_like
+        Annual exceedance probability of the loading, in (0, 1] (1/return
+        period in years, for rare events).
+
+    Returns
+    -------
+    float or ndarray
+        Annual probability of failure (per year).
+    """
+    p = np.asarray(pf, dtype=float)
+    a = np.asarray(annual_exceedance, dtype=float)
+    if np.any(~np.isfinite(p)) or np.any(p < 0) or np.any(p > 1):
+        raise InputError("pf: a probability of failure must lie in [0, 1].")
+    if np.any(~np.isfinite(a)) or np.any(a <= 0) or np.any(a > 1):
+        raise InputError(
+            "annual_exceedance: the annual exceedance probability of the loading must lie in (0, 1]; "
+            "for a return period of R years use 1/R."
+        )
+    out = p * a
+    return float(out) if out.ndim == 0 else out
+
+
+def _prob_pair(pair, name):
+    try:
+        lo, hi = (float(v) for v in pair)
+    except (TypeError, ValueError):
+        raise InputError(f"{name}: expected two numbers (lower, upper).") from None
+    if not (0 <= lo <= hi <= 1):
+        raise InputError(f"{name}: bounds must satisfy 0 <= lower <= upper <= 1, got ({lo}, {hi}).")
+    return lo, hi
+
+
+def risk_points(scenarios: Sequence[Mapping]) -> list[dict]:
+    """Normalise scenarios to ``{label, consequence, annual_probability, annual_interval, pf, annual_exceedance}``.
+
+    Parameters
+    ----------
+    scenarios : sequence of dict
+        See the module docstring.
+
+    Returns
+    -------
+    list of dict
+        One dict per scenario with ``annual_probability`` (per year) and
+        ``annual_interval`` (``(lo, hi)`` per year or ``None``) filled in,
+        for tables and ``results.json``.
+    """
+    out = []
+    for k, sc in enumerate(scenarios):
+        where = f"risk scenario {k + 1}" + (f" ({sc['label']!r})" if "label" in sc else "")
+        try:
+            cons = float(sc["consequence"])
+        except KeyError:
+            raise InputError(f"{where}: missing 'consequence' (lives or cost, > 0).") from None
+        if not np.isfinite(cons) or cons <= 0:
+            raise InputError(f"{where}: 'consequence' must be a finite number > 0 to sit on a log axis.")
+        direct = "annual_probability" in sc
+        derived = "pf" in sc or "annual_exceedance" in sc
+        if direct == derived:
+            raise InputError(
+                f"{where}: give either 'annual_probability' or both 'pf' and 'annual_exceedance', not "
+                + ("both." if direct else "neither.")
+            )
+        interval = None
+        if direct:
+            p = float(sc["annual_probability"])
+            if not (0 <= p <= 1):
+                raise InputError(f"{where}: 'annual_probability' must lie in [0, 1].")
+            if sc.get("annual_interval") is not None:
+                interval = _prob_pair(sc["annual_interval"], f"{where}: 'annual_interval'")
+            pf = aep = None
+        else:
+            if "pf" not in sc or "annual_exceedance" not in sc:
+                raise InputError(f"{where}: 'pf' needs 'annual_exceedance' of its loading (and vice versa).")
+            pf, aep = float(sc["pf"]), float(sc["annual_exceedance"])
+            try:
+                p = annual_probability(pf, aep)
+            except InputError as exc:
+                raise InputError(f"{where}: {exc}") from None
+            if sc.get("pf_interval") is not None:
+                lo, hi = _prob_pair(sc["pf_interval"], f"{where}: 'pf_interval'")
+                interval = (lo * aep, hi * aep)
+        if interval is not None and not (interval[0] - 1e-15 <= p <= interval[1] + 1e-15):
+            raise InputError(f"{where}: the interval {interval} does not contain the annual probability {p:.3g}.")
+        out.append({"label": str(sc.get("label", f"scenario {k + 1}")), "consequence": cons,
+                    "annual_probability": p, "annual_interval": interval, "pf": pf, "annual_exceedance": aep})
+    return out
+
+
+def _lines(lines: Sequence[Mapping]) -> list[dict]:
+    out = []
+    for k, ln in enumerate(lines):
+        where = f"tolerability line {k + 1}" + (f" ({ln['label']!r})" if "label" in ln else "")
+        src = ln.get("source")
+        if not isinstance(src, str) or not src.strip():
+            raise InputError(f"{where}: 'source' is required — cite the publication or standard the line comes "
+                             "from; slipfield builds in no tolerability criteria.")
+        if "consequence" not in ln or "annual_probability" not in ln:
+            raise InputError(f"{where}: give 'consequence' and 'annual_probability' lists of the line's points.")
+        c = np.asarray(ln["consequence"], dtype=float).ravel()
+        p = np.asarray(ln["annual_probability"], dtype=float).ravel()
+        if c.size < 2 or c.size != p.size:
+            raise InputError(f"{where}: need at least 2 points and as many consequences as probabilities.")
+        if np.any(~np.isfinite(c)) or np.any(c <= 0) or np.any(~np.isfinite(p)) or np.any(p <= 0) or np.any(p > 1):
+            raise InputError(f"{where}: consequences must be > 0 and probabilities in (0, 1] for log axes.")
+        out.append({"label": str(ln.get("label", f"line {k + 1}")), "source": src.strip(), "consequence": c,
+                    "annual_probability": p})
+    return out
+
+
+def plot_risk_chart(
+    scenarios: Sequence[Mapping],
+    lines: Sequence[Mapping] = (),
+    *,
+    consequence_label: str = "potential loss of life (lives)",
+    ax=None,
+    title: str | None = None,
+):
+    """Risk chart on log–log axes: annual probability of failure against consequence.
+
+    Parameters
+    ----------
+    scenarios : sequence of dict
+        Points to show (see the module docstring). A scenario whose annual
+        probability is 0 (no failures observed) cannot sit on a log axis: it
+        is drawn at the upper end of its interval as a downward triangle
+        ("below this"), or, without an interval, listed in the footnote as
+        not drawable. Nothing is dropped silently.
+    lines : sequence of dict
+        User-supplied tolerability lines, each with its ``source``; numbered
+        in the legend and cited in the footnote.
+    consequence_label : str
+        x-axis label, with its unit (lives, or a currency).
+    ax : Axes, optional
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    pts = risk_points(scenarios)
+    if not pts:
+        raise InputError("scenarios: give at least one scenario (consequence and annual probability) to chart.")
+    lns = _lines(lines)
+    notes = []
+    with report_style():
+        fig, ax = _axes(ax)
+        for k, ln in enumerate(lns):
+            ax.plot(ln["consequence"], ln["annual_probability"], color="#555555",
+                    linestyle=_LINE_STYLES[k % len(_LINE_STYLES)], linewidth=1.2,
+                    label=f"[{k + 1}] {ln['label']}", gid=f"tolerability-{k}")
+            notes.append(f"[{k + 1}] {ln['label']}: {ln['source']}")
+        for k, pt in enumerate(pts):
+            colour = CYCLE[k % len(CYCLE)]
+            p, iv = pt["annual_probability"], pt["annual_interval"]
+            if p > 0:
+                yerr = None if iv is None or iv[0] <= 0 else [[p - iv[0]], [iv[1] - p]]
+                eb = ax.errorbar([pt["consequence"]], [p], yerr=yerr, color=colour, marker="o", markersize=7,
+                                 capsize=3, linestyle="none", label=f"{pt['label']}: {p:.2g} /yr")
+                eb.lines[0].set_gid(f"scenario-{k}")
+            elif iv is not None and iv[1] > 0:
+                ax.plot([pt["consequence"]], [iv[1]], color=colour, marker="v", markersize=8, linestyle="none",
+                        label=f"{pt['label']}: < {iv[1]:.2g} /yr (no failures)", gid=f"scenario-{k}")
+            else:
+                notes.append(f"{pt['label']}: annual probability 0 without an upper bound, not drawable on log axes.")
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.set_xlabel(consequence_label)
+        ax.set_ylabel("annual probability of failure (per year)")
+        ax.grid(True, which="both", linewidth=0.4)
+        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
+        if not lns:
+            notes.append("No tolerability criteria are built in; supply lines with their sources in the case file.")
+        fig.text(0.01, 0.0, "\n".join(notes), ha="left", va="top", fontsize=7, wrap=True, gid="risk-footnote")
+        if title:
+            ax.set_title(title)
+    return fig
+
+
+def _axes(ax):
+    if ax is None:
+        return new_figure(figsize=(7.0, 4.2))
+    return ax.figure, ax
