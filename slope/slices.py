@@ -85,6 +85,10 @@ class SliceBank:
         Empty string for valid surfaces, else a short reason.
     zone_names : list of str
         Names of the zones referenced by ``zone``.
+    zone_materials : list of str
+        Material name of each zone in ``zone_names`` (added by the geometry
+        side so :func:`slope.strength.base_strength` can map zones to
+        materials).
     """
 
     direction: np.ndarray
@@ -119,6 +123,7 @@ class SliceBank:
     valid: np.ndarray
     reason: np.ndarray
     zone_names: list = field(default_factory=list)
+    zone_materials: list = field(default_factory=list)
 
     @property
     def n_surfaces(self) -> int:

@@ -1,0 +1,333 @@
+"""Build a :class:`~slope.slices.SliceBank` from a section and many surfaces.
+
+Each surface is cut into ``n_slices`` slices of equal width between its
+upslope and downslope ends. A slice's base is the chord of the surface
+between the slice sides; its top is the ground line itself. Slice weights are
+integrated exactly in the vertical (zone polygons, moist above / saturated
+below the phreatic surface, see :meth:`Section.column_lengths`) and by
+``n_quad``-point Gauss–Legendre quadrature across the width, which is exact
+unless a ground, zone or water vertex falls inside a slice (the error then
+falls as the slice width squared).
+
+Circles are vectorised; polylines go through the same array code with their
+elevations interpolated one surface at a time. Rejected surfaces stay in the
+bank with ``valid = False``, a ``reason`` and NaN geometry.
+
+Units: m, kN/m, kPa, rad (see :mod:`slope.slices` for the sliding frame).
+"""
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+
+from .errors import InputError
+from .slices import SliceBank
+from .surfaces import Circle, Circles, Polyline, circle_cuts, polyline_cuts
+from .water import GAMMA_W
+
+__all__ = ["build_bank"]
+
+_CRACK_SAMPLES = 256  # points along a surface to locate a tension crack before refining
+
+
+def build_bank(section, surfaces, n_slices: int = 40, n_quad: int = 3) -> SliceBank:
+    """Slice geometry, weights, pore pressures and loads of many surfaces.
+
+    Parameters
+    ----------
+    section : Section
+    surfaces : Circle, Circles, Polyline or a sequence of Circle/Polyline
+        Trial surfaces (section frame).
+    n_slices : int
+        Slices per surface (same for all).
+    n_quad : int
+        Gauss points per slice width for weights and top loads.
+
+    Returns
+    -------
+    SliceBank
+        One row per surface, in the order given; rejected surfaces flagged
+        (``valid``, ``reason``) and filled with NaN.
+    """
+    n_slices = int(n_slices)
+    if n_slices < 2:
+        raise InputError(f"n_slices must be >= 2, got {n_slices}")
+    if not 1 <= int(n_quad) <= 10:
+        raise InputError(f"n_quad must be between 1 and 10, got {n_quad}")
+    if isinstance(surfaces, (Circle, Polyline)):
+        surfaces = [surfaces]
+    if isinstance(surfaces, Circles):
+        circ = surfaces
+        x1, x2, reason = circle_cuts(section, circ.xc, circ.yc, circ.radius)
+        kind = "circle"
+        data = (circ.xc, circ.yc, circ.radius)
+    else:
+        surfaces = list(surfaces)
+        if not surfaces:
+            raise InputError("surfaces: empty; give at least one Circle or Polyline")
+        if all(isinstance(s, Circle) for s in surfaces):
+            return build_bank(section, Circles.of(surfaces), n_slices, n_quad)
+        for s in surfaces:
+            if not isinstance(s, (Circle, Polyline)):
+                raise InputError(f"surfaces: expected Circle or Polyline, got {type(s).__name__}")
+        cut = []
+        for s in surfaces:
+            if isinstance(s, Circle):
+                a, b, r = circle_cuts(section, [s.xc], [s.yc], [s.radius])
+                cut.append((a[0], b[0], r[0]))
+            else:
+                cut.append(polyline_cuts(section, s))
+        x1 = np.array([c[0] for c in cut], float)
+        x2 = np.array([c[1] for c in cut], float)
+        reason = np.array([c[2] for c in cut], dtype=object)
+        kind = "mixed"
+        data = surfaces
+    return _assemble(section, x1, x2, reason, kind, data, n_slices, int(n_quad))
+
+
+def _surface_y(kind, data, rows, x):
+    """Surface elevation at section-frame abscissae x (len(rows), P)."""
+    if kind == "circle":
+        xc, yc, r = (a[rows, None] for a in data)
+        return yc - np.sqrt(np.maximum(r * r - (x - xc) ** 2, 0.0))
+    out = np.empty_like(x)
+    for k, i in enumerate(rows):
+        s = data[i]
+        if isinstance(s, Circle):
+            out[k] = s.yc - np.sqrt(np.maximum(s.radius ** 2 - (x[k] - s.xc) ** 2, 0.0))
+        else:
+            out[k] = s.y(x[k])
+    return out
+
+
+def _circle_params(kind, data, m):
+    nan = np.full(m, np.nan)
+    if kind == "circle":
+        return data[0].copy(), data[1].copy(), data[2].copy()
+    xc, yc, r = nan.copy(), nan.copy(), nan.copy()
+    for i, s in enumerate(data):
+        if isinstance(s, Circle):
+            xc[i], yc[i], r[i] = s.xc, s.yc, s.radius
+    return xc, yc, r
+
+
+def _assemble(section, x1, x2, reason, kind, data, n, nq) -> SliceBank:
+    m = len(x1)
+    reason = np.asarray(reason, dtype=object).copy()
+    water = section.water
+    loads = section.loads
+    gw = water.gamma_w if water is not None else GAMMA_W
+    ok = np.array([r == "" for r in reason])
+    rows = np.nonzero(ok)[0]
+    xc, yc, rad = _circle_params(kind, data, m)
+
+    # sense of motion: from the higher cut to the lower; ties by the circle centre
+    yg1, yg2 = section.ground_y(np.nan_to_num(x1)), section.ground_y(np.nan_to_num(x2))
+    dirn = np.where(yg1 > yg2, 1, -1)
+    tie = np.isclose(yg1, yg2, rtol=0, atol=1e-9)
+    dirn = np.where(tie & np.isfinite(xc), np.where(xc >= 0.5 * (x1 + x2), 1, -1), dirn)
+    dirn = np.where(tie & ~np.isfinite(xc), 1, dirn).astype(int)
+
+    # sliding-frame ends: xa upslope, xb downslope
+    xa = np.where(dirn > 0, x1, -x2)
+    xb = np.where(dirn > 0, x2, -x1)
+
+    crack_force = np.zeros(m)
+    crack_y = np.full(m, np.nan)
+    crack = getattr(loads, "crack", None) if loads is not None else None
+    if crack is not None and len(rows):
+        t = np.linspace(0.0, 1.0, _CRACK_SAMPLES)
+        xs_ = xa[rows, None] + (xb - xa)[rows, None] * t
+        dep = section.ground_y(dirn[rows, None] * xs_) - _surface_y(kind, data, rows, dirn[rows, None] * xs_)
+        deep = dep >= crack.depth
+        has = deep.any(axis=1)
+        k = np.argmax(deep, axis=1)
+        km = np.maximum(k - 1, 0)
+        ar = np.arange(len(rows))
+        d0, d1 = dep[ar, km], dep[ar, k]
+        frac = np.where(d1 > d0, (crack.depth - d0) / np.where(d1 > d0, d1 - d0, 1.0), 0.0)
+        xcrack = xs_[ar, km] + frac * (xs_[ar, k] - xs_[ar, km])
+        # refine the crack position with a few secant steps on depth(x) = zc
+        for _ in range(3):
+            xsec = dirn[rows] * xcrack
+            f = section.ground_y(xsec) - _surface_y(kind, data, rows, xsec[:, None])[:, 0] - crack.depth
+            h = 1e-6 * np.maximum(1.0, np.abs(xb - xa)[rows])
+            xsec2 = dirn[rows] * (xcrack + h)
+            f2 = section.ground_y(xsec2) - _surface_y(kind, data, rows, xsec2[:, None])[:, 0] - crack.depth
+            step = np.where(np.abs(f2 - f) > 0, f * h / (f2 - f), 0.0)
+            xcrack = np.clip(xcrack - np.clip(step, -h * 1e4, h * 1e4), xa[rows], xb[rows])
+        bad = rows[~has]
+        reason[bad] = "never deeper than the tension crack"
+        xa[rows[has]] = xcrack[has]
+        ok = np.array([r == "" for r in reason])
+        rows = np.nonzero(ok)[0]
+
+    shape = (m, n)
+    out = {k: np.full(shape, np.nan) for k in (
+        "x_left", "x_right", "width", "x_mid", "y_base_left", "y_base_right", "y_base", "y_top_left",
+        "y_top_right", "y_top", "alpha", "base_length", "weight", "y_centroid", "u_base", "sigma_v_eff",
+        "depth", "q_v", "q_h", "x_q", "y_q")}
+    zone = np.full(shape, -1, dtype=int)
+
+    if len(rows):
+        d = dirn[rows, None]
+        A, B = xa[rows, None], xb[rows, None]
+        b = (B - A) / n
+        sides = A + b * np.arange(n + 1)  # sliding frame
+        sides[:, -1] = B[:, 0]
+        ys = _surface_y(kind, data, rows, d * sides)
+        yt = section.ground_y(d * sides)
+        # the downslope end lies on the ground; the upslope end too unless cracked
+        ys[:, -1] = yt[:, -1]
+        if crack is None:
+            ys[:, 0] = yt[:, 0]
+        xl, xr = sides[:, :-1], sides[:, 1:]
+        ybl, ybr = ys[:, :-1], ys[:, 1:]
+        width = xr - xl
+        xm = 0.5 * (xl + xr)
+        ybase = 0.5 * (ybl + ybr)
+        alpha = np.arctan2(ybl - ybr, width)
+
+        # Gauss–Legendre across each slice
+        tq, wq = np.polynomial.legendre.leggauss(nq)
+        tq, wq = 0.5 * (tq + 1.0), 0.5 * wq
+        xq = xl[..., None] + width[..., None] * tq  # (r, n, q) sliding frame
+        xq_sec = d[..., None] * xq
+        yb_q = ybl[..., None] + (ybr - ybl)[..., None] * tq
+        yt_q = section.ground_y(xq_sec)
+        W_q, M_q = _column_weight(section, xq_sec, yb_q, yt_q, moment=True)
+        weight = width * np.sum(wq * W_q, axis=-1)
+        wsum = np.sum(wq * W_q, axis=-1)
+        ycen = np.where(wsum > 0, np.sum(wq * M_q, axis=-1) / np.where(wsum > 0, wsum, 1.0), ybase)
+
+        # ponded water and strip loads on the slice tops
+        qv = np.zeros_like(width)
+        qh = np.zeros_like(width)
+        mx = np.zeros_like(width)  # Σ x' · vertical force, for the point of application
+        if water is not None and water.phreatic is not None:
+            fv, fh, fx = _ponded_top(section, water, np.minimum(d * xl, d * xr), np.maximum(d * xl, d * xr))
+            qv += fv
+            qh += d * fh  # toward +x' in the sliding frame
+            mx += d * fx
+        if loads is not None:
+            for s in loads.strips:
+                f, xc_sec = s.force_on(d * xl, d * xr)
+                qv += f
+                mx += f * d * xc_sec
+        xq_app = np.where(qv > 0, mx / np.where(qv > 0, qv, 1.0), xm)
+        yq_app = section.ground_y(d * xq_app)
+
+        # base midpoint: zone, stresses, pore pressure
+        xm_sec = d * xm
+        ytop = section.ground_y(xm_sec)
+        depth = ytop - ybase
+        eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
+        zone_r = section.zone_at(xm_sec.ravel(), (ybase + eps).ravel()).reshape(xm.shape)
+        sig_soil = _column_weight(section, xm_sec, ybase, ytop)
+        sig_tot = sig_soil.copy()
+        if loads is not None:
+            sig_tot += loads.surcharge(xm_sec)
+        if water is not None:
+            if water.phreatic is not None:
+                sig_tot += gw * np.maximum(water.phreatic_y(xm_sec) - ytop, 0.0)
+            u = water.pore_pressure(xm_sec, ybase, zone_r, section.zone_names, sig_soil)
+        else:
+            u = np.zeros_like(ybase)
+
+        if crack is not None and crack.water_filled:
+            h = crack.fill * (yt[:, 0] - ys[:, 0])
+            crack_force[rows] = 0.5 * gw * h * h
+            crack_y[rows] = ys[:, 0] + h / 3.0
+
+        vals = dict(x_left=xl, x_right=xr, width=width, x_mid=xm, y_base_left=ybl, y_base_right=ybr,
+                    y_base=ybase, y_top_left=yt[:, :-1], y_top_right=yt[:, 1:], y_top=ytop, alpha=alpha,
+                    base_length=width / np.cos(alpha), weight=weight, y_centroid=ycen, u_base=u,
+                    sigma_v_eff=sig_tot - u, depth=depth, q_v=qv, q_h=qh, x_q=xq_app, y_q=yq_app)
+        for k, v in vals.items():
+            out[k][rows] = v
+        zone[rows] = zone_r
+
+        # rejections found only once the slices exist
+        below = np.min(np.minimum(ybl, ybr), axis=1) < section.base_y - 1e-9
+        if kind == "circle" or np.isfinite(xc[rows]).any():
+            lo = np.where(np.isfinite(xc[rows]) & (d[:, 0] * xc[rows] > A[:, 0]) & (d[:, 0] * xc[rows] < B[:, 0]),
+                          yc[rows] - rad[rows], np.inf)
+            below |= lo < section.base_y - 1e-9
+        outside = np.any(zone_r < 0, axis=1)
+        reason[rows[outside]] = "a slice base lies outside every zone"
+        reason[rows[below]] = f"passes below the section base (y = {section.base_y:g} m)"
+
+    valid = np.array([r == "" for r in reason])
+    for k in out:
+        out[k][~valid] = np.nan
+    zone[~valid] = -1
+    crack_force[~valid] = np.nan
+    kh = float(loads.kh) if loads is not None else 0.0
+    return SliceBank(
+        direction=dirn, **out, zone=zone, kh=kh, crack_force=crack_force, crack_y=crack_y,
+        centre_x=dirn * xc, centre_y=yc, radius=rad, valid=valid, reason=reason,
+        zone_names=section.zone_names, zone_materials=section.zone_materials,
+    )
+
+
+def _column_weight(section, x, lo, hi, moment=False):
+    """Soil weight per unit width (kPa) of the column [lo, hi] at x; optionally ∫γ y dy."""
+    shp = np.shape(x)
+    x, lo, hi = (np.broadcast_to(a, shp).ravel() for a in (x, lo, hi))
+    mats = [section.materials[z.material] for z in section.zones]
+    g_m = np.array([mt.unit_weight for mt in mats])
+    g_s = np.array([mt.unit_weight_sat for mt in mats])
+    water = section.water
+    if water is not None and water.phreatic is not None:
+        yw = water.phreatic_y(x)
+        split = np.clip(yw, lo, np.maximum(hi, lo))
+        r1 = section.column_lengths(x, split, hi, moment)  # moist, above the water
+        r2 = section.column_lengths(x, lo, split, moment)  # saturated
+    else:
+        r1 = section.column_lengths(x, lo, hi, moment)
+        r2 = None
+    if moment:
+        w = r1[0] @ g_m + (r2[0] @ g_s if r2 is not None else 0.0)
+        mo = r1[1] @ g_m + (r2[1] @ g_s if r2 is not None else 0.0)
+        return w.reshape(shp), mo.reshape(shp)
+    w = r1 @ g_m + (r2 @ g_s if r2 is not None else 0.0)
+    return w.reshape(shp)
+
+
+def _ponded_top(section, water, lo, hi):
+    """Ponded water on slice tops [lo, hi] (section frame), integrated exactly.
+
+    Between consecutive vertices of the ground and of the phreatic surface
+    both lines are straight, so the pressure γw (y_w − y_g)⁺ is linear there
+    (clipped where the water meets the ground) and the integrals are closed
+    forms.
+
+    Returns
+    -------
+    fv : vertical force (kN/m, downward), fh : horizontal force toward +x
+    (kN/m), fx : ∫ p x dx (kN), all in the section frame.
+    """
+    gw = water.gamma_w
+    X = np.union1d(section.ground[:, 0], water.phreatic[:, 0])
+    X = X[(X > section.x_min) & (X < section.x_max)]
+    X = np.concatenate([[section.x_min - 1e9], X, [section.x_max + 1e9]])
+    a = np.maximum(lo[..., None], X[:-1])
+    b = np.minimum(hi[..., None], X[1:])
+    live = b > a
+    b = np.where(live, b, a)
+    pa = gw * (water.phreatic_y(a) - section.ground_y(a))
+    pb = gw * (water.phreatic_y(b) - section.ground_y(b))
+    sl = section.ground_slope(0.5 * (a + b))
+    # keep the wet part of each piece
+    cross = (pa > 0) != (pb > 0)
+    xc = np.where(cross, a + (b - a) * pa / np.where(cross, pa - pb, 1.0), b)
+    a2 = np.where(cross & (pa <= 0), xc, a)
+    b2 = np.where(cross & (pb <= 0), xc, b)
+    pa2 = np.where(cross & (pa <= 0), 0.0, pa)
+    pb2 = np.where(cross & (pb <= 0), 0.0, pb)
+    wet = live & ((pa > 0) | (pb > 0))
+    L = np.where(wet, b2 - a2, 0.0)
+    f = L * 0.5 * (pa2 + pb2)
+    fx = L / 6.0 * (pa2 * (2 * a2 + b2) + pb2 * (a2 + 2 * b2))
+    return f.sum(-1), (f * sl).sum(-1), fx.sum(-1)
