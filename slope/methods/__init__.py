@@ -1,0 +1,161 @@
+"""Methods of slices, vectorised over strength samples and trial surfaces.
+
+>>> res = factor_of_safety(bank, c, tan_phi, method="bishop")
+>>> res.fs.shape                     # (n_samples, n_surfaces)
+>>> res.summary()                    # counts of non-converged / inadmissible
+
+``c`` (kPa) and ``tan_phi`` (-) are the strength at the slice bases,
+broadcastable to ``(n_samples, n_surfaces, n_slices)``; undrained analyses
+pass ``c = su, tan_phi = 0``. Geometry-only terms are computed once per bank
+by :func:`prepare_bank`; pass its result instead of the bank to reuse them
+over many calls.
+
+Methods: ``ordinary`` (Fellenius), ``bishop`` (simplified), ``janbu``
+(simplified, with f0), ``spencer``, ``morgenstern-price`` (GLE; interslice
+functions ``constant``, ``half-sine``, ``clipped-sine``, ``tabulated``).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from slope.errors import InputError
+from slope.slices import SliceBank
+
+from .bishop import bishop
+from .gle import morgenstern_price
+from .interslice import INTERSLICE_NAMES, interslice_function
+from .janbu import janbu
+from .ordinary import ordinary
+from .result import FLAG_NAMES, INVALID_SURFACE, FSResult
+from .spencer import spencer
+from .terms import BankTerms, default_moment_point, prepare_bank
+
+__all__ = ["factor_of_safety", "prepare_bank", "FSResult", "BankTerms", "METHODS",
+           "INTERSLICE_NAMES", "FLAG_NAMES", "interslice_function",
+           "default_moment_point"]
+
+METHODS = ("ordinary", "bishop", "janbu", "spencer", "morgenstern-price")
+_ALIASES = {"fellenius": "ordinary", "ordinary": "ordinary", "bishop": "bishop",
+            "janbu": "janbu", "spencer": "spencer", "morgenstern-price": "morgenstern-price",
+            "m-p": "morgenstern-price", "mp": "morgenstern-price", "gle": "morgenstern-price",
+            "morgenstern_price": "morgenstern-price"}
+
+
+def _strength(name, value, m, n):
+    arr = np.asarray(value, dtype=float)
+    if arr.ndim > 3:
+        raise InputError(f"{name}: {arr.ndim}-D array; give an array broadcastable to "
+                         f"(n_samples, n_surfaces={m}, n_slices={n})")
+    arr3 = arr.reshape((1,) * (3 - arr.ndim) + arr.shape)
+    try:
+        out = np.broadcast_to(arr3, (arr3.shape[0], m, n))
+    except ValueError:
+        raise InputError(f"{name}: shape {arr.shape} does not broadcast to "
+                         f"(n_samples, n_surfaces={m}, n_slices={n}); give one value per "
+                         "slice base, per surface or a scalar") from None
+    if not np.all(np.isfinite(arr)):
+        raise InputError(f"{name}: contains NaN or infinite values; every slice base needs a "
+                         "finite strength")
+    if np.any(arr < 0):
+        raise InputError(f"{name}: negative values (min {arr.min():g}); strengths must be >= 0")
+    return out
+
+
+def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant",
+                     tol=1e-6, max_iter=50, moment_point=None, return_forces=False,
+                     **opts) -> FSResult:
+    """Factor of safety of every surface of a bank for every strength sample.
+
+    Parameters
+    ----------
+    bank : SliceBank or BankTerms
+        Slices of ``m`` surfaces with ``n`` slices each (``prepare_bank``
+        output reuses the geometry-only terms across calls).
+    c : array_like, broadcastable to (s, m, n), kPa
+        Cohesion (effective c', or su for undrained analyses) at slice bases.
+    tan_phi : array_like, broadcastable to (s, m, n), -
+        tan of the friction angle (0 for undrained analyses).
+    method : str
+        ``ordinary`` (alias ``fellenius``), ``bishop``, ``janbu``,
+        ``spencer``, ``morgenstern-price`` (aliases ``gle``, ``m-p``).
+    interslice : str
+        Morgenstern-Price interslice function: ``constant``, ``half-sine``,
+        ``clipped-sine`` (with ``f_ends=(f_left, f_right)``) or ``tabulated``
+        (with ``interslice_table=(xi, f)``, xi from 0 to 1 along the surface).
+    tol : float
+        Relative tolerance on F (and on lam) that ends the iteration.
+    max_iter : int
+        Iterations before a result is reported as not converged.
+    moment_point : (xo, yo), optional
+        Moment centre in the sliding frame (m), numbers or arrays of one value
+        per surface; only used when ``bank`` is a SliceBank. Default: circle
+        centre, else a point above the surface.
+    return_forces : bool
+        Also return effective base normal forces and, for Spencer and
+        Morgenstern-Price, interslice forces and line of thrust.
+    **opts
+        ``m_alpha_min`` (Bishop, Janbu; default 0.2), ``correction`` (Janbu
+        f0, default True), ``F_start`` and ``lam_start`` (Spencer, M-P),
+        ``f_ends``, ``interslice_table``.
+
+    Returns
+    -------
+    FSResult
+        ``fs`` (s, m) with ``converged``, ``flags`` / ``admissible``,
+        ``iterations``, ``lam`` (Spencer, M-P), ``f0`` (Janbu).
+    """
+    key = _ALIASES.get(str(method).lower())
+    if key is None:
+        raise InputError(f"method: unknown method {method!r}; choose one of "
+                         + ", ".join(METHODS))
+    if isinstance(bank, BankTerms):
+        terms = bank
+    elif isinstance(bank, SliceBank):
+        terms = prepare_bank(bank, moment_point)
+    else:
+        raise InputError(f"bank: expected a SliceBank or the output of prepare_bank, got "
+                         f"{type(bank).__name__}")
+    m, n = terms.n_surfaces, terms.n_slices
+    if not (np.isfinite(tol) and 0 < tol < 0.1):
+        raise InputError(f"tol: {tol!r}; give a relative tolerance between 0 and 0.1, e.g. 1e-6")
+    if int(max_iter) < 1:
+        raise InputError(f"max_iter: {max_iter!r}; give at least 1 iteration")
+    cc = _strength("c", c, m, n)
+    tp = _strength("tan_phi", tan_phi, m, n)
+    s = max(cc.shape[0], tp.shape[0])
+    cc = np.broadcast_to(cc, (s, m, n))
+    tp = np.broadcast_to(tp, (s, m, n))
+
+    allowed = {"ordinary": set(), "bishop": {"m_alpha_min"},
+               "janbu": {"m_alpha_min", "correction"},
+               "spencer": {"F_start", "lam_start"},
+               "morgenstern-price": {"F_start", "lam_start", "f_ends", "interslice_table"}}[key]
+    unknown = set(opts) - allowed
+    if unknown:
+        raise InputError(f"{', '.join(sorted(unknown))}: not an option of method {key!r}; "
+                         f"its options are {', '.join(sorted(allowed)) or 'none'}")
+    common = {"return_forces": return_forces}
+    if key == "ordinary":
+        out = ordinary(terms, cc, tp, **common)
+    elif key == "bishop":
+        out = bishop(terms, cc, tp, tol=tol, max_iter=max_iter, **common, **opts)
+    elif key == "janbu":
+        out = janbu(terms, cc, tp, tol=tol, max_iter=max_iter, **common, **opts)
+    elif key == "spencer":
+        out = spencer(terms, cc, tp, tol=tol, max_iter=max_iter, **common, **opts)
+    else:
+        f = interslice_function(terms.x_bound, interslice,
+                                f_ends=opts.pop("f_ends", (0.5, 0.5)),
+                                table=opts.pop("interslice_table", None))
+        out = morgenstern_price(terms, cc, tp, f, tol=tol, max_iter=max_iter, **common, **opts)
+
+    flags = out["flags"] | np.where(terms.valid, 0, INVALID_SURFACE)[None, :]
+    fs = np.where(terms.valid[None, :], out["fs"], np.nan)
+    conv = out["converged"] & terms.valid[None, :]
+    options = {"tol": tol, "max_iter": max_iter}
+    if key == "morgenstern-price":
+        options["interslice"] = interslice
+    return FSResult(method=key, fs=fs, converged=conv, flags=flags,
+                    iterations=out["iterations"], lam=out.get("lam"), f0=out.get("f0"),
+                    normal_eff=out.get("normal_eff"), E=out.get("E"), X=out.get("X"),
+                    thrust_y=out.get("thrust_y"), options=options)
