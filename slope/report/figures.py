@@ -32,7 +32,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 from matplotlib.patches import Polygon
-from matplotlib.ticker import NullLocator
+from matplotlib.ticker import FuncFormatter, NullFormatter, NullLocator
 from scipy import stats
 
 from ..errors import InputError
@@ -385,7 +385,7 @@ def plot_fs_distribution(
             text += f"\nconfidence interval [{lo_pf:.3g}, {hi_pf:.3g}]"
         text += f"\nn = {fs.size}"
         if n_excluded:
-            text += f"; {int(n_excluded)} not converged/inadmissible, excluded"
+            text += f"\n{int(n_excluded)} not converged/inadmissible, excluded"
         # The lower right of a CDF plot is empty (the curve is high there), above the pf leader.
         ax_c.text(0.98, min(pf + 0.06, 0.6), text, transform=ax_c.transAxes, ha="right", va="bottom", fontsize=8,
                   gid="pf-note")
@@ -438,6 +438,9 @@ def plot_pf_convergence(n, pf, lo, hi, *, level: float = 0.95, ax=None, title: s
                         label=f"{100 * level:g} % confidence band")
         ax.plot(n, pf, color=PALETTE["blue"], label="pf estimate")
         ax.set_xscale("log")
+        # Plain numbers of realisations (100, 1000), not powers of ten with minor labels.
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:,.0f}" if v >= 1 else f"{v:g}"))
+        ax.xaxis.set_minor_formatter(NullFormatter())
         ax.set_xlabel("number of realisations")
         ax.set_ylabel("probability of failure pf")
         ax.set_ylim(bottom=0.0)

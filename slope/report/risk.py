@@ -223,7 +223,8 @@ def plot_risk_chart(
         ax.set_xlabel(consequence_label)
         ax.set_ylabel("annual probability of failure (per year)")
         ax.grid(True, which="both", linewidth=0.4)
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
+        if ax.get_legend_handles_labels()[0]:
+            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
         if not lns:
             notes.append("No tolerability criteria are built in; supply lines with their sources in the case file.")
         fig.text(0.01, 0.0, "\n".join(notes), ha="left", va="top", fontsize=7, wrap=True, gid="risk-footnote")

@@ -1,0 +1,94 @@
+"""Risk chart: points at (consequence, pf × annual exceedance) on log–log axes; no built-in criteria."""
+import numpy as np
+import pytest
+
+from slope.errors import InputError
+from slope.report import annual_probability, figure_png_bytes, plot_risk_chart, risk_points
+
+
+def _gid(fig, gid):
+    ax = fig.axes[0]
+    found = [a for a in list(ax.lines) + fig.texts if a.get_gid() == gid]
+    assert found, gid
+    return found[0]
+
+
+def test_annual_probability_is_the_product():
+    # Total probability theorem with one governing loading event per year and
+    # failure impossible without it: P(failure in a year) = P(F | load) × P(load
+    # in a year) — an exact identity under those assumptions.
+    assert annual_probability(0.05, 0.01) == pytest.approx(5e-4, rel=1e-15)
+    np.testing.assert_allclose(annual_probability([0.1, 0.2], 1 / 100), [1e-3, 2e-3], rtol=1e-15)
+    with pytest.raises(InputError, match="annual_exceedance"):
+        annual_probability(0.1, 0.0)
+    with pytest.raises(InputError, match="pf"):
+        annual_probability(1.2, 0.1)
+
+
+def test_point_lies_at_consequence_and_pf_times_exceedance():
+    scen = [
+        {"label": "levee, flood crest", "consequence": 12.0, "pf": 0.037, "annual_exceedance": 1 / 200,
+         "pf_interval": (0.031, 0.044)},
+        {"label": "cut slope", "consequence": 2.5e6, "annual_probability": 3.0e-5},
+    ]
+    lines = [{"label": "owner's limit (invented for this test)", "source": "Test fixture, no publication",
+              "consequence": [1, 1e7], "annual_probability": [1e-2, 1e-9]}]
+    fig = plot_risk_chart(scen, lines, consequence_label="consequence (lives or cost)")
+    ax = fig.axes[0]
+    assert ax.get_xscale() == "log" and ax.get_yscale() == "log"
+    p0 = _gid(fig, "scenario-0")
+    np.testing.assert_allclose(p0.get_xydata(), [[12.0, 0.037 / 200]], rtol=1e-14)
+    np.testing.assert_allclose(_gid(fig, "scenario-1").get_xydata(), [[2.5e6, 3.0e-5]], rtol=1e-14)
+    # The point is inside the visible axes (not clipped by autoscaling on log axes).
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    assert x0 < 12.0 < x1 and y0 < 0.037 / 200 < y1
+    line = _gid(fig, "tolerability-0")
+    np.testing.assert_allclose(line.get_xydata(), [[1, 1e-2], [1e7, 1e-9]])
+    foot = _gid(fig, "risk-footnote").get_text()
+    assert "[1] owner's limit (invented for this test): Test fixture, no publication" in foot
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert legend[0].startswith("[1] ")
+    assert len(figure_png_bytes(fig, dpi=50)) > 5000
+
+
+def test_interval_scaled_by_the_same_exceedance():
+    pts = risk_points([{"label": "a", "consequence": 3, "pf": 0.2, "annual_exceedance": 0.01, "pf_interval": (0.1, 0.3)}])
+    assert pts[0]["annual_interval"] == pytest.approx((1e-3, 3e-3))
+
+
+def test_no_criteria_built_in_and_lines_need_a_source():
+    fig = plot_risk_chart([{"consequence": 5, "annual_probability": 1e-4}])
+    assert not [ln for ln in fig.axes[0].lines if (ln.get_gid() or "").startswith("tolerability")]
+    assert "No tolerability criteria are built in" in _gid(fig, "risk-footnote").get_text()
+    with pytest.raises(InputError, match="source"):
+        plot_risk_chart([{"consequence": 5, "annual_probability": 1e-4}],
+                        [{"label": "x", "consequence": [1, 10], "annual_probability": [1e-3, 1e-4]}])
+    with pytest.raises(InputError, match="source"):
+        plot_risk_chart([{"consequence": 5, "annual_probability": 1e-4}],
+                        [{"label": "x", "source": "  ", "consequence": [1, 10], "annual_probability": [1e-3, 1e-4]}])
+
+
+def test_scenario_needs_exactly_one_way_to_its_probability():
+    with pytest.raises(InputError, match="not both"):
+        risk_points([{"consequence": 1, "annual_probability": 1e-3, "pf": 0.1, "annual_exceedance": 0.01}])
+    with pytest.raises(InputError, match="neither"):
+        risk_points([{"consequence": 1}])
+    with pytest.raises(InputError, match="annual_exceedance"):
+        risk_points([{"consequence": 1, "pf": 0.1}])
+    with pytest.raises(InputError, match="consequence"):
+        risk_points([{"consequence": 0, "annual_probability": 1e-3}])
+
+
+def test_zero_pf_shown_as_upper_bound_or_reported():
+    # No failures in n realisations: the user passes an upper bound (e.g. the
+    # "rule of three" 3/n for 95 %, recalled from Hanley & Lippman-Hand 1983,
+    # JAMA 249(13):1743-1745; here only an example input).
+    n = 1000
+    fig = plot_risk_chart([{"label": "none failed", "consequence": 4, "pf": 0.0, "annual_exceedance": 0.1,
+                            "pf_interval": (0.0, 3 / n)}])
+    mark = _gid(fig, "scenario-0")
+    assert mark.get_marker() == "v"
+    np.testing.assert_allclose(mark.get_xydata(), [[4, 3 / n * 0.1]])
+    fig = plot_risk_chart([{"label": "no bound", "consequence": 4, "annual_probability": 0.0}])
+    assert "no bound: annual probability 0 without an upper bound" in _gid(fig, "risk-footnote").get_text()
