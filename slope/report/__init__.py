@@ -5,17 +5,20 @@ used and tested without the engines; see each module's "Input shapes".
 """
 from .figures import (
     fit_fs_distributions,
+    plot_failure_geometry,
     plot_failure_map,
     plot_field_realisation,
     plot_fs_distribution,
+    plot_fs_vs_theta,
     plot_pf_convergence,
     plot_pf_vs_theta,
+    plot_realisations,
     plot_section,
     plot_tornado,
     plot_variance_reduction,
 )
 from .html import CAUTION, figure_png_bytes, figure_svg_text, render_report, save_figure, write_report
-from .risk import annual_probability, plot_risk_chart, risk_points
+from .risk import annual_probability, plot_risk_chart, risk_points, tolerability_line
 from .style import CYCLE, PALETTE, report_style
 from .tables import format_value, summary_table, table_to_html, write_csv
 
@@ -28,11 +31,14 @@ __all__ = [
     "figure_svg_text",
     "fit_fs_distributions",
     "format_value",
+    "plot_failure_geometry",
     "plot_failure_map",
     "plot_field_realisation",
     "plot_fs_distribution",
+    "plot_fs_vs_theta",
     "plot_pf_convergence",
     "plot_pf_vs_theta",
+    "plot_realisations",
     "plot_risk_chart",
     "plot_section",
     "plot_tornado",
@@ -43,6 +49,7 @@ __all__ = [
     "save_figure",
     "summary_table",
     "table_to_html",
+    "tolerability_line",
     "write_csv",
     "write_report",
 ]

@@ -46,8 +46,11 @@ __all__ = [
     "plot_pf_convergence",
     "plot_tornado",
     "plot_pf_vs_theta",
+    "plot_fs_vs_theta",
     "plot_variance_reduction",
     "plot_failure_map",
+    "plot_failure_geometry",
+    "plot_realisations",
 ]
 
 # Colour of critical surfaces: vermillion stands out against the light zone
@@ -262,6 +265,96 @@ def plot_field_realisation(
         ax.grid(False)
         if title:
             ax.set_title(title)
+    return fig
+
+
+def plot_realisations(
+    grid_x,
+    grid_y,
+    realisations: Sequence[Mapping],
+    label: str = "property",
+    *,
+    units: str = "kPa",
+    ground_xy=None,
+    ncols: int = 2,
+    title: str | None = None,
+):
+    """A handful of realisations, each with its own critical surface, on one colour scale.
+
+    A shared colour scale lets the eye compare realisations: a weak zone
+    looks equally dark in every panel.
+
+    Parameters
+    ----------
+    grid_x, grid_y : 1-D array_like
+        Cell centres or edges, m (as :func:`plot_field_realisation`).
+    realisations : sequence of dict
+        ``{"values": (nx, ny), "surface_xy": (n, 2) (optional), "fs": float
+        (optional), "label": str (optional, e.g. "realisation 17")}``.
+    label, units : str
+        Property name and unit for the shared colour bar.
+    ground_xy : (n, 2) array_like, optional
+        Ground line drawn in each panel.
+    ncols : int
+        Panels per row.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    if not realisations:
+        raise InputError("realisations: give at least one {'values', 'surface_xy', 'fs'} dict.")
+    if int(ncols) < 1:
+        raise InputError("ncols: panels per row must be >= 1.")
+    vals = []
+    for k, r in enumerate(realisations):
+        if "values" not in r:
+            raise InputError(f"realisations[{k}]: missing 'values' (an (nx, ny) array of the property).")
+        v = np.asarray(r["values"], dtype=float)
+        if v.ndim != 2 or (vals and v.shape != vals[0].shape):
+            raise InputError(f"realisations[{k}].values: expected a 2-D array like the others, got shape {v.shape}.")
+        vals.append(v)
+    finite = np.concatenate([v[np.isfinite(v)] for v in vals])
+    if finite.size == 0:
+        raise InputError("realisations: every value is NaN; pass realisations with values inside the soil.")
+    vmin, vmax = float(finite.min()), float(finite.max())
+    xe = _edges(_vector(grid_x, "grid_x"), vals[0].shape[0], "grid_x")
+    ye = _edges(_vector(grid_y, "grid_y"), vals[0].shape[1], "grid_y")
+    g = None if ground_xy is None else _xy(ground_xy, "ground_xy")
+    n = len(vals)
+    ncols = min(int(ncols), n)
+    nrows = -(-n // ncols)
+    with report_style():
+        fig, axs = new_figure(nrows, ncols, figsize=(4.2 * ncols, 2.4 * nrows + 0.8), squeeze=False,
+                              sharex=True, sharey=True)
+        mesh = None
+        for k, ax in enumerate(axs.flat):
+            if k >= n:
+                ax.set_visible(False)
+                continue
+            r = realisations[k]
+            mesh = ax.pcolormesh(xe, ye, np.ma.masked_invalid(vals[k]).T, cmap=FIELD_CMAP, shading="flat",
+                                 vmin=vmin, vmax=vmax, rasterized=True)
+            if g is not None:
+                ax.plot(g[:, 0], g[:, 1], color=PALETTE["black"], linewidth=1.0)
+            head = str(r.get("label", f"realisation {k + 1}"))
+            if r.get("surface_xy") is not None:
+                sxy = _xy(r["surface_xy"], f"realisations[{k}].surface_xy")
+                ax.plot(sxy[:, 0], sxy[:, 1], color=PALETTE["vermillion"], linewidth=1.8, gid=f"surface-{k}")
+            if r.get("fs") is not None:
+                head += f", {_fs_text(float(r['fs']))}"
+            ax.set_title(head, fontsize=8.5)
+            ax.set_aspect("equal", adjustable="box")
+            ax.grid(False)
+        for ax in axs[-1, :]:
+            ax.set_xlabel("x (m)")
+        for ax in axs[:, 0]:
+            ax.set_ylabel("y (m)")
+        cbar = fig.colorbar(mesh, ax=axs, location="bottom", shrink=0.5, aspect=40)
+        cbar.set_label(f"{label} ({units})")
+        if title:
+            fig.suptitle(title)
     return fig
 
 
@@ -501,6 +594,80 @@ def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, ax=N
 
 
 # --------------------------------------------------------------------------- theta sweep
+def _theta_series(theta_values, y, lo, hi, labels, name):
+    """Validate sweep inputs: θ vector, (n_series, n_theta) values and bounds, labels."""
+    theta = _vector(theta_values, "theta_values")
+    if np.any(np.isnan(theta)) or np.any(theta <= 0):
+        raise InputError("theta_values: scales of fluctuation must be > 0 (use inf for a single random variable).")
+    y = np.atleast_2d(np.asarray(y, dtype=float))
+    if y.ndim != 2 or y.shape[1] != theta.size:
+        raise InputError(f"{name}: expected {theta.size} values per series (one per θ), got shape {y.shape}.")
+    if (lo is None) != (hi is None):
+        raise InputError("lo, hi: give both confidence bounds or neither.")
+    if lo is not None:
+        lo = np.broadcast_to(np.atleast_2d(np.asarray(lo, dtype=float)), y.shape)
+        hi = np.broadcast_to(np.atleast_2d(np.asarray(hi, dtype=float)), y.shape)
+        if np.any(lo > y + 1e-12) or np.any(hi < y - 1e-12):
+            raise InputError(f"lo, hi: each interval must contain its value of {name} (lo <= value <= hi).")
+    if labels is None:
+        labels = [None] if y.shape[0] == 1 else [f"series {i + 1}" for i in range(y.shape[0])]
+    labels = list(labels)
+    if len(labels) != y.shape[0]:
+        raise InputError(f"labels: expected {y.shape[0]} labels (one per series), got {len(labels)}.")
+    return theta, y, lo, hi, labels
+
+
+def _draw_theta_sweep(ax, theta, y, lo, hi, labels, *, ylabel, theta_name, log_y, from_zero, gid):
+    """Draw series against θ with θ = ∞ as a separate marker past the right edge."""
+    fin = np.isfinite(theta)
+    if fin.any():
+        tmax, tmin = theta[fin].max(), theta[fin].min()
+        span = np.log10(tmax / tmin) if tmax > tmin else 1.0
+        x_inf = tmax * 10 ** max(0.25 * span, 0.3)
+    else:
+        x_inf = 1.0
+    zero_note = []
+    for s in range(y.shape[0]):
+        colour = CYCLE[s % len(CYCLE)]
+        v = y[s]
+        yerr = None if lo is None else np.vstack([v - lo[s], hi[s] - v])
+        if fin.any():
+            eb = ax.errorbar(theta[fin], v[fin], yerr=None if yerr is None else yerr[:, fin], color=colour,
+                             marker="o", markersize=4, capsize=2, label=labels[s])
+            eb.lines[0].set_gid(f"{gid}-{s}")
+        if (~fin).any():
+            eb = ax.errorbar(np.full((~fin).sum(), x_inf), v[~fin], yerr=None if yerr is None else yerr[:, ~fin],
+                             color=colour, marker="s", markerfacecolor="white", markersize=6, capsize=2,
+                             linestyle="none", label=None if fin.any() else labels[s])
+            eb.lines[0].set_gid(f"{gid}-{s}-inf")
+        if log_y and np.any(v <= 0):
+            zero_note.append(labels[s] or ylabel)
+    if (~fin).any() and fin.any():
+        ax.axvline(np.sqrt(theta[fin].max() * x_inf), color="#999999", linestyle=":", linewidth=0.8)
+    ax.set_xscale("log")
+    if log_y:
+        ax.set_yscale("log")
+    elif from_zero:
+        ax.set_ylim(bottom=0.0)
+    # Ticks at the swept values themselves: a sweep has few, chosen θ.
+    ticks = list(np.unique(theta[fin]))
+    tick_labels = [f"{t:g}" for t in ticks]
+    if (~fin).any():
+        ticks.append(x_inf)
+        tick_labels.append("∞\n(single random\nvariable)")
+    ax.xaxis.set_minor_locator(NullLocator())
+    ax.set_xticks(ticks, tick_labels)
+    lo_x = theta[fin].min() / 1.5 if fin.any() else x_inf / 3
+    ax.set_xlim(lo_x, (x_inf if (~fin).any() else theta[fin].max()) * 1.5)
+    ax.set_xlabel(f"scale of fluctuation {theta_name} (m)")
+    ax.set_ylabel(ylabel)
+    if zero_note:
+        ax.text(0.02, 0.02, "values of 0 not drawn on log axis: " + ", ".join(zero_note), transform=ax.transAxes,
+                fontsize=7, ha="left", va="bottom", gid=f"{gid}-zero-note")
+    if any(lbl for lbl in labels):
+        ax.legend(loc="best")
+
+
 def plot_pf_vs_theta(
     theta_values,
     pf,
@@ -542,72 +709,70 @@ def plot_pf_vs_theta(
     -------
     matplotlib.figure.Figure
     """
-    theta = _vector(theta_values, "theta_values")
-    if np.any(np.isnan(theta)) or np.any(theta <= 0):
-        raise InputError("theta_values: scales of fluctuation must be > 0 (use inf for a single random variable).")
-    pf = np.atleast_2d(np.asarray(pf, dtype=float))
-    if pf.shape[1] != theta.size:
-        raise InputError(f"pf: expected {theta.size} values per series (one per θ), got shape {pf.shape}.")
-    lo = None if lo is None else np.broadcast_to(np.atleast_2d(np.asarray(lo, dtype=float)), pf.shape)
-    hi = None if hi is None else np.broadcast_to(np.atleast_2d(np.asarray(hi, dtype=float)), pf.shape)
-    if (lo is None) != (hi is None):
-        raise InputError("lo, hi: give both confidence bounds or neither.")
-    if labels is None:
-        labels = [None] * pf.shape[0] if pf.shape[0] == 1 else [f"series {i + 1}" for i in range(pf.shape[0])]
-    if len(labels) != pf.shape[0]:
-        raise InputError(f"labels: expected {pf.shape[0]} labels (one per series), got {len(labels)}.")
-    fin = np.isfinite(theta)
-    if fin.any():
-        tmax, tmin = theta[fin].max(), theta[fin].min()
-        span = np.log10(tmax / tmin) if tmax > tmin else 1.0
-        x_inf = tmax * 10 ** max(0.25 * span, 0.3)
-    else:
-        x_inf = 1.0
-    zero_note = []
+    theta, pf, lo, hi, labels = _theta_series(theta_values, pf, lo, hi, labels, "pf")
+    for name, arr in (("pf", pf), ("lo", lo), ("hi", hi)):
+        if arr is not None and (np.any(~np.isfinite(arr)) or np.any(arr < 0) or np.any(arr > 1)):
+            raise InputError(f"{name}: probabilities must be finite and within [0, 1].")
     with report_style():
         fig, ax = _axes(ax)
-        for s in range(pf.shape[0]):
-            colour = CYCLE[s % len(CYCLE)]
-            p = pf[s]
-            yerr = None if lo is None else np.vstack([p - lo[s], hi[s] - p])
-            if fin.any():
-                eb = ax.errorbar(theta[fin], p[fin], yerr=None if yerr is None else yerr[:, fin], color=colour,
-                                 marker="o", markersize=4, capsize=2, label=labels[s])
-                eb.lines[0].set_gid(f"series-{s}")
-            if (~fin).any():
-                eb = ax.errorbar(np.full((~fin).sum(), x_inf), p[~fin], yerr=None if yerr is None else yerr[:, ~fin],
-                                 color=colour, marker="s", markerfacecolor="white", markersize=6, capsize=2,
-                                 linestyle="none", label=None if fin.any() else labels[s])
-                eb.lines[0].set_gid(f"series-{s}-inf")
-            if log_pf and np.any(p <= 0):
-                zero_note.append(labels[s] or "pf")
-        if (~fin).any() and fin.any():
-            sep = np.sqrt(theta[fin].max() * x_inf)
-            ax.axvline(sep, color="#999999", linestyle=":", linewidth=0.8)
-        ax.set_xscale("log")
-        if log_pf:
-            ax.set_yscale("log")
-        else:
-            ax.set_ylim(bottom=0.0)
-        # Ticks at the swept values themselves: a sweep has few, chosen θ.
-        ticks = list(np.unique(theta[fin]))
-        tick_labels = [f"{t:g}" for t in ticks]
-        if (~fin).any():
-            ticks.append(x_inf)
-            tick_labels.append("∞\n(single random\nvariable)")
-        ax.xaxis.set_minor_locator(NullLocator())
-        ax.set_xticks(ticks, tick_labels)
-        lo_x = theta[fin].min() / 1.5 if fin.any() else x_inf / 3
-        ax.set_xlim(lo_x, (x_inf if (~fin).any() else theta[fin].max()) * 1.5)
-        ax.set_xlabel(f"scale of fluctuation {theta_name} (m)")
-        ax.set_ylabel("probability of failure pf")
-        if zero_note:
-            ax.text(0.02, 0.02, "pf = 0 not drawn on log axis: " + ", ".join(zero_note), transform=ax.transAxes,
-                    fontsize=7, ha="left", va="bottom")
-        if any(lbl for lbl in labels):
-            ax.legend(loc="best")
+        _draw_theta_sweep(ax, theta, pf, lo, hi, labels, ylabel="probability of failure pf", theta_name=theta_name,
+                          log_y=log_pf, from_zero=True, gid="series")
         if title:
             ax.set_title(title)
+    return fig
+
+
+def plot_fs_vs_theta(
+    theta_values,
+    mean_fs,
+    std_fs,
+    labels: Sequence[str] | None = None,
+    *,
+    theta_name: str = "θh",
+    axes=None,
+    title: str | None = None,
+):
+    """Mean and standard deviation of FS against the scale of fluctuation (θ sweep).
+
+    Same x axis as :func:`plot_pf_vs_theta` (log θ, θ = ∞ as a separate
+    marker at the right edge).
+
+    Parameters
+    ----------
+    theta_values : 1-D array_like
+        Scales of fluctuation, m (> 0; ``inf`` allowed).
+    mean_fs, std_fs : array_like, shape (n_theta,) or (n_series, n_theta)
+        Sample mean and standard deviation of the (minimum) FS per θ.
+    labels : sequence of str, optional
+        One legend label per series.
+    theta_name : str
+        Name on the x axes.
+    axes : pair of Axes, optional
+        Two axes to draw into; a new 1×2 figure when ``None``.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    theta, mean, _, _, labels = _theta_series(theta_values, mean_fs, None, None, labels, "mean_fs")
+    _, std, _, _, _ = _theta_series(theta_values, std_fs, None, None, labels, "std_fs")
+    if std.shape != mean.shape:
+        raise InputError(f"std_fs: shape {std.shape} differs from mean_fs {mean.shape}; give one σ per mean.")
+    if np.any(~np.isfinite(mean)) or np.any(~np.isfinite(std)) or np.any(std < 0):
+        raise InputError("mean_fs, std_fs: must be finite, with std_fs >= 0.")
+    with report_style():
+        if axes is None:
+            fig, (ax_m, ax_s) = new_figure(1, 2, figsize=(8.4, 3.4))
+        else:
+            ax_m, ax_s = axes
+            fig = ax_m.figure
+        _draw_theta_sweep(ax_m, theta, mean, None, None, labels, ylabel="mean FS", theta_name=theta_name,
+                          log_y=False, from_zero=False, gid="mean")
+        _draw_theta_sweep(ax_s, theta, std, None, None, labels, ylabel="standard deviation of FS",
+                          theta_name=theta_name, log_y=False, from_zero=True, gid="std")
+        if title:
+            fig.suptitle(title)
     return fig
 
 
@@ -657,6 +822,50 @@ def plot_variance_reduction(T_over_theta, gamma_by_model: Mapping[str, object], 
         ax.legend(loc="lower left")
         if title:
             ax.set_title(title)
+    return fig
+
+
+def plot_failure_geometry(area, depth, *, bins: int | str = "auto", axes=None, title: str | None = None):
+    """Distributions of the sliding-mass area and of the surface depth over failed realisations.
+
+    Parameters
+    ----------
+    area : 1-D array_like
+        Cross-sectional area of each failed sliding mass, m² (per metre run).
+    depth : 1-D array_like
+        Maximum depth of each failed surface below the ground, m.
+    bins : int or str
+        Passed to :func:`numpy.histogram_bin_edges`.
+    axes : pair of Axes, optional
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    area = _vector(area, "area")
+    depth = _vector(depth, "depth")
+    for name, arr in (("area", area), ("depth", depth)):
+        if np.any(~np.isfinite(arr)) or np.any(arr < 0):
+            raise InputError(f"{name}: must be finite and >= 0 (one value per failed realisation).")
+    with report_style():
+        if axes is None:
+            fig, (ax_a, ax_d) = new_figure(1, 2, figsize=(8.0, 3.0))
+        else:
+            ax_a, ax_d = axes
+            fig = ax_a.figure
+        for ax, arr, xl, colour in ((ax_a, area, "sliding-mass area (m² per m run)", PALETTE["orange"]),
+                                    (ax_d, depth, "maximum depth of the surface (m)", PALETTE["bluish_green"])):
+            ax.hist(arr, bins=np.histogram_bin_edges(arr, bins=bins), color=colour, edgecolor="white", linewidth=0.5)
+            ax.axvline(np.median(arr), color=PALETTE["black"], linestyle="--", linewidth=1.0,
+                       label=f"median {np.median(arr):.3g}")
+            ax.set_xlabel(xl)
+            ax.set_ylabel("failed realisations")
+            ax.legend(loc="upper right")
+        ax_a.text(0.0, 1.02, f"n = {area.size} failed realisations", transform=ax_a.transAxes, fontsize=8,
+                  gid="n-note")
+        if title:
+            fig.suptitle(title)
     return fig
 
 

@@ -41,7 +41,7 @@ import numpy as np
 from ..errors import InputError
 from .style import CYCLE, new_figure, report_style
 
-__all__ = ["annual_probability", "risk_points", "plot_risk_chart"]
+__all__ = ["annual_probability", "risk_points", "plot_risk_chart", "tolerability_line"]
 
 _LINE_STYLES = ("--", "-.", ":", (0, (5, 1, 1, 1)))
 
@@ -73,6 +73,45 @@ def annual_probability(pf, annual_exceedance):
         )
     out = p * a
     return float(out) if out.ndim == 0 else out
+
+
+def tolerability_line(label: str, source: str, anchor_consequence: float, anchor_probability: float,
+                      slope: float, consequence_range: tuple[float, float]) -> dict:
+    """A straight tolerability line on log–log axes, as a line dict for :func:`plot_risk_chart`.
+
+    The line is P(C) = P0 · (C / C0)^slope, the usual form of criteria
+    stated as "P0 per year at C0, falling with slope ``slope``" (slope −1
+    for risk-neutral lines, steeper for risk-averse ones). The numbers and
+    the source are the user's; nothing is assumed here.
+
+    Parameters
+    ----------
+    label : str
+        Legend label.
+    source : str
+        Citation of the criterion (required, non-empty).
+    anchor_consequence, anchor_probability : float
+        A point (C0 > 0, P0 in (0, 1]) on the line.
+    slope : float
+        Slope of log P against log C.
+    consequence_range : (float, float)
+        Consequences (> 0) where the line starts and ends.
+
+    Returns
+    -------
+    dict
+        ``{"label", "source", "consequence", "annual_probability"}``.
+    """
+    if not isinstance(source, str) or not source.strip():
+        raise InputError(f"tolerability line {label!r}: 'source' is required; cite where the criterion comes from.")
+    c0, p0, b = float(anchor_consequence), float(anchor_probability), float(slope)
+    c = np.asarray(consequence_range, dtype=float).ravel()
+    if c.size != 2 or np.any(~np.isfinite(c)) or np.any(c <= 0) or c[0] >= c[1]:
+        raise InputError(f"tolerability line {label!r}: consequence_range must be two increasing numbers > 0.")
+    if not (np.isfinite(c0) and c0 > 0 and 0 < p0 <= 1 and np.isfinite(b)):
+        raise InputError(f"tolerability line {label!r}: the anchor needs C0 > 0 and P0 in (0, 1], and a finite slope.")
+    p = np.minimum(p0 * (c / c0) ** b, 1.0)
+    return {"label": str(label), "source": source.strip(), "consequence": c.tolist(), "annual_probability": p.tolist()}
 
 
 def _prob_pair(pair, name):

@@ -282,3 +282,63 @@ def test_palette_is_okabe_ito():
     # Hex values recalled from Okabe & Ito (2008) as reproduced by Wong (2011, Nat. Methods 8:441).
     assert set(PALETTE.values()) == {"#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2",
                                      "#D55E00", "#CC79A7"}
+
+
+# --------------------------------------------------------------------------- added figures
+def test_fs_vs_theta_two_panels_with_infinite_marker():
+    from slope.report import plot_fs_vs_theta
+
+    theta = [1.0, 4.0, 16.0, np.inf]
+    mean = [1.40, 1.38, 1.37, 1.36]
+    std = [0.05, 0.09, 0.14, 0.20]
+    fig = plot_fs_vs_theta(theta, mean, std)
+    ax_m, ax_s = fig.axes[:2]
+    np.testing.assert_allclose(_gid(ax_m, "mean-0").get_ydata(), mean[:-1])
+    np.testing.assert_allclose(_gid(ax_s, "std-0").get_ydata(), std[:-1])
+    assert _gid(ax_s, "std-0-inf").get_ydata()[0] == pytest.approx(0.20)
+    assert ax_m.get_ylabel() == "mean FS" and ax_s.get_ylabel() == "standard deviation of FS"
+    _assert_nonblank(fig)
+    with pytest.raises(InputError, match="std_fs"):
+        plot_fs_vs_theta(theta, mean, [0.1, -0.1, 0.1, 0.1])
+
+
+def test_pf_vs_theta_log_axis_reports_zero_values():
+    fig = plot_pf_vs_theta([1.0, 10.0, np.inf], [[0.0, 0.01, 0.05]], labels=["θv = 1 m"], log_pf=True)
+    ax = fig.axes[0]
+    assert ax.get_yscale() == "log"
+    assert "θv = 1 m" in _gid(ax, "series-zero-note").get_text()
+
+
+def test_realisations_share_one_colour_scale():
+    from slope.report import plot_realisations
+
+    rng = np.random.default_rng(3)
+    xc, yc = np.arange(0.5, 20, 1.0), np.arange(0.5, 8, 1.0)
+    reals = [{"values": rng.normal(30 + 10 * k, 5, (xc.size, yc.size)), "surface_xy": CIRCLE * 0.4, "fs": 1.0 + 0.1 * k,
+              "label": f"realisation {k}"} for k in range(3)]
+    fig = plot_realisations(xc, yc, reals, "su", ground_xy=GROUND * 0.4)
+    panels = [ax for ax in fig.axes if ax.get_label() != "<colorbar>"]
+    meshes = [c for ax in panels for c in ax.collections if isinstance(c, QuadMesh)]
+    assert len(meshes) == 3
+    lo = min(r["values"].min() for r in reals)
+    hi = max(r["values"].max() for r in reals)
+    for m in meshes:
+        assert m.norm.vmin == pytest.approx(lo) and m.norm.vmax == pytest.approx(hi)
+    titles = [ax.get_title() for ax in panels if ax.get_visible() and ax.get_title()]
+    assert titles == ["realisation 0, FS = 1.000", "realisation 1, FS = 1.100", "realisation 2, FS = 1.200"]
+    assert sum(1 for ax in panels if not ax.get_visible()) == 1  # 3 panels on a 2x2 grid
+    _assert_nonblank(fig)
+
+
+def test_failure_geometry_histograms_count_every_failure():
+    from slope.report import plot_failure_geometry
+
+    rng = np.random.default_rng(9)
+    area = rng.gamma(4.0, 10.0, 250)
+    depth = rng.gamma(3.0, 1.0, 250)
+    fig = plot_failure_geometry(area, depth, bins=20)
+    ax_a, ax_d = fig.axes[:2]
+    heights = [p.get_height() for p in ax_a.patches if isinstance(p, Rectangle)]
+    assert sum(heights) == 250  # no failed realisation dropped from the histogram
+    assert f"median {np.median(depth):.3g}" in [t.get_text() for t in ax_d.get_legend().get_texts()]
+    _assert_nonblank(fig)

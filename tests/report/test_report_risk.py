@@ -92,3 +92,18 @@ def test_zero_pf_shown_as_upper_bound_or_reported():
     np.testing.assert_allclose(mark.get_xydata(), [[4, 3 / n * 0.1]])
     fig = plot_risk_chart([{"label": "no bound", "consequence": 4, "annual_probability": 0.0}])
     assert "no bound: annual probability 0 without an upper bound" in _gid(fig, "risk-footnote").get_text()
+
+
+def test_tolerability_line_is_a_power_law_through_its_anchor():
+    from slope.report import tolerability_line
+
+    # log P = log P0 + b (log C - log C0): a straight line on log–log axes (closed form).
+    ln = tolerability_line("example (invented)", "test fixture, no publication", 10.0, 1e-4, -1.0, (1.0, 1000.0))
+    np.testing.assert_allclose(ln["consequence"], [1.0, 1000.0])
+    np.testing.assert_allclose(ln["annual_probability"], [1e-3, 1e-6], rtol=1e-12)
+    ln2 = tolerability_line("steep", "test fixture", 1.0, 1e-3, -2.0, (1.0, 100.0))
+    np.testing.assert_allclose(ln2["annual_probability"], [1e-3, 1e-7], rtol=1e-12)
+    fig = plot_risk_chart([{"consequence": 5, "annual_probability": 1e-4}], [ln, ln2])
+    assert len([l for l in fig.axes[0].lines if (l.get_gid() or "").startswith("tolerability")]) == 2
+    with pytest.raises(InputError, match="source"):
+        tolerability_line("x", "", 1.0, 1e-3, -1.0, (1.0, 10.0))
