@@ -180,9 +180,9 @@ class Section:
         if self.base_y is None:
             self.base_y = ymin
         self.base_y = float(self.base_y)
-        if self.base_y >= g[:, 1].min():
+        if self.base_y > g[:, 1].min():
             raise InputError(
-                f"section base_y = {self.base_y:g} m is not below the lowest ground point "
+                f"section base_y = {self.base_y:g} m is above the lowest ground point "
                 f"({g[:, 1].min():g} m); give a lower base_y or extend the zones downward"
             )
         self._build_edges()
