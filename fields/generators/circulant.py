@@ -5,12 +5,17 @@ The grid's covariance (a block-Toeplitz matrix) is embedded in a periodic
 the 2D FFT of its first row (Dietrich & Newsam 1997; Wood & Chan 1994).
 When they are all non-negative, ``X = C^{1/2} ξ`` computed as
 ``irfft2(sqrt(λ) · rfft2(ξ))`` on real white noise ``ξ`` and cropped to the
-grid has exactly the grid's covariance.  The torus starts at the smallest
+grid has exactly the grid's covariance.  ``rfft2(ξ)`` is drawn directly in
+the frequency domain with its exact Gaussian law (Hermitian symmetry where
+needed), which saves the forward transform; the inverse is pruned to the
+grid's rows.  The torus starts at the smallest
 fast FFT size ≥ 2n per axis and grows (×1.5 per step) until no eigenvalue is
 negative beyond round-off; if the size limit is reached first, negative
 eigenvalues are set to zero and their share is reported.
 """
 from __future__ import annotations
+
+import math
 
 import numpy as np
 from scipy import fft as sfft
@@ -106,15 +111,36 @@ class CirculantGenerator(FieldGenerator):
 
     def _sample_block(self, rngs, seed, ks, stream):
         Nx, Ny = self._shape
-        nx, ny = self.grid.nx, self.grid.ny
-        xi = np.empty((len(rngs), Nx, Ny))
+        h = Ny // 2 + 1
+        # Draw rfft2(ξ) of real white noise ξ directly in the frequency domain
+        # (same Gaussian law, one FFT saved): independent real and imaginary
+        # parts of variance M/2, Hermitian pairs in the columns ky = 0 and
+        # ky = Ny/2, real entries of variance M at self-conjugate frequencies.
+        buf = np.empty((len(rngs), Nx, h, 2))
         for i, r in enumerate(rngs):
-            r.standard_normal(out=xi[i])
-        spec = sfft.rfft2(xi, axes=(1, 2), workers=self.workers, overwrite_x=True)
+            r.standard_normal(out=buf[i])
+        return self._from_noise(buf)
+
+    def _from_noise(self, buf):
+        """Fields from white noise ``buf`` of shape (b, Nx, Ny//2 + 1, 2) (linear map)."""
+        Nx, Ny = self._shape
+        nx, ny = self.grid.nx, self.grid.ny
+        h = Ny // 2 + 1
+        spec = buf.view(np.complex128)[..., 0]
+        M = Nx * Ny
+        spec *= math.sqrt(M / 2.0)
+        cols = [0] + ([h - 1] if Ny % 2 == 0 and Ny > 1 else [])
+        kx = np.arange(1, (Nx + 1) // 2)
+        selfc = [0] + ([Nx // 2] if Nx % 2 == 0 and Nx > 1 else [])
+        for c in cols:
+            spec[:, Nx - kx, c] = np.conj(spec[:, kx, c])
+            spec[:, selfc, c] = spec[:, selfc, c].real * math.sqrt(2.0)
         spec *= self._sqrt_lam
-        field = sfft.irfft2(spec, s=(Nx, Ny), axes=(1, 2), workers=self.workers,
-                            overwrite_x=True)
-        return field[:, :nx, :ny].reshape(len(rngs), nx * ny)
+        # inverse transform, pruned: only rows i < nx are needed after the
+        # transform along x, so the last transform runs on nx of Nx rows
+        tmp = sfft.ifft(spec, axis=1, workers=self.workers, overwrite_x=True)[:, :nx, :]
+        field = sfft.irfft(tmp, n=Ny, axis=2, workers=self.workers, overwrite_x=True)
+        return field[:, :, :ny].reshape(buf.shape[0], nx * ny)
 
 
 def _multiplicity(Ny):

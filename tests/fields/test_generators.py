@@ -198,6 +198,21 @@ def test_circulant_embedding_is_exact(average_cells):
     assert np.allclose(got, ref, atol=1e-12)
 
 
+@pytest.mark.parametrize("shape", [(9, 7), (8, 6), (5, 1)])
+def test_circulant_sampling_map_has_model_covariance(shape):
+    # the sampler is a linear map A of the white noise it draws; its exact
+    # covariance A Aᵀ (built from unit noise vectors, no sampling) must equal
+    # the model's correlation matrix: this checks the frequency-domain noise
+    # (Hermitian pairs, self-conjugate entries) for even and odd torus sizes
+    m = get_model("exponential", theta_h=3.0, theta_v=0.7, angle=-35.0)
+    g = RegularGrid(0.0, 0.0, shape[0], shape[1], 0.5, 0.25)
+    gen = make_generator("fft", m, grid=g)
+    Nx, Ny = gen.info["embedding"]
+    d = Nx * (Ny // 2 + 1) * 2
+    A = gen._from_noise(np.eye(d).reshape(d, Nx, Ny // 2 + 1, 2))
+    assert np.allclose(A.T @ A, m.covariance_matrix(g.points()), atol=1e-12)
+
+
 def test_embedding_grows_then_clips_and_reports():
     # squared exponential with θ comparable to the grid needs a larger torus;
     # the grown embedding is exact, a capped one reports the clipped share
