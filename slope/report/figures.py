@@ -45,6 +45,7 @@ __all__ = [
     "plot_fs_distribution",
     "plot_pf_convergence",
     "plot_tornado",
+    "plot_pf_comparison",
     "plot_pf_vs_theta",
     "plot_fs_vs_theta",
     "plot_variance_reduction",
@@ -543,8 +544,77 @@ def plot_pf_convergence(n, pf, lo, hi, *, level: float = 0.95, ax=None, title: s
     return fig
 
 
+def plot_pf_comparison(labels: Sequence[str], pf, lo=None, hi=None, *, log_pf: bool = False, ax=None,
+                       title: str | None = None):
+    """Several estimates of pf side by side, each with its confidence interval.
+
+    For the averaging report (given θ, single random variable, analytic
+    variance-reduction estimate) or system versus fixed-surface pf.
+
+    Parameters
+    ----------
+    labels : sequence of str
+        One label per estimate (top to bottom).
+    pf : 1-D array_like
+        Probabilities of failure, in [0, 1].
+    lo, hi : 1-D array_like, optional
+        Confidence bounds; NaN where an estimate has none (e.g. a closed form).
+    log_pf : bool
+        Logarithmic pf axis; estimates of 0 are then listed in a note.
+    ax : Axes, optional
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    labels = [str(s) for s in labels]
+    pf = _vector(pf, "pf")
+    if len(labels) != pf.size:
+        raise InputError(f"labels: {len(labels)} labels for {pf.size} values of pf; give one label per estimate.")
+    if (lo is None) != (hi is None):
+        raise InputError("lo, hi: give both confidence bounds or neither.")
+    lo = np.full(pf.size, np.nan) if lo is None else _vector(lo, "lo")
+    hi = np.full(pf.size, np.nan) if hi is None else _vector(hi, "hi")
+    if lo.size != pf.size or hi.size != pf.size:
+        raise InputError("lo, hi: one bound per estimate (NaN where there is none).")
+    if np.any(~np.isfinite(pf)) or np.any(pf < 0) or np.any(pf > 1):
+        raise InputError("pf: probabilities must be finite and within [0, 1].")
+    has = np.isfinite(lo) & np.isfinite(hi)
+    if np.any(lo[has] > pf[has] + 1e-12) or np.any(hi[has] < pf[has] - 1e-12):
+        raise InputError("lo, hi: each interval must contain its estimate (lo <= pf <= hi).")
+    with report_style():
+        fig, ax = _axes(ax, figsize=(6.4, 0.5 * len(labels) + 1.3))
+        ypos = np.arange(pf.size)[::-1]
+        drawable = pf > 0 if log_pf else np.ones(pf.size, bool)
+        xerr = np.vstack([np.where(has, pf - lo, 0.0), np.where(has, hi - pf, 0.0)])
+        if log_pf:
+            # Keep the lower whisker on the positive axis.
+            xerr[0] = np.where(has & (lo > 0), xerr[0], 0.0)
+        eb = ax.errorbar(pf[drawable], ypos[drawable], xerr=xerr[:, drawable], color=PALETTE["blue"], marker="o",
+                         linestyle="none", capsize=3)
+        eb.lines[0].set_gid("estimates")
+        for y, p in zip(ypos, pf):
+            ax.annotate(f"{p:.3g}", xy=(p, y), xytext=(0, 6), textcoords="offset points", ha="center", fontsize=7)
+        ax.set_yticks(ypos, labels)
+        ax.set_ylim(-0.7, pf.size - 0.3)
+        ax.set_xlabel("probability of failure pf (bars: confidence interval)")
+        ax.grid(axis="y", visible=False)
+        if log_pf:
+            ax.set_xscale("log")
+            if (~drawable).any():
+                ax.text(0.0, 1.01, "pf = 0 not drawn on log axis: " + ", ".join(np.array(labels)[~drawable]),
+                        transform=ax.transAxes, fontsize=7, gid="zero-note")
+        else:
+            ax.set_xlim(left=0.0)
+        if title:
+            ax.set_title(title)
+    return fig
+
+
 # --------------------------------------------------------------------------- tornado
-def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, ax=None, title: str | None = None):
+def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, clipped: Sequence[str] = (), ax=None,
+                 title: str | None = None):
     """Tornado chart: FS with each input at its low and its high value in turn.
 
     Bars are sorted with the largest swing |high − low| at the top.
@@ -558,7 +628,10 @@ def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, ax=N
     base_fs : float
         FS with every variable at its mean.
     k : float
-        Number of standard deviations used, for the axis label.
+        Number of standard deviations used, for the legend.
+    clipped : sequence of str
+        Variables whose mean ± k·σ left their support and were clipped to
+        it; marked with an asterisk and explained under the chart.
     ax : Axes, optional
     title : str, optional
 
@@ -567,6 +640,9 @@ def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, ax=N
     matplotlib.figure.Figure
     """
     names = [str(s) for s in names]
+    unknown = set(map(str, clipped)) - set(names)
+    if unknown:
+        raise InputError(f"clipped: {sorted(unknown)} are not among the tornado's variables {names}.")
     low = _vector(low_fs, "low_fs")
     high = _vector(high_fs, "high_fs")
     if not (len(names) == low.size == high.size):
@@ -584,8 +660,12 @@ def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, ax=N
         ax.barh(ypos, high[order] - base_fs, left=base_fs, color=PALETTE["blue"], height=0.6,
                 label=f"variable at mean + {k:g}σ")
         ax.axvline(base_fs, color=PALETTE["black"], linewidth=1.0, label=f"all at mean, FS = {base_fs:.3f}")
-        ax.set_yticks(ypos, [names[i] for i in order])
-        ax.set_xlabel("factor of safety FS")
+        marked = set(map(str, clipped))
+        ax.set_yticks(ypos, [names[i] + (" *" if names[i] in marked else "") for i in order])
+        xlabel = "factor of safety FS"
+        if marked:
+            xlabel += f"\n* mean ± {k:g}σ clipped to the variable's support"
+        ax.set_xlabel(xlabel)
         ax.grid(axis="y", visible=False)
         ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
         if title:

@@ -24,12 +24,16 @@ Input shapes
 scenario dict
     ``{"label": str, "consequence": float > 0,
     "pf": float in [0, 1], "annual_exceedance": float in (0, 1]}`` or
-    ``{"label", "consequence", "annual_probability": float in [0, 1]}``;
+    ``{"label", "consequence", "annual_probability": float in [0, 1]}``
+    (``annual_pf`` is accepted as another name for ``annual_probability``,
+    as in the case file's ``[risk]`` table);
     optionally ``"pf_interval": (lo, hi)`` (the pf's confidence bounds,
     scaled by the same annual exceedance) or ``"annual_interval": (lo, hi)``.
 tolerability line dict
     ``{"label": str, "source": str, "consequence": [..] > 0,
-    "annual_probability": [..] in (0, 1]}``: a polyline on the chart (e.g.
+    "annual_probability": [..] in (0, 1]}``, or with ``"points":
+    [[consequence, annual probability], ...]`` instead of the two lists (the
+    case file's ``[[risk.tolerability]]`` form): a polyline on the chart (e.g.
     the end points of a straight line on log–log axes).
 """
 from __future__ import annotations
@@ -148,6 +152,9 @@ def risk_points(scenarios: Sequence[Mapping]) -> list[dict]:
             raise InputError(f"{where}: missing 'consequence' (lives or cost, > 0).") from None
         if not np.isfinite(cons) or cons <= 0:
             raise InputError(f"{where}: 'consequence' must be a finite number > 0 to sit on a log axis.")
+        if "annual_pf" in sc and "annual_probability" not in sc:
+            # The case file's name for a directly given annual probability.
+            sc = {**sc, "annual_probability": sc["annual_pf"]}
         direct = "annual_probability" in sc
         derived = "pf" in sc or "annual_exceedance" in sc
         if direct == derived:
@@ -189,10 +196,17 @@ def _lines(lines: Sequence[Mapping]) -> list[dict]:
         if not isinstance(src, str) or not src.strip():
             raise InputError(f"{where}: 'source' is required — cite the publication or standard the line comes "
                              "from; slipfield builds in no tolerability criteria.")
-        if "consequence" not in ln or "annual_probability" not in ln:
-            raise InputError(f"{where}: give 'consequence' and 'annual_probability' lists of the line's points.")
-        c = np.asarray(ln["consequence"], dtype=float).ravel()
-        p = np.asarray(ln["annual_probability"], dtype=float).ravel()
+        if "points" in ln:
+            pts = np.asarray(ln["points"], dtype=float)
+            if pts.ndim != 2 or pts.shape[1] != 2:
+                raise InputError(f"{where}: 'points' must be a list of [consequence, annual probability] pairs.")
+            c, p = pts[:, 0], pts[:, 1]
+        elif "consequence" in ln and "annual_probability" in ln:
+            c = np.asarray(ln["consequence"], dtype=float).ravel()
+            p = np.asarray(ln["annual_probability"], dtype=float).ravel()
+        else:
+            raise InputError(f"{where}: give 'points' ([consequence, annual probability] pairs) or the "
+                             "'consequence' and 'annual_probability' lists of the line's points.")
         if c.size < 2 or c.size != p.size:
             raise InputError(f"{where}: need at least 2 points and as many consequences as probabilities.")
         if np.any(~np.isfinite(c)) or np.any(c <= 0) or np.any(~np.isfinite(p)) or np.any(p <= 0) or np.any(p > 1):

@@ -342,3 +342,32 @@ def test_failure_geometry_histograms_count_every_failure():
     assert sum(heights) == 250  # no failed realisation dropped from the histogram
     assert f"median {np.median(depth):.3g}" in [t.get_text() for t in ax_d.get_legend().get_texts()]
     _assert_nonblank(fig)
+
+
+def test_tornado_marks_clipped_variables():
+    fig = plot_tornado(["c'", "φ'"], [1.0, 0.9], [1.4, 1.6], 1.2, k=2, clipped=["c'"])
+    ax = fig.axes[0]
+    assert "c' *" in [t.get_text() for t in ax.get_yticklabels()]
+    assert "clipped to the variable's support" in ax.get_xlabel()
+    with pytest.raises(InputError, match="clipped"):
+        plot_tornado(["c'"], [1.0], [1.4], 1.2, clipped=["γ"])
+
+
+def test_pf_comparison_points_and_intervals():
+    from slope.report import plot_pf_comparison
+
+    labels = ["spatial field (θh = 20 m, θv = 2 m)", "single random variable", "variance-function estimate"]
+    pf = np.array([0.012, 0.048, 0.010])
+    lo = np.array([0.009, 0.042, np.nan])  # the analytic estimate has no sampling interval
+    hi = np.array([0.016, 0.055, np.nan])
+    fig = plot_pf_comparison(labels, pf, lo, hi)
+    ax = fig.axes[0]
+    pts = _gid(ax, "estimates").get_xydata()
+    np.testing.assert_allclose(pts[:, 0], pf)
+    tick = dict(zip(ax.get_yticks(), [t.get_text() for t in ax.get_yticklabels()]))
+    assert [tick[y] for y in pts[:, 1]] == labels  # each point on its own label's row
+    _assert_nonblank(fig)
+    fig = plot_pf_comparison(["a", "b"], [0.0, 0.01], log_pf=True)
+    assert "a" in _gid(fig.axes[0], "zero-note").get_text()
+    with pytest.raises(InputError, match="contain"):
+        plot_pf_comparison(["a"], [0.1], [0.2], [0.3])

@@ -107,3 +107,13 @@ def test_tolerability_line_is_a_power_law_through_its_anchor():
     assert len([l for l in fig.axes[0].lines if (l.get_gid() or "").startswith("tolerability")]) == 2
     with pytest.raises(InputError, match="source"):
         tolerability_line("x", "", 1.0, 1e-3, -1.0, (1.0, 10.0))
+
+
+def test_case_file_forms_are_accepted():
+    # [[risk.tolerability]] tables carry 'points'; [risk] may give 'annual_pf' directly (slope/case_schema.py).
+    line = {"label": "user line", "source": "test fixture", "points": [[1, 1e-3], [100, 1e-5]]}
+    fig = plot_risk_chart([{"label": "cut", "consequence": 2e6, "annual_pf": 1e-3}], [line])
+    np.testing.assert_allclose(_gid(fig, "tolerability-0").get_xydata(), [[1, 1e-3], [100, 1e-5]])
+    np.testing.assert_allclose(_gid(fig, "scenario-0").get_xydata(), [[2e6, 1e-3]])
+    with pytest.raises(InputError, match="points"):
+        plot_risk_chart([{"consequence": 1, "annual_pf": 1e-3}], [{"label": "l", "source": "s", "points": [1, 2, 3]}])
