@@ -454,9 +454,11 @@ def plot_fs_distribution(
             x_lo = max(x_lo, 1e-9)  # the lognormal density lives on FS > 0
         x = np.linspace(x_lo, edges[-1] + pad, 400)
         nrm = fits["normal"]
-        ax_h.plot(x, stats.norm.pdf(x, nrm["mean"], nrm["std"]), color=PALETTE["blue"],
-                  label=f"normal fit (μ = {nrm['mean']:.3f}, σ = {nrm['std']:.3f})", gid="fit-normal")
-        if fits["lognormal"] is not None:
+        # A constant FS (e.g. no random input) has no density to draw.
+        if nrm["std"] > 1e-9 * abs(nrm["mean"]):
+            ax_h.plot(x, stats.norm.pdf(x, nrm["mean"], nrm["std"]), color=PALETTE["blue"],
+                      label=f"normal fit (μ = {nrm['mean']:.3f}, σ = {nrm['std']:.3f})", gid="fit-normal")
+        if fits["lognormal"] is not None and fits["lognormal"]["s"] > 1e-9:
             ln = fits["lognormal"]
             ax_h.plot(x, stats.lognorm.pdf(x, ln["s"], 0.0, ln["scale"]), color=PALETTE["vermillion"], linestyle="--",
                       label=f"lognormal fit (median = {ln['median']:.3f}, σ_ln = {ln['s']:.3f})", gid="fit-lognormal")

@@ -371,3 +371,17 @@ def test_pf_comparison_points_and_intervals():
     assert "a" in _gid(fig.axes[0], "zero-note").get_text()
     with pytest.raises(InputError, match="contain"):
         plot_pf_comparison(["a"], [0.1], [0.2], [0.3])
+
+
+def test_constant_fs_draws_no_density_curves():
+    fig = plot_fs_distribution(np.full(10, 1.3))
+    assert not [ln for ln in fig.axes[0].lines if ln.get_gid() in ("fit-normal", "fit-lognormal")]
+    _assert_nonblank(fig)
+
+
+def test_public_api_star_import():
+    import slope.report as rep
+
+    ns = {}
+    exec("from slope.report import *", ns)
+    assert set(rep.__all__) <= set(ns) and all(callable(getattr(rep, n)) or n.isupper() for n in rep.__all__)
