@@ -31,9 +31,11 @@ _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 
 
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)
-def _single_equation_kernel(c, tp, ca, sa, b, l, A, ub, ul, w, mn, use_mn, den0,
+def _single_equation_kernel(c, tp, ca, sa, wb, wa, l, A, ub, ul, mn, use_mn, den0,
                             valid, tol, max_iter, m_alpha_min,
                             fs, iters, conv, flags, neff, want_forces):
+    # wb = w b and wa = w (A - u b) are per-surface terms, so the numerator
+    # of slice i is (wb c + wa tan phi) / m_alpha.
     S = fs.shape[0]
     M = fs.shape[1]
     N = ca.shape[1]
@@ -45,19 +47,20 @@ def _single_equation_kernel(c, tp, ca, sa, b, l, A, ub, ul, w, mn, use_mn, den0,
             iters[s, m] = 0
             conv[s, m] = False
             continue
+        circ = not use_mn[m]
         # start: F -> infinity, m_alpha = cos a, N = A / cos a
         num = 0.0
         den = den0[m]
         for i in range(N):
-            t = tp[s, m, i]
-            num += w[m, i] * (c[s, m, i] * b[m, i] + (A[m, i] - ub[m, i]) * t) / ca[m, i]
-            if use_mn[m]:
+            num += (wb[m, i] * c[s, m, i] + wa[m, i] * tp[s, m, i]) / ca[m, i]
+            if not circ:
                 den += mn[m, i] * A[m, i] / ca[m, i]
         F = num / den
         if not (F > 0.0) or not np.isfinite(F):
             F = 1.0
         done = False
         n_it = 0
+        fl = 0
         for it in range(max_iter):
             n_it = it + 1
             inv = 1.0 / F
@@ -66,16 +69,24 @@ def _single_equation_kernel(c, tp, ca, sa, b, l, A, ub, ul, w, mn, use_mn, den0,
             dnum = 0.0
             den = den0[m]
             dden = 0.0
+            fl = 0
             for i in range(N):
                 t = tp[s, m, i]
                 cc = c[s, m, i]
-                ma = ca[m, i] + sa[m, i] * t * inv
+                st = sa[m, i] * t
+                ma = ca[m, i] + st * inv
                 r = 1.0 / ma
-                P = w[m, i] * (cc * b[m, i] + (A[m, i] - ub[m, i]) * t) * r
+                P = (wb[m, i] * cc + wa[m, i] * t) * r
                 num += P
-                g = sa[m, i] * t * inv2 * r          # -d(m_alpha)/dF / m_alpha
+                g = st * inv2 * r          # -d(m_alpha)/dF / m_alpha
                 dnum += P * g
-                if use_mn[m]:
+                # admissibility at this iterate; the last one is within tol of F
+                ne = (A[m, i] - ub[m, i] - cc * l[m, i] * sa[m, i] * inv) * r
+                if ma <= m_alpha_min:
+                    fl |= 2
+                if ne < -1e-9 * abs(A[m, i]):
+                    fl |= 1
+                if not circ:
                     K = (cc * l[m, i] - ul[m, i] * t) * sa[m, i]
                     Nn = (A[m, i] - K * inv) * r
                     den += mn[m, i] * Nn
@@ -96,23 +107,15 @@ def _single_equation_kernel(c, tp, ca, sa, b, l, A, ub, ul, w, mn, use_mn, den0,
         fs[s, m] = F
         iters[s, m] = n_it
         conv[s, m] = done
-        fl = 0
         if not (F > 0.0) or not np.isfinite(F):
-            fl |= 8
-            flags[s, m] = fl
+            flags[s, m] = 8
             continue
-        inv = 1.0 / F
-        for i in range(N):
-            t = tp[s, m, i]
-            ma = ca[m, i] + sa[m, i] * t * inv
-            ne = (A[m, i] - ub[m, i] - c[s, m, i] * l[m, i] * sa[m, i] * inv) / ma
-            if ma <= m_alpha_min:
-                fl |= 2
-            if ne < -1e-9 * abs(A[m, i]):
-                fl |= 1
-            if want_forces:
-                neff[s, m, i] = ne
         flags[s, m] = fl
+        if want_forces:
+            inv = 1.0 / F
+            for i in range(N):
+                ma = ca[m, i] + sa[m, i] * tp[s, m, i] * inv
+                neff[s, m, i] = (A[m, i] - ub[m, i] - c[s, m, i] * l[m, i] * sa[m, i] * inv) / ma
 
 
 def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
@@ -133,9 +136,11 @@ def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
     conv = np.zeros((S, M), dtype=np.bool_)
     flags = np.zeros((S, M), dtype=np.int64)
     neff = np.empty((S, M, N) if return_forces else (1, 1, 1))
-    _single_equation_kernel(c, tan_phi, terms.cos_a, terms.sin_a, terms.width,
-                            terms.length, terms.A, terms.ub, terms.ul,
-                            np.ascontiguousarray(w, dtype=float), terms.mn,
+    w = np.asarray(w, dtype=float)
+    wb = np.ascontiguousarray(w * terms.width)
+    wa = np.ascontiguousarray(w * (terms.A - terms.ub))
+    _single_equation_kernel(c, tan_phi, terms.cos_a, terms.sin_a, wb, wa,
+                            terms.length, terms.A, terms.ub, terms.ul, terms.mn,
                             np.ascontiguousarray(use_mn, dtype=np.bool_),
                             np.ascontiguousarray(den0, dtype=float),
                             np.ascontiguousarray(terms.valid), float(tol), int(max_iter),

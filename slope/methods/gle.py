@@ -120,7 +120,12 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
             j21 = g2F / s2
             j22 = g2l / s2
             det = j11 * j22 - j12 * j21
-            if abs(det) > 1e-10 * (abs(j11 * j22) + abs(j12 * j21)) and np.isfinite(det):
+            # lam has no influence (no interslice force for any lam, e.g. an
+            # infinite slope) when its Jacobian column is round-off
+            lam_col = abs(j12) + abs(j22)
+            F_col = abs(j11) + abs(j21)
+            if (lam_col > 1e-9 * F_col and abs(det) > 1e-10 * (abs(j11 * j22) + abs(j12 * j21))
+                    and np.isfinite(det)):
                 dF = (-r1 * j22 + r2 * j12) / det
                 dl = (-r2 * j11 + r1 * j21) / det
             elif j11 != 0.0:

@@ -135,7 +135,10 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
             j21 = (dQF * L).sum(axis=2) / s2
             j22 = (dQt * L + Q * dL).sum(axis=2) / s2
             det = j11 * j22 - j12 * j21
-            regular = np.abs(det) > 1e-10 * (np.abs(j11 * j22) + np.abs(j12 * j21))
+            # theta has no influence (no interslice force for any theta, e.g.
+            # an infinite slope) when its Jacobian column is round-off
+            regular = ((np.abs(det) > 1e-10 * (np.abs(j11 * j22) + np.abs(j12 * j21)))
+                       & (np.abs(j12) + np.abs(j22) > 1e-9 * (np.abs(j11) + np.abs(j21))))
             dF = np.where(regular, (-r1 * j22 + r2 * j12) / det, -r1 / j11)
             dt = np.where(regular, (-r2 * j11 + r1 * j21) / det, 0.0)
             bad = ~(np.isfinite(dF) & np.isfinite(dt)) & ~done
@@ -154,7 +157,7 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
 
     F = np.where(valid & ~failed, F, np.nan)
     lam = np.where(valid, np.tan(th), np.nan)
-    flags = np.where(~np.isfinite(F) | ~(F > 0), NONPOSITIVE, 0).astype(np.int64)
+    flags = np.where(valid & (~np.isfinite(F) | ~(F > 0)), NONPOSITIVE, 0).astype(np.int64)
     Q, cam, sam, Dn, cth, sth = net_forces(np.where(np.isfinite(F), F, 1.0), th)
     E = np.zeros((S, M, N + 1))
     E[:, :, 1:] = -np.cumsum(Q * cth, axis=2)

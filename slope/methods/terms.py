@@ -134,7 +134,10 @@ def default_moment_point(bank: SliceBank):
     x1 = bank.x_right[:, -1]
     extent = x1 - x0
     xo = np.where(np.isfinite(bank.centre_x), bank.centre_x, 0.5 * (x0 + x1))
-    ytop = np.nanmax(np.maximum(bank.y_top_left, bank.y_top_right), axis=1)
+    top = np.maximum(bank.y_top_left, bank.y_top_right)
+    # rejected surfaces carry NaN geometry: max over finite values, NaN if none
+    ytop = np.where(np.isfinite(top), top, -np.inf).max(axis=1)
+    ytop = np.where(np.isfinite(ytop), ytop, np.nan)
     yo = np.where(np.isfinite(bank.centre_y), bank.centre_y, ytop + 0.5 * extent)
     return xo, yo
 
@@ -209,7 +212,7 @@ def prepare_bank(bank: SliceBank, moment_point=None) -> BankTerms:
     yt_bound = np.concatenate([bank.y_top_left[:, :1], bank.y_top_right], axis=1)
     extent = x_bound[:, -1] - x_bound[:, 0]
     scale_r = np.where(np.isfinite(bank.radius), bank.radius, extent)
-    use_mn = np.nanmax(np.abs(mn), axis=1) > 1e-9 * np.maximum(scale_r, 1e-12)
+    use_mn = np.where(np.isfinite(mn), np.abs(mn), 0.0).max(axis=1) > 1e-9 * np.maximum(scale_r, 1e-12)
 
     finite = np.isfinite(np.stack([ca, sa, b, l, A, B, ub, ul, mt, mn]).reshape(10, m, n)).all(axis=(0, 2))
     finite &= np.isfinite(m_active) & np.isfinite(couple).all(axis=1)
