@@ -30,7 +30,7 @@ def _block(problem, seed, start, stop):
                 fixed_ok=ok[:, fi], n_flagged=(~ok).sum(axis=1))
 
 
-def simulate(problem, n, seed=0, *, block_size=100, n_jobs=1):
+def simulate(problem, n, seed=0, *, block_size=100, n_jobs=1, store=None, resume=False):
     """Simulate ``n`` realisations; identical for any ``block_size`` and ``n_jobs``.
 
     Returns
@@ -41,9 +41,20 @@ def simulate(problem, n, seed=0, *, block_size=100, n_jobs=1):
         ``n_flagged`` (surfaces non-converged/inadmissible/invalid, counted).
     """
     tasks = [(s, min(s + block_size, n)) for s in range(0, n, block_size)]
+    ds = None
+    if store is not None:
+        from .backends import DiskStore
+        ds = DiskStore(store, problem, seed, resume=resume)
+    todo = [t for t in tasks if ds is None or not ds.has(*t)]
     if n_jobs == 1:
-        res = [_block(problem, seed, a, b) for a, b in tasks]
+        gen = (_block(problem, seed, a, b) for a, b in todo)
     else:
         from joblib import Parallel, delayed
-        res = Parallel(n_jobs=n_jobs)(delayed(_block)(problem, seed, a, b) for a, b in tasks)
+        gen = Parallel(n_jobs=n_jobs, return_as="generator")(delayed(_block)(problem, seed, a, b) for a, b in todo)
+    done = {}
+    for t, r in zip(todo, gen):
+        if ds is not None:
+            ds.write(*t, r)  # block by block, so an interruption loses at most the blocks in flight
+        done[t] = r
+    res = [done[t] if t in done else ds.read(*t) for t in tasks]
     return {k: np.concatenate([r[k] for r in res]) for k in res[0]}

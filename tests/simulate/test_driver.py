@@ -41,3 +41,17 @@ def test_single_variable_scales_fs():
     z = np.array([realisation_rng(1, k, 0, 0).standard_normal() for k in range(10)])
     su = make_marginal("lognormal", mean=50.0, cov=0.3).from_standard_normal(z)
     np.testing.assert_allclose(r["fs_crit"], fs1 * su, rtol=1e-5)
+
+
+def test_resume_equals_uninterrupted_and_refuses_other_problem(tmp_path):
+    # resume contract ("up to n"): a run stopped after 10 realisations and
+    # resumed to 20 equals one uninterrupted run of 20
+    import pytest
+    from slope.errors import InputError
+    p = _problem(10.0)
+    full = simulate(p, 20, seed=2, block_size=5)
+    simulate(p, 10, seed=2, block_size=5, store=tmp_path / "s")
+    res = simulate(p, 20, seed=2, block_size=5, store=tmp_path / "s", resume=True)
+    np.testing.assert_array_equal(full["fs_crit"], res["fs_crit"])
+    with pytest.raises(InputError, match="different problem"):
+        simulate(_problem(20.0), 20, seed=2, block_size=5, store=tmp_path / "s", resume=True)
