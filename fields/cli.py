@@ -139,14 +139,15 @@ def run_vrf(args) -> int:
 # sample
 def _marginal(args):
     if args.marginal is None:
-        if args.mean is not None or args.cov is not None:
-            raise InputError("--mean/--cov need --marginal (e.g. --marginal lognormal)")
+        if any(v is not None for v in (args.mean, args.cov, args.lower, args.upper)):
+            raise InputError("--mean/--cov/--lower/--upper need --marginal (e.g. --marginal lognormal)")
         return None
     from .marginals import make_marginal
 
     if args.cov is not None and not (args.cov >= 0):
         raise InputError(f"--cov must be >= 0 (coefficient of variation), got {args.cov!r}")
-    return make_marginal(args.marginal, mean=args.mean, cov=args.cov)
+    return make_marginal(args.marginal, mean=args.mean, cov=args.cov,
+                         lower=args.lower, upper=args.upper)
 
 
 def run_sample(args) -> int:
@@ -254,6 +255,8 @@ def _fill(fp):
     s.add_argument("--marginal", help="normal, lognormal, truncated-normal, beta, uniform, ...")
     s.add_argument("--mean", type=float, help="marginal mean (property units)")
     s.add_argument("--cov", type=float, help="marginal coefficient of variation (>= 0)")
+    s.add_argument("--lower", type=float, help="marginal lower bound (truncated-normal, beta, uniform)")
+    s.add_argument("--upper", type=float, help="marginal upper bound (truncated-normal, beta, uniform)")
     s.add_argument("--batch", type=int, default=50,
                    help="realisations generated and written per block (default 50)")
     s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf")

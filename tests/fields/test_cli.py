@@ -131,3 +131,12 @@ def test_sample_mesh_formats_match_npz(tmp_path, ext):
     assert centre == "cell"
     np.testing.assert_array_equal(idx, [0, 1, 2])
     np.testing.assert_allclose(vals, ref)
+
+
+def test_sample_beta_bounds(tmp_path):
+    out = tmp_path / "b.npz"
+    assert main(["sample", "--model", "exponential", "--theta", "2", "--grid", "8x8", "--spacing", "1",
+                 "--n", "20", "--marginal", "beta", "--mean", "30", "--cov", "0.1", "--lower", "20",
+                 "--upper", "40", "--quiet", "--out", str(out)]) == 0
+    v = np.load(out)["values"]
+    assert v.min() >= 20 and v.max() <= 40
