@@ -150,19 +150,28 @@ def _marginal(args):
                          lower=args.lower, upper=args.upper)
 
 
-def run_sample(args) -> int:
-    """Generate realisations on a regular grid and write them to a file."""
-    th, tv = _theta_pair(args)
-    nx, ny = _pair(args.grid, "--grid", int)
-    if nx < 1 or ny < 1:
-        raise InputError(f"--grid needs at least 1x1 cells, got {args.grid!r}")
-    if args.spacing is not None:
-        dx = dy = _positive(args.spacing, "--spacing")
+def _write_blocks(out, ext, n, blocks, *, grid=None, mesh=None, seed=0):
+    from . import io as fio
+
+    out.parent.mkdir(parents=True, exist_ok=True)
+    if ext == ".npz":
+        with fio.NpzSeriesWriter(out, grid, n, extra={"seed": np.int64(seed)}) as w:
+            for _, z in blocks:
+                w.write(z)
+    elif ext == ".xdmf":
+        with fio.XdmfSeriesWriter(out, mesh, centre="cell") as w:
+            for idx, z in blocks:
+                w.write(z, idx)
     else:
-        dx = _positive(args.dx, "--dx") if args.dx is not None else None
-        dy = _positive(args.dy, "--dy") if args.dy is not None else None
-        if dx is None or dy is None:
-            raise InputError("give --spacing (square cells) or both --dx and --dy (m)")
+        # VTU holds every realisation in one file, so it is assembled in memory
+        fio.write_vtu(out, mesh, np.concatenate([z for _, z in blocks]), centre="cell")
+
+
+def run_sample(args) -> int:
+    """Generate realisations on a regular grid (or mesh cell centres) and write them."""
+    from . import io as fio
+
+    th, tv = _theta_pair(args)
     if args.n < 1:
         raise InputError(f"--n must be >= 1 realisations, got {args.n}")
     if args.batch < 1:
@@ -171,13 +180,35 @@ def run_sample(args) -> int:
     ext = out.suffix.lower()
     if ext not in (".npz", ".vtu", ".xdmf"):
         raise InputError(f"--out {args.out!r}: use a .npz, .vtu or .xdmf file name")
-    grid = RegularGrid(args.x0, args.y0, nx, ny, dx, dy)
+    if (args.grid is None) == (args.mesh is None):
+        raise InputError("give exactly one of --grid NXxNY (regular grid) or --mesh FILE")
     model = get_model(args.model, theta_h=th, theta_v=tv, angle=args.angle, **_model_kwargs(args))
     marg = _marginal(args)
-    gen = make_generator(args.method, model, grid=grid)
-    from . import io as fio
-
-    out.parent.mkdir(parents=True, exist_ok=True)
+    grid = mesh = None
+    if args.mesh is not None:
+        if ext == ".npz":
+            raise InputError("--out: a --mesh run writes .vtu or .xdmf (NPZ holds regular grids)")
+        if args.method == "fft":
+            raise InputError("--method fft needs a regular --grid; use spectral (or cholesky/kl "
+                             "for small meshes) with --mesh")
+        mesh = fio.read_mesh(args.mesh)
+        gen = make_generator(args.method, model, points=fio.cell_centres(mesh))
+        shape_note = f"{mesh.n_cells} mesh cells"
+    else:
+        nx, ny = _pair(args.grid, "--grid", int)
+        if nx < 1 or ny < 1:
+            raise InputError(f"--grid needs at least 1x1 cells, got {args.grid!r}")
+        if args.spacing is not None:
+            dx = dy = _positive(args.spacing, "--spacing")
+        else:
+            if args.dx is None or args.dy is None:
+                raise InputError("give --spacing (square cells) or both --dx and --dy (m)")
+            dx, dy = _positive(args.dx, "--dx"), _positive(args.dy, "--dy")
+        grid = RegularGrid(args.x0, args.y0, nx, ny, dx, dy)
+        gen = make_generator(args.method, model, grid=grid)
+        if ext != ".npz":
+            mesh = fio.grid_mesh(grid)
+        shape_note = f"{nx}x{ny} cells"
 
     def blocks():
         for start in range(0, args.n, args.batch):
@@ -185,24 +216,11 @@ def run_sample(args) -> int:
             z = gen.sample(args.seed, idx)
             if marg is not None:
                 z = marg.from_standard_normal(z)
-            yield idx, np.asarray(z).reshape(len(idx), nx * ny)
+            yield idx, np.asarray(z).reshape(len(idx), -1)
 
-    if ext == ".npz":
-        with fio.NpzSeriesWriter(out, grid, args.n, extra={"seed": np.int64(args.seed)}) as w:
-            for _, z in blocks():
-                w.write(z)
-    elif ext == ".xdmf":
-        mesh = fio.grid_mesh(grid)
-        with fio.XdmfSeriesWriter(out, mesh, centre="cell") as w:
-            for idx, z in blocks():
-                w.write(z, idx)
-    else:
-        # VTU holds every realisation in one file, so it is assembled in memory
-        mesh = fio.grid_mesh(grid)
-        vals = np.concatenate([z for _, z in blocks()])
-        fio.write_vtu(out, mesh, vals, centre="cell")
+    _write_blocks(out, ext, args.n, blocks(), grid=grid, mesh=mesh, seed=args.seed)
     if not args.quiet:
-        print(f"wrote {args.n} realisations ({nx}x{ny} cells, {args.method}) to {out}")
+        print(f"wrote {args.n} realisations ({shape_note}, {args.method}) to {out}")
     return 0
 
 
@@ -242,7 +260,9 @@ def _fill(fp):
                        description="Generate random-field realisations on a regular grid and "
                                    "write them to .npz, .vtu or .xdmf (batches streamed).")
     _add_common(s, False)
-    s.add_argument("--grid", required=True, help="cells NXxNY, e.g. 256x64")
+    s.add_argument("--grid", help="cells NXxNY, e.g. 256x64")
+    s.add_argument("--mesh", help="instead of --grid: a 2D mesh file (any meshio format); "
+                                  "values at its cell centres, written to .vtu/.xdmf")
     s.add_argument("--spacing", type=float, help="square cell size (m)")
     s.add_argument("--dx", type=float, help="cell size along x (m)")
     s.add_argument("--dy", type=float, help="cell size along y (m)")
