@@ -30,7 +30,7 @@ FIELD_MODEL_NAMES = ("exponential", "markov", "gaussian", "squared-exponential",
                      "second-order-markov", "spherical", "matern")
 DISTRIBUTIONS = ("normal", "lognormal", "truncated-normal", "beta", "uniform", "triangular")
 SEARCH_KINDS = ("centre-lattice", "window", "fixed")
-RANDOM_PROPERTIES = ("c", "phi", "su", "su_gradient", "su_ratio", "unit_weight")
+RANDOM_PROPERTIES = ("c", "phi", "su", "su_ratio")
 
 
 class CaseError(InputError):

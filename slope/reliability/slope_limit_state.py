@@ -1,0 +1,133 @@
+"""Limit state of a slice bank with zone strengths as random variables.
+
+Each random variable sets one strength property of one zone on every slice
+base in that zone (no spatial variation: that is :mod:`slope.simulate`'s
+job). With a bank of one surface this is the *fixed surface* limit state;
+with a bank of many trial surfaces, each sample's FS is the least over the
+bank's valid, converged, admissible surfaces (:mod:`.limit_state`), which is
+the per-sample search over that set of trial surfaces (the surfaces
+themselves are not re-optimised per sample).
+
+Properties: ``"c"`` (c', kPa), ``"phi"`` (φ', degrees), ``"tan_phi"``
+(tan φ'), for bases analysed drained; ``"su_factor"`` (dimensionless
+multiplier of the zone's su profile, mean 1 typically) for bases analysed
+undrained.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["SliceBankLimitState", "PROPERTIES"]
+
+PROPERTIES = ("c", "phi", "tan_phi", "su_factor")
+
+
+class SliceBankLimitState:
+    """``g(X) -> FSResult`` for a slice bank with random zone strengths.
+
+    Parameters
+    ----------
+    bank : slope.slices.SliceBank
+        Slices of one (fixed surface) or many (searched) surfaces.
+    materials : mapping str -> slope.strength.Material
+        Usually ``section.materials``; give the mean strengths.
+    assign : mapping int -> (str, str)
+        Column of ``X`` → ``(zone name, property)``, property in
+        :data:`PROPERTIES`.
+    method : str
+        Method of slices (see :func:`slope.methods.factor_of_safety`).
+    hypothesis : {'drained', 'undrained'}
+    chunk : int
+        Upper bound on samples × surfaces × slices per kernel call (memory).
+    **method_opts
+        Passed to :func:`slope.methods.factor_of_safety`.
+    """
+
+    def __init__(self, bank, materials, assign, *, method="bishop", hypothesis="drained",
+                 chunk=2_000_000, **method_opts):
+        from slope.methods import factor_of_safety, prepare_bank  # noqa: F401
+        from slope.strength import base_strength
+
+        if not assign:
+            raise InputError("assign: map at least one column of X to (zone, property)")
+        self.zone_names = list(bank.zone_names)
+        self.assign = {}
+        c0, t0 = base_strength(bank, materials, hypothesis)
+        # Bases analysed undrained: zones whose material has an su model.
+        und_by_zone = np.array([hypothesis == "undrained" and materials[mn].has_undrained
+                                for mn in bank.zone_materials], bool)
+        zsafe = np.where(np.asarray(bank.zone) >= 0, bank.zone, 0)
+        und_zone = und_by_zone[zsafe] if und_by_zone.size else np.zeros(bank.zone.shape, bool)
+        for col, pair in assign.items():
+            try:
+                zone, prop = pair
+            except (TypeError, ValueError):
+                raise InputError(f"assign[{col}]: give (zone name, property), got {pair!r}") from None
+            if zone not in self.zone_names:
+                raise InputError(f"assign[{col}]: unknown zone {zone!r}; zones: {self.zone_names}")
+            if prop not in PROPERTIES:
+                raise InputError(f"assign[{col}]: unknown property {prop!r}; use one of {PROPERTIES}")
+            self.assign[int(col)] = (self.zone_names.index(zone), prop)
+        self.bank = bank
+        self.valid = np.asarray(bank.valid, bool)
+        self.zone = np.where(self.valid[:, None], bank.zone, -1)
+        self.c0, self.t0 = c0, t0
+        self.undrained = und_zone
+        self.method = method
+        self.hypothesis = hypothesis
+        self.method_opts = method_opts
+        self.chunk = int(chunk)
+        self._terms = None
+
+    def _prepared(self):
+        from slope.methods import prepare_bank
+
+        if self._terms is None:
+            self._terms = prepare_bank(self.bank)
+        return self._terms
+
+    def strengths(self, X):
+        """Base strengths ``c (s, m, n)`` kPa and ``tan_phi (s, m, n)`` for samples ``X``."""
+        X = np.atleast_2d(np.asarray(X, float))
+        s = X.shape[0]
+        c = np.broadcast_to(self.c0, (s,) + self.c0.shape).copy()
+        t = np.broadcast_to(self.t0, (s,) + self.t0.shape).copy()
+        for col, (zi, prop) in self.assign.items():
+            mask = self.zone == zi
+            v = X[:, col][:, None, None]
+            if prop == "c":
+                c = np.where(mask & ~self.undrained, v, c)
+            elif prop == "phi":
+                t = np.where(mask & ~self.undrained, np.tan(np.radians(v)), t)
+            elif prop == "tan_phi":
+                t = np.where(mask & ~self.undrained, v, t)
+            else:
+                c = np.where(mask & self.undrained, v * self.c0, c)
+        valid_rows = self.valid[None, :, None]
+        return np.where(valid_rows, c, 0.0), np.where(valid_rows, t, 0.0)
+
+    def __call__(self, X):
+        from slope.methods import factor_of_safety
+
+        X = np.atleast_2d(np.asarray(X, float))
+        m, n = self.c0.shape
+        step = max(1, self.chunk // max(1, m * n))
+        fs, conv, adm = [], [], []
+        idx = np.flatnonzero(self.valid)
+        if idx.size == 0:
+            raise InputError("slice bank has no valid surface")
+        terms = self._prepared()
+        for a in range(0, X.shape[0], step):
+            c, t = self.strengths(X[a:a + step])
+            if np.any(c < 0) or np.any(t < 0):
+                raise InputError("random strengths produced negative c or tan(phi); use a "
+                                 "positive marginal (lognormal, truncated-normal, beta)")
+            r = factor_of_safety(terms, c, t, method=self.method, **self.method_opts)
+            fs.append(r.fs)
+            conv.append(r.converged)
+            adm.append(r.admissible & self.valid[None, :])
+        fs = np.concatenate(fs)
+        return (np.where(self.valid[None, :], fs, np.nan), np.concatenate(conv),
+                np.concatenate(adm))
