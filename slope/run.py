@@ -69,7 +69,8 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
         est = estimate_pf(fs, valid=np.isfinite(fs))
         fixed = np.asarray(res.fs_fixed, float)
         fixed_ok = np.asarray(res.fixed_ok, bool)
-        est_fixed = estimate_pf(fixed, valid=fixed_ok & np.isfinite(fixed))
+        fixed_valid = fixed_ok & np.isfinite(fixed)
+        est_fixed = estimate_pf(fixed, valid=fixed_valid) if fixed_valid.any() else None
         out[label] = {
             "realisations": int(n), "seed": seed, "wall_time_s": round(wall, 3),
             "critical_surface_searched": {"pf": est.pf, "pf_interval_95": list(est.ci), "ci_method": est.ci_method,
@@ -78,9 +79,12 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                           "mean_fs": est.mean_fs, "std_fs": est.std_fs,
                                           "beta_from_pf": est.beta_from_pf, "beta_normal": est.beta_normal,
                                           "beta_lognormal": est.beta_lognormal},
-            "fixed_deterministic_surface": {"pf": est_fixed.pf, "pf_interval_95": list(est_fixed.ci),
-                                            "n_valid": est_fixed.n_valid, "mean_fs": est_fixed.mean_fs,
-                                            "std_fs": est_fixed.std_fs},
+            "fixed_deterministic_surface": ({"pf": est_fixed.pf, "pf_interval_95": list(est_fixed.ci),
+                                             "n_valid": est_fixed.n_valid, "mean_fs": est_fixed.mean_fs,
+                                             "std_fs": est_fixed.std_fs} if est_fixed is not None else
+                                            {"pf": None, "pf_interval_95": [None, None], "n_valid": 0,
+                                             "mean_fs": None, "std_fs": None,
+                                             "status": "no realisation gave a converged, admissible FS on this surface"}),
             "n_nonconverged": int(res.n_nonconverged), "n_inadmissible": int(res.n_inadmissible),
             "n_realisations_without_valid_surface": int(res.n_no_valid),
         }
@@ -274,7 +278,8 @@ def _summary_rows(results) -> list:
             rows.append((f"pf, {h}, {label} (critical surface re-searched)", c["pf"], "-",
                          f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}"))
         c = s["spatial"]["fixed_deterministic_surface"]
-        rows.append((f"pf, {h}, spatially variable, fixed deterministic surface", c["pf"], "-", "single-surface pf ≤ system pf"))
+        if c["pf"] is not None:
+                rows.append((f"pf, {h}, spatially variable, fixed deterministic surface", c["pf"], "-", "single-surface pf ≤ system pf"))
         if "variance_reduction_factor_of_fs" in s:
             rows.append((f"variance-reduction factor of FS, {h}", s["variance_reduction_factor_of_fs"], "-",
                          "Var FS (spatial) / Var FS (θ → ∞)"))
