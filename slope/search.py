@@ -42,7 +42,7 @@ __all__ = [
 ]
 
 SEARCHES = ("centre-lattice", "window", "refine", "weak-layer")
-_TOLERABLE = {"negative-normal": 1, "thrust-outside": 4}
+_TOLERABLE = {"negative-normal": 1, "small-m-alpha": 2, "thrust-outside": 4}
 
 
 def _methods():
@@ -254,7 +254,7 @@ def centre_lattice(section, *, x_range=None, y_range=None, nx=15, ny=15, n_radii
     return evaluate_surfaces(section, circles, search="centre-lattice", **evaluate_opts)
 
 
-def window_circles(section, upslope, downslope, n_up=10, n_down=10, n_radii=10, max_angle=80.0):
+def window_circles(section, upslope, downslope, n_up=10, n_down=10, n_radii=10, max_angle=80.0, min_angle=3.0):
     """Circles of the ``window`` search.
 
     Parameters
@@ -265,7 +265,8 @@ def window_circles(section, upslope, downslope, n_up=10, n_down=10, n_radii=10, 
         Points in each window.
     n_radii : int
         Radii per entry/exit pair, set by the half-angle θ the arc subtends at
-        the centre, evenly from 10° to ``max_angle`` (r = chord / (2 sin θ)).
+        the centre, evenly from ``min_angle`` to ``max_angle`` (degrees;
+        r = chord / (2 sin θ)); small angles give flat, nearly planar arcs.
 
     Returns
     -------
@@ -275,11 +276,12 @@ def window_circles(section, upslope, downslope, n_up=10, n_down=10, n_radii=10, 
         if len(w) != 2 or not w[0] <= w[1] or w[0] < section.x_min or w[1] > section.x_max:
             raise InputError(f"{name} window {w!r}: give (x_from, x_to) within the ground line "
                              f"({section.x_min:g} to {section.x_max:g} m)")
-    if not 10.0 < max_angle < 90.0:
-        raise InputError(f"max_angle must be between 10 and 90 degrees, got {max_angle}")
+    if not 0.0 < min_angle < max_angle < 90.0:
+        raise InputError(f"min_angle and max_angle must satisfy 0 < min_angle < max_angle < 90 degrees, "
+                         f"got {min_angle}, {max_angle}")
     xe = np.linspace(*upslope, int(n_up))
     xx = np.linspace(*downslope, int(n_down))
-    th = np.radians(np.linspace(10.0, max_angle, int(n_radii)))
+    th = np.radians(np.linspace(min_angle, max_angle, int(n_radii)))
     E, Xx, Th = np.meshgrid(xe, xx, th, indexing="ij")
     E, Xx, Th = E.ravel(), Xx.ravel(), Th.ravel()
     p1 = np.c_[E, section.ground_y(E)]
@@ -297,13 +299,13 @@ def window_circles(section, upslope, downslope, n_up=10, n_down=10, n_radii=10, 
     return Circles(c[keep, 0], c[keep, 1], r[keep])
 
 
-def window(section, *, upslope, downslope, n_up=10, n_down=10, n_radii=10, max_angle=80.0,
+def window(section, *, upslope, downslope, n_up=10, n_down=10, n_radii=10, max_angle=80.0, min_angle=3.0,
            **evaluate_opts) -> SearchResult:
     """``window`` search: circles from an upslope window to a downslope window.
 
     See :func:`window_circles` and :func:`evaluate_surfaces`.
     """
-    circles = window_circles(section, upslope, downslope, n_up, n_down, n_radii, max_angle)
+    circles = window_circles(section, upslope, downslope, n_up, n_down, n_radii, max_angle, min_angle)
     return evaluate_surfaces(section, circles, search="window", **evaluate_opts)
 
 

@@ -40,9 +40,11 @@ __all__ = ["morgenstern_price"]
 
 _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 #: boundaries where E is below this fraction of the largest E on the surface
-#: are not checked for the thrust-line position: there the height is a ratio
-#: of two vanishing quantities (near the ends of the surface).
-THRUST_E_FRACTION = 0.01
+#: are not checked for the thrust-line position: the height is the ratio of
+#: a moment to E, so near the ends of the surface and where E changes sign
+#: (tension under a cohesive crest) it is a ratio of two vanishing
+#: quantities. 10 % is our convention, not a published value.
+THRUST_E_FRACTION = 0.1
 
 
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)

@@ -1,5 +1,11 @@
-"""Random limit-equilibrium simulator: random fields mapped onto slice bases."""
-from .problem import RandomProblem, RandomProperty
-from .driver import simulate
+"""Random limit-equilibrium simulator: random fields → slice bases → FS.
 
-__all__ = ["RandomProblem", "RandomProperty", "simulate"]
+Public API: RandomProperty, RandomProblem, simulate, realise_fields,
+averaging_report, theta_sweep, SimulationResult.
+"""
+from .problem import RandomProblem, RandomProperty
+from .run import SimulationResult, realise_fields, simulate
+from .studies import averaging_report, theta_sweep
+
+__all__ = ["RandomProperty", "RandomProblem", "simulate", "SimulationResult", "realise_fields",
+           "averaging_report", "theta_sweep"]

@@ -7,22 +7,25 @@ from slope.examples import simple_slope
 from slope.search import lattice_circles
 from slope.simulate import RandomProblem, RandomProperty, simulate
 from slope.strength import Material
+from slope.surfaces import Circle
+from fields.marginals import make_marginal
 
 
 def _problem(theta):
     mat = Material("clay", unit_weight=20.0, su_model="constant", su=50.0)
     sec = simple_slope(height=10.0, material=mat)
-    bank = build_bank(sec, lattice_circles(sec, nx=4, ny=4, n_radii=3), n_slices=20)
-    prop = RandomProperty("clay", "su", mean=50.0, cov=0.3, theta_h=theta, theta_v=theta)
-    return RandomProblem(bank, sec.materials, [prop], hypothesis="undrained", cell_size=1.0)
+    circles = lattice_circles(sec, nx=4, ny=4, n_radii=3)
+    surfaces = [Circle(float(x), float(y), float(r)) for x, y, r in zip(circles.xc, circles.yc, circles.radius)]
+    prop = RandomProperty("clay", "su", make_marginal("lognormal", mean=50.0, cov=0.3), theta, theta)
+    return RandomProblem(sec, "undrained", "bishop", [prop], surfaces, 0, n_slices=20, cell=1.0)
 
 
 def test_block_size_and_jobs_do_not_change_results():
     # DEVELOPERS.md seeding contract: realisation k depends only on (seed, k)
     p = _problem(10.0)
-    a = simulate(p, 24, seed=3, block_size=24)
-    b = simulate(p, 24, seed=3, block_size=5, n_jobs=2)
-    np.testing.assert_array_equal(a["fs_crit"], b["fs_crit"])
+    a = simulate(p, 24, seed=3, batch=24)
+    b = simulate(p, 24, seed=3, batch=5, n_jobs=2)
+    np.testing.assert_array_equal(a.fs, b.fs)
 
 
 def test_single_variable_scales_fs():
@@ -40,7 +43,7 @@ def test_single_variable_scales_fs():
     fs1 = np.where(ok, unit.fs[0], np.inf).min()
     z = np.array([realisation_rng(1, k, 0, 0).standard_normal() for k in range(10)])
     su = make_marginal("lognormal", mean=50.0, cov=0.3).from_standard_normal(z)
-    np.testing.assert_allclose(r["fs_crit"], fs1 * su, rtol=1e-5)
+    np.testing.assert_allclose(r.fs, fs1 * su, rtol=1e-5)
 
 
 def test_resume_equals_uninterrupted_and_refuses_other_problem(tmp_path):
@@ -49,9 +52,9 @@ def test_resume_equals_uninterrupted_and_refuses_other_problem(tmp_path):
     import pytest
     from slope.errors import InputError
     p = _problem(10.0)
-    full = simulate(p, 20, seed=2, block_size=5)
-    simulate(p, 10, seed=2, block_size=5, store=tmp_path / "s")
-    res = simulate(p, 20, seed=2, block_size=5, store=tmp_path / "s", resume=True)
-    np.testing.assert_array_equal(full["fs_crit"], res["fs_crit"])
-    with pytest.raises(InputError, match="different problem"):
-        simulate(_problem(20.0), 20, seed=2, block_size=5, store=tmp_path / "s", resume=True)
+    full = simulate(p, 20, seed=2, batch=5)
+    simulate(p, 10, seed=2, batch=5, store=tmp_path / "s")
+    res = simulate(p, 20, seed=2, batch=5, store=tmp_path / "s", resume=True)
+    np.testing.assert_array_equal(full.fs, res.fs)
+    with pytest.raises(InputError, match="problem differs"):
+        simulate(_problem(20.0), 20, seed=2, batch=5, store=tmp_path / "s", resume=True)
