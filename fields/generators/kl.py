@@ -5,7 +5,7 @@ import numpy as np
 from scipy import linalg
 
 from ..errors import InputError
-from ._dense import MAX_POINTS, check_size, dense_covariance
+from ._dense import MAX_POINTS, check_size, dense_covariance, positioned_matmul
 from .base import FieldGenerator, register
 
 __all__ = ["KLGenerator"]
@@ -66,9 +66,4 @@ class KLGenerator(FieldGenerator):
                          clipped_negative=neg / trace)
 
     def _sample_block(self, rngs, seed, ks, stream):
-        m = self._phi.shape[1]
-        # fixed block shape: same BLAS kernel, bit-identical realisations
-        z = np.zeros((self.block, m))
-        for i, r in enumerate(rngs):
-            z[i] = r.standard_normal(m)
-        return (z @ self._phi.T)[:len(rngs)]
+        return positioned_matmul(rngs, ks, self._phi.shape[1], self._phi.T, self.block)
