@@ -168,3 +168,48 @@ def test_theta_keyword_only_and_messages():
     # aliases and spelling variants
     assert isinstance(get_model("Squared_Exponential", theta_h=1.0), type(get_model("gaussian", theta_h=1.0)))
     assert get_model("markov", theta_h=1.0) == get_model("exponential", theta_h=1.0)
+
+
+# --------------------------------------------------------------- spectra
+# One-sided spectral densities G(ω) = (2/π)∫₀^∞ρ(τ)cos(ωτ)dτ, closed forms from
+# Vanmarcke (1983, *Random Fields*, Table 3.1) as Fourier pairs that can be
+# checked by hand (exponential: standard Lorentzian pair; squared exponential:
+# Gaussian pair; second-order Markov: Vanmarcke's Table 3.1, recalled from memory,
+# but verifiable by differentiating the Lorentzian pair with respect to b).
+_W = np.array([0.0, 0.05, 0.3, 1.0, 2.5, 7.0])
+
+
+@pytest.mark.parametrize("theta", [0.7, 2.0, 15.0])
+def test_spectral_density_closed_forms(theta):
+    w = _W / theta * 2.0
+    exp_g = (theta / math.pi) / (1.0 + (w * theta / 2.0) ** 2)
+    gau_g = (theta / math.pi) * np.exp(-(w * theta) ** 2 / (4.0 * math.pi))
+    b = theta / 4.0
+    som_g = (4.0 * b / math.pi) / (1.0 + (w * b) ** 2) ** 2
+    for name, ref in (("exponential", exp_g), ("gaussian", gau_g), ("second-order-markov", som_g)):
+        got = get_model(name, theta_h=theta).spectral_density(w)
+        np.testing.assert_allclose(got, ref, rtol=1e-6, atol=1e-10 * theta, err_msg=name)
+    # Whittle–Matérn with ν = 3/2 is the second-order Markov model
+    np.testing.assert_allclose(get_model("matern", theta_h=theta, nu=1.5).spectral_density(w), som_g,
+                               rtol=1e-6, atol=1e-10 * theta)
+
+
+@pytest.mark.filterwarnings("ignore::scipy.integrate.IntegrationWarning")
+@pytest.mark.parametrize("name", ["exponential", "gaussian", "second-order-markov", "spherical"])
+def test_spectral_density_gives_theta_and_unit_variance(name):
+    # Vanmarcke (1983): θ = π G(0) and ∫₀^∞ G dω = σ² = 1
+    from scipy import integrate
+
+    m = get_model(name, theta_h=3.0)
+    assert math.pi * m.spectral_density([0.0])[0] == pytest.approx(3.0, rel=1e-8)
+    var = integrate.quad(lambda w: m.spectral_density([w])[0], 0, np.inf, limit=400)[0]
+    # the exponential's G decays like ω⁻² so the tail integral converges slowly
+    assert var == pytest.approx(1.0, rel=2e-3)
+
+
+def test_spectral_density_along_a_direction_and_bad_omega():
+    m = get_model("exponential", theta_h=20.0, theta_v=2.0)
+    # along the vertical the 1D process has θ = θv, hence G(0) = θv/π
+    assert m.spectral_density([0.0], direction_deg=90.0)[0] == pytest.approx(2.0 / math.pi)
+    with pytest.raises(Exception, match="omega"):
+        m.spectral_density([-1.0])
