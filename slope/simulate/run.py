@@ -186,8 +186,22 @@ def _execute(problem, seed, ranges, n_jobs, scheduler):
     return Parallel(n_jobs=n_jobs)(delayed(_run_block)(problem, seed, a, b) for a, b in ranges)
 
 
+def _connect(address, timeout):
+    """dask.distributed Client for a scheduler address, failing fast with a clear message."""
+    try:
+        from dask.distributed import Client
+    except ImportError:
+        raise InputError("simulate: scheduler= needs dask.distributed (pip install distributed)") from None
+    try:
+        return Client(address, timeout=timeout, set_as_default=False)
+    except (OSError, TimeoutError) as exc:
+        raise InputError(f"simulate: scheduler {address!r} did not answer within {timeout:g} s ({exc}); "
+                         "check the address (tcp://host:port) and that the scheduler is running, or "
+                         "omit scheduler to run locally") from None
+
+
 def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False, progress=False,
-             scheduler=None) -> SimulationResult:
+             scheduler=None, scheduler_timeout=5.0) -> SimulationResult:
     """Random limit-equilibrium Monte Carlo.
 
     Parameters
@@ -207,8 +221,11 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         Continue a stored run up to n (the header must match).
     progress : bool
         Show a tqdm bar.
-    scheduler : dask.distributed.Client, optional
-        Run blocks through ``Client.map``.
+    scheduler : dask.distributed.Client or str, optional
+        Run blocks through ``Client.map``; a string is a scheduler address
+        (``tcp://host:port``), connected before any work starts.
+    scheduler_timeout : float, s
+        How long to wait for a scheduler given by address.
 
     Returns
     -------
@@ -226,6 +243,13 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     if int(seed) < 0:
         raise InputError(f"simulate: seed must be >= 0, got {seed}")
     seed = int(seed)
+    if isinstance(scheduler, str):
+        client = _connect(scheduler, float(scheduler_timeout))
+        try:
+            return simulate(problem, n, seed, n_jobs=n_jobs, batch=batch, store=store, resume=resume,
+                            progress=progress, scheduler=client)
+        finally:
+            client.close()
     problem.bank, problem.terms  # build geometry once, before pickling to workers
     parts = {}
     if store is not None:
