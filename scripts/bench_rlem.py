@@ -1,26 +1,108 @@
-"""Benchmark of the random limit-equilibrium simulator (issue 5), first cut.
+"""Benchmark of the random limit-equilibrium simulator (issue 5).
 
-Two-zone c'-phi' section, fields on 0.5 m cells, a bank of centre-lattice
-circles, Bishop. Prints wall time and realisations per second.
-Usage: python scripts/bench_rlem.py [n_realisations] [n_jobs]
+Two-zone c'-φ' section (``slope.examples.two_zone_section``, invented),
+random c' and φ' in both zones (lognormal, COV 0.3 / 0.1, θh = 20 m,
+θv = 2 m, Markov), fields on 0.5 m cells, a centre-lattice bank of ≥ 1,000
+circles, Bishop. Prints, measured side by side in one run:
+
+* wall time and realisations/s of ``simulate`` at 1,000 and 10,000
+  realisations, each in its own subprocess, with that subprocess's peak RSS
+  (memory should stay flat: results are reduced per batch, never stored
+  per surface);
+* the ratio against re-running the full deterministic search from scratch
+  for every realisation (slice bank rebuilt, strengths mapped, all circles
+  evaluated), timed on a few realisations and scaled.
+
+Usage: python scripts/bench_rlem.py [n_jobs] [batch]
 """
+import json
+import math
+import os
+import resource
+import subprocess
 import sys
 import time
 
-from slope.bank import build_bank
+import numpy as np
+
+from fields.marginals import make_marginal
 from slope.examples import two_zone_section
 from slope.search import lattice_circles
 from slope.simulate import RandomProblem, RandomProperty, simulate
+from slope.simulate.engine import batch_fs
+from slope.surfaces import Circle
 
-n = int(sys.argv[1]) if len(sys.argv) > 1 else 1000
-jobs = int(sys.argv[2]) if len(sys.argv) > 2 else 2
-sec = two_zone_section()
-bank = build_bank(sec, lattice_circles(sec, nx=12, ny=10, n_radii=9), n_slices=40)
-props = [RandomProperty(m, "c", mean=sec.materials[m].c, cov=0.3, theta_h=20.0, theta_v=2.0) for m in ("fill", "clay")]
-props += [RandomProperty(m, "phi", mean=sec.materials[m].phi, cov=0.1, theta_h=20.0, theta_v=2.0) for m in ("fill", "clay")]
-p = RandomProblem(bank, sec.materials, props, cell_size=0.5)
-t = time.perf_counter()
-r = simulate(p, n, seed=1, block_size=100, n_jobs=jobs)
-dt = time.perf_counter() - t
-print(f"bank {bank.n_surfaces} circles ({int(bank.valid.sum())} valid), {n} realisations, n_jobs={jobs}: "
-      f"{dt:.1f} s, {n / dt:.0f} realisations/s, pf(system) = {(r['fs_crit'] < 1).mean():.4f}")
+
+def build_problem():
+    sec = two_zone_section()
+    circ = lattice_circles(sec, nx=12, ny=10, n_radii=9)
+    surfaces = [Circle(float(x), float(y), float(r)) for x, y, r in zip(circ.xc, circ.yc, circ.radius)]
+    props = []
+    for m in ("fill", "clay"):
+        mat = sec.materials[m]
+        props.append(RandomProperty(m, "c", make_marginal("lognormal", mean=mat.c, cov=0.3), 20.0, 2.0))
+        props.append(RandomProperty(m, "phi", make_marginal("lognormal", mean=mat.phi, cov=0.1), 20.0, 2.0))
+    return RandomProblem(sec, "drained", "bishop", props, surfaces, 0, n_slices=20, cell=0.5)
+
+
+def peak_rss_mb(who):
+    # ru_maxrss is in kB on Linux
+    return resource.getrusage(who).ru_maxrss / 1024.0
+
+
+def child(n, n_jobs, batch):
+    p = build_problem()
+    t = time.perf_counter()
+    r = simulate(p, n, seed=1, n_jobs=n_jobs, batch=batch)
+    dt = time.perf_counter() - t
+    print(json.dumps({"n": n, "wall_s": dt, "per_s": n / dt, "pf": r.pf, "pf_ci": list(r.pf_interval),
+                      "n_surfaces": int(p.bank.n_surfaces), "n_valid": int(np.sum(p.bank.valid)),
+                      "rss_self_mb": peak_rss_mb(resource.RUSAGE_SELF),
+                      "rss_workers_mb": peak_rss_mb(resource.RUSAGE_CHILDREN),
+                      "no_valid": r.n_no_valid, "nonconv": r.n_nonconverged, "inadm": r.n_inadmissible}))
+
+
+def from_scratch(k_count=4):
+    """Seconds per realisation when the whole search is redone for each one."""
+    p = build_problem()
+    p.generator(0)  # the field generators are reused: only the search is redone
+    t = time.perf_counter()
+    for k in range(k_count):
+        q = RandomProblem(p.section, p.hypothesis, p.method, p.properties, p.surfaces, p.fixed_index,
+                          n_slices=p.n_slices, cell=p.cell)
+        q._gens = p._gens
+        batch_fs(q, 1, [k])   # builds the slice bank, maps strengths, evaluates every circle
+    return (time.perf_counter() - t) / k_count
+
+
+def main():
+    n_jobs = int(sys.argv[1]) if len(sys.argv) > 1 else 2
+    batch = int(sys.argv[2]) if len(sys.argv) > 2 else 50
+    rows = []
+    for n in (1000, 10000):
+        out = subprocess.run([sys.executable, __file__, "--child", str(n), str(n_jobs), str(batch)],
+                             capture_output=True, text=True, check=True)
+        rows.append(json.loads(out.stdout.strip().splitlines()[-1]))
+    per_scratch = from_scratch()
+    r = rows[0]
+    print(f"two-zone c'-phi' section, {r['n_surfaces']} circles ({r['n_valid']} valid), 20 slices, Bishop, "
+          f"4 random fields on 0.5 m cells, n_jobs={n_jobs}, batch={batch}")
+    print(f"{'n':>7} {'wall s':>8} {'real/s':>8} {'pf':>8} {'95% CI':>18} {'peak RSS MB':>12} {'(workers)':>10}")
+    for r in rows:
+        print(f"{r['n']:>7} {r['wall_s']:>8.1f} {r['per_s']:>8.0f} {r['pf']:>8.4f} "
+              f"[{r['pf_ci'][0]:.4f}, {r['pf_ci'][1]:.4f}] {r['rss_self_mb']:>12.0f} {r['rss_workers_mb']:>10.0f}")
+    big = rows[-1]
+    scratch_total = per_scratch * big["n"]
+    print(f"full search from scratch per realisation: {per_scratch:.3f} s each -> {scratch_total:.0f} s for "
+          f"{big['n']} (scaled from 4, one core); simulator {big['wall_s']:.1f} s: "
+          f"{scratch_total / big['wall_s']:.0f}x faster ({scratch_total / big['wall_s'] / n_jobs:.0f}x per core)")
+    print(f"peak RSS ratio 10,000 / 1,000: {rows[1]['rss_self_mb'] / rows[0]['rss_self_mb']:.2f} (main), "
+          f"{rows[1]['rss_workers_mb'] / max(rows[0]['rss_workers_mb'], 1e-9):.2f} (workers)")
+    print(f"target 10,000 realisations < 60 s: {'met' if big['wall_s'] < 60 else 'NOT met'}")
+
+
+if __name__ == "__main__":
+    if len(sys.argv) > 1 and sys.argv[1] == "--child":
+        child(int(sys.argv[2]), int(sys.argv[3]), int(sys.argv[4]))
+    else:
+        main()
