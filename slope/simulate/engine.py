@@ -11,6 +11,7 @@ import numpy as np
 from fields.seeding import realisation_rng
 
 from ..methods import factor_of_safety
+from ..search import _TOLERABLE
 from ..strength import base_strength
 from .problem import AVERAGING
 
@@ -135,4 +136,8 @@ def batch_fs(problem, seed, indices):
     ok = np.asarray(problem.bank.valid, bool)[None, :, None]
     c, tphi = np.where(ok, c, 0.0), np.where(ok, tphi, 0.0)
     res = factor_of_safety(problem.terms, c, tphi, problem.method, interslice=problem.interslice)
-    return np.asarray(res.fs), np.asarray(res.converged), np.asarray(res.admissible)
+    # the flags the deterministic search tolerates by default (search.evaluate_surfaces) are
+    # tolerated here too, or the critical surface of the search could never be critical here
+    tolerated = _TOLERABLE["negative-normal"] | _TOLERABLE["thrust-outside"]
+    adm = (np.asarray(res.flags) & ~tolerated) == 0
+    return np.asarray(res.fs), np.asarray(res.converged), adm
