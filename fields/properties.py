@@ -366,6 +366,10 @@ def _masks_from(zones, labels_order, n_points, grid):
     missing = [k for k in labels_order if k not in masks]
     if missing:
         raise InputError(f"specs given for zone(s) {missing!r} that zones= does not define")
+    empty = [k for k in labels_order if not masks[k].any()]
+    if empty:
+        raise InputError(f"zone(s) {empty!r} have specs but no points in zones=: check the "
+                         "labels or drop those specs")
     return masks
 
 
