@@ -259,9 +259,13 @@ class _ZoneSampler:
         out = [None] * len(self.specs)
         for members, gen, L in self.groups:
             W = np.stack([gen.sample(seed, indices, (zone_index, j)) for j in members])
-            Z = np.einsum("ab,bkp->akp", L, W)
+            # element-wise sums (not a BLAS product) keep realisations
+            # bit-identical whatever the batch size
             for a, j in enumerate(members):
-                out[j] = Z[a]
+                z = L[a, 0] * W[0]
+                for b in range(1, a + 1):
+                    z = z + L[a, b] * W[b]
+                out[j] = z
         return out
 
 
