@@ -5,10 +5,12 @@ Imports nothing from ``slope``.
 """
 from .averaging import (cell_average_covariance, grid_cell_covariance, variance_function,
                         variance_function_2d)
+from .conditioning import ConditionalGenerator, from_gaussian, to_gaussian
 from .errors import InputError
 from .generators import FieldGenerator, make_generator
 from .grid import RegularGrid
 from .models import MODEL_NAMES, CorrelationModel, get_model
+from .properties import DepthTrend, PropertyField, correlated_properties
 from .seeding import realisation_rng, realisation_rngs
 
 __all__ = [
@@ -25,4 +27,10 @@ __all__ = [
     "cell_average_covariance",
     "realisation_rng",
     "realisation_rngs",
+    "PropertyField",
+    "DepthTrend",
+    "correlated_properties",
+    "ConditionalGenerator",
+    "to_gaussian",
+    "from_gaussian",
 ]
