@@ -133,7 +133,8 @@ def _reduce(problem, fs, conv, adm):
     crit = np.where(none, -1, crit)
     fs_c = np.where(none, np.nan, fs_c)
     # the lowest surface ignoring the status: was it excluded, and why?
-    anyf = np.where(np.isfinite(fs), fs, np.inf)
+    # a non-positive FS is a diverged iteration (values like -4e16 occur), not a lower surface
+    anyf = np.where(np.isfinite(fs) & (fs > 0), fs, np.inf)
     low = np.argmin(anyf, axis=1)
     r = np.arange(fs.shape[0])
     excluded = ~ok[r, low] & np.isfinite(anyf[r, low])
