@@ -116,28 +116,33 @@ class ConditionalGenerator:
     -----
     The unconditional field must be known at the data points.  When every
     data point coincides (within 1e-9 m) with a target point, the given
-    generator is used as it is; otherwise a generator of the same method
-    (default options) is built on targets + data points, which is refused for
+    generator is used as it is; otherwise one generator of the same method is
+    built on targets + data points (with ``**opts`` when a model is given,
+    default options when a generator is given), which is refused for
     grid-only methods (``fft``): put the data at cell centres or use
-    ``cholesky``/``kl``.
+    ``cholesky``/``kl``.  Realisations are therefore reproducible for a given
+    set of targets and data, not across different data sets.
     """
 
     def __init__(self, generator_or_model, data_points, data_values, nugget=0.0, *,
                  grid=None, points=None, method="cholesky", **opts):
         g = generator_or_model
         if isinstance(g, CorrelationModel):
-            g = make_generator(method, g, grid=grid, points=points, **opts)
+            if (grid is None) == (points is None):
+                raise InputError("with a model, give exactly one of grid= (a RegularGrid) or "
+                                 "points= (array (n, 2), m) for the targets")
+            model = g
+            targets = grid.points() if grid is not None else np.asarray(points, dtype=float)
         elif isinstance(g, FieldGenerator):
             if grid is not None or points is not None or opts:
                 raise InputError("with a generator, give no grid=, points= or options: they "
                                  "are the generator's")
+            model, targets, grid, method = g.model, g.points, g.grid, g.method
         else:
             raise InputError("generator_or_model must be a FieldGenerator (make_generator) or "
                              "a CorrelationModel (get_model)")
-        self.model = g.model
-        self.generator = g
-        self.grid = g.grid
-        self.points = g.points
+        self.model = model
+        self.grid = grid
         d = np.asarray(data_points, dtype=float)
         if d.ndim != 2 or d.shape[1] != 2 or d.shape[0] < 1:
             raise InputError(f"data_points must have shape (n_data, 2) with n_data >= 1, got "
@@ -172,24 +177,32 @@ class ConditionalGenerator:
             raise InputError(f"the data covariance matrix is singular: data points {min(i, j)} "
                              f"and {max(i, j)} are {dist[i, j]:.3g} m apart; merge them or give "
                              "nugget > 0 (measurement-error variance)")
-        C_td = self.model.covariance_matrix(self.points, d)
+        # where the unconditional field is known at the data points
+        tp = np.asarray(targets, dtype=float)
+        if tp.ndim != 2 or tp.shape[1] != 2:
+            raise InputError(f"points must have shape (n, 2), got {tp.shape}")
+        gap = np.hypot(*(d[:, None, :] - tp[None, :, :]).transpose(2, 0, 1))
+        nearest = np.argmin(gap, axis=1)
+        if np.all(gap[np.arange(d.shape[0]), nearest] <= 1e-9):
+            if not isinstance(g, FieldGenerator):
+                g = make_generator(method, model, grid=grid, points=points, **opts)
+            self._joint, self._data_idx = g, nearest
+        else:
+            if str(method).lower() in _GRID_ONLY:
+                raise InputError(f"data points are not at cell centres and the {method!r} "
+                                 "generator works on the grid only: move the data to cell "
+                                 "centres or use method 'cholesky' or 'kl'")
+            # one generator on targets + data, so that Z_u is jointly right
+            # at both (options of a given generator are not carried over)
+            self._joint = make_generator(method, model, points=np.vstack([tp, d]),
+                                         **({} if isinstance(g, FieldGenerator) else opts))
+            self._data_idx = tp.shape[0] + np.arange(d.shape[0])
+        self.generator = self._joint
+        self.points = tp
+        C_td = self.model.covariance_matrix(tp, d)
         # W = C_td C_dd^-1 (n_targets, n_data)
         self.weights = linalg.cho_solve(self._cho, C_td.T, check_finite=False).T
         self._C_td = C_td
-
-        # where the unconditional field is known at the data points
-        gap = np.hypot(*(d[:, None, :] - self.points[None, :, :]).transpose(2, 0, 1))
-        nearest = np.argmin(gap, axis=1)
-        if np.all(gap[np.arange(d.shape[0]), nearest] <= 1e-9):
-            self._joint, self._data_idx = g, nearest
-        else:
-            if g.method in _GRID_ONLY:
-                raise InputError(f"data points are not at cell centres and the {g.method!r} "
-                                 "generator works on the grid only: move the data to cell "
-                                 "centres or use method 'cholesky' or 'kl'")
-            self._joint = make_generator(g.method, self.model,
-                                         points=np.vstack([self.points, d]))
-            self._data_idx = self.points.shape[0] + np.arange(d.shape[0])
 
     @property
     def n_points(self) -> int:

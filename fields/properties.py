@@ -205,7 +205,7 @@ class PropertyField:
 class _ZoneSampler:
     """Specs, correlation and generators of one zone (see module doc)."""
 
-    def __init__(self, label, specs, correlation, method, grid, points, opts):
+    def __init__(self, label, specs, correlation, method, grid, points, opts, cache):
         specs = list(specs)
         if not specs:
             raise InputError(f"zone {label!r}: give at least one PropertyField")
@@ -235,6 +235,8 @@ class _ZoneSampler:
         groups: dict[int, list[int]] = {}
         for i in range(n):
             groups.setdefault(find(i), []).append(i)
+        # generators are shared by equal models across groups and zones (the
+        # zones differ by their seed streams, not by the set-up)
         gens: dict[CorrelationModel, FieldGenerator] = {}
         self.groups = []
         for members in groups.values():
@@ -247,8 +249,9 @@ class _ZoneSampler:
                         f"{specs[i].model!r}); cross-correlation uses one common spatial model "
                         "(intrinsic coregionalisation): give them the same model, or set "
                         "their correlation to 0")
-            if model not in gens:
-                gens[model] = make_generator(method, model, grid=grid, points=points, **opts)
+            if model not in cache:
+                cache[model] = make_generator(method, model, grid=grid, points=points, **opts)
+            gens[model] = cache[model]
             sub = R0[np.ix_(members, members)]
             L = np.linalg.cholesky(sub)
             self.groups.append((members, gens[model], L))
@@ -290,9 +293,11 @@ class CorrelatedProperties:
         self.points = grid.points() if grid is not None else np.asarray(points, dtype=float)
         self.zone_masks = masks
         self._zones = []
-        for z, (label, specs) in enumerate(zones_specs.items()):
+        cache: dict = {}
+        for label, specs in zones_specs.items():
             corr = zones_corr.get(label)
-            self._zones.append(_ZoneSampler(label, specs, corr, method, grid, points, opts))
+            self._zones.append(_ZoneSampler(label, specs, corr, method, grid, points, opts,
+                                            cache))
         names = []
         for zs in self._zones:
             names += [n for n in zs.names if n not in names]
