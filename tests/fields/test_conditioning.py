@@ -125,3 +125,22 @@ def test_errors_name_the_input():
     tn = make_marginal("truncated-normal", mean=30.0, cov=0.1, lower=20.0, upper=40.0)
     with pytest.raises(InputError, match=r"data_values\[1\] = 45"):
         to_gaussian(tn, [25.0, 45.0])
+
+
+def test_conditional_covariance_with_measurement_error_on_a_grid():
+    # model + grid targets, data off the cell centres (joint Cholesky on
+    # targets + data); closed form with the nugget on C_dd's diagonal
+    g = RegularGrid(0.0, 0.0, 4, 2, 2.5, 1.0)
+    e = 0.2
+    cg = ConditionalGenerator(MODEL, DATA_P, DATA_V, nugget=e, grid=g)
+    n = 4000
+    z = cg.sample_grid(8, range(n)).reshape(n, -1)
+    T = g.points()
+    C = MODEL.covariance_matrix
+    Cdd = C(DATA_P) + e * np.eye(3)
+    S = C(T) - C(T, DATA_P) @ np.linalg.solve(Cdd, C(DATA_P, T))
+    mean = C(T, DATA_P) @ np.linalg.solve(Cdd, DATA_V)
+    np.testing.assert_allclose(cg.kriged_mean(), mean, atol=1e-12)
+    assert np.all(np.abs(z.mean(axis=0) - mean) <= 4 * np.sqrt(np.diag(S) / n))
+    se = np.sqrt((S ** 2 + np.outer(np.diag(S), np.diag(S))) / (n - 1))
+    assert np.all(np.abs(np.cov(z, rowvar=False) - S) <= 4 * se)
