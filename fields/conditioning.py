@@ -161,7 +161,8 @@ class ConditionalGenerator:
             raise InputError(f"nugget must be a variance >= 0 (standard-normal units), got "
                              f"{nugget!r}") from None
         if not (math.isfinite(nug) and nug >= 0):
-            raise InputError(f"nugget must be a variance >= 0 (standard-normal units), got {nugget!r}")
+            raise InputError(f"nugget must be a variance >= 0 (standard-normal units), got "
+                             f"{nugget!r}")
         self.data_points, self.data_values, self.nugget = d, v, nug
 
         C_dd = self.model.covariance_matrix(d) + nug * np.eye(d.shape[0])
