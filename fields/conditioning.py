@@ -1,8 +1,8 @@
 """Conditional simulation on measured points by simple kriging.
 
 Works in standard-normal (Gaussian) space with known mean 0 and unit
-variance.  A conditional realisation is (Journel & Huijbregts 1978, ch. V;
-Chilès & Delfiner 2012, §7.3)
+variance.  A conditional realisation is (Journel & Huijbregts 1978, Mining
+Geostatistics, conditional simulation chapter (recalled from memory))
 
     Z_c(x) = Z*_data(x) + [Z_u(x) − Z*_u(x)],
 

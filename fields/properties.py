@@ -4,8 +4,9 @@ trends and zones.
 Cross-correlation
 -----------------
 Properties are cross-correlated by a *linear model of coregionalisation with
-one common spatial model* (the intrinsic model, e.g. Wackernagel 2003,
-ch. 23; Fenton & Griffiths 2008, §6.4 for c'–φ' fields): in Gaussian space
+one common spatial model* (the intrinsic correlation model, Wackernagel
+2003, Multivariate Geostatistics, chapter on intrinsic correlation (recalled
+from memory)): in Gaussian space
 ``Z = L W`` where the ``W_j`` are independent standard fields of the same
 correlation model ρ(τ) and ``L Lᵀ = R0``, so that
 
@@ -31,8 +32,7 @@ metre of depth below ``y_ref``; ``m0`` the marginal's mean).
 * normal (and deterministic) marginals: the trend is added, the standard
   deviation is constant with depth;
 * lognormal marginals: the field is scaled by ``mean(y) / m0``, so the COV is
-  constant with depth (the usual assumption for c' and su, e.g. Phoon &
-  Kulhawy 1999) and ``mean(y)`` must stay > 0 at every point;
+  constant with depth (common practice for c' and su) and ``mean(y)`` must stay > 0 at every point;
 * bounded marginals (truncated normal, beta, uniform, triangular) take no
   trend: their bounds would have to move with depth; build zones instead.
 

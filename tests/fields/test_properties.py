@@ -31,9 +31,9 @@ def _fisher_ok(r, target, n, k=4.0):
 
 @pytest.mark.parametrize("phi_marg", [PHI_TN, PHI_BETA], ids=["truncnorm", "beta"])
 def test_output_correlation_c_phi_equals_target(phi_marg):
-    # c'–φ' correlation -0.5: the value used by Fenton & Griffiths (2008),
-    # ch. 6, for c'–φ' fields (recalled from memory); the check is against
-    # the target itself, with the Fisher z standard error 1/sqrt(n-3).
+    # c'–φ' correlation -0.5 (common practice for a negative c'–φ' link); the
+    # check is against the target itself, with the Fisher (1921) z standard
+    # error 1/sqrt(n-3).
     specs = [PropertyField("c", C_LN, EXP), PropertyField("phi", phi_marg, EXP)]
     cp = correlated_properties(specs, [[1, -0.5], [-0.5, 1]], points=FAR)
     out = cp.sample(11, range(3000))
@@ -67,7 +67,8 @@ def test_marginal_moments_match_scipy():
 
 def test_gaussian_cross_correlation_at_a_lag_is_R0_times_rho():
     # intrinsic coregionalisation: corr(Z1(x), Z2(x+tau)) = R0 rho(tau)
-    # (Wackernagel 2003, ch. 23); normal marginals so R0 = R.
+    # (Wackernagel 2003, intrinsic correlation (recalled from memory)); normal
+    # marginals so R0 = R.
     tau = 0.5
     pts = np.array([[0.0, 0.0], [tau, 0.0]])
     a = PropertyField("a", make_marginal("normal", mean=0.0, std=1.0), EXP)
