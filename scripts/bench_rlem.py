@@ -123,6 +123,8 @@ def main():
           f"{scratch_total / big['wall_s']:.0f}x faster ({scratch_total / big['wall_s'] / n_jobs:.0f}x per core)")
     print(f"peak RSS ratio 10,000 / 1,000: {rows[1]['rss_self_mb'] / rows[0]['rss_self_mb']:.2f} (main), "
           f"{rows[1]['workers_peak_mb'] / max(rows[0]['workers_peak_mb'], 1e-9):.2f} (workers)")
+    print(f"10,000 run: lowest surface excluded as non-converged {big['nonconv']}, inadmissible {big['inadm']}; "
+          f"no valid surface {big['no_valid']}")
     print(f"target 10,000 realisations < 60 s: {'met' if big['wall_s'] < 60 else 'NOT met'}")
 
 
