@@ -26,7 +26,7 @@ from .analysis import deterministic, random_problem, single_variable_reliability
 from .case import load_case
 from .reliability.stats import convergence_history, estimate_pf
 
-__all__ = ["run_case", "RESULTS_VERSION"]
+__all__ = ["run_case", "sliding_mass_geometry", "RESULTS_VERSION"]
 
 RESULTS_VERSION = 1
 CAUTION = ("slipfield's results support, and do not replace, engineering judgement. Probabilities of "
@@ -51,6 +51,64 @@ def _jsonable(v):
     return v
 
 
+PROPERTY_LABELS = {"c": ("c'", "kPa"), "phi": ("φ'", "degree")}
+
+
+def sliding_mass_geometry(bank, index):
+    """Cross-sectional area and greatest depth of the sliding mass above bank surfaces.
+
+    Parameters
+    ----------
+    bank : slope.slices.SliceBank
+        The surface bank.
+    index : array_like of int
+        Surfaces of the bank (one per failed realisation, repeats allowed).
+
+    Returns
+    -------
+    area : ndarray
+        Area between the ground line and each surface, m² per metre run,
+        by Simpson's rule on every slice (sides and midpoint), which is
+        exact for a straight base under a straight ground within a slice.
+    depth : ndarray
+        Greatest vertical depth of each surface below the ground line, m,
+        over slice sides and midpoints.
+    """
+    idx = np.asarray(index, dtype=int).ravel()
+    if idx.size and (idx.min() < 0 or idx.max() >= bank.n_surfaces):
+        raise ValueError(f"index: surface indices must lie in [0, {bank.n_surfaces}); got "
+                         f"{idx.min()}..{idx.max()} (realisations without a valid surface have -1; drop them)")
+    h_l = np.clip(bank.y_top_left[idx] - bank.y_base_left[idx], 0.0, None)
+    h_m = np.clip(bank.y_top[idx] - bank.y_base[idx], 0.0, None)
+    h_r = np.clip(bank.y_top_right[idx] - bank.y_base_right[idx], 0.0, None)
+    area = (bank.width[idx] * (h_l + 4.0 * h_m + h_r) / 6.0).sum(axis=1)
+    depth = np.maximum(np.maximum(h_l, h_r), h_m).max(axis=1)
+    return area, depth
+
+
+def _spread(v):
+    v = np.asarray(v, float)
+    if v.size == 0:
+        return None
+    return {"median": float(np.median(v)), "mean": float(v.mean()), "p05": float(np.percentile(v, 5)),
+            "p95": float(np.percentile(v, 95)), "min": float(v.min()), "max": float(v.max())}
+
+
+def _interval(est):
+    # The Wilson bounds at k = 0 or k = n are exactly pf in closed form; floating
+    # point can put them a rounding error on the wrong side (2e-19 > 0 seen).
+    lo, hi = (float(x) for x in est.ci)
+    return [min(lo, est.pf), max(hi, est.pf)]
+
+
+def _status(n, n_valid):
+    if n_valid == n:
+        return "ok"
+    if n_valid == 0:
+        return "no realisation gave a converged, admissible critical surface"
+    return f"{n - n_valid} of {n} realisations without a converged, admissible surface excluded from pf"
+
+
 def _simulation(case, det, hyp, *, n, n_jobs, quiet):
     """Spatially variable run (a) and the same with every θ → ∞ (b)."""
     from .simulate import simulate
@@ -73,26 +131,76 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
         est_fixed = estimate_pf(fixed, valid=fixed_valid) if fixed_valid.any() else None
         out[label] = {
             "realisations": int(n), "seed": seed, "wall_time_s": round(wall, 3),
-            "critical_surface_searched": {"pf": est.pf, "pf_interval_95": list(est.ci), "ci_method": est.ci_method,
+            "method": case.analysis["method"], "field_method": case.simulation.get("field_method"),
+            "averaging": case.simulation.get("averaging"),
+            "status": _status(int(n), int(est.n_valid)),
+            "critical_surface_searched": {"pf": est.pf, "pf_interval_95": _interval(est), "ci_method": est.ci_method,
                                           "n_valid": est.n_valid, "n_failed": est.n_fail,
                                           "n_without_admissible_surface": int(n - est.n_valid),
                                           "mean_fs": est.mean_fs, "std_fs": est.std_fs,
                                           "beta_from_pf": est.beta_from_pf, "beta_normal": est.beta_normal,
                                           "beta_lognormal": est.beta_lognormal},
-            "fixed_deterministic_surface": ({"pf": est_fixed.pf, "pf_interval_95": list(est_fixed.ci),
+            "fixed_deterministic_surface": ({"pf": est_fixed.pf, "pf_interval_95": _interval(est_fixed),
+                                             "ci_method": est_fixed.ci_method,
                                              "n_valid": est_fixed.n_valid, "mean_fs": est_fixed.mean_fs,
-                                             "std_fs": est_fixed.std_fs} if est_fixed is not None else
+                                             "std_fs": est_fixed.std_fs, "status": _status(int(n), int(est_fixed.n_valid))}
+                                            if est_fixed is not None else
                                             {"pf": None, "pf_interval_95": [None, None], "n_valid": 0,
                                              "mean_fs": None, "std_fs": None,
                                              "status": "no realisation gave a converged, admissible FS on this surface"}),
             "n_nonconverged": int(res.n_nonconverged), "n_inadmissible": int(res.n_inadmissible),
             "n_realisations_without_valid_surface": int(res.n_no_valid),
         }
-        arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": np.asarray(res.critical_index), "problem": prob}
+        crit = np.asarray(res.critical_index)
+        failed = np.flatnonzero(np.isfinite(fs) & (fs < 1.0) & (crit >= 0))
+        area, depth = sliding_mass_geometry(prob.bank, crit[failed])
+        out[label]["failure_geometry"] = {"n_failed": int(failed.size), "sliding_mass_area": _spread(area),
+                                          "max_depth": _spread(depth)}
+        arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": crit, "problem": prob,
+                         "area": area, "depth": depth}
+    out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     a, b = out["spatial"]["critical_surface_searched"], out["single_random_variable"]["critical_surface_searched"]
     if b["std_fs"] and b["std_fs"] > 0:
         out["variance_reduction_factor_of_fs"] = (a["std_fs"] / b["std_fs"]) ** 2
     return {"summary": out, "arrays": arrays}
+
+
+def _shown(fs, crit):
+    """Realisations drawn with their fields: the lowest FS and a typical one (FS nearest the median)."""
+    ok = np.flatnonzero(np.isfinite(fs) & (crit >= 0))
+    if ok.size == 0:
+        return []
+    low = int(ok[np.argmin(fs[ok])])
+    typ = int(ok[np.argmin(np.abs(fs[ok] - np.median(fs[ok])))])
+    picks = [("lowest FS", low)] + ([("typical (FS nearest the median)", typ)] if typ != low else [])
+    return [{"role": r, "realisation": k, "fs": float(fs[k]), "bank_index": int(crit[k])} for r, k in picks]
+
+
+def _field_figures(case, prob, shown, hyp):
+    """One figure per random property: its field in the realisations of ``shown``, each with its critical surface."""
+    from . import report as rp
+    from .simulate import realise_fields
+
+    if not shown:
+        return []
+    seed = int(case.simulation["seed"])
+    real = [(r, realise_fields(prob, seed, r["realisation"])) for r in shown]
+    grid = real[0][1][0]
+    out = []
+    for p in prob.properties:
+        if p.multiplier:
+            label, units = f"{p.material}: {p.prop} ÷ its deterministic value", "-"
+        else:
+            name, units = PROPERTY_LABELS.get(p.prop, (p.prop, "-"))
+            label = f"{p.material}: {name}"
+        panels = [{"values": fields_[p.key], "surface_xy": surface_xy(prob.bank, r["bank_index"]), "fs": r["fs"],
+                   "label": f"realisation {r['realisation']}, {r['role']}"} for r, (_, fields_) in real]
+        f = rp.plot_realisations(grid.x, grid.y, panels, label, units=units, ground_xy=case.section.ground,
+                                 ncols=1)
+        stem = "field_" + "".join(ch if ch.isalnum() else "_" for ch in p.key) + f"_{hyp}"
+        out.append((stem, f"Random field {p.key} in the realisation with the lowest FS and in a typical one, "
+                          f"each with its own critical surface, {hyp}", f, ""))
+    return out
 
 
 def _figures(case, det, rel, sim, fig_dir):
@@ -149,18 +257,32 @@ def _figures(case, det, rel, sim, fig_dir):
         prob = s["arrays"]["spatial"]["problem"]
         bank = prob.bank
         crit = s["arrays"]["spatial"]["crit"]
-        failed = np.flatnonzero(ok & (fs < 1.0))
+        figs += _field_figures(case, prob, s["summary"]["spatial"]["realisations_shown"], hyp)
+        failed = np.flatnonzero(ok & (fs < 1.0) & (crit >= 0))
+        x_edges = np.linspace(sec.x_min, sec.x_max, 81)
+        y_edges = np.linspace(sec.base_y, float(sec.ground[:, 1].max()), 41)
+        dens = np.zeros((80, 40))
+        idx, counts = np.unique(crit[failed], return_counts=True)
+        for j, cnt in zip(idx, counts):
+            xy = surface_xy(bank, int(j))
+            # Densified so that a cell the surface crosses between two slice sides still counts.
+            t = np.linspace(0.0, 1.0, 8, endpoint=False)
+            pts = np.vstack([xy[:-1] + (xy[1:] - xy[:-1]) * u for u in t] + [xy[-1:]])
+            H, _, _ = np.histogram2d(pts[:, 0], pts[:, 1], bins=[x_edges, y_edges])
+            dens += (H > 0) * cnt
+        f = rp.plot_failure_map(x_edges, y_edges, dens / len(fs), sec.ground,
+                                n_failed=int(failed.size), n_total=int(len(fs)))
+        text = ("" if failed.size else
+                f"No realisation failed (FS < 1) among {len(fs)}: the map is empty; pf is bounded above by its "
+                "95 % interval only.")
+        figs.append((f"failure_map_{hyp}", f"Failure map: where the critical surfaces of failed realisations lie, {hyp}",
+                     f, text))
+        area, depth = s["arrays"]["spatial"]["area"], s["arrays"]["spatial"]["depth"]
         if failed.size:
-            x_edges = np.linspace(sec.x_min, sec.x_max, 81)
-            y_edges = np.linspace(sec.base_y, float(sec.ground[:, 1].max()), 41)
-            dens = np.zeros((80, 40))
-            for k in failed:
-                xy = surface_xy(bank, int(crit[k]))
-                H, _, _ = np.histogram2d(xy[:, 0], xy[:, 1], bins=[x_edges, y_edges])
-                dens += H > 0
-            f = rp.plot_failure_map(x_edges, y_edges, dens / len(fs), sec.ground,
-                                    n_failed=int(failed.size), n_total=int(len(fs)))
-            figs.append((f"failure_map_{hyp}", f"Failure map: where the critical surfaces of failed realisations lie, {hyp}", f))
+            f = rp.plot_failure_geometry(area, depth)
+            figs.append((f"failure_geometry_{hyp}",
+                         f"Failure geometry: sliding-mass area and greatest depth of the failed critical surfaces, {hyp}",
+                         f, ""))
     from fields import variance_function, get_model
     T = np.logspace(-1.5, 1.5, 60)
     gam = {}
@@ -186,7 +308,8 @@ def _figures(case, det, rel, sim, fig_dir):
         if scen:
             f = rp.plot_risk_chart(scen, risk.get("tolerability", []), consequence_label=risk["consequence_label"])
             figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
-    for stem, _, fig in figs:
+    figs = [f if len(f) == 4 else (*f, "") for f in figs]
+    for stem, _, fig, _ in figs:
         rp.save_figure(fig, fig_dir, stem)
     return figs
 
@@ -238,8 +361,10 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) ->
         figs = _figures(case, det, rel, sim, stage / "figures")
         _tables(stage, results, sim)
         summary_rows = _summary_rows(results)
-        sections = [{"heading": cap, "text": "", "figures": [{"figure": f, "caption": cap}], "tables": []}
-                    for _, cap, f in figs]
+        # The saved PNGs are embedded as they are: rendering every figure a third time costs ~0.4 s each.
+        sections = [{"heading": cap, "text": text,
+                     "figures": [{"figure": stage / "figures" / f"{stem}.png", "caption": cap}], "tables": []}
+                    for stem, cap, _, text in figs]
         rp.write_report(stage / "report.html", case.title, summary_rows, sections,
                         caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n)})
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
@@ -280,6 +405,13 @@ def _summary_rows(results) -> list:
         c = s["spatial"]["fixed_deterministic_surface"]
         if c["pf"] is not None:
                 rows.append((f"pf, {h}, spatially variable, fixed deterministic surface", c["pf"], "-", "single-surface pf ≤ system pf"))
+        g = s["spatial"].get("failure_geometry")
+        if g and g["n_failed"]:
+            rows.append((f"sliding-mass area of failures, {h}, median", g["sliding_mass_area"]["median"], "m²/m",
+                         f"5–95 %: {g['sliding_mass_area']['p05']:.3g} – {g['sliding_mass_area']['p95']:.3g}, "
+                         f"{g['n_failed']} failed realisations"))
+            rows.append((f"greatest depth of failed surfaces, {h}, median", g["max_depth"]["median"], "m",
+                         f"5–95 %: {g['max_depth']['p05']:.3g} – {g['max_depth']['p95']:.3g}"))
         if "variance_reduction_factor_of_fs" in s:
             rows.append((f"variance-reduction factor of FS, {h}", s["variance_reduction_factor_of_fs"], "-",
                          "Var FS (spatial) / Var FS (θ → ∞)"))
