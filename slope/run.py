@@ -196,7 +196,7 @@ def _field_figures(case, prob, shown, hyp):
         panels = [{"values": fields_[p.key], "surface_xy": surface_xy(prob.bank, r["bank_index"]), "fs": r["fs"],
                    "label": f"realisation {r['realisation']}, {r['role']}"} for r, (_, fields_) in real]
         f = rp.plot_realisations(grid.x, grid.y, panels, label, units=units, ground_xy=case.section.ground,
-                                 ncols=1)
+                                 ncols=2)
         stem = "field_" + "".join(ch if ch.isalnum() else "_" for ch in p.key) + f"_{hyp}"
         out.append((stem, f"Random field {p.key} in the realisation with the lowest FS and in a typical one, "
                           f"each with its own critical surface, {hyp}", f, ""))
@@ -314,6 +314,20 @@ def _figures(case, det, rel, sim, fig_dir):
     return figs
 
 
+def _reliability_status(summ):
+    """Give every reliability estimate a status beside its numbers (in place)."""
+    if not summ:
+        return
+    for m, r in summ.items():
+        if not isinstance(r, dict) or m in ("tornado",):
+            continue
+        if m == "form":
+            r["status"] = "ok" if r.get("converged") else "FORM iteration did not converge: beta and pf not reliable"
+            continue
+        bad = int(r.get("n_nonconverged", 0)) + int(r.get("n_inadmissible", 0))
+        r["status"] = "ok" if bad == 0 else f"{bad} evaluations not converged or inadmissible, excluded"
+
+
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
@@ -347,6 +361,8 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) ->
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
         sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet) for h in case.analysis["hypotheses"]}
+        for r in rel.values():
+            _reliability_status(r["summary"] if r else None)
         results = {
             "slipfield_results_version": RESULTS_VERSION,
             "case": {"path": str(case_path), "title": case.title, "note": case.data["case"].get("note", "")},
