@@ -270,7 +270,8 @@ def _figures(case, det, rel, sim, fig_dir):
             pts = np.vstack([xy[:-1] + (xy[1:] - xy[:-1]) * u for u in t] + [xy[-1:]])
             H, _, _ = np.histogram2d(pts[:, 0], pts[:, 1], bins=[x_edges, y_edges])
             dens += (H > 0) * cnt
-        f = rp.plot_failure_map(x_edges, y_edges, dens / len(fs), sec.ground,
+        # Normalised by the failed realisations, as the colour bar reads (a share among failures).
+        f = rp.plot_failure_map(x_edges, y_edges, dens / max(int(failed.size), 1), sec.ground,
                                 n_failed=int(failed.size), n_total=int(len(fs)))
         text = ("" if failed.size else
                 f"No realisation failed (FS < 1) among {len(fs)}: the map is empty; pf is bounded above by its "

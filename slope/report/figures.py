@@ -999,6 +999,9 @@ def plot_failure_map(
         fig, ax = _axes(ax, figsize=(7.0, 3.6))
         shown = np.ma.masked_where(~np.isfinite(d) | (d <= 0), d)
         mesh = ax.pcolormesh(xe, ye, shown.T, cmap=DENSITY_CMAP, shading="flat", rasterized=True)
+        if shown.count() == 0:
+            # No failure: an autoscaled empty bar would read -0.1 .. 0.1; a share lies in [0, 1].
+            mesh.set_clim(0.0, 1.0)
         cbar = fig.colorbar(mesh, ax=ax, location="bottom", shrink=0.6, aspect=40)
         cbar.set_label("share of failed realisations crossing the cell")
         ax.plot(g[:, 0], g[:, 1], color=PALETTE["black"], linewidth=1.2, label="ground")
