@@ -1,0 +1,155 @@
+"""Searches of slope.search against closed forms, with their bookkeeping.
+
+Closed forms used: a cohesionless dry slope has its minimum FS = tan phi' /
+tan beta on vanishingly shallow surfaces (infinite slope, Skempton & DeLory
+1957; Duncan, Wright & Brandon 2014); a circle or block can only approach it
+from above. Grids are small to keep the suite fast.
+"""
+import numpy as np
+import pytest
+
+from slope.errors import InputError
+from slope.examples import simple_slope
+from slope.search import (block_surfaces, centre_lattice, critical_surface, evaluate_surfaces,
+                          kinematic_reason, refine, weak_layer, window)
+from slope.section import Section
+from slope.strength import Material
+from slope.surfaces import Circle, Polyline, cut_ground
+
+BETA_COT = 2.0
+PHI = 30.0
+F_INF = np.tan(np.radians(PHI)) * BETA_COT  # tan phi / tan beta = 1.1547
+
+
+def _sand():
+    return simple_slope(10.0, BETA_COT, 1.5, material=Material("sand", unit_weight=19.0, c=0.0, phi=PHI))
+
+
+def _check_bookkeeping(r):
+    # every trial has an FS entry; NaN exactly where the bank rejected it, and
+    # every trial not counted is accounted for by at least one reason
+    assert r.fs.shape == (r.n_trials,) and r.counted.shape == (r.n_trials,)
+    np.testing.assert_array_equal(np.isnan(r.fs), ~r.bank.valid)
+    n_geom = sum(v for k, v in r.rejected.items() if k in set(r.bank.reason[~r.bank.valid]))
+    assert n_geom == int((~r.bank.valid).sum())
+    assert sum(r.rejected.values()) >= r.n_trials - int(r.counted.sum())
+    assert r.fs_min == pytest.approx(np.nanmin(np.where(r.counted, r.fs, np.inf)))
+    assert r.summary().startswith(r.search)
+
+
+def test_centre_lattice_cohesionless_slope_tends_to_infinite_slope():
+    # A search can only approach tan phi/tan beta from above; a lattice reaching
+    # shallow circles near the face gets within 5 % (shallow circles of finite
+    # radius keep some curvature, which raises F).
+    sec = _sand()
+    r = centre_lattice(sec, x_range=(0.0, 25.0), y_range=(12.0, 60.0), nx=12, ny=12, n_radii=8,
+                       tangent_range=(0.5, 9.0))
+    _check_bookkeeping(r)
+    assert r.rejected  # some lattice circles miss the ground: they are counted, not dropped
+    assert F_INF * (1 - 1e-6) <= r.fs_min <= 1.05 * F_INF
+
+
+def test_window_cohesionless_slope_and_flat_arcs():
+    sec = _sand()
+    r = window(sec, upslope=(14.0, 20.0), downslope=(1.0, 6.0), n_up=5, n_down=5, n_radii=8,
+               min_angle=2.0, max_angle=40.0)
+    _check_bookkeeping(r)
+    # entries/exits on the face itself: nearly planar arcs reach tan phi/tan beta within 2 %
+    assert F_INF * (1 - 1e-6) <= r.fs_min <= 1.02 * F_INF
+
+
+def _refined():
+    sec = simple_slope(10.0, 2.0, 1.0, material=Material("soil", unit_weight=20.0, c=10.0, phi=20.0))
+    first = centre_lattice(sec, nx=8, ny=8, n_radii=6, method="spencer")
+    return sec, first, refine(sec, first.critical, n_vertices=6, method="spencer", max_evaluations=120)
+
+
+def test_refine_never_worse_than_its_start_polyline():
+    sec, first, r = _refined()
+    assert len(r.fs) == 2 and r.counted.all()
+    assert r.fs[1] <= r.fs[0] + 1e-12
+    assert r.history == sorted(r.history, reverse=True)
+    xs, ys = r.surfaces[1].points.T
+    assert kinematic_reason(sec, xs, ys) == ""
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "refine starts from the polyline inscribed in the circle (n_vertices chords), whose FS is above the "
+    "circle's (here 6 vertices: start polyline ~1.40 vs circle 1.379, Spencer, Griffiths & Lane slope); "
+    "120 Nelder-Mead evaluations do not win the difference back, and refine never compares with the "
+    "circle itself. Engine fix (slope/search.py, not this helper's file): keep the start circle as a "
+    "candidate or start from a denser polyline"))
+def test_refine_never_worse_than_its_starting_circle():
+    sec, first, r = _refined()
+    assert r.fs_min <= first.fs_min * (1 + 1e-6)
+
+
+def test_kinematic_checks_reject_inadmissible_polylines():
+    sec = simple_slope(10.0, 2.0, 1.0)  # face rises to the right: mass moves toward -x
+    xs = np.array([-2.0, 5.0, 12.0, 24.0])
+    ok_y = np.array([0.0, -2.0, 0.5, 10.0])
+    assert kinematic_reason(sec, xs, ok_y) == ""
+    # traversed in the direction of motion (from x = 24 toward -x) the base
+    # descends at 5/12 and then 8/7: steepening downward is a kink that locks
+    # the mass against the part behind it
+    kink = np.array([0.0, -3.0, 5.0, 10.0])
+    assert kinematic_reason(sec, xs, kink) == "base inclination increases in the direction of motion"
+    assert kinematic_reason(sec, xs, np.array([0.0, 3.0, 5.5, 10.0])) == "a vertex lies above the ground line"
+    assert kinematic_reason(sec, xs[[0, 2, 1, 3]], ok_y) == "vertices out of order"
+    # the same kink is refused by refine's objective: a start on it is unusable
+    with pytest.raises(InputError, match="start surface is not usable"):
+        refine(sec, Polyline(np.c_[xs, kink]), n_vertices=4, max_evaluations=5)
+
+
+def test_weak_layer_block_against_sliding_block_force_balance():
+    # Long straight slope (tan beta = 1/3) with a thin cohesionless seam
+    # (phi = 12 deg) 1 m below the ground and parallel to it, under a
+    # cohesionless cover (phi = 20 deg). Sliding-block force balance derived
+    # here: along the base, F = (N tan phi_s + Pp) / (T + Pa) with N = W cos b,
+    # T = W sin b, W the weight of the block over its base, and Rankine thrusts
+    # Pa, Pp = 1/2 gamma h^2 K on the vertical ends (h = vertical depth of the
+    # base, Ka = tan^2(45 - phi/2), Kp = 1/Ka). It neglects the wedges' own
+    # weight and the ground's inclination, hence 8 %. Always F >= the block
+    # part alone would give without the passive help minus the active push.
+    t = 1.0 / 3.0
+    ground = [[0.0, 60.0 * t + 10.0], [10.0, 60.0 * t + 10.0], [70.0, 10.0], [90.0, 10.0]]
+    seam_top = [[0.0, 60 * t + 9.0], [10.0, 60 * t + 9.0], [70.0, 9.0], [90.0, 9.0]]
+    seam_bot = [[0.0, 60 * t + 8.4], [10.0, 60 * t + 8.4], [70.0, 8.4], [90.0, 8.4]]
+    mats = {"soil": Material("soil", unit_weight=20.0, c=0.0, phi=20.0),
+            "seam": Material("seam", unit_weight=20.0, c=0.0, phi=12.0)}
+    sec = Section.from_layers(ground, [("upper", "soil", seam_top), ("seam", "seam", seam_bot),
+                                       ("lower", "soil", None)], mats, base_y=-5.0)
+    r = weak_layer(sec, zone="seam", x_from=12.0, x_to=68.0, n_positions=5, n_lengths=5)
+    _check_bookkeeping(r)
+    p = r.critical.points
+    (xa, ya), (xb, yb) = p[1], p[2]  # the base along the seam
+    h = float(sec.ground_y(xa) - ya)
+    beta = np.arctan(t)
+    W = 20.0 * h * (xb - xa)
+    ka = np.tan(np.radians(45 - 10.0)) ** 2
+    pa, pp = 0.5 * 20.0 * h * h * ka, 0.5 * 20.0 * h * h / ka
+    f_block = (W * np.cos(beta) * np.tan(np.radians(12.0)) + pp) / (W * np.sin(beta) + pa)
+    assert r.fs_min == pytest.approx(f_block, rel=0.08)
+    # the infinite slope on the seam (tan phi_s / tan beta) is the long-block limit
+    assert r.fs_min >= np.tan(np.radians(12.0)) / t
+    # the critical block's base runs in the seam
+    b = r.bank.subset([r.critical_index])
+    mid = slice(b.n_slices // 4, 3 * b.n_slices // 4)
+    assert set(np.asarray(b.zone_names)[b.zone[0, mid]]) == {"seam"}
+    assert all(isinstance(q, Polyline) for q in block_surfaces(sec, "seam", 12.0, 68.0, 3, 3))
+
+
+@pytest.mark.parametrize("call,word", [
+    (lambda s: cut_ground(s, Circle(10.0, 40.0, 5.0)), "does not cut the ground line twice"),
+    (lambda s: window(s, upslope=(100.0, 120.0), downslope=(0.0, 5.0)), "upslope window"),
+    (lambda s: window(s, upslope=(12.0, 20.0), downslope=(0.0, 5.0), min_angle=50.0, max_angle=40.0),
+     "min_angle"),
+    (lambda s: weak_layer(s, zone="peat", x_from=0.0, x_to=10.0), "zone 'peat'"),
+    (lambda s: centre_lattice(s, nx=0), "nx"),
+    (lambda s: evaluate_surfaces(s, Circle(10.0, 20.0, 15.0), tolerate=("tiny",)), "tolerate"),
+    (lambda s: refine(s, Circle(10.0, 20.0, 15.0), n_vertices=2), "n_vertices"),
+    (lambda s: critical_surface(s, search="grid"), "search"),
+])
+def test_bad_input_is_named(call, word):
+    with pytest.raises(InputError, match=word):
+        call(simple_slope(10.0, 2.0, 1.0))
