@@ -101,8 +101,9 @@ def _long_slope(L, beta=20.0, z=3.0, hw=None, ru=None):
     return sec, surf
 
 
+@pytest.mark.parametrize("method", ["ordinary", "bishop"])
 @pytest.mark.parametrize("case", ["seepage", "ru"])
-def test_infinite_slope_long_polyline_richardson(case):
+def test_infinite_slope_long_polyline_richardson(case, method):
     # Closed form (Skempton & DeLory 1957; Duncan, Wright & Brandon 2014):
     # F = [c' + (W/b cos^2 b - u) tan phi'] / (W/b sin b cos b); seepage parallel
     # to the slope: u = gw hw cos^2 b; ru: u = ru gamma z. The end wedges add a
@@ -120,7 +121,7 @@ def test_infinite_slope_long_polyline_richardson(case):
     f = []
     for L in (400.0, 800.0):
         sec, s = _long_slope(L, **kw)
-        r = evaluate_surfaces(sec, s, method="ordinary", n_slices=int(L / 2.5))
+        r = evaluate_surfaces(sec, s, method=method, n_slices=int(L / 2.5))
         assert r.counted[0]
         f.append(r.fs[0])
     assert abs(f[1] - exact) < abs(f[0] - exact)  # converging toward the closed form
