@@ -24,6 +24,7 @@ import numpy as np
 
 from .analysis import deterministic, random_problem, single_variable_reliability, surface_xy
 from .case import load_case
+from .errors import InputError
 from .reliability.stats import convergence_history, estimate_pf
 
 __all__ = ["run_case", "sliding_mass_geometry", "RESULTS_VERSION"]
@@ -203,7 +204,7 @@ def _field_figures(case, prob, shown, hyp):
     return out
 
 
-def _figures(case, det, rel, sim, fig_dir):
+def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
     """Make and save the figures; returns [(heading, caption, Figure)]."""
     from . import report as rp
 
@@ -311,7 +312,7 @@ def _figures(case, det, rel, sim, fig_dir):
             figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
     figs = [f if len(f) == 4 else (*f, "") for f in figs]
     for stem, _, fig, _ in figs:
-        rp.save_figure(fig, fig_dir, stem)
+        rp.save_figure(fig, fig_dir, stem, formats=formats)
     return figs
 
 
@@ -329,7 +330,8 @@ def _reliability_status(summ):
         r["status"] = "ok" if bad == 0 else f"{bad} evaluations not converged or inadmissible, excluded"
 
 
-def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) -> dict:
+def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
+             figure_formats=("png", "svg")) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -343,6 +345,11 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) ->
         Override ``simulation.realisations``.
     jobs : int, optional
         Override ``simulation.jobs``.
+    quiet : bool
+        No progress bars.
+    figure_formats : sequence of str
+        Files written per figure under ``figures/``: ``"png"`` (always, it is
+        what the report embeds) and optionally ``"svg"``.
 
     Returns
     -------
@@ -352,6 +359,10 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) ->
     from . import report as rp
 
     t_start = time.perf_counter()
+    formats = tuple(dict.fromkeys(("png", *figure_formats)))
+    if set(formats) - {"png", "svg"}:
+        raise InputError(f"figure_formats: {sorted(set(formats) - {'png', 'svg'})} not supported; "
+                         "choose from 'png' and 'svg'")
     case = load_case(case_path)
     n = int(realisations or case.simulation["realisations"])
     n_jobs = int(jobs or case.simulation["jobs"])
@@ -375,7 +386,7 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True) ->
             "spatial_simulation": {h: (s["summary"] if s else None) for h, s in sim.items()},
         }
         (stage / "figures").mkdir()
-        figs = _figures(case, det, rel, sim, stage / "figures")
+        figs = _figures(case, det, rel, sim, stage / "figures", formats)
         _tables(stage, results, sim)
         summary_rows = _summary_rows(results)
         # The saved PNGs are embedded as they are: rendering every figure a third time costs ~0.4 s each.

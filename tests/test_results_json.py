@@ -137,7 +137,7 @@ def run_output(request, tmp_path_factory):
     name = request.param
     if name not in _RUNS:
         out = tmp_path_factory.mktemp("results-json") / "out"
-        run_case(CASES / name, out, realisations=N_REAL, jobs=1)
+        run_case(CASES / name, out, realisations=N_REAL, jobs=1, figure_formats=("png",))  # SVG: test_run_end_to_end
         _RUNS[name] = out
     return _RUNS[name]
 

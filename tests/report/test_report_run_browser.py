@@ -35,7 +35,7 @@ ARTEFACTS = Path(os.environ.get("SLIPFIELD_ARTEFACTS") or ROOT / "tests" / "arte
 @pytest.fixture(scope="module")
 def run_output(tmp_path_factory):
     out = tmp_path_factory.mktemp("run-report") / "out"
-    run_case(ROOT / "cases" / "levee_soft_clay.toml", out, realisations=40, jobs=1)
+    run_case(ROOT / "cases" / "levee_soft_clay.toml", out, realisations=40, jobs=1, figure_formats=("png",))
     return out
 
 
