@@ -4,10 +4,13 @@ Outputs (all written into a staging folder beside ``out`` and moved into
 place only when everything succeeded, so a failed run leaves nothing
 half-written and an earlier result intact):
 
-- ``results.json`` — every number with its units, method and status;
+- ``results.json`` — every number with its units, method and status (structure:
+  ``docs/results-json.md``);
 - ``deterministic.csv``, ``reliability.csv``, ``simulation.csv``,
   ``fs_realisations.csv`` — tables;
-- ``figures/*.png`` and ``*.svg``;
+- ``figures/*.png`` and ``*.svg``: section, FS distributions, tornado, pf convergence and
+  comparison, each random field in the lowest-FS and a typical realisation with its critical
+  surface, failure map, failure geometry (sliding-mass area, depth), γ(T), risk chart;
 - ``report.html`` — a self-contained page (figures embedded).
 """
 from __future__ import annotations
