@@ -8,6 +8,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import traceback
 
 from fields.errors import InputError
 
@@ -45,6 +46,68 @@ def _cmd_check(args) -> int:
     return 0
 
 
+def _cmd_simulate(args) -> int:
+    from .commands import simulate_case
+
+    r = simulate_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, batch=args.batch,
+                      seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
+                      export_fields=args.export_fields, export_format=args.export_format,
+                      progress=not args.quiet)
+    if args.json:
+        print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations", "resumed",
+                                             "realisations_from_store", "simulation")}, indent=2))
+    else:
+        s = r["simulation"]
+        lo, hi = s["pf_interval_95_wilson"]
+        fmt = lambda v: "n/a" if v is None else f"{v:.4f}"  # noqa: E731
+        print(f"{r['case']['title']} ({r['hypothesis']}, seed {r['seed']}): {r['realisations']} realisations"
+              + (f", {r['realisations_from_store']} from the store" if r["resumed"] else "")
+              + f"; results in {args.out} (results.json, fs_realisations.csv)")
+        print(f"  pf {fmt(s['pf'])} [95 % {fmt(lo)}, {fmt(hi)}]  mean FS {fmt(s['mean_fs'])}  "
+              f"std FS {fmt(s['std_fs'])}  no valid surface {s['n_no_valid_surface']}")
+        if args.export_fields:
+            print(f"  fields of every realisation in {args.export_fields} ({args.export_format}, fields.json)")
+    return 0
+
+
+def _cmd_sweep(args) -> int:
+    from .commands import sweep_case
+
+    r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
+                   realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
+                   hypothesis=args.hypothesis, scheduler=args.scheduler, progress=not args.quiet)
+    if args.json:
+        print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations_per_point", "rows")},
+                         indent=2))
+    else:
+        print(f"{r['case']['title']} ({r['hypothesis']}): {len(r['rows'])} grid points x "
+              f"{r['realisations_per_point']} realisations; results in {args.out} (sweep.csv, sweep.json, figures/)")
+        for row in r["rows"]:
+            pf = "n/a" if row["pf"] is None else f"{row['pf']:.4f}"
+            th = lambda v: "inf" if v is None or v == float("inf") else f"{v:g}"  # noqa: E731 - JSON has no inf
+            print(f"  θh {th(row['theta_h'])} m, θv {th(row['theta_v'])} m: pf {pf}")
+    return 0
+
+
+def _sim_options(p, *, sweep=False):
+    p.add_argument("case", help="case file (.toml)")
+    p.add_argument("--out", required=True, help="output folder")
+    p.add_argument("--realisations", type=int, default=None,
+                   help="realisations" + (" per grid point (default sweep.realisations, then "
+                                          "simulation.realisations)" if sweep else
+                                          " (default simulation.realisations)"))
+    p.add_argument("--jobs", type=int, default=None, help="local worker processes (default simulation.jobs)")
+    p.add_argument("--batch", type=int, default=None,
+                   help="realisations evaluated together (memory; default simulation.batch)")
+    p.add_argument("--seed", type=int, default=None, help="run seed (default simulation.seed)")
+    p.add_argument("--hypothesis", choices=("drained", "undrained"), default=None,
+                   help="drainage hypothesis (default: the first of analysis.hypotheses)")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="run on a dask.distributed scheduler, e.g. tcp://host:8786")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="slipfield", description="Probability of failure of slopes with spatially "
                                 "variable soil strength.")
@@ -60,6 +123,23 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("check", help="check a case file and report every problem at once")
     c.add_argument("case")
     c.set_defaults(func=_cmd_check)
+    s = sub.add_parser("simulate", help="spatially variable simulation only, resumable; optional export of "
+                       "every realisation's fields")
+    _sim_options(s)
+    s.add_argument("--resume", action="store_true", help="continue the run stored in --out (same case, "
+                   "hypothesis and seed) up to --realisations")
+    s.add_argument("--export-fields", default=None, metavar="DIR2",
+                   help="write each realisation's property fields on the section grid, with its FS, to DIR2")
+    s.add_argument("--export-format", choices=("xdmf", "vtu", "npz"), default="xdmf",
+                   help="format of --export-fields (default xdmf: one time series per property)")
+    s.set_defaults(func=_cmd_simulate)
+    w = sub.add_parser("sweep", help="pf over a grid of scales of fluctuation (common random numbers)")
+    _sim_options(w, sweep=True)
+    w.add_argument("--theta-h", default=None, help="θh values, m, comma separated, inf allowed "
+                   "(default sweep.theta_h of the case)")
+    w.add_argument("--theta-v", default=None, help="θv values, m, comma separated, inf allowed "
+                   "(default sweep.theta_v of the case)")
+    w.set_defaults(func=_cmd_sweep)
     from fields.cli import add_fields_parser
     add_fields_parser(sub)
     return p
@@ -75,6 +155,11 @@ def main(argv=None) -> int:
         return 2
     except KeyboardInterrupt:
         print("slipfield: interrupted", file=sys.stderr)
+        return 1
+    except Exception as exc:  # noqa: BLE001 - an internal failure: report it, exit 1
+        traceback.print_exc(file=sys.stderr)
+        print(f"slipfield: internal error: {type(exc).__name__}: {exc} (please report it with the case file)",
+              file=sys.stderr)
         return 1
 
 
