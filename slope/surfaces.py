@@ -118,7 +118,8 @@ def circle_cuts(section, xc, yc, r):
     x1, x2 : ndarray (m,), m
         Left and right cuts (NaN when rejected).
     reason : ndarray (m,) of str
-        Empty when the arc cuts the ground exactly twice with the mass between.
+        Empty when the arc cuts the ground twice with the mass between, or
+        more often and the arc from the highest cut to its neighbour is taken.
     """
     xc, yc, r = (np.asarray(a, dtype=float)[:, None] for a in (xc, yc, r))
     g = section.ground
@@ -146,7 +147,28 @@ def circle_cuts(section, xc, yc, r):
     x1, x2 = xs[:, 0].copy(), np.where(n >= 2, xs[:, 1], np.nan)
     reason = np.full(len(n), "", dtype=object)
     reason[n < 2] = "does not cut the ground line twice"
-    reason[n > 2] = "cuts the ground line more than twice"
+    # more than two cuts (a toe circle of a steep face whose arc dips below
+    # toe level beyond the toe, or an arc through a gully): the slip surface
+    # is the arc from the upslope entry (the highest cut) to the next cut on
+    # the side where the arc runs below the ground; the lens of soil beyond
+    # that exit does not move (Taylor 1937's toe circles are of this kind)
+    for i in np.flatnonzero(n > 2):
+        cut = xs[i, :n[i]]
+        gy = section.ground_y(cut)
+        top = int(np.argmax(gy))
+        best = None
+        for a, b in ((top - 1, top), (top, top + 1)):
+            if a < 0 or b >= len(cut):
+                continue
+            xm_ = 0.5 * (cut[a] + cut[b])
+            ym_ = yc[i, 0] - np.sqrt(max(r[i, 0] ** 2 - (xm_ - xc[i, 0]) ** 2, 0.0))
+            if ym_ < section.ground_y(xm_) and (best is None or cut[b] - cut[a] > best[1] - best[0]):
+                best = (cut[a], cut[b])
+        if best is None:
+            reason[i] = "cuts the ground line more than twice"
+        else:
+            x1[i], x2[i] = best
+            n[i] = 2
     ok = n == 2
     xm = 0.5 * (x1 + x2)
     with np.errstate(invalid="ignore"):

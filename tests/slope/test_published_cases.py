@@ -16,7 +16,7 @@ from slope.methods import factor_of_safety
 from slope.search import centre_lattice, evaluate_surfaces, window
 from slope.section import Section, Zone
 from slope.strength import Material, base_strength
-from slope.surfaces import Circles, Polyline
+from slope.surfaces import Circle, Circles, Polyline
 from slope.water import Water
 
 PHI0_TOL = ("negative-normal", "thrust-outside", "small-m-alpha")  # m_alpha = cos a is harmless for phi = 0
@@ -70,7 +70,7 @@ def _taylor_ns(beta):
     return 50.0 / (20.0 * 10.0 * r.fs_min)
 
 
-@pytest.mark.parametrize("beta,ns", [(90, 0.261), (60, 0.191), (53.13, 0.181)])
+@pytest.mark.parametrize("beta,ns", [(90, 0.261), (75, 0.219), (60, 0.191), (53.13, 0.181)])
 def test_taylor_stability_numbers(beta, ns):
     # 2 %: Taylor's numbers are given to three figures from his own friction-
     # circle construction; the window search approaches the minimum from above
@@ -78,14 +78,29 @@ def test_taylor_stability_numbers(beta, ns):
     assert _taylor_ns(beta) == pytest.approx(ns, rel=0.02)
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "engine limitation, not the reference: an independent toe-circle integration (moment of the mass "
-    "right of the toe, phi = 0) gives Ns = 0.2191 at 75 deg (0.2610 at 90 deg), confirming Taylor's 0.219; "
-    "its critical circle (centre 0.47H beyond the toe, 1.66H up) dips below toe level beyond the toe, so "
-    "it cuts the ground three times and slope.bank rejects it ('cuts the ground line more than twice'); "
-    "the best admissible circle gives 0.212. Fix: take the arc from the upslope entry to the next cut"))
-def test_taylor_75_degrees():
-    assert _taylor_ns(75) == pytest.approx(0.219, rel=0.02)
+def test_toe_circle_dipping_below_toe_level_is_the_arc_to_the_toe():
+    # A toe circle whose arc continues below toe level beyond the toe cuts the
+    # ground three times; the slip surface is the arc from the crest entry to
+    # the toe (Taylor 1937's toe circles). Reference: phi = 0 statics of the
+    # mass right of the toe, F = su L R / (gamma * moment of the weight),
+    # integrated here independently of the slice engine (20,000 strips).
+    H, beta, su, gam = 10.0, 75.0, 50.0, 20.0
+    cot = 1.0 / np.tan(np.radians(beta))
+    sec = simple_slope(H, cot, 3.0, material=Material("clay", unit_weight=gam, su_model="constant", su=su))
+    xc, yc = -0.473 * H, 1.66 * H
+    R = np.hypot(xc, yc)                      # through the toe (0, 0)
+    xe = xc + np.sqrt(R ** 2 - (H - yc) ** 2)  # entry on the crest
+    xs = np.linspace(0.0, xe, 20001)
+    xm = 0.5 * (xs[1:] + xs[:-1])
+    h = np.clip(xm / (H * cot), 0, 1) * H - (yc - np.sqrt(R ** 2 - (xm - xc) ** 2))
+    moment = gam * np.sum(h * np.diff(xs) * (xm - xc))
+    arc = R * abs(np.arctan2(H - yc, xe - xc) - np.arctan2(-yc, -xc))
+    exact = su * arc * R / moment
+    r = evaluate_surfaces(sec, Circle(xc, yc, R), method="ordinary", hypothesis="undrained", n_slices=400,
+                          tolerate=PHI0_TOL)
+    assert r.counted[0], r.rejected
+    # 0.2 %: 400 slices against 20,000 strips, both midpoint rules
+    assert r.fs[0] == pytest.approx(exact, rel=2e-3)
 
 
 # ------------------------------------------------------ infinite slope --
