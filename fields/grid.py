@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
+from .errors import InputError, finite_float
 
 __all__ = ["RegularGrid"]
 
@@ -39,14 +39,7 @@ class RegularGrid:
 
     def __post_init__(self):
         for label in ("x0", "y0"):
-            v = getattr(self, label)
-            try:
-                fv = float(v)
-            except (TypeError, ValueError):
-                raise InputError(f"grid {label} must be a number (m), got {v!r}") from None
-            if not math.isfinite(fv):
-                raise InputError(f"grid {label} must be finite (m), got {v!r}")
-            object.__setattr__(self, label, fv)
+            object.__setattr__(self, label, finite_float(getattr(self, label), f"grid {label}", "m"))
         for label in ("nx", "ny"):
             v = getattr(self, label)
             if isinstance(v, bool) or int(v) != v or int(v) < 1:

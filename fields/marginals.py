@@ -39,7 +39,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import optimize, special, stats
 
-from .errors import InputError
+from .errors import InputError, finite_float
 
 __all__ = [
     "Marginal",
@@ -169,13 +169,7 @@ class Marginal:
 
 # ---------------------------------------------------------------------------
 def _finite(value, what, name):
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name}: {what} must be a number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise InputError(f"{name}: {what} must be finite, got {value!r}")
-    return v
+    return finite_float(value, f"{name}: {what}")
 
 
 def _spread(name, mean, cov, std, *, positive_mean=False):

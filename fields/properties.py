@@ -51,12 +51,11 @@ whatever the batch, and zones/properties never share noise.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
+from .errors import InputError, finite_float
 from .generators import FieldGenerator, make_generator
 from .grid import RegularGrid
 from .marginals import Marginal, make_marginal, nataf_matrix
@@ -85,14 +84,7 @@ class DepthTrend:
 
     def __post_init__(self):
         for label in ("gradient", "y_ref"):
-            v = getattr(self, label)
-            try:
-                fv = float(v)
-            except (TypeError, ValueError):
-                raise InputError(f"trend {label} must be a number, got {v!r}") from None
-            if not math.isfinite(fv):
-                raise InputError(f"trend {label} must be finite, got {v!r}")
-            object.__setattr__(self, label, fv)
+            object.__setattr__(self, label, finite_float(getattr(self, label), f"trend {label}"))
 
     def mean_at(self, m0, y):
         """Mean at elevations ``y`` (m): ``m0 + gradient * (y_ref - y)``."""

@@ -28,6 +28,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import InputError
+from .run import _jsonable
 
 __all__ = ["simulate_case", "sweep_case", "export_realisations", "parse_theta_list", "EXPORT_FORMATS"]
 
@@ -40,24 +41,6 @@ _STORE = "store"
 
 
 # --------------------------------------------------------------- helpers
-def _jsonable(v):
-    """Plain JSON types; non-finite floats become null (JSON has no NaN)."""
-    if isinstance(v, dict):
-        return {str(k): _jsonable(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_jsonable(x) for x in v]
-    if isinstance(v, np.ndarray):
-        return _jsonable(v.tolist())
-    if isinstance(v, (bool, np.bool_)):
-        return bool(v)
-    if isinstance(v, (np.integer,)):
-        return int(v)
-    if isinstance(v, (float, np.floating)):
-        f = float(v)
-        return f if math.isfinite(f) else None
-    return v
-
-
 def _write_json(path: Path, obj) -> None:
     from .report._files import atomic_write_text
 

@@ -39,6 +39,7 @@ CAUTION = ("slipfield's results support, and do not replace, engineering judgeme
 
 
 def _jsonable(v):
+    """Plain JSON types; non-finite floats become null (JSON has no NaN)."""
     if isinstance(v, dict):
         return {str(k): _jsonable(x) for k, x in v.items()}
     if isinstance(v, (list, tuple)):
