@@ -520,8 +520,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     from . import report as rp
     from .case import load_case
     from .run import CAUTION
-    from .simulate import simulate
-    from .simulate.studies import _with_thetas
+    from .simulate import theta_sweep
 
     t0 = time.perf_counter()
     case = load_case(case_path)
@@ -538,25 +537,11 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: is a file; give a folder")
-    rows, cache = [], {}
     with _scheduler(scheduler) as client:
-        for th in grid_vals["theta_h"]:
-            for tv in grid_vals["theta_v"]:
-                eff = (math.inf, math.inf) if math.isinf(th) or math.isinf(tv) else (th, tv)
-                if eff not in cache:
-                    p = _with_thetas(prob, [eff] * len(prob.properties))
-                    cache[eff] = simulate(p, n, seed, n_jobs=n_jobs, batch=block, progress=progress,
-                                          scheduler=client)
-                res = cache[eff]
-                f = res.fs[np.isfinite(res.fs)]
-                lo, hi = res.pf_interval
-                rows.append({"theta_h": th, "theta_v": tv, "theta_h_run": eff[0], "theta_v_run": eff[1],
-                             "pf": res.pf, "pf_low": lo, "pf_high": hi,
-                             "mean_fs": float(f.mean()) if f.size else math.nan,
-                             "std_fs": float(f.std(ddof=1)) if f.size > 1 else math.nan,
-                             "n": res.n, "n_valid": int(f.size),
-                             "n_nonconverged": res.n_nonconverged, "n_inadmissible": res.n_inadmissible,
-                             "n_no_valid_surface": res.n_no_valid})
+        rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
+                           batch=block, progress=progress, scheduler=client)
+    for r in rows:  # the sweep files name the interval bounds explicitly
+        r["pf_low"], r["pf_high"] = r.pop("lo"), r.pop("hi")
     out.parent.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:

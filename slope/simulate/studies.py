@@ -78,20 +78,34 @@ def theta_sweep(problem, theta_h, theta_v, n, seed, **simulate_kw) -> list:
 
     Every property gets the same (θh, θv) at each grid point; the same seed
     and streams are used throughout, so differences between rows are not
-    sampling noise of independent runs.
+    sampling noise of independent runs.  A point with θh or θv infinite is
+    run with both infinite (one random variable per property; a field
+    infinite in one direction only is not a random variable), and each
+    distinct point is simulated once.
 
     Returns
     -------
-    list of dict rows {theta_h, theta_v, pf, lo, hi, mean_fs, std_fs} (m, -, -)
+    list of dict rows {theta_h, theta_v, theta_h_run, theta_v_run (m), pf,
+    lo, hi, mean_fs, std_fs (-), n, n_valid, n_nonconverged,
+    n_inadmissible, n_no_valid_surface (counts)}
     """
     th_list, tv_list = list(theta_h), list(theta_v)
     if not th_list or not tv_list:
         raise InputError("theta_sweep: give at least one theta_h and one theta_v (m)")
-    rows = []
+    rows, done = [], {}
     for th in th_list:
         for tv in tv_list:
-            res = simulate(_with_thetas(problem, [(th, tv)] * len(problem.properties)), n, seed, **simulate_kw)
+            th, tv = float(th), float(tv)
+            eff = (math.inf, math.inf) if math.isinf(th) or math.isinf(tv) else (th, tv)
+            if eff not in done:
+                done[eff] = simulate(_with_thetas(problem, [eff] * len(problem.properties)), n, seed,
+                                     **simulate_kw)
+            res = done[eff]
             s = _summary(res)
-            rows.append({"theta_h": float(th), "theta_v": float(tv), "pf": s["pf"], "lo": s["lo"],
-                         "hi": s["hi"], "mean_fs": s["mean_fs"], "std_fs": s["std_fs"]})
+            rows.append({"theta_h": th, "theta_v": tv, "theta_h_run": eff[0], "theta_v_run": eff[1],
+                         "pf": s["pf"], "lo": s["lo"], "hi": s["hi"],
+                         "mean_fs": s["mean_fs"], "std_fs": s["std_fs"],
+                         "n": res.n, "n_valid": int(np.isfinite(res.fs).sum()),
+                         "n_nonconverged": res.n_nonconverged, "n_inadmissible": res.n_inadmissible,
+                         "n_no_valid_surface": res.n_no_valid})
     return rows
