@@ -3,19 +3,58 @@
 Noise of realisation k, property i, zone z comes only from
 ``realisation_rng(seed, k, i, z)`` (through the field generator), so results
 do not depend on batch size or on the number of workers.
+
+The mapping from grid cells to slice bases is linear (bilinear
+interpolation at ``AVERAGING[problem.averaging]`` points per base, then
+their mean), so it is assembled once per problem as a sparse matrix over the
+cells the bases touch (:class:`BaseStencil`); a realisation then costs one
+gather, the marginal transform of those cells only, and one sparse product.
+Only bank-valid surfaces are evaluated; rejected rows are reported as
+invalid, as the kernel would.
 """
 from __future__ import annotations
 
 import numpy as np
+from scipy import sparse
 
 from fields.seeding import realisation_rng
 
-from ..methods import factor_of_safety
+from ..methods import factor_of_safety, prepare_bank
 from ..search import _TOLERABLE
 from ..strength import base_strength
 from .problem import AVERAGING
 
-__all__ = ["standard_normals", "base_values", "batch_fs", "bilinear"]
+__all__ = ["standard_normals", "base_values", "batch_fs", "bilinear", "bilinear_weights",
+           "BaseStencil", "stencil"]
+
+
+def bilinear_weights(grid, x, y):
+    """Cells and weights of bilinear interpolation of cell-centre values.
+
+    Parameters
+    ----------
+    grid : RegularGrid
+    x, y : ndarray, m, any common shape P
+
+    Returns
+    -------
+    cells : ndarray of int, shape (*P, 4)
+        Flat cell indices ``i * ny + j`` (C order over the grid).
+    weights : ndarray, shape (*P, 4)
+        Non-negative, summing to 1 (values outside the grid are clamped to
+        the edge cells).
+    """
+    fx = np.clip((x - grid.x0) / grid.dx - 0.5, 0.0, grid.nx - 1.0)
+    fy = np.clip((y - grid.y0) / grid.dy - 0.5, 0.0, grid.ny - 1.0)
+    i0 = np.minimum(np.floor(fx).astype(int), max(grid.nx - 2, 0))
+    j0 = np.minimum(np.floor(fy).astype(int), max(grid.ny - 2, 0))
+    i1 = np.minimum(i0 + 1, grid.nx - 1)
+    j1 = np.minimum(j0 + 1, grid.ny - 1)
+    tx, ty = fx - i0, fy - j0
+    ny = grid.ny
+    cells = np.stack([i0 * ny + j0, i1 * ny + j0, i0 * ny + j1, i1 * ny + j1], axis=-1)
+    weights = np.stack([(1 - tx) * (1 - ty), tx * (1 - ty), (1 - tx) * ty, tx * ty], axis=-1)
+    return cells, weights
 
 
 def bilinear(grid, values, x, y):
@@ -31,16 +70,62 @@ def bilinear(grid, values, x, y):
     -------
     ndarray, shape (s, *P)
     """
-    fx = np.clip((x - grid.x0) / grid.dx - 0.5, 0.0, grid.nx - 1.0)
-    fy = np.clip((y - grid.y0) / grid.dy - 0.5, 0.0, grid.ny - 1.0)
-    i0 = np.minimum(np.floor(fx).astype(int), max(grid.nx - 2, 0))
-    j0 = np.minimum(np.floor(fy).astype(int), max(grid.ny - 2, 0))
-    i1 = np.minimum(i0 + 1, grid.nx - 1)
-    j1 = np.minimum(j0 + 1, grid.ny - 1)
-    tx, ty = fx - i0, fy - j0
-    v = values
-    return ((1 - tx) * (1 - ty) * v[:, i0, j0] + tx * (1 - ty) * v[:, i1, j0]
-            + (1 - tx) * ty * v[:, i0, j1] + tx * ty * v[:, i1, j1])
+    cells, w = bilinear_weights(grid, x, y)
+    v = np.asarray(values).reshape(np.shape(values)[0], -1)
+    return (v[:, cells] * w).sum(axis=-1)
+
+
+class BaseStencil:
+    """Linear map from grid cells to the slice bases of the valid surfaces.
+
+    Attributes
+    ----------
+    rows : ndarray of int (mv,)
+        Bank rows of the valid surfaces.
+    bank, terms : SliceBank, BankTerms
+        The valid surfaces only (what the kernel evaluates).
+    zones : dict zone index -> (bases, cells, matrix)
+        ``bases``: flat indices into the ``(mv, n)`` bases of that zone;
+        ``cells``: the grid cells they touch; ``matrix``: CSR
+        ``(len(bases), len(cells))`` whose rows are the mean bilinear weights
+        of the base's points (each row sums to 1).
+    deterministic : dict
+        Per-base material values for multiplier properties, filled on use.
+    """
+
+    def __init__(self, problem):
+        full = problem.bank
+        self.rows = np.flatnonzero(np.asarray(full.valid, bool))
+        self.bank = full.subset(self.rows)
+        self.terms = prepare_bank(self.bank)
+        npb = AVERAGING[problem.averaging]
+        xb, yb = self.bank.base_points_section_frame(npb)  # (mv, n, q)
+        zone = np.asarray(self.bank.zone).ravel()
+        grid = problem.grid
+        self.zones = {}
+        for z in range(len(problem.section.zones)):
+            bases = np.flatnonzero(zone == z)
+            if bases.size == 0:
+                continue
+            cells, w = bilinear_weights(grid, xb.reshape(-1, npb)[bases], yb.reshape(-1, npb)[bases])
+            r = np.repeat(np.arange(bases.size), npb * 4)
+            m = sparse.csr_matrix((w.ravel() / npb, (r, cells.ravel())),
+                                  shape=(bases.size, grid.n_points))  # duplicates summed
+            used = np.flatnonzero(np.asarray(m.sum(axis=0)).ravel() > 0.0)
+            self.zones[z] = (bases, used, m[:, used].tocsr())
+        self.deterministic = {}
+
+    @property
+    def shape(self):
+        return (self.rows.size, self.bank.n_slices)
+
+
+def stencil(problem) -> BaseStencil:
+    """The problem's :class:`BaseStencil`, built on first use and kept."""
+    st = getattr(problem, "_stencil", None)
+    if st is None:
+        st = problem._stencil = BaseStencil(problem)
+    return st
 
 
 def standard_normals(problem, seed, indices, i, z):
@@ -51,9 +136,8 @@ def standard_normals(problem, seed, indices, i, z):
     return problem.generator(i).sample_grid(seed, list(indices), stream=(i, z))
 
 
-def _correlated(problem, seed, indices, z, members):
-    """Standard normals of the properties ``members`` in zone z, mixed by the Nataf Cholesky factor."""
-    raw = {i: standard_normals(problem, seed, indices, i, z) for i in members}
+def _mix(problem, raw, members):
+    """Standard normals of ``members`` mixed by the Nataf Cholesky factor (cross-correlation)."""
     L = problem._chol
     out = {}
     for i in members:
@@ -66,50 +150,70 @@ def _correlated(problem, seed, indices, z, members):
     return out
 
 
+def _correlated(problem, seed, indices, z, members):
+    """Standard normals of the properties ``members`` in zone z on the whole grid, correlated."""
+    return _mix(problem, {i: standard_normals(problem, seed, indices, i, z) for i in members}, members)
+
+
+def _valid_base_values(problem, seed, indices):
+    """Random values at the bases of the valid surfaces: key -> (s, mv, n), NaN outside the material."""
+    st = stencil(problem)
+    s = len(indices)
+    out = {p.key: np.full((s,) + st.shape, np.nan) for p in problem.properties}
+    for z, (bases, cells, W) in st.zones.items():
+        members = [i for i, p in enumerate(problem.properties) if z in problem.zones_of(i)]
+        if not members:
+            continue
+        raw = {}
+        for i in members:
+            zi = standard_normals(problem, seed, indices, i, z)
+            raw[i] = zi[:, 0, 0][:, None] if problem.properties[i].single else zi.reshape(s, -1)[:, cells]
+        # a single variable (θ = inf) mixes as one column broadcast over the cells
+        zs = _mix(problem, raw, members)
+        for i in members:
+            p = problem.properties[i]
+            phys = np.asarray(p.marginal.from_standard_normal(zs[i]), dtype=float)
+            if phys.shape[1] == 1:
+                vals = np.broadcast_to(phys, (s, bases.size))
+            else:
+                # physical values are averaged: the base mobilises the mean strength
+                vals = (W @ phys.T).T
+            out[p.key].reshape(s, -1)[:, bases] = vals
+    return out
+
+
 def base_values(problem, seed, indices):
     """Random values at the slice bases of every surface.
 
     Returns
     -------
     dict key -> ndarray (s, m, n) in physical units (NaN on bases outside
-    the property's material); for ``multiplier`` properties the factor.
+    the property's material and on rejected bank rows); for ``multiplier``
+    properties the factor.
     """
-    bank = problem.bank
-    npb = AVERAGING[problem.averaging]
-    xb, yb = bank.base_points_section_frame(npb)  # (m, n, q)
-    zone = np.asarray(bank.zone)
+    st = stencil(problem)
     s = len(indices)
-    out = {p.key: np.full((s,) + zone.shape, np.nan) for p in problem.properties}
-    grid = problem.grid
-    for z in range(len(problem.section.zones)):
-        members = [i for i, p in enumerate(problem.properties) if z in problem.zones_of(i)]
-        mask = zone == z
-        if not members or not mask.any():
-            continue
-        zs = _correlated(problem, seed, indices, z, members)
-        for i in members:
-            p = problem.properties[i]
-            if p.single:
-                vals = np.broadcast_to(p.marginal.from_standard_normal(zs[i][:, 0, 0])[:, None], (s, int(mask.sum())))
-            else:
-                phys = np.asarray(p.marginal.from_standard_normal(zs[i]), dtype=float)
-                # physical values are averaged: the base mobilises the mean strength
-                vals = bilinear(grid, phys, xb[mask], yb[mask]).mean(axis=-1)
-            out[p.key][:, mask] = vals
+    m, n = len(problem.surfaces), st.bank.n_slices
+    out = {}
+    for key, v in _valid_base_values(problem, seed, indices).items():
+        full = np.full((s, m, n), np.nan)
+        full[:, st.rows] = v
+        out[key] = full
     return out
 
 
 def _det_value(problem, prop):
-    """Deterministic per-base value of a property (for multiplier fields)."""
-    bank = problem.bank
-    mats = problem.section.materials
-    if prop in ("su", "su_ratio"):
-        c, _ = base_strength(bank, mats, "undrained")
-        return c, "su"
-    c, tphi = base_strength(bank, mats, "drained")
-    if prop == "c":
-        return c, "c"
-    return np.degrees(np.arctan(tphi)), "phi"
+    """Deterministic per-base value of a property on the valid surfaces (for multiplier fields)."""
+    st = stencil(problem)
+    if prop not in st.deterministic:
+        mats = problem.section.materials
+        if prop in ("su", "su_ratio"):
+            c, _ = base_strength(st.bank, mats, "undrained")
+            st.deterministic[prop] = (c, "su")
+        else:
+            c, tphi = base_strength(st.bank, mats, "drained")
+            st.deterministic[prop] = (c, "c") if prop == "c" else (np.degrees(np.arctan(tphi)), "phi")
+    return st.deterministic[prop]
 
 
 def batch_fs(problem, seed, indices):
@@ -118,8 +222,10 @@ def batch_fs(problem, seed, indices):
     Returns
     -------
     fs, converged, admissible : ndarray (s, m)
+        Rejected bank rows: NaN, False, False.
     """
-    vals = base_values(problem, seed, indices)
+    st = stencil(problem)
+    vals = _valid_base_values(problem, seed, indices)
     overrides = {}
     for p in problem.properties:
         v = vals[p.key]
@@ -131,13 +237,16 @@ def batch_fs(problem, seed, indices):
             overrides[key] = np.where(np.isnan(v), overrides[key], v)
         else:
             overrides[key] = v
-    c, tphi = base_strength(problem.bank, problem.section.materials, problem.hypothesis, overrides=overrides)
-    # rejected bank rows carry NaN geometry; the kernel reports them as invalid, whatever their strength
-    ok = np.asarray(problem.bank.valid, bool)[None, :, None]
-    c, tphi = np.where(ok, c, 0.0), np.where(ok, tphi, 0.0)
-    res = factor_of_safety(problem.terms, c, tphi, problem.method, interslice=problem.interslice)
+    c, tphi = base_strength(st.bank, problem.section.materials, problem.hypothesis, overrides=overrides)
+    res = factor_of_safety(st.terms, c, tphi, problem.method, interslice=problem.interslice)
     # the flags the deterministic search tolerates by default (search.evaluate_surfaces) are
     # tolerated here too, or the critical surface of the search could never be critical here
     tolerated = _TOLERABLE["negative-normal"] | _TOLERABLE["thrust-outside"]
-    adm = (np.asarray(res.flags) & ~tolerated) == 0
-    return np.asarray(res.fs), np.asarray(res.converged), adm
+    s, m = len(indices), len(problem.surfaces)
+    fs = np.full((s, m), np.nan)
+    conv = np.zeros((s, m), bool)
+    adm = np.zeros((s, m), bool)
+    fs[:, st.rows] = res.fs
+    conv[:, st.rows] = res.converged
+    adm[:, st.rows] = (np.asarray(res.flags) & ~tolerated) == 0
+    return fs, conv, adm

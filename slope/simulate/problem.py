@@ -187,6 +187,16 @@ class RandomProblem:
         self._bank = None
         self._terms = None
         self._gens = {}
+        self._stencil = None  # slope.simulate.engine.BaseStencil, built on first use
+
+    def __getstate__(self):
+        # workers evaluate through the stencil (valid surfaces only); the full
+        # bank and its terms are rebuilt lazily if ever needed, not shipped
+        state = dict(self.__dict__)
+        if state.get("_stencil") is not None:
+            state["_bank"] = None
+            state["_terms"] = None
+        return state
 
     # geometry, built once ------------------------------------------------
     @property

@@ -9,7 +9,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
-from .engine import base_values, batch_fs, standard_normals
+from .engine import batch_fs, stencil
 from .problem import RandomProblem
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "BLOCK"]
@@ -176,15 +176,28 @@ def _blocks(lo, hi, size):
 
 
 def _execute(problem, seed, ranges, n_jobs, scheduler):
+    """Results of ``_run_block`` for each range, yielded in order as they complete.
+
+    One stream of tasks for the whole run (not one parallel call per stored
+    block), so workers never wait for each other at block boundaries.
+    """
     if scheduler is not None:
         futs = scheduler.map(_run_block, [problem] * len(ranges), [seed] * len(ranges),
                              [a for a, _ in ranges], [b for _, b in ranges], pure=False)
-        return scheduler.gather(futs)
+        try:
+            for f in futs:
+                yield f.result()
+        finally:
+            scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
+        return
     if n_jobs == 1 or len(ranges) == 1:
-        return [_run_block(problem, seed, a, b) for a, b in ranges]
+        for a, b in ranges:
+            yield _run_block(problem, seed, a, b)
+        return
     from joblib import Parallel, delayed
 
-    return Parallel(n_jobs=n_jobs)(delayed(_run_block)(problem, seed, a, b) for a, b in ranges)
+    yield from Parallel(n_jobs=n_jobs, return_as="generator")(
+        delayed(_run_block)(problem, seed, a, b) for a, b in ranges)
 
 
 def _connect(address, timeout):
@@ -251,7 +264,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             progress=progress, scheduler=client)
         finally:
             client.close()
-    problem.bank, problem.terms  # build geometry once, before pickling to workers
+    stencil(problem)  # geometry and base mapping built once, before pickling to workers
     parts = {}
     if store is not None:
         os.makedirs(store, exist_ok=True)
@@ -289,20 +302,24 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         from tqdm import tqdm
 
         bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), unit="real")
-    for b, lo, hi in todo:
-        ranges = _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]
-        res = _concat(_execute(problem, seed, ranges, n_jobs, scheduler))
-        old = parts.get(b)
-        if old is not None:
-            res = _concat([{k: v for k, v in old.items() if k != "_stop"}, res])
-        res["_stop"] = hi
-        parts[b] = res
-        if store is not None:
-            arrays = {k: v for k, v in res.items() if k != "_stop"}
-            _atomic_write_npz(os.path.join(store, f"block_{b // BLOCK:06d}.npz"),
-                              dict(arrays, start=b, stop=hi))
-        if bar is not None:
-            bar.update(hi - lo)
+    plan = [(b, lo, hi, _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]) for b, lo, hi in todo]
+    stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler)
+    try:
+        for b, lo, hi, ranges in plan:
+            res = _concat([next(stream) for _ in ranges])
+            old = parts.get(b)
+            if old is not None:
+                res = _concat([{k: v for k, v in old.items() if k != "_stop"}, res])
+            res["_stop"] = hi
+            parts[b] = res
+            if store is not None:
+                arrays = {k: v for k, v in res.items() if k != "_stop"}
+                _atomic_write_npz(os.path.join(store, f"block_{b // BLOCK:06d}.npz"),
+                                  dict(arrays, start=b, stop=hi))
+            if bar is not None:
+                bar.update(hi - lo)
+    finally:
+        stream.close()  # an interrupted run stops its workers; written blocks stay
     if bar is not None:
         bar.close()
     allr = _concat([{k: v for k, v in parts[b].items() if k != "_stop"} for b in sorted(parts)])
