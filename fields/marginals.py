@@ -45,6 +45,7 @@ __all__ = [
     "Marginal",
     "MARGINAL_NAMES",
     "make_marginal",
+    "scaled_spread",
     "nataf_correlation",
     "nataf_matrix",
 ]
@@ -396,6 +397,49 @@ def make_marginal(
     return Marginal("truncated-normal", mean, s,
                     {"parent_mean": mu_p, "parent_std": s_p, "lower": lo, "upper": hi},
                     lo, hi, d)
+
+
+def scaled_spread(marginal: Marginal, factor: float) -> Marginal:
+    """The same distribution family with the same mean and ``factor`` × its std.
+
+    Used for the quick spatial-averaging estimate, where a point distribution
+    is replaced by that of a local average (std × √γ).
+
+    Parameters
+    ----------
+    marginal : Marginal
+    factor : float
+        Ratio of standard deviations, 0 < factor <= 1.
+
+    Returns
+    -------
+    Marginal
+        ``normal``, ``lognormal``: the same family with the new std;
+        ``truncated-normal``, ``beta``: the same bounds and the new std;
+        ``uniform``, ``triangular`` (fixed by their bounds): bounds and mode
+        moved towards the mean by ``factor`` (an affine map, which keeps the
+        family); ``deterministic``: unchanged.
+    """
+    k = float(factor)
+    if not (0.0 < k <= 1.0):
+        raise InputError(f"scaled_spread: factor must be in (0, 1], got {factor!r}")
+    m = marginal
+    if k == 1.0 or m.name == "deterministic":
+        return m
+    if m.name in ("normal", "lognormal"):
+        return make_marginal(m.name, mean=m.mean, std=m.std * k)
+    if m.name in ("truncated-normal", "beta"):
+        lo = None if math.isinf(m.lower) else m.lower
+        hi = None if math.isinf(m.upper) else m.upper
+        return make_marginal(m.name, mean=m.mean, std=m.std * k, lower=lo, upper=hi)
+
+    def shrink(v):
+        return m.mean + k * (v - m.mean)
+
+    if m.name == "uniform":
+        return make_marginal("uniform", lower=shrink(m.lower), upper=shrink(m.upper))
+    return make_marginal("triangular", lower=shrink(m.lower), mode=shrink(m.params["mode"]),
+                         upper=shrink(m.upper))
 
 
 # ---------------------------------------------------------------------------

@@ -164,10 +164,39 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
         arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": crit, "problem": prob,
                          "area": area, "depth": depth}
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
+    out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
+                                                            block=block, n_jobs=n_jobs, quiet=quiet)
     a, b = out["spatial"]["critical_surface_searched"], out["single_random_variable"]["critical_surface_searched"]
     if b["std_fs"] and b["std_fs"] > 0:
         out["variance_reduction_factor_of_fs"] = (a["std_fs"] / b["std_fs"]) ** 2
     return {"summary": out, "arrays": arrays}
+
+
+def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
+    """The quick estimate: single variables with σ × √γ along the fixed deterministic critical surface."""
+    from .simulate import simulate
+    from .simulate.studies import reduced_variance_problem
+
+    red, table = reduced_variance_problem(prob)
+    t0 = time.perf_counter()
+    res = simulate(red, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet)
+    wall = time.perf_counter() - t0
+    fixed = np.asarray(res.fs_fixed, float)
+    ok = np.asarray(res.fixed_ok, bool) & np.isfinite(fixed)
+    base = {"realisations": int(n), "seed": int(seed), "wall_time_s": round(wall, 3),
+            "method": case.analysis["method"], "surface": "fixed deterministic critical surface",
+            "status": _status(int(n), int(ok.sum())), "properties": table,
+            "note": "each random property as one random variable with its point standard deviation × √γ, γ the "
+                    "variance reduction of its field averaged along the fixed deterministic critical surface "
+                    "(2D correlation at the surface's own lags; gamma_1d_theta_h is the 1D variance function "
+                    "along θh for comparison)"}
+    if not ok.any():
+        return dict(base, pf=None, pf_interval_95=[None, None], ci_method="wilson", n_valid=0, mean_fs=None,
+                    std_fs=None, beta_from_pf=None, beta_normal=None, beta_lognormal=None)
+    est = estimate_pf(fixed, valid=ok)
+    return dict(base, pf=est.pf, pf_interval_95=_interval(est), ci_method=est.ci_method, n_valid=est.n_valid,
+                mean_fs=est.mean_fs, std_fs=est.std_fs, beta_from_pf=est.beta_from_pf,
+                beta_normal=est.beta_normal, beta_lognormal=est.beta_lognormal)
 
 
 def _shown(fs, crit):
@@ -251,9 +280,13 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
         f = rp.plot_pf_convergence(h["n"], h["pf"], h["ci_low"], h["ci_high"])
         figs.append((f"pf_convergence_{hyp}", f"Convergence of pf with its 95 % band, {hyp}", f))
         labels = ["spatial (θ as given)", "single random variable (θ → ∞)"]
-        pfs = [s["summary"][k]["critical_surface_searched"]["pf"] for k in ("spatial", "single_random_variable")]
-        los = [s["summary"][k]["critical_surface_searched"]["pf_interval_95"][0] for k in ("spatial", "single_random_variable")]
-        his = [s["summary"][k]["critical_surface_searched"]["pf_interval_95"][1] for k in ("spatial", "single_random_variable")]
+        est = [s["summary"][k]["critical_surface_searched"] for k in ("spatial", "single_random_variable")]
+        if s["summary"]["analytic_variance_reduction"]["pf"] is not None:
+            labels.append("quick estimate: σ × √γ on the fixed surface")
+            est.append(s["summary"]["analytic_variance_reduction"])
+        pfs = [e["pf"] for e in est]
+        los = [e["pf_interval_95"][0] for e in est]
+        his = [e["pf_interval_95"][1] for e in est]
         # Wilson bounds at pf = 0 can sit a rounding error above pf
         los = [min(lo, p) for lo, p in zip(los, pfs)]
         his = [max(hi, p) for hi, p in zip(his, pfs)]
@@ -434,6 +467,11 @@ def _summary_rows(results) -> list:
             c = s[k]["critical_surface_searched"]
             rows.append((f"pf, {h}, {label} (critical surface re-searched)", c["pf"], "-",
                          f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}"))
+        c = s["analytic_variance_reduction"]
+        if c["pf"] is not None:
+            gam = ", ".join(f"γ {t['property']} {t['gamma']:.3g}" for t in c["properties"])
+            rows.append((f"pf, {h}, quick estimate (σ × √γ, fixed deterministic surface)", c["pf"], "-",
+                         f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}; {gam}"))
         c = s["spatial"]["fixed_deterministic_surface"]
         if c["pf"] is not None:
                 rows.append((f"pf, {h}, spatially variable, fixed deterministic surface", c["pf"], "-", "single-surface pf ≤ system pf"))
@@ -479,6 +517,9 @@ def _tables(stage, results, sim):
             f = s[k]["fixed_deterministic_surface"]
             rows.append([h, k, s[k]["realisations"], c["pf"], *c["pf_interval_95"], c["beta_from_pf"],
                          c["mean_fs"], c["std_fs"], f["pf"]])
+        a = s["analytic_variance_reduction"]
+        rows.append([h, "analytic_variance_reduction", a["realisations"], a["pf"], *a["pf_interval_95"],
+                     a["beta_from_pf"], a["mean_fs"], a["std_fs"], a["pf"]])
     write_csv(stage / "simulation.csv", ["hypothesis", "analysis", "realisations", "pf (-)", "pf low (-)",
                                          "pf high (-)", "beta (-)", "mean FS (-)", "std FS (-)",
                                          "pf fixed surface (-)"], rows)

@@ -26,6 +26,7 @@ from fields.marginals import make_marginal
 from slope.methods import factor_of_safety
 from slope.section import Section, Zone
 from slope.simulate import RandomProblem, RandomProperty, simulate
+from slope.simulate.studies import reduced_variance_problem, surface_variance_factor
 from slope.strength import Material
 from slope.surfaces import Polyline
 
@@ -125,3 +126,44 @@ def test_variance_falls_as_gamma_for_small_theta(geometry, theta):
     # change the variance by a few % at θ = 0.5 m, well inside this interval.
     lo, hi = chi2.ppf([ALPHA / 2, 1 - ALPHA / 2], N - 1) / (N - 1)
     assert lo < ratio / g < hi, (ratio, g, lo, hi)
+
+
+@pytest.mark.parametrize("theta", [3.5, 35.0])
+def test_surface_gamma_is_the_variance_function_along_the_plane(geometry, theta):
+    # along a straight line the surface γ is Vanmarcke's γ(T) (Markov closed
+    # form); the block's 0.2 m ends bend the line and add ~1 % at most
+    _, T, _ = geometry
+    T_s, g = surface_variance_factor(_problem(theta, 50.0), 0)
+    assert T_s == pytest.approx(T, rel=1e-12)
+    g1 = float(variance_function(get_model("exponential", theta_h=theta, theta_v=theta), T))
+    assert g == pytest.approx(g1, rel=0.015)
+
+
+def test_surface_gamma_anisotropic_equals_line_theta(geometry):
+    # elliptical anisotropy: along a line at angle β the Markov correlation is
+    # exp(−2τ/θ_β) with 1/θ_β² = cos²β/θh² + sin²β/θv², so γ along the plane is
+    # the 1D γ(T) with θ_β (Vanmarcke 1983, ch. 5, for a line average)
+    _, T, _ = geometry
+    th, tv = 40.0, 4.0
+    prop = RandomProperty("clay", "su", make_marginal("normal", mean=50.0, cov=COV), th, tv)
+    p = RandomProblem(_section(), "undrained", "ordinary", [prop], [SURFACE], 0, n_slices=60)
+    beta = math.atan(TAN_B)
+    t_line = 1.0 / math.hypot(math.cos(beta) / th, math.sin(beta) / tv)
+    g1 = float(variance_function(get_model("exponential", theta_h=t_line, theta_v=t_line), T))
+    _, g = surface_variance_factor(p, 0)
+    assert g == pytest.approx(g1, rel=0.015)
+
+
+def test_quick_estimate_is_exact_for_the_cohesive_infinite_slope(geometry):
+    # FS is linear in the base average of a normal su, so the single variable
+    # with σ√γ(T) gives the exact pf of test_pf_matches_local_average_closed_form
+    fs1, T, _ = geometry
+    theta = T
+    mean = 1.05 / fs1
+    red, table = reduced_variance_problem(_problem(theta, mean))
+    g = float(variance_function(get_model("exponential", theta_h=theta, theta_v=theta), T))
+    assert table[0]["std_averaged"] == pytest.approx(COV * mean * math.sqrt(table[0]["gamma"]), rel=1e-9)
+    r = simulate(red, N, seed=5)
+    pf_exact = norm.cdf((1.0 - 1.05) / (fs1 * mean * COV * math.sqrt(g)))
+    se = math.sqrt(pf_exact * (1 - pf_exact) / N)
+    assert abs(r.pf_fixed - pf_exact) < Z_CRIT * se + 0.01 * pf_exact, (r.pf_fixed, pf_exact)
