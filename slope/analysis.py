@@ -31,7 +31,7 @@ from .reliability.variables import RandomVariable, RandomVector
 from .search import evaluate_surfaces, centre_lattice, window
 from .surfaces import Circle, Polyline
 
-__all__ = ["deterministic", "single_variable_reliability", "spatial_simulation", "surface_xy",
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
            "properties_for"]
 
 # which random properties act under which hypothesis
@@ -47,8 +47,15 @@ def surface_xy(bank, i: int) -> np.ndarray:
     return np.c_[x, y]
 
 
-def _trial_surfaces(case: Case, hypothesis: str, method: str):
-    """Run the case's search once; returns the SearchResult."""
+def trial_surfaces(case: Case, hypothesis: str, method: str):
+    """Run the case's search once (its ``[search]`` table) for one hypothesis and method.
+
+    Returns
+    -------
+    SearchResult
+        Every trial surface with its FS; ``surfaces`` is the bank the
+        simulator re-searches.
+    """
     s = case.data.get("search", {"kind": "centre-lattice", "trials": 1500, "min_depth": 0.5})
     sec = case.section
     n_slices = case.analysis["slices"]
@@ -109,7 +116,7 @@ def deterministic(case: Case) -> dict:
     run_method = case.analysis["method"]
     methods = list(dict.fromkeys([run_method] + list(case.analysis["methods"])))
     for hyp in case.analysis["hypotheses"]:
-        first = _trial_surfaces(case, hyp, run_method)
+        first = trial_surfaces(case, hyp, run_method)
         per_method = {run_method: _search_dict(first, case.section)}
         for m in methods[1:]:
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}

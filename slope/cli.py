@@ -52,7 +52,8 @@ def _cmd_simulate(args) -> int:
     r = simulate_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, batch=args.batch,
                       seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
                       export_fields=args.export_fields, export_format=args.export_format,
-                      progress=not args.quiet)
+                      progress=not args.quiet, refine_below=args.refine_below,
+                      refine_method=args.refine_method)
     if args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations", "resumed",
                                              "realisations_from_store", "simulation")}, indent=2))
@@ -64,7 +65,8 @@ def _cmd_simulate(args) -> int:
               + (f", {r['realisations_from_store']} from the store" if r["resumed"] else "")
               + f"; results in {args.out} (results.json, fs_realisations.csv)")
         print(f"  pf {fmt(s['pf'])} [95 % {fmt(lo)}, {fmt(hi)}]  mean FS {fmt(s['mean_fs'])}  "
-              f"std FS {fmt(s['std_fs'])}  no valid surface {s['n_no_valid_surface']}")
+              f"std FS {fmt(s['std_fs'])}  no valid surface {s['n_no_valid_surface']}"
+              + (f"  refined lower {s['n_refined']}" if s.get("refine") else ""))
         if args.export_fields:
             print(f"  fields of every realisation in {args.export_fields} ({args.export_format}, fields.json)")
     return 0
@@ -132,6 +134,11 @@ def build_parser() -> argparse.ArgumentParser:
                    help="write each realisation's property fields on the section grid, with its FS, to DIR2")
     s.add_argument("--export-format", choices=("xdmf", "vtu", "npz"), default="xdmf",
                    help="format of --export-fields (default xdmf: one time series per property)")
+    s.add_argument("--refine-below", type=float, default=None, metavar="FS",
+                   help="refine the critical surface of realisations with a bank FS below FS into a polyline "
+                        "with their own fields (slower; off by default)")
+    s.add_argument("--refine-method", default="spencer", choices=("spencer", "morgenstern-price", "janbu"),
+                   help="method of slices of the refined polylines (default spencer)")
     s.set_defaults(func=_cmd_simulate)
     w = sub.add_parser("sweep", help="pf over a grid of scales of fluctuation (common random numbers)")
     _sim_options(w, sweep=True)

@@ -15,7 +15,6 @@ input leaves the disk as it was.
 from __future__ import annotations
 
 import contextlib
-import glob
 import json
 import math
 import os
@@ -42,7 +41,7 @@ _STORE = "store"
 
 # --------------------------------------------------------------- helpers
 def _write_json(path: Path, obj) -> None:
-    from .report._files import atomic_write_text
+    from .report import atomic_write_text
 
     atomic_write_text(path, json.dumps(_jsonable(obj), indent=2, allow_nan=False))
 
@@ -129,14 +128,14 @@ def _scheduler(address):
 
 def _problem(case, hypothesis, theta_override=None):
     """Search the case's bank once (run method only) and build its RandomProblem."""
-    from .analysis import _trial_surfaces, random_problem
+    from .analysis import random_problem, trial_surfaces
 
     hyps = list(case.analysis["hypotheses"])
     hyp = hypothesis or hyps[0]
     if hyp not in ("drained", "undrained"):
         raise InputError(f"--hypothesis: {hyp!r} is not known; use drained or undrained")
     # only the bank of the run method is needed (deterministic() would search every method)
-    det = {hyp: {"bank": _trial_surfaces(case, hyp, case.analysis["method"])}}
+    det = {hyp: {"bank": trial_surfaces(case, hyp, case.analysis["method"])}}
     prob = random_problem(case, det, hyp, theta_override=theta_override)
     if prob is None:
         raise InputError(f"--hypothesis {hyp}: no [[random]] property of {case.path} is used under the {hyp} "
@@ -169,17 +168,12 @@ def _statuses(store: Path, n: int, fs) -> list[str]:
     next qualifying one is critical; ``no-valid-surface``: no surface qualified
     (FS empty, excluded from pf).
     """
-    flags = {}
-    files = sorted(glob.glob(str(store / "block_*.npz")))
-    try:
-        parts = []
-        for f in files:
-            with np.load(f) as d:
-                parts.append({k: d[k] for k in ("nonconv", "inadm", "none")})
-        if parts:
-            flags = {k: np.concatenate([p[k] for p in parts])[:n].astype(bool) for k in parts[0]}
-    except (KeyError, OSError, ValueError):
-        flags = {}  # an older store layout: fall back on the FS values alone
+    from .simulate import load_store
+
+    stored = load_store(store)
+    flags = ({k: stored[k][:n].astype(bool) for k in ("nonconv", "inadm", "none")}
+             if all(k in stored for k in ("nonconv", "inadm", "none")) else {})
+    refined = stored["refined"][:n].astype(bool) if "refined" in stored else np.zeros(n, bool)
     fs = np.asarray(fs, float)
     if not flags or any(v.size != n for v in flags.values()):
         return ["ok" if np.isfinite(f) else "no-valid-surface" for f in fs]
@@ -187,6 +181,8 @@ def _statuses(store: Path, n: int, fs) -> list[str]:
     for k in range(n):
         if not np.isfinite(fs[k]) or flags["none"][k]:
             out.append("no-valid-surface")
+        elif refined[k]:  # the final FS is the refined one, whatever happened in the bank
+            out.append("ok-refined")
         elif flags["nonconv"][k]:
             out.append("ok-lowest-nonconverged-excluded")
         elif flags["inadm"][k]:
@@ -356,19 +352,15 @@ def _check_out_for_simulate(out: Path, head: dict, ident: dict, resume: bool) ->
 
 
 def _stored_count(store: Path) -> int:
-    n = 0
-    for f in glob.glob(str(store / "block_*.npz")):
-        try:
-            with np.load(f) as d:
-                n += int(d["stop"]) - int(d["start"])
-        except (KeyError, OSError, ValueError):
-            pass
-    return n
+    from .simulate import load_store
+
+    stored = load_store(store)
+    return int(stored["fs"].size) if stored else 0
 
 
 def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=None, seed=None, hypothesis=None,
                   resume=False, scheduler=None, export_fields=None, export_format="xdmf",
-                  progress=False) -> dict:
+                  progress=False, refine_below=None, refine_method="spencer") -> dict:
     """Spatially variable simulation of a case, streamed to ``out_dir`` (resumable).
 
     Parameters
@@ -392,6 +384,11 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     export_format : {"xdmf", "vtu", "npz"}
     progress : bool
         tqdm progress bar.
+    refine_below : float, optional
+        Refine the critical surface of realisations with a bank FS below this
+        into a polyline with their own fields (``slope.simulate.refinement``).
+    refine_method : str
+        Method of slices of the refinement (default ``spencer``).
 
     Returns
     -------
@@ -402,7 +399,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     from .report import write_csv
     from .run import CAUTION
     from .simulate import simulate
-    from .simulate.run import _header
+    from .simulate import store_header
+    from .simulate.refinement import RefineSettings
 
     t0 = time.perf_counter()
     if export_format not in EXPORT_FORMATS:
@@ -417,7 +415,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         raise InputError(f"--export-fields {exp}: must not be --out or inside it; give a separate folder")
     ident = {"path": str(case_path), "title": case.title, "hypothesis": hyp, "seed": seed,
              "fingerprint": prob.fingerprint()}
-    resumed = _check_out_for_simulate(out, _header(prob, seed), ident, resume)
+    refine = None if refine_below is None else RefineSettings(below=refine_below, method=refine_method)
+    resumed = _check_out_for_simulate(out, store_header(prob, seed, refine), ident, resume)
     store = out / _STORE
     with _scheduler(scheduler) as client:
         # every input is checked: from here on the run writes
@@ -426,7 +425,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         store.mkdir(exist_ok=True)
         _write_json(store / "case.json", ident)
         res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=True,
-                       progress=progress, scheduler=client)
+                       progress=progress, scheduler=client, refine=refine)
     statuses = _statuses(store, n, res.fs)
     stage = Path(tempfile.mkdtemp(prefix=".partial-", dir=out))
     exp_stage = None
@@ -454,6 +453,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                                                                  "next qualifying surface is critical",
                               "ok-lowest-inadmissible-excluded": "the lowest-FS surface was inadmissible; the "
                                                                  "next qualifying surface is critical",
+                              "ok-refined": "the bank's critical surface was refined into a polyline with "
+                                            "this realisation's fields, which lowered the FS",
                               "no-valid-surface": "no surface converged and was admissible; excluded from pf"},
             "export_fields": None if exp is None else {"folder": str(exp), "format": export_format},
             "caution": CAUTION,

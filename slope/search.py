@@ -136,9 +136,11 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     method : str
         Method of slices (see :func:`slope.methods.factor_of_safety`).
     n_slices : int
-    overrides : dict, optional
+    overrides : dict or callable, optional
         Per-slice strength overrides for :func:`slope.strength.base_strength`
-        (a single sample: shapes broadcastable to (n_surfaces, n_slices)).
+        (a single sample: shapes broadcastable to (n_surfaces, n_slices)), or
+        a function of the slice bank of the usable surfaces returning them
+        (strengths from a random field, for surfaces built on the fly).
     tolerate : sequence of {"negative-normal", "thrust-outside"}
         Method flags that do not exclude a trial from the minimum (they stay
         in ``flags`` and in ``rejected`` is nothing for them).
@@ -163,7 +165,9 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     if len(idx):
         sub = bank.subset(idx)
         ov = None
-        if overrides is not None:
+        if callable(overrides):
+            ov = overrides(sub)  # strengths that depend on where the bases lie (random fields)
+        elif overrides is not None:
             ov = {k: np.broadcast_to(np.asarray(v, float), (m, bank.n_slices))[idx] for k, v in overrides.items()}
         c, tp = base_strength(sub, section.materials, hypothesis, ov)
         res = methods.factor_of_safety(sub, c, tp, method=method, **method_opts)

@@ -81,7 +81,7 @@ def test_resume_against_another_seed_is_refused(full_run, tmp_path, capsys):
 
 
 def test_exported_fields_read_back_through_meshio_equal_the_simulated_ones(full_run):
-    from slope.analysis import _trial_surfaces, random_problem
+    from slope.analysis import trial_surfaces, random_problem
     from slope.case import load_case
     from slope.simulate import realise_fields
 
@@ -89,7 +89,7 @@ def test_exported_fields_read_back_through_meshio_equal_the_simulated_ones(full_
     manifest = json.loads((ex / "fields.json").read_text())
     case = load_case(CASE)
     hyp = manifest["hypothesis"]
-    prob = random_problem(case, {hyp: {"bank": _trial_surfaces(case, hyp, case.analysis["method"])}}, hyp)
+    prob = random_problem(case, {hyp: {"bank": trial_surfaces(case, hyp, case.analysis["method"])}}, hyp)
     for prop in manifest["properties"]:
         with meshio.xdmf.TimeSeriesReader(str(ex / prop["file"])) as reader:
             reader.read_points_cells()
@@ -148,3 +148,28 @@ def test_sweep_grid_rows_and_common_random_numbers(tmp_path):
                  "--realisations", "30", "--quiet"]) == 0
     row2 = json.loads((out2 / "sweep.json").read_text())["rows"][0]
     assert row2["pf"] == row_inf["pf"] and row2["mean_fs"] == row_inf["mean_fs"]
+
+
+def test_simulate_with_refinement_reports_refined_realisations(full_run, tmp_path):
+    # the refinement can only lower FS: every realisation's FS is at most the
+    # plain run's with the same seed, and the ones it lowered say so
+    out = tmp_path / "refined"
+    rc = main(["simulate", CASE, "--out", str(out), "--realisations", "6", "--batch", "3", "--quiet",
+               "--refine-below", "1.15"])
+    assert rc == 0
+    res = json.loads((out / "results.json").read_text())
+    assert res["simulation"]["refine"]["below"] == 1.15 and res["simulation"]["refine"]["method"] == "spencer"
+    _, fs, rows = _fs_column(out / "fs_realisations.csv")
+    _, fs_plain, _ = _fs_column(full_run / "full" / "fs_realisations.csv")
+    ok = np.isfinite(fs) & np.isfinite(fs_plain[:6])
+    assert np.all(fs[ok] <= fs_plain[:6][ok])
+    lowered = fs[ok] < fs_plain[:6][ok]
+    assert sum(r["status"] == "ok-refined" for r in rows) == res["simulation"]["n_refined"] == int(lowered.sum())
+
+
+def test_bad_refine_threshold_exits_2_and_writes_nothing(tmp_path, capsys):
+    out = tmp_path / "bad"
+    rc = main(["simulate", CASE, "--out", str(out), "--realisations", "4", "--quiet", "--refine-below", "-1"])
+    assert rc == 2
+    assert "--refine-below" in capsys.readouterr().err
+    assert not out.exists()

@@ -18,12 +18,15 @@ from .figures import (
     plot_tornado,
     plot_variance_reduction,
 )
+from ._files import atomic_write_bytes, atomic_write_text
 from .html import CAUTION, figure_png_bytes, figure_svg_text, render_report, save_figure, write_report
 from .risk import annual_probability, plot_risk_chart, risk_points, tolerability_line
 from .style import CYCLE, PALETTE, report_style
 from .tables import format_value, summary_table, table_to_html, write_csv
 
 __all__ = [
+    "atomic_write_bytes",
+    "atomic_write_text",
     "CAUTION",
     "CYCLE",
     "PALETTE",

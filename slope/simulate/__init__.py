@@ -4,8 +4,10 @@ Public API: RandomProperty, RandomProblem, simulate, realise_fields,
 averaging_report, theta_sweep, SimulationResult.
 """
 from .problem import RandomProblem, RandomProperty
-from .run import SimulationResult, realise_fields, simulate
+from .refinement import RefineSettings
+from .run import SimulationResult, load_store, realise_fields, simulate, store_header
 from .studies import averaging_report, theta_sweep
 
 __all__ = ["RandomProperty", "RandomProblem", "simulate", "SimulationResult", "realise_fields",
+           "RefineSettings", "load_store", "store_header",
            "averaging_report", "theta_sweep"]

@@ -12,7 +12,7 @@ from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
 from .engine import batch_fs, stencil
 from .problem import RandomProblem
 
-__all__ = ["SimulationResult", "simulate", "realise_fields", "BLOCK"]
+__all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK"]
 
 BLOCK = 100  # realisations per on-disk block (fixed, independent of `batch`)
 
@@ -37,6 +37,14 @@ class SimulationResult:
         converge / was inadmissible.
     n_no_valid : int
         Realisations where no surface qualified (excluded from pf, reported).
+    fs_bank : ndarray (n,) or None
+        With refinement: the critical FS of the bank before it (``fs`` is
+        then the lower of the two, and ``critical_index`` the bank surface
+        the refinement started from).
+    n_refined : int
+        Realisations whose FS the refinement lowered.
+    refine : dict or None
+        The refinement settings.
     """
 
     fs: np.ndarray
@@ -48,6 +56,9 @@ class SimulationResult:
     n_no_valid: int
     seed: int
     problem: RandomProblem | None = None
+    fs_bank: np.ndarray | None = None
+    n_refined: int = 0
+    refine: dict | None = None
 
     @property
     def n(self) -> int:
@@ -98,6 +109,7 @@ class SimulationResult:
                 "std_fs": float(f.std(ddof=1)) if f.size > 1 else None,
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
+                "refine": self.refine, "n_refined": self.n_refined,
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
 
     def failure_map(self, x_edges, y_edges):
@@ -145,9 +157,21 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
-def _run_block(problem, seed, start, stop):
+def _run_block(problem, seed, start, stop, refine=None):
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
-    return _reduce(problem, fs, conv, adm)
+    out = _reduce(problem, fs, conv, adm)
+    if refine is not None:
+        from .refinement import refine_realisation
+
+        fs_c = out["fs"]
+        out["fs_bank"] = fs_c.copy()
+        out["refined"] = np.zeros(fs_c.size, bool)
+        for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
+            f, _ = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+            if np.isfinite(f) and f < fs_c[r]:
+                fs_c[r] = f
+                out["refined"][r] = True
+    return out
 
 
 def _concat(parts):
@@ -155,9 +179,54 @@ def _concat(parts):
     return {k: np.concatenate([p[k] for p in parts]) for k in keys}
 
 
-def _header(problem, seed):
-    return {"format": "slipfield-rlem-store", "version": 1, "fingerprint": problem.fingerprint(),
+def store_header(problem, seed, refine=None) -> dict:
+    """What a store of ``simulate(problem, …, seed, refine=…)`` records in ``header.json``.
+
+    A run resumes only from a store with an equal header (same problem
+    fingerprint, seed, block size and refinement settings).
+    """
+    head = {"format": "slipfield-rlem-store", "version": 1, "fingerprint": problem.fingerprint(),
             "seed": int(seed), "block": BLOCK}
+    if refine is not None:
+        head["refine"] = _refine_settings(refine).describe()
+    return head
+
+
+def _block_paths(store):
+    import glob
+
+    return sorted(glob.glob(os.path.join(str(store), "block_*.npz")))
+
+
+def load_store(store) -> dict:
+    """Per-realisation arrays of a store, concatenated in realisation order.
+
+    Returns
+    -------
+    dict key -> ndarray (n_stored,)
+        ``fs``, ``crit``, ``fs_fixed``, ``fixed_ok``, ``nonconv``, ``inadm``,
+        ``none`` (and ``fs_bank``, ``refined`` with refinement); empty dict
+        for an empty or missing store. Unreadable blocks raise InputError.
+    """
+    parts = []
+    for f in _block_paths(store):
+        try:
+            with np.load(f) as d:
+                parts.append({k: d[k] for k in d.files if k not in ("start", "stop")})
+        except (OSError, ValueError) as exc:
+            raise InputError(f"store {store}: block {os.path.basename(f)} is unreadable ({exc}); "
+                             "start a new run in an empty folder") from None
+    return _concat(parts) if parts else {}
+
+
+def _refine_settings(refine):
+    from .refinement import RefineSettings
+
+    if refine is None or isinstance(refine, RefineSettings):
+        return refine
+    if isinstance(refine, dict):
+        return RefineSettings(**refine)
+    return RefineSettings(below=refine)
 
 
 def _atomic_write_npz(path, arrays):
@@ -175,7 +244,7 @@ def _blocks(lo, hi, size):
     return out
 
 
-def _execute(problem, seed, ranges, n_jobs, scheduler):
+def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
     """Results of ``_run_block`` for each range, yielded in order as they complete.
 
     One stream of tasks for the whole run (not one parallel call per stored
@@ -183,7 +252,8 @@ def _execute(problem, seed, ranges, n_jobs, scheduler):
     """
     if scheduler is not None:
         futs = scheduler.map(_run_block, [problem] * len(ranges), [seed] * len(ranges),
-                             [a for a, _ in ranges], [b for _, b in ranges], pure=False)
+                             [a for a, _ in ranges], [b for _, b in ranges], [refine] * len(ranges),
+                             pure=False)
         try:
             for f in futs:
                 yield f.result()
@@ -192,12 +262,12 @@ def _execute(problem, seed, ranges, n_jobs, scheduler):
         return
     if n_jobs == 1 or len(ranges) == 1:
         for a, b in ranges:
-            yield _run_block(problem, seed, a, b)
+            yield _run_block(problem, seed, a, b, refine)
         return
     from joblib import Parallel, delayed
 
     yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-        delayed(_run_block)(problem, seed, a, b) for a, b in ranges)
+        delayed(_run_block)(problem, seed, a, b, refine) for a, b in ranges)
 
 
 def _connect(address, timeout):
@@ -215,7 +285,7 @@ def _connect(address, timeout):
 
 
 def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False, progress=False,
-             scheduler=None, scheduler_timeout=5.0) -> SimulationResult:
+             scheduler=None, scheduler_timeout=5.0, refine=None) -> SimulationResult:
     """Random limit-equilibrium Monte Carlo.
 
     Parameters
@@ -240,6 +310,10 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         (``tcp://host:port``), connected before any work starts.
     scheduler_timeout : float, s
         How long to wait for a scheduler given by address.
+    refine : float, dict or RefineSettings, optional
+        Refine the critical surface of every realisation whose bank FS is
+        below a threshold into a polyline with that realisation's fields
+        (:mod:`slope.simulate.refinement`); a number is the threshold.
 
     Returns
     -------
@@ -257,11 +331,12 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     if int(seed) < 0:
         raise InputError(f"simulate: seed must be >= 0, got {seed}")
     seed = int(seed)
+    refine = _refine_settings(refine)
     if isinstance(scheduler, str):
         client = _connect(scheduler, float(scheduler_timeout))
         try:
             return simulate(problem, n, seed, n_jobs=n_jobs, batch=batch, store=store, resume=resume,
-                            progress=progress, scheduler=client)
+                            progress=progress, scheduler=client, refine=refine)
         finally:
             client.close()
     stencil(problem)  # geometry and base mapping built once, before pickling to workers
@@ -269,7 +344,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     if store is not None:
         os.makedirs(store, exist_ok=True)
         hpath = os.path.join(store, "header.json")
-        head = _header(problem, seed)
+        head = store_header(problem, seed, refine)
         if os.path.exists(hpath):
             if not resume:
                 raise InputError(f"simulate: store {store!r} already holds a run; pass resume=True to "
@@ -277,7 +352,9 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
             with open(hpath) as fh:
                 old = json.load(fh)
             if old != head:
-                why = "seed differs" if old.get("seed") != seed else "the problem differs (hash mismatch)"
+                why = ("seed differs" if old.get("seed") != seed else
+                       "the refinement settings differ" if old.get("refine") != head.get("refine") else
+                       "the problem differs (hash mismatch)")
                 raise InputError(f"simulate: cannot resume from {store!r}: {why}; use a new store directory")
         else:
             with open(hpath + ".tmp", "w") as fh:
@@ -303,7 +380,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
 
         bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), unit="real")
     plan = [(b, lo, hi, _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]) for b, lo, hi in todo]
-    stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler)
+    stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler, refine)
     try:
         for b, lo, hi, ranges in plan:
             res = _concat([next(stream) for _ in ranges])
@@ -327,7 +404,10 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     return SimulationResult(fs=allr["fs"], critical_index=allr["crit"].astype(int), fs_fixed=allr["fs_fixed"],
                             fixed_ok=allr["fixed_ok"].astype(bool), n_nonconverged=int(allr["nonconv"].sum()),
                             n_inadmissible=int(allr["inadm"].sum()), n_no_valid=int(allr["none"].sum()),
-                            seed=seed, problem=problem)
+                            seed=seed, problem=problem,
+                            fs_bank=allr.get("fs_bank"),
+                            n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
+                            refine=None if refine is None else refine.describe())
 
 
 def realise_fields(problem, seed, k):

@@ -1,0 +1,167 @@
+"""Refinement of a realisation's critical surface into a polyline.
+
+The bank search finds the lowest FS among precomputed candidates; in a
+spatially variable soil the true critical surface bends towards weak zones,
+which a bank of circles cannot follow. For realisations whose bank FS is
+below a threshold, :func:`refine_realisation` starts
+:func:`slope.search.refine` from the bank's critical surface with the
+realisation's own fields: every trial polyline gets its slice-base
+strengths from the same grid values and the same mapping (bilinear
+interpolation at the base's points, then their mean) as the bank, so a
+refined FS is directly comparable with the bank FS. ``refine`` keeps the
+start circle among its candidates, so refinement never raises the FS.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..search import refine
+from ..strength import base_strength
+from ..surfaces import Circle
+from .engine import _correlated, bilinear
+from .problem import AVERAGING
+
+__all__ = ["RefineSettings", "realisation_overrides", "refine_realisation"]
+
+_POLYLINE_METHODS = ("spencer", "morgenstern-price", "janbu")
+
+
+@dataclass(frozen=True)
+class RefineSettings:
+    """Which realisations are refined, and how.
+
+    Parameters
+    ----------
+    below : float, -
+        Refine realisations whose critical bank FS is below this value
+        (e.g. 1.2; realisations above it keep their bank FS). pf can only
+        change through realisations with 1 <= bank FS < ``below``.
+    method : str
+        Method of slices for the polylines (``spencer``, default, or
+        ``morgenstern-price``, ``janbu``): Bishop's and the Ordinary method's
+        moment equilibrium about a point is not suited to non-circular
+        surfaces. The start circle is re-evaluated by the same method.
+    n_vertices : int
+        Polyline vertices (ends included).
+    max_evaluations : int
+        FS evaluations per refined realisation.
+    """
+
+    below: float
+    method: str = "spencer"
+    n_vertices: int = 8
+    max_evaluations: int = 300
+
+    def __post_init__(self):
+        b = float(self.below)
+        if not (math.isfinite(b) and b > 0):
+            raise InputError(f"refine below (--refine-below): {self.below!r}; give a factor of safety > 0, e.g. 1.2")
+        object.__setattr__(self, "below", b)
+        m = str(self.method).lower()
+        if m not in _POLYLINE_METHODS:
+            raise InputError(f"refine method (--refine-method): {self.method!r}; polylines need one of "
+                             f"{', '.join(_POLYLINE_METHODS)}")
+        object.__setattr__(self, "method", m)
+        if int(self.n_vertices) < 3:
+            raise InputError(f"refine n_vertices: {self.n_vertices!r}; give at least 3")
+        if int(self.max_evaluations) < 10:
+            raise InputError(f"refine max_evaluations: {self.max_evaluations!r}; give at least 10")
+        object.__setattr__(self, "n_vertices", int(self.n_vertices))
+        object.__setattr__(self, "max_evaluations", int(self.max_evaluations))
+
+    def describe(self) -> dict:
+        return asdict(self)
+
+
+def _grid_values(problem, seed, k):
+    """Physical values of realisation k on the whole grid: {(i, z): (nx, ny) or (1, 1)}."""
+    out = {}
+    for z in range(len(problem.section.zones)):
+        members = [i for i, p in enumerate(problem.properties) if z in problem.zones_of(i)]
+        if not members:
+            continue
+        zs = _correlated(problem, seed, [k], z, members)
+        for i in members:
+            out[(i, z)] = np.asarray(problem.properties[i].marginal.from_standard_normal(zs[i]), float)
+    return out
+
+
+def realisation_overrides(problem, seed, k):
+    """Strength overrides of realisation k for any slice bank.
+
+    Returns
+    -------
+    callable
+        ``f(bank) -> dict`` of per-base overrides (``c``, ``phi``, ``su``,
+        ``su_ratio``; shape ``(m, n)``) for :func:`slope.strength.base_strength`,
+        as :func:`slope.simulate.engine.batch_fs` maps them onto its bank.
+    """
+    values = _grid_values(problem, seed, k)
+    grid = problem.grid
+    npb = AVERAGING[problem.averaging]
+    mats = problem.section.materials
+
+    def overrides(bank):
+        xb, yb = bank.base_points_section_frame(npb)
+        zone = np.asarray(bank.zone)
+        per_key = {p.key: np.full(zone.shape, np.nan) for p in problem.properties}
+        for (i, z), v in values.items():
+            mask = zone == z
+            if not mask.any():
+                continue
+            p = problem.properties[i]
+            if v.size == 1:
+                per_key[p.key][mask] = float(v.ravel()[0])
+            else:
+                per_key[p.key][mask] = bilinear(grid, v, xb[mask], yb[mask])[0].mean(axis=-1)
+        out = {}
+        for p in problem.properties:
+            v, key = per_key[p.key], p.prop
+            if p.multiplier:
+                if p.prop in ("su", "su_ratio"):
+                    det, key = base_strength(bank, mats, "undrained")[0], "su"
+                elif p.prop == "c":
+                    det = base_strength(bank, mats, "drained")[0]
+                else:
+                    det = np.degrees(np.arctan(base_strength(bank, mats, "drained")[1]))
+                v = v * det
+            out[key] = v if key not in out else np.where(np.isnan(v), out[key], v)
+        return out
+
+    return overrides
+
+
+def refine_realisation(problem, seed, k, start, settings: RefineSettings):
+    """Refine realisation k's critical surface.
+
+    Parameters
+    ----------
+    problem : RandomProblem
+    seed, k : int
+        Run seed and realisation number.
+    start : int
+        Bank index of the realisation's critical surface.
+    settings : RefineSettings
+
+    Returns
+    -------
+    fs : float
+        Lowest FS of the refinement's candidates (the start circle included),
+        by ``settings.method``; NaN when none was usable.
+    surface : Polyline or Circle or None
+    """
+    surf = problem.surfaces[int(start)]
+    try:
+        res = refine(problem.section, surf, n_vertices=settings.n_vertices, method=settings.method,
+                     hypothesis=problem.hypothesis, n_slices=problem.n_slices,
+                     overrides=realisation_overrides(problem, seed, k),
+                     max_evaluations=settings.max_evaluations)
+    except InputError:
+        return float("nan"), None  # the start surface is not usable by the refinement's method
+    if res.critical is None or not np.isfinite(res.fs_min):
+        return float("nan"), None
+    return float(res.fs_min), res.critical if not isinstance(res.critical, Circle) else surf
