@@ -253,6 +253,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "averaging": Key(_string(("base-average", "midpoint")), default="base-average"),
         "jobs": Key(_integer(lo=1), default=1),
         "batch": Key(_integer(lo=1), default=100),
+        "refine_below": Key(_number(lo=0, lo_open=True),
+                            doc="refine the critical surface of realisations with a bank FS below this (-)"),
+        "refine_method": Key(_string(("spencer", "morgenstern-price", "janbu")), default="spencer",
+                             doc="method of slices of the refined polylines"),
     },
     "reliability": {
         "methods": Key(_string_list(("monte-carlo", "latin-hypercube", "point-estimate", "fosm", "form", "subset")),

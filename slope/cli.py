@@ -138,7 +138,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="refine the critical surface of realisations with a bank FS below FS into a polyline "
                         "with their own fields (slower; off by default)")
     s.add_argument("--refine-method", default="spencer", choices=("spencer", "morgenstern-price", "janbu"),
-                   help="method of slices of the refined polylines (default spencer)")
+                   help="method of slices of the refined polylines (default spencer; with --refine-below)")
     s.set_defaults(func=_cmd_simulate)
     w = sub.add_parser("sweep", help="pf over a grid of scales of fluctuation (common random numbers)")
     _sim_options(w, sweep=True)

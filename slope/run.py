@@ -120,13 +120,16 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
 
     seed = int(case.simulation["seed"])
     block = int(case.simulation["batch"])
+    below = case.simulation.get("refine_below")
+    refine = None if below is None else {"below": float(below),
+                                         "method": case.simulation.get("refine_method", "spencer")}
     out, arrays = {}, {}
     for label, override in (("spatial", None), ("single_random_variable", (math.inf, math.inf))):
         prob = random_problem(case, det, hyp, theta_override=override)
         if prob is None:
             return None
         t0 = time.perf_counter()
-        res = simulate(prob, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet)
+        res = simulate(prob, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet, refine=refine)
         wall = time.perf_counter() - t0
         fs = np.asarray(res.fs, float)
         est = estimate_pf(fs, valid=np.isfinite(fs))
@@ -155,6 +158,7 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                              "status": "no realisation gave a converged, admissible FS on this surface"}),
             "n_nonconverged": int(res.n_nonconverged), "n_inadmissible": int(res.n_inadmissible),
             "n_realisations_without_valid_surface": int(res.n_no_valid),
+            "refine": res.refine, "n_refined": int(res.n_refined),
         }
         crit = np.asarray(res.critical_index)
         failed = np.flatnonzero(np.isfinite(fs) & (fs < 1.0) & (crit >= 0))

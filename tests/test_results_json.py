@@ -224,3 +224,22 @@ def test_sliding_mass_geometry_of_a_circular_segment():
     np.testing.assert_allclose(depth, r - d, atol=1e-3)
     with pytest.raises(ValueError, match="index"):
         sliding_mass_geometry(bank, [-1])
+
+
+def test_refinement_from_the_case_file_is_reported_and_documented(tmp_path):
+    # [simulation] refine_below reaches both runs of every hypothesis and the
+    # refined results follow the same documented structure
+    text = (CASES / "levee_soft_clay.toml").read_text(encoding="utf-8")
+    case = tmp_path / "levee_refined.toml"
+    case.write_text(text.replace("batch = 100\n", "batch = 100\nrefine_below = 1.05\n", 1), encoding="utf-8")
+    out = tmp_path / "out"
+    run_case(case, out, realisations=12, jobs=1, figure_formats=("png",))
+    doc = json.loads((out / "results.json").read_text(encoding="utf-8"))
+    assert validate(doc, SCHEMA) == []
+    sims = [s for s in doc["spatial_simulation"].values() if s]
+    assert sims
+    for s in sims:
+        for run in ("spatial", "single_random_variable"):
+            r = s[run]
+            assert r["refine"]["below"] == 1.05 and r["refine"]["method"] == "spencer"
+            assert 0 <= r["n_refined"] <= r["realisations"]
