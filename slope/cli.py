@@ -33,6 +33,10 @@ def _cmd_run(args) -> int:
                 b = s["single_random_variable"]["critical_surface_searched"]
                 print(f"  pf {h}: spatial {a['pf']:.4f} [{a['pf_interval_95'][0]:.4f}, {a['pf_interval_95'][1]:.4f}]"
                       f"  single random variable {b['pf']:.4f} [{b['pf_interval_95'][0]:.4f}, {b['pf_interval_95'][1]:.4f}]")
+                q = s.get("analytic_variance_reduction") or {}
+                if q.get("pf") is not None:
+                    print(f"  pf {h}: quick estimate (σ√γ on the fixed surface) {q['pf']:.4f} "
+                          f"[{q['pf_interval_95'][0]:.4f}, {q['pf_interval_95'][1]:.4f}]")
         print("  Results support, not replace, engineering judgement; defer to local codes and licensed practice.")
     return 0
 
