@@ -19,6 +19,7 @@ import numpy as np
 
 from fields.marginals import make_marginal
 
+from .bank import unit_weight_parts
 from .case import Case, theta_value
 from .errors import InputError
 from .reliability.limit_state import LimitState
@@ -132,14 +133,16 @@ def properties_for(case: Case, hypothesis: str) -> list[dict]:
 
     Drained: c', φ' of every material; undrained: su (as a factor on the
     material's su law), su_ratio, and c', φ' of materials without an undrained
-    strength (they stay drained).
+    strength (they stay drained); a unit weight acts under both.
     """
     mats = case.section.materials
     out = []
     for r in case.randoms:
         m = mats[r["material"]]
         p = r["property"]
-        if hypothesis == "drained" and p in _DRAINED_PROPS:
+        if p == "unit_weight":
+            out.append(r)
+        elif hypothesis == "drained" and p in _DRAINED_PROPS:
             out.append(r)
         elif hypothesis == "undrained" and (p in _UNDRAINED_PROPS or (p in _DRAINED_PROPS and not m.has_undrained)):
             out.append(r)
@@ -151,11 +154,21 @@ def marginal_of(case: Case, r: dict):
 
     c' (kPa) and φ' (degrees) keep their values (mean: the material's unless
     given); su and su_ratio are factors of mean 1 on the material's
-    undrained law, so a trend with depth keeps its shape.
+    undrained law, so a trend with depth keeps its shape; a unit weight is
+    given in kN/m³ (mean: the material's γ unless given) and used as the
+    factor value/γ on γ and γsat.
     """
     mat = case.section.materials[r["material"]]
     p = r["property"]
     kw = {k: r[k] for k in ("lower", "upper") if k in r}
+    if p == "unit_weight":
+        g = float(mat.unit_weight)
+        mean = float(r.get("mean", g))
+        if mean <= 0:
+            raise InputError(f"random property {r['material']}.unit_weight: the mean is {mean:g} kN/m³; give a "
+                             "positive mean")
+        return make_marginal(r["distribution"], mean=mean / g, cov=float(r["cov"]),
+                             **{k: v / g for k, v in kw.items()})
     if p in ("su", "su_ratio"):
         return make_marginal(r["distribution"], mean=float(r.get("mean", 1.0)), cov=float(r["cov"]), **kw)
     mean = float(r.get("mean", getattr(mat, p)))
@@ -198,18 +211,21 @@ class _ExpandedLimitState:
         return fs, conv, np.isfinite(fs) & (fs > 0)
 
 
-def _limit_state(case: Case, bank, props, hypothesis, method):
+def _limit_state(case: Case, bank, props, hypothesis, method, surfaces):
     zones = case.section.zones
     assign, expand = {}, []
     for j, r in enumerate(props):
-        prop = {"c": "c", "phi": "phi", "su": "su_factor", "su_ratio": "su_factor"}[r["property"]]
+        prop = {"c": "c", "phi": "phi", "su": "su_factor", "su_ratio": "su_factor",
+                "unit_weight": "unit_weight"}[r["property"]]
         for z in zones:
             if z.material == r["material"]:
                 assign[len(expand)] = (z.name, prop)
                 expand.append(j)
     opts = dict(interslice=case.analysis["interslice"]) if method == "morgenstern-price" else {}
+    uw = [i for i, z in enumerate(zones) if (z.name, "unit_weight") in assign.values()]
+    parts = unit_weight_parts(case.section, surfaces, uw, case.analysis["slices"]) if uw else None
     inner = SliceBankLimitState(bank, case.section.materials, assign, method=method,
-                                hypothesis=hypothesis, **opts)
+                                hypothesis=hypothesis, weight_parts=parts, **opts)
     return _ExpandedLimitState(inner, expand)
 
 
@@ -229,14 +245,21 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
     names = [_name(r) for r in props]
     variables = RandomVector([RandomVariable(n, marginal_of(case, r)) for n, r in zip(names, props)],
                              _correlation(case, props))
-    fixed_bank = first.bank.subset([first.critical_index])
-    ls = LimitState(_limit_state(case, fixed_bank, props, hypothesis, method))
     cfg = case.data.get("reliability", {"methods": ["monte-carlo", "point-estimate", "form"],
                                         "samples": 5000, "tornado_k": 2.0})
+    research = bool(cfg.get("research_surface", False))
+    if research:
+        # every sample takes the least FS over the whole trial bank (a per-sample search of those surfaces)
+        surfaces = _surface_list(first.surfaces)
+        ls = LimitState(_limit_state(case, first.bank, props, hypothesis, method, surfaces))
+    else:
+        ls = LimitState(_limit_state(case, first.bank.subset([first.critical_index]), props, hypothesis,
+                                     method, [first.critical]))
     seed = int(case.simulation["seed"])
     out: dict = {"variables": [{"name": n, "distribution": v.marginal.name, "mean": v.mean, "std": v.std}
                                for n, v in zip(names, variables.variables)],
-                 "surface": "fixed (deterministic critical surface)", "method": method}
+                 "surface": ("re-searched over the trial surfaces for each sample" if research else
+                             "fixed (deterministic critical surface)"), "method": method}
     arrays: dict = {}
     for m in cfg["methods"]:
         if m in ("monte-carlo", "latin-hypercube"):
@@ -280,6 +303,12 @@ def _pf_dict(est) -> dict:
             "beta_normal": float(est.beta_normal), "beta_lognormal": float(est.beta_lognormal)}
 
 
+def _surface_list(surfaces):
+    if hasattr(surfaces, "xc"):  # a vectorised set of circles: a list of Circle
+        return [Circle(float(x), float(y), float(r)) for x, y, r in zip(surfaces.xc, surfaces.yc, surfaces.radius)]
+    return list(surfaces)
+
+
 def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=None):
     """The :class:`slope.simulate.RandomProblem` of a case under one hypothesis."""
     from .simulate import RandomProblem, RandomProperty
@@ -291,7 +320,7 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
     rp = []
     for r in props:
         th, tv = theta_value(r["theta_h"]), theta_value(r["theta_v"])
-        if theta_override is not None:
+        if theta_override is not None and r["property"] != "unit_weight":  # unit weight: one variable always
             th, tv = theta_override
         rp.append(RandomProperty(r["material"], r["property"], marginal_of(case, r), th, tv,
                                  model=r["model"], angle=float(r["angle"]),
@@ -300,9 +329,7 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
     R = _correlation(case, props)
     cc = [(i, j, float(R[i, j])) for i in range(len(rp)) for j in range(i + 1, len(rp)) if R[i, j] != 0]
     sim = case.simulation
-    surfaces = first.surfaces
-    if hasattr(surfaces, "xc"):  # a vectorised set of circles: the simulator takes a list
-        surfaces = [Circle(float(x), float(y), float(r)) for x, y, r in zip(surfaces.xc, surfaces.yc, surfaces.radius)]
+    surfaces = _surface_list(first.surfaces)
     return RandomProblem(case.section, hypothesis, case.analysis["method"], rp, surfaces,
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),

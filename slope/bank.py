@@ -26,7 +26,11 @@ from .slices import SliceBank
 from .surfaces import Circle, Circles, Polyline, circle_cuts, polyline_cuts
 from .water import GAMMA_W
 
-__all__ = ["build_bank"]
+__all__ = ["build_bank", "unit_weight_parts", "scale_unit_weights", "section_with_unit_weights",
+           "WEIGHT_DEPENDENT"]
+
+# slice quantities linear in the unit weights (weight · y_centroid stands for y_centroid)
+WEIGHT_DEPENDENT = ("weight", "weight_moment", "sigma_v_eff", "u_base")
 
 _CRACK_SAMPLES = 256  # points along a surface to locate a tension crack before refining
 
@@ -331,3 +335,117 @@ def _ponded_top(section, water, lo, hi):
     f = L * 0.5 * (pa2 + pb2)
     fx = L / 6.0 * (pa2 * (2 * a2 + b2) + pb2 * (a2 + 2 * b2))
     return f.sum(-1), (f * sl).sum(-1), fx.sum(-1)
+
+
+def _weight_dependent(bank):
+    return {"weight": bank.weight, "weight_moment": bank.weight * bank.y_centroid,
+            "sigma_v_eff": bank.sigma_v_eff, "u_base": bank.u_base}
+
+
+def unit_weight_parts(section, surfaces, zones, n_slices: int = 40, n_quad: int = 3) -> dict:
+    """Share of each zone's unit weight in the weight-dependent slice quantities.
+
+    Slice weights, their moments, the vertical effective stress at the base
+    and pore pressures set by ru are all linear in the unit weights, so a
+    random factor ``f_z`` on zone z's γ and γsat changes a quantity Q by
+    ``(f_z − 1) · ΔQ_z``, with ΔQ_z the change when that zone's unit weights
+    double. Computed once per bank (one extra bank per zone).
+
+    Parameters
+    ----------
+    section : Section
+    surfaces : as :func:`build_bank`
+    zones : sequence of int
+        Zone indices (``section.zones``) whose unit weight is random.
+    n_slices, n_quad : int
+        As the bank the parts belong to.
+
+    Returns
+    -------
+    dict zone index -> dict name -> ndarray (m, n)
+        ΔQ for every name of :data:`WEIGHT_DEPENDENT` (kN/m, kN m/m, kPa, kPa).
+    """
+    ref = _weight_dependent(build_bank(section, surfaces, n_slices, n_quad))
+    out = {}
+    for z in zones:
+        q = _weight_dependent(build_bank(section_with_unit_weights(section, {int(z): 2.0}), surfaces,
+                                         n_slices, n_quad))
+        out[int(z)] = {k: q[k] - ref[k] for k in WEIGHT_DEPENDENT}
+    return out
+
+
+def section_with_unit_weights(section, factors):
+    """A copy of ``section`` with the unit weights of some zones multiplied.
+
+    Parameters
+    ----------
+    section : Section
+    factors : dict zone index -> float
+        Factor on γ and γsat of that zone (its material is cloned for it, so
+        other zones of the same material keep theirs).
+
+    Returns
+    -------
+    Section
+    """
+    from dataclasses import replace
+
+    from .section import Section, Zone
+
+    mats = dict(section.materials)
+    zones = []
+    for i, zz in enumerate(section.zones):
+        name = zz.material
+        if i in factors and float(factors[i]) != 1.0:
+            f = float(factors[i])
+            mat = section.materials[zz.material]
+            name = f"{zz.material} (zone {zz.name}, unit weight x {f:.17g})"
+            mats[name] = replace(mat, name=name, unit_weight=f * mat.unit_weight,
+                                 unit_weight_sat=f * mat.unit_weight_sat)
+        # Zone stores its polygon open; the constructor wants it closed
+        zones.append(Zone(zz.name, name, np.vstack([zz.polygon, zz.polygon[:1]])))
+    return Section(section.ground, zones, mats, water=section.water, loads=section.loads,
+                   base_y=section.base_y)
+
+
+def scale_unit_weights(bank, parts, factors):
+    """The bank with zone unit weights multiplied by ``factors``.
+
+    Parameters
+    ----------
+    bank : SliceBank
+    parts : dict
+        :func:`unit_weight_parts` of the same surfaces (rows of ``bank``).
+    factors : dict zone index -> float or 1-D array
+        Factor on γ and γsat of each zone (1 = unchanged). Arrays of ``s``
+        factors (one per sample) give a stacked bank of ``s × m`` rows,
+        sample-major (row ``k·m + j`` is surface j with sample k's weights),
+        so that many samples go through one kernel call.
+
+    Returns
+    -------
+    SliceBank
+        ``weight``, ``y_centroid``, ``sigma_v_eff`` and ``u_base`` updated;
+        geometry shared (tiled when stacked).
+    """
+    from dataclasses import replace
+
+    f = {z: np.asarray(v, float) for z, v in factors.items()}
+    stacked = any(v.ndim > 0 for v in f.values())
+    q = _weight_dependent(bank)
+    if stacked:
+        s = max(v.size for v in f.values())
+        m = bank.n_surfaces
+        bank = bank.subset(np.tile(np.arange(m), s))
+        q = {k: np.tile(v, (s, 1)) for k, v in q.items()}
+        for z, v in f.items():
+            d = np.repeat(np.broadcast_to(v, (s,)) - 1.0, m)[:, None]
+            q = {k: q[k] + d * np.tile(parts[z][k], (s, 1)) for k in WEIGHT_DEPENDENT}
+    else:
+        for z, v in f.items():
+            d = float(v) - 1.0
+            if d != 0.0:
+                q = {k: q[k] + d * parts[z][k] for k in WEIGHT_DEPENDENT}
+    w = q["weight"]
+    ycen = np.where(w > 0, q["weight_moment"] / np.where(w > 0, w, 1.0), bank.y_base)
+    return replace(bank, weight=w, y_centroid=ycen, sigma_v_eff=q["sigma_v_eff"], u_base=q["u_base"])

@@ -30,7 +30,7 @@ FIELD_MODEL_NAMES = ("exponential", "markov", "gaussian", "squared-exponential",
                      "second-order-markov", "spherical", "matern")
 DISTRIBUTIONS = ("normal", "lognormal", "truncated-normal", "beta", "uniform", "triangular")
 SEARCH_KINDS = ("centre-lattice", "window", "fixed")
-RANDOM_PROPERTIES = ("c", "phi", "su", "su_ratio")
+RANDOM_PROPERTIES = ("c", "phi", "su", "su_ratio", "unit_weight")
 
 
 class CaseError(InputError):
@@ -94,6 +94,15 @@ def _string_list(choices=None, min_len=1):
                 return f"item {item!r} {msg}"
         return None
     return check
+
+
+def _is_inf(v) -> bool:
+    """A θ given as "inf" (string) or as the TOML float inf; a missing θ is reported elsewhere."""
+    if v is None:
+        return True
+    if isinstance(v, str):
+        return v.strip().lower() in ("inf", "infinity")
+    return isinstance(v, (int, float)) and math.isinf(v)
 
 
 def _number_list(lo=None, lo_open=False, allow_inf=False, min_len=1):
@@ -516,6 +525,9 @@ def _check_references(case: dict, where, problems: list[str]) -> None:
             }[p]
             if not ok:
                 problems.append(f"{where('random', i, 'property')}random[{i}].property {p!r}: material {r['material']!r} has no such parameter to vary")
+            if p == "unit_weight" and not all(_is_inf(r.get(t)) for t in ("theta_h", "theta_v")):
+                problems.append(f"{where('random', i, 'theta_h')}random[{i}]: a unit weight is random only as one "
+                                "variable per zone; give theta_h = \"inf\" and theta_v = \"inf\"")
             key = f"{r['material']}.{p}"
             if key in props:
                 problems.append(f"{where('random', i, None)}random[{i}]: {key} is made random twice")

@@ -117,3 +117,19 @@ rho = -0.5
         parse_case(text)
     assert len(info.value.problems) == 1
     assert "'clay.c' is not a random property" in info.value.problems[0]
+
+
+def test_unit_weight_field_is_refused_with_the_fix():
+    text = GOOD + """
+[[random]]
+material = "clay"
+property = "unit_weight"
+cov = 0.05
+theta_h = 10
+theta_v = "inf"
+"""
+    with pytest.raises(CaseError) as info:
+        parse_case(text)
+    assert len(info.value.problems) == 1
+    assert 'theta_h = "inf"' in info.value.problems[0] and "random[0]" in info.value.problems[0]
+    parse_case(text.replace("theta_h = 10", "theta_h = \"inf\""))  # one variable per zone is accepted

@@ -11,7 +11,9 @@ themselves are not re-optimised per sample).
 Properties: ``"c"`` (c', kPa), ``"phi"`` (φ', degrees), ``"tan_phi"``
 (tan φ'), for bases analysed drained; ``"su_factor"`` (dimensionless
 multiplier of the zone's su profile, mean 1 typically) for bases analysed
-undrained.
+undrained; ``"unit_weight"`` (dimensionless factor on the zone's γ and γsat:
+slice weights, σ'v and ru pore pressures follow it, so each sample gets its
+own slice terms, see :func:`slope.bank.scale_unit_weights`).
 """
 from __future__ import annotations
 
@@ -21,7 +23,7 @@ from ..errors import InputError
 
 __all__ = ["SliceBankLimitState", "PROPERTIES"]
 
-PROPERTIES = ("c", "phi", "tan_phi", "su_factor")
+PROPERTIES = ("c", "phi", "tan_phi", "su_factor", "unit_weight")
 
 
 class SliceBankLimitState:
@@ -41,12 +43,15 @@ class SliceBankLimitState:
     hypothesis : {'drained', 'undrained'}
     chunk : int
         Upper bound on samples × surfaces × slices per kernel call (memory).
+    weight_parts : dict, optional
+        :func:`slope.bank.unit_weight_parts` of the bank's surfaces for the
+        zones assigned ``"unit_weight"`` (required for them).
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
     """
 
     def __init__(self, bank, materials, assign, *, method="bishop", hypothesis="drained",
-                 chunk=2_000_000, **method_opts):
+                 chunk=2_000_000, weight_parts=None, **method_opts):
         from slope.methods import factor_of_safety, prepare_bank  # noqa: F401
         from slope.strength import base_strength
 
@@ -70,6 +75,14 @@ class SliceBankLimitState:
             if prop not in PROPERTIES:
                 raise InputError(f"assign[{col}]: unknown property {prop!r}; use one of {PROPERTIES}")
             self.assign[int(col)] = (self.zone_names.index(zone), prop)
+        self.weight_cols = {col: zi for col, (zi, prop) in self.assign.items() if prop == "unit_weight"}
+        missing = sorted({self.zone_names[zi] for zi in self.weight_cols.values()}
+                         - {self.zone_names[z] for z in (weight_parts or {})})
+        if missing:
+            raise InputError(f"weight_parts: no unit_weight_parts for zone(s) {missing}; compute them with "
+                             "slope.bank.unit_weight_parts(section, surfaces, zones, n_slices)")
+        self.weight_parts = weight_parts or {}
+        self.materials = materials
         self.bank = bank
         self.valid = np.asarray(bank.valid, bool)
         self.zone = np.where(self.valid[:, None], bank.zone, -1)
@@ -88,12 +101,17 @@ class SliceBankLimitState:
             self._terms = prepare_bank(self.bank)
         return self._terms
 
-    def strengths(self, X):
-        """Base strengths ``c (s, m, n)`` kPa and ``tan_phi (s, m, n)`` for samples ``X``."""
+    def strengths(self, X, c0=None, t0=None):
+        """Base strengths ``c (s, m, n)`` kPa and ``tan_phi (s, m, n)`` for samples ``X``.
+
+        ``c0``, ``t0``: the strengths at the means to start from (default those of the bank).
+        """
         X = np.atleast_2d(np.asarray(X, float))
         s = X.shape[0]
-        c = np.broadcast_to(self.c0, (s,) + self.c0.shape).copy()
-        t = np.broadcast_to(self.t0, (s,) + self.t0.shape).copy()
+        c0 = self.c0 if c0 is None else c0
+        t0 = self.t0 if t0 is None else t0
+        c = np.broadcast_to(c0, (s,) + c0.shape[-2:]).copy()   # (m, n) or one per sample (s, m, n)
+        t = np.broadcast_to(t0, (s,) + t0.shape[-2:]).copy()
         for col, (zi, prop) in self.assign.items():
             mask = self.zone == zi
             v = X[:, col][:, None, None]
@@ -103,8 +121,8 @@ class SliceBankLimitState:
                 t = np.where(mask & ~self.undrained, np.tan(np.radians(v)), t)
             elif prop == "tan_phi":
                 t = np.where(mask & ~self.undrained, v, t)
-            else:
-                c = np.where(mask & self.undrained, v * self.c0, c)
+            elif prop == "su_factor":
+                c = np.where(mask & self.undrained, v * c0, c)
         valid_rows = self.valid[None, :, None]
         return np.where(valid_rows, c, 0.0), np.where(valid_rows, t, 0.0)
 
@@ -118,6 +136,8 @@ class SliceBankLimitState:
         idx = np.flatnonzero(self.valid)
         if idx.size == 0:
             raise InputError("slice bank has no valid surface")
+        if self.weight_cols:
+            return self._per_sample(X)
         terms = self._prepared()
         for a in range(0, X.shape[0], step):
             c, t = self.strengths(X[a:a + step])
@@ -128,6 +148,38 @@ class SliceBankLimitState:
             fs.append(r.fs)
             conv.append(r.converged)
             adm.append(r.admissible & self.valid[None, :])
+        fs = np.concatenate(fs)
+        return (np.where(self.valid[None, :], fs, np.nan), np.concatenate(conv),
+                np.concatenate(adm))
+
+    def _per_sample(self, X):
+        # a random unit weight changes the slice terms themselves: one bank per sample
+        from slope.bank import scale_unit_weights
+        from slope.methods import factor_of_safety, prepare_bank
+        from slope.strength import base_strength
+
+        m, n = self.c0.shape
+        step = max(1, self.chunk // max(1, 20 * m * n))  # a stacked bank holds ~20 arrays of s·m·n
+        fs, conv, adm = [], [], []
+        for a in range(0, X.shape[0], step):
+            x = X[a:a + step]
+            s = x.shape[0]
+            factors = {zi: x[:, col] for col, zi in self.weight_cols.items()}
+            if any(np.any(~(f > 0)) for f in factors.values()):
+                raise InputError("random unit weight factor <= 0; use a positive marginal (lognormal, "
+                                 "truncated-normal, beta)")
+            # the samples' banks stacked as s × m surfaces: one kernel call for the chunk
+            bank = scale_unit_weights(self.bank, self.weight_parts, factors)
+            c0, t0 = base_strength(bank, self.materials, self.hypothesis)
+            c, t = self.strengths(x, c0.reshape(s, m, n), t0.reshape(s, m, n))
+            if np.any(c < 0) or np.any(t < 0):
+                raise InputError("random strengths produced negative c or tan(phi); use a "
+                                 "positive marginal (lognormal, truncated-normal, beta)")
+            r = factor_of_safety(prepare_bank(bank), c.reshape(1, s * m, n), t.reshape(1, s * m, n),
+                                 method=self.method, **self.method_opts)
+            fs.append(r.fs.reshape(s, m))
+            conv.append(np.asarray(r.converged).reshape(s, m))
+            adm.append(np.asarray(r.admissible).reshape(s, m) & self.valid[None, :])
         fs = np.concatenate(fs)
         return (np.where(self.valid[None, :], fs, np.nan), np.concatenate(conv),
                 np.concatenate(adm))

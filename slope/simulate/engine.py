@@ -19,6 +19,7 @@ from scipy import sparse
 
 from fields.seeding import realisation_rng
 
+from ..bank import scale_unit_weights, unit_weight_parts
 from ..methods import factor_of_safety, prepare_bank
 from ..search import _TOLERABLE
 from ..strength import base_strength
@@ -91,6 +92,9 @@ class BaseStencil:
         of the base's points (each row sums to 1).
     deterministic : dict
         Per-base material values for multiplier properties, filled on use.
+    weight_parts : dict
+        :func:`slope.bank.unit_weight_parts` of the valid surfaces for the
+        zones with a random unit weight (empty without one).
     """
 
     def __init__(self, problem):
@@ -114,6 +118,10 @@ class BaseStencil:
             used = np.flatnonzero(np.asarray(m.sum(axis=0)).ravel() > 0.0)
             self.zones[z] = (bases, used, m[:, used].tocsr())
         self.deterministic = {}
+        uw = sorted({z for i, p in enumerate(problem.properties) if p.prop == "unit_weight"
+                     for z in problem.zones_of(i)})
+        self.weight_parts = (unit_weight_parts(problem.section, [problem.surfaces[r] for r in self.rows], uw,
+                                               problem.n_slices) if uw and self.rows.size else {})
 
     @property
     def shape(self):
@@ -227,8 +235,14 @@ def batch_fs(problem, seed, indices):
     st = stencil(problem)
     vals = _valid_base_values(problem, seed, indices)
     overrides = {}
-    for p in problem.properties:
+    weight_factors = {}
+    for i, p in enumerate(problem.properties):
         v = vals[p.key]
+        if p.prop == "unit_weight":
+            for z in problem.zones_of(i):
+                if z in st.zones:  # one value per zone and realisation, on all its bases
+                    weight_factors[z] = v.reshape(len(indices), -1)[:, st.zones[z][0][0]]
+            continue
         key = p.prop
         if p.multiplier:
             det, key = _det_value(problem, p.prop)
@@ -237,8 +251,23 @@ def batch_fs(problem, seed, indices):
             overrides[key] = np.where(np.isnan(v), overrides[key], v)
         else:
             overrides[key] = v
-    c, tphi = base_strength(st.bank, problem.section.materials, problem.hypothesis, overrides=overrides)
-    res = factor_of_safety(st.terms, c, tphi, problem.method, interslice=problem.interslice)
+    mats = problem.section.materials
+    if weight_factors:
+        # weights change per realisation: slice terms are rebuilt for each one
+        runs = []
+        for r in range(len(indices)):
+            bank = scale_unit_weights(st.bank, st.weight_parts, {z: f[r] for z, f in weight_factors.items()})
+            c, tphi = base_strength(bank, mats, problem.hypothesis,
+                                    overrides={k: v[r:r + 1] for k, v in overrides.items()})
+            runs.append(factor_of_safety(prepare_bank(bank), c, tphi, problem.method,
+                                         interslice=problem.interslice))
+        res_fs = np.concatenate([x.fs for x in runs])
+        res_conv = np.concatenate([x.converged for x in runs])
+        res_flags = np.concatenate([np.asarray(x.flags) for x in runs])
+    else:
+        c, tphi = base_strength(st.bank, mats, problem.hypothesis, overrides=overrides)
+        res = factor_of_safety(st.terms, c, tphi, problem.method, interslice=problem.interslice)
+        res_fs, res_conv, res_flags = res.fs, res.converged, np.asarray(res.flags)
     # the flags the deterministic search tolerates by default (search.evaluate_surfaces) are
     # tolerated here too, or the critical surface of the search could never be critical here
     tolerated = _TOLERABLE["negative-normal"] | _TOLERABLE["thrust-outside"]
@@ -246,7 +275,7 @@ def batch_fs(problem, seed, indices):
     fs = np.full((s, m), np.nan)
     conv = np.zeros((s, m), bool)
     adm = np.zeros((s, m), bool)
-    fs[:, st.rows] = res.fs
-    conv[:, st.rows] = res.converged
-    adm[:, st.rows] = (np.asarray(res.flags) & ~tolerated) == 0
+    fs[:, st.rows] = res_fs
+    conv[:, st.rows] = res_conv
+    adm[:, st.rows] = (res_flags & ~tolerated) == 0
     return fs, conv, adm

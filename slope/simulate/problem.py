@@ -20,7 +20,7 @@ from ..methods import prepare_bank
 
 __all__ = ["RandomProperty", "RandomProblem", "PROPS", "AVERAGING"]
 
-PROPS = ("c", "phi", "su", "su_ratio")
+PROPS = ("c", "phi", "su", "su_ratio", "unit_weight")
 # base-average is the default: the strength mobilised on a base is the mean
 # along its length, and four points approximate that line average (and so
 # the variance reduction γ(T)) better than the midpoint value does.
@@ -35,8 +35,12 @@ class RandomProperty:
     ----------
     material : str
         Material name (a key of ``section.materials``).
-    prop : {"c", "phi", "su", "su_ratio"}
-        Property: c' (kPa), φ' (degrees), su (kPa) or su/σ'v (-).
+    prop : {"c", "phi", "su", "su_ratio", "unit_weight"}
+        Property: c' (kPa), φ' (degrees), su (kPa), su/σ'v (-), or
+        ``unit_weight``: a factor (-, mean about 1) on γ and γsat of the
+        material's zones, one random variable per zone and realisation
+        (θ = inf only: weights, their moments, σ'v and ru pore pressures
+        follow it through :func:`slope.bank.scale_unit_weights`).
     marginal : fields.marginals.Marginal
         Point distribution (from ``fields.marginals.make_marginal``).
     theta_h, theta_v : float, m
@@ -74,6 +78,10 @@ class RandomProperty:
             setattr(self, name, v)
         if math.isinf(self.theta_h) != math.isinf(self.theta_v):
             raise InputError("RandomProperty: theta_h and theta_v must be both finite or both math.inf")
+        if self.prop == "unit_weight" and not math.isinf(self.theta_h):
+            raise InputError(f"RandomProperty {self.material}.unit_weight: a unit weight is random only as one "
+                             "variable per zone (theta_h = theta_v = inf); a unit-weight field would need the "
+                             "field integrated over every slice, which slipfield does not do")
         if not hasattr(self.marginal, "from_standard_normal"):
             raise InputError("RandomProperty.marginal must come from fields.marginals.make_marginal(...)")
 

@@ -18,6 +18,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
+from ..bank import section_with_unit_weights
 from ..errors import InputError
 from ..search import refine
 from ..strength import base_strength
@@ -90,8 +91,12 @@ def _grid_values(problem, seed, k):
     return out
 
 
-def realisation_overrides(problem, seed, k):
+def realisation_overrides(problem, seed, k, section=None):
     """Strength overrides of realisation k for any slice bank.
+
+    ``section``: the section the banks are built from (default the
+    problem's; a copy with the realisation's unit weights has other
+    material names).
 
     Returns
     -------
@@ -103,7 +108,7 @@ def realisation_overrides(problem, seed, k):
     values = _grid_values(problem, seed, k)
     grid = problem.grid
     npb = AVERAGING[problem.averaging]
-    mats = problem.section.materials
+    mats = (problem.section if section is None else section).materials
 
     def overrides(bank):
         xb, yb = bank.base_points_section_frame(npb)
@@ -120,6 +125,8 @@ def realisation_overrides(problem, seed, k):
                 per_key[p.key][mask] = bilinear(grid, v, xb[mask], yb[mask])[0].mean(axis=-1)
         out = {}
         for p in problem.properties:
+            if p.prop == "unit_weight":
+                continue  # in the section's materials, not a strength
             v, key = per_key[p.key], p.prop
             if p.multiplier:
                 if p.prop in ("su", "su_ratio"):
@@ -155,10 +162,15 @@ def refine_realisation(problem, seed, k, start, settings: RefineSettings):
     surface : Polyline or Circle or None
     """
     surf = problem.surfaces[int(start)]
+    section = problem.section
+    weights = {z: float(v.ravel()[0]) for (i, z), v in _grid_values(problem, seed, k).items()
+               if problem.properties[i].prop == "unit_weight"}
+    if weights:  # the realisation's unit weights, as the bank's terms had them
+        section = section_with_unit_weights(section, weights)
     try:
-        res = refine(problem.section, surf, n_vertices=settings.n_vertices, method=settings.method,
+        res = refine(section, surf, n_vertices=settings.n_vertices, method=settings.method,
                      hypothesis=problem.hypothesis, n_slices=problem.n_slices,
-                     overrides=realisation_overrides(problem, seed, k),
+                     overrides=realisation_overrides(problem, seed, k, section),
                      max_evaluations=settings.max_evaluations)
     except InputError:
         return float("nan"), None  # the start surface is not usable by the refinement's method

@@ -19,7 +19,9 @@ __all__ = ["averaging_report", "theta_sweep", "surface_variance_factor", "reduce
 
 
 def _with_thetas(problem, thetas):
-    props = [dataclasses.replace(p, theta_h=th, theta_v=tv) for p, (th, tv) in zip(problem.properties, thetas)]
+    # a unit weight is always one random variable per zone (RandomProperty): its θ stays infinite
+    props = [p if p.prop == "unit_weight" else dataclasses.replace(p, theta_h=th, theta_v=tv)
+             for p, (th, tv) in zip(problem.properties, thetas)]
     new = RandomProblem(problem.section, problem.hypothesis, problem.method, props, problem.surfaces,
                         problem.fixed_index, cross_correlation=list(problem.cross_correlation),
                         n_slices=problem.n_slices, cell=problem.cell, field_method=problem.field_method,

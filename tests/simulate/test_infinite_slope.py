@@ -40,9 +40,9 @@ ALPHA = 1e-3         # two-sided level of every statistical check below
 Z_CRIT = norm.ppf(1 - ALPHA / 2)
 
 
-def _section():
+def _section(su=50.0):
     H = LF * TAN_B
-    mat = Material("clay", unit_weight=GAMMA, su_model="constant", su=50.0)
+    mat = Material("clay", unit_weight=GAMMA, su_model="constant", su=su)
     ground = np.array([[-10.0, 0.0], [0.0, 0.0], [LF, H], [LF + 10.0, H]])
     poly = np.vstack([ground, [[LF + 10.0, -6.0], [-10.0, -6.0], [-10.0, 0.0]]])
     return Section(ground, [Zone("clay", "clay", poly)], {"clay": mat}, base_y=-6.0)
@@ -167,3 +167,40 @@ def test_quick_estimate_is_exact_for_the_cohesive_infinite_slope(geometry):
     pf_exact = norm.cdf((1.0 - 1.05) / (fs1 * mean * COV * math.sqrt(g)))
     se = math.sqrt(pf_exact * (1 - pf_exact) / N)
     assert abs(r.pf_fixed - pf_exact) < Z_CRIT * se + 0.01 * pf_exact, (r.pf_fixed, pf_exact)
+
+
+def test_random_unit_weight_closed_form_simulator_and_form(geometry):
+    # φ = 0, no water: every slice weight scales with the factor f on γ, so
+    # FS = FS_mean / f exactly (Ordinary method: FS = Σ su l / Σ W sin α).
+    # With f lognormal (mean 1, COV V), pf = P(f > FS_mean)
+    # = 1 − Φ((ln FS_mean − μ_ln)/σ_ln) and FORM is exact (the limit state is
+    # linear in the standard normal of ln f; Hasofer & Lind 1974).
+    from slope.bank import unit_weight_parts
+    from slope.reliability import form
+    from slope.reliability.limit_state import LimitState
+    from slope.reliability.slope_limit_state import SliceBankLimitState
+    from slope.reliability.variables import RandomVariable, RandomVector
+
+    fs1, _, bank = geometry
+    su, V = 1.1 / fs1, 0.1                     # FS at the mean unit weight 1.1 (invented)
+    f = make_marginal("lognormal", mean=1.0, cov=V)
+    mu, sg = f.params["mu_ln"], f.params["sigma_ln"]
+    pf_exact = 1.0 - norm.cdf((math.log(1.1) - mu) / sg)
+    props = [RandomProperty("clay", "unit_weight", f, math.inf, math.inf)]
+    p = RandomProblem(_section(su), "undrained", "ordinary", props, [SURFACE], 0, n_slices=60)
+    r = simulate(p, N, seed=21, batch=64)
+    assert r.n_no_valid == 0
+    se = math.sqrt(pf_exact * (1 - pf_exact) / N)
+    assert abs(r.pf - pf_exact) < Z_CRIT * se, (r.pf, pf_exact)
+    # FS_k · f_k is the same number for every realisation
+    from fields.seeding import realisation_rng
+
+    fk = np.array([f.from_standard_normal(realisation_rng(21, k, 0, 0).standard_normal()) for k in range(N)])
+    np.testing.assert_allclose(r.fs * fk, 1.1, rtol=1e-6)
+    # the single-variable reliability layer on the same surface
+    parts = unit_weight_parts(_section(), [SURFACE], [0], 60)
+    ls = SliceBankLimitState(bank, {"clay": Material("clay", unit_weight=GAMMA, su_model="constant", su=su)},
+                             {0: ("clay", "unit_weight")}, method="ordinary", hypothesis="undrained",
+                             weight_parts=parts)
+    fr = form(LimitState(ls), RandomVector([RandomVariable("clay.unit_weight", f)]))
+    assert fr.beta == pytest.approx((math.log(1.1) - mu) / sg, rel=1e-4)

@@ -75,3 +75,23 @@ def test_resume_with_other_refinement_is_refused(tmp_path):
 def test_bad_settings_name_the_option(kw, word):
     with pytest.raises(InputError, match=word):
         RefineSettings(**kw)
+
+
+def test_refinement_uses_the_realisations_unit_weight():
+    # FS ∝ 1/f for φ = 0 when every weight scales by f: the refined FS of a
+    # realisation with unit-weight factor f_k times f_k is the same number
+    # (the refined FS of the slope at the mean unit weight) for every k
+    from fields.marginals import make_marginal
+    from slope.simulate import RandomProblem, RandomProperty
+
+    p0, _ = _gf_problem(math.inf, 0.3)
+    f = make_marginal("lognormal", mean=1.0, cov=0.08)
+    p = RandomProblem(p0.section, "undrained", "bishop", [RandomProperty("clay", "unit_weight", f, math.inf,
+                                                                         math.inf)],
+                      p0.surfaces, p0.fixed_index, n_slices=20, cell=1.0)
+    r = simulate(p, 4, seed=9, refine=5.0)
+    from fields.seeding import realisation_rng
+
+    fk = np.array([f.from_standard_normal(realisation_rng(9, k, 0, 0).standard_normal()) for k in range(4)])
+    np.testing.assert_allclose(r.fs_bank * fk, r.fs_bank[0] * fk[0], rtol=1e-9)
+    np.testing.assert_allclose(r.fs * fk, 1.47, rtol=0.02)   # Griffiths & Lane 1999, recalled

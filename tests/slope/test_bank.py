@@ -252,3 +252,34 @@ def test_base_strength_overrides_broadcast():
     assert np.all(tu[:, ~clay] == pytest.approx(np.tan(np.radians(32.0))))
     with pytest.raises(InputError, match="unknown key"):
         base_strength(bank, sec.materials, "drained", overrides={"cohesion": 1.0})
+
+
+@pytest.mark.parametrize("water", ["phreatic", "ru"])
+def test_scaled_unit_weights_equal_a_bank_built_with_them(water):
+    # weights, their moments, σ'v and ru pore pressures are linear in the unit
+    # weights (vertical integration of γ over the column): the parts from one
+    # doubled zone at a time reproduce a bank built with other unit weights
+    from dataclasses import replace
+
+    from slope.bank import scale_unit_weights, unit_weight_parts
+
+    sec = two_zone_section()
+    if water == "ru":
+        sec = Section(sec.ground, [replace(z, polygon=np.vstack([z.polygon, z.polygon[:1]])) for z in sec.zones],
+                      sec.materials, water=Water(ru=0.3), base_y=sec.base_y)
+    circles = Circles(np.array([20.0, 25.0, 30.0]), np.array([30.0, 34.0, 40.0]), np.array([18.0, 24.0, 30.0]))
+    bank = build_bank(sec, circles, 24)
+    assert bank.valid.sum() >= 2
+    factors = {0: 1.17, 1: 0.91}
+    mats = dict(sec.materials)
+    for i, z in enumerate(sec.zones):
+        m = mats[z.material]
+        mats[z.material] = replace(m, unit_weight=m.unit_weight * factors[i],
+                                   unit_weight_sat=m.unit_weight_sat * factors[i])
+    other = Section(sec.ground, [replace(z, polygon=np.vstack([z.polygon, z.polygon[:1]])) for z in sec.zones],
+                    mats, water=sec.water, loads=sec.loads, base_y=sec.base_y)
+    want = build_bank(other, circles, 24)
+    got = scale_unit_weights(bank, unit_weight_parts(sec, circles, [0, 1], 24), factors)
+    ok = want.valid
+    for k in ("weight", "y_centroid", "sigma_v_eff", "u_base"):
+        np.testing.assert_allclose(getattr(got, k)[ok], getattr(want, k)[ok], rtol=1e-10, atol=1e-9, err_msg=k)
