@@ -227,3 +227,30 @@ def test_system_pf_at_least_fixed_surface(two_zone):
     assert pf_s >= pf_f
     assert np.sum((s.fs < 1) & (f.fs >= 1)) > 0
     assert pf_s > pf_f
+
+
+def test_research_surface_never_above_the_fixed_surface():
+    # Huang, Griffiths & Fenton 2010: the least FS over the trial surfaces of
+    # each sample is at most the fixed surface's, so the system pf is at least
+    # the single-surface pf; same seed, same samples, compared sample by sample
+    from slope import analysis
+    from slope.case import load_case
+
+    case = load_case("cases/levee_soft_clay.toml")
+    case.data["analysis"]["hypotheses"] = ["undrained"]
+    case.data["analysis"]["methods"] = ["bishop"]
+    case.data["search"]["trials"] = 200
+    det = analysis.deterministic(case)
+    out = {}
+    for research in (False, True):
+        case.data["reliability"] = {"methods": ["monte-carlo"], "samples": 400, "tornado_k": 2.0,
+                                    "research_surface": research}
+        out[research] = analysis.single_variable_reliability(case, det, "undrained")
+    fixed = np.asarray(out[False]["arrays"]["monte-carlo"]["fs"], float)
+    searched = np.asarray(out[True]["arrays"]["monte-carlo"]["fs"], float)
+    ok = np.isfinite(fixed) & np.isfinite(searched)
+    assert ok.sum() > 350
+    assert np.all(searched[ok] <= fixed[ok] + 1e-12)
+    assert np.any(searched[ok] < fixed[ok] - 1e-6)   # the search does find other surfaces
+    assert out[True]["summary"]["monte-carlo"]["pf"] >= out[False]["summary"]["monte-carlo"]["pf"]
+    assert out[True]["summary"]["surface"].startswith("re-searched")
