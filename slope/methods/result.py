@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 __all__ = ["FSResult", "FLAG_NAMES", "NEGATIVE_NORMAL", "SMALL_M_ALPHA",
-           "THRUST_OUTSIDE", "NONPOSITIVE", "INVALID_SURFACE"]
+           "THRUST_OUTSIDE", "NONPOSITIVE", "INVALID_SURFACE", "NEGATIVE_STRENGTH"]
 
 #: effective base normal force below zero on at least one slice
 NEGATIVE_NORMAL = 1
@@ -19,6 +19,16 @@ THRUST_OUTSIDE = 4
 NONPOSITIVE = 8
 #: the surface was rejected when the bank was built (see ``bank.reason``)
 INVALID_SURFACE = 16
+#: Spencer / Morgenstern-Price: slice bases whose Mohr-Coulomb strength
+#: c l + N' tan(phi) is negative (effective normal tension beyond the apex of
+#: the envelope, so the base would push the mass along its motion) cancel
+#: more than half of the strength of the other bases
+#: (:data:`slope.methods.gle.NEGATIVE_STRENGTH_FRACTION`). No soil can do
+#: this; unlike a small negative N' (NEGATIVE_NORMAL, tolerated by the
+#: searches under cohesive crests) it marks a spurious root of the
+#: equilibrium equations (e.g. on circles with no driving moment, whose
+#: physical F is unbounded).
+NEGATIVE_STRENGTH = 32
 
 FLAG_NAMES = {
     NEGATIVE_NORMAL: "negative effective base normal force",
@@ -26,6 +36,7 @@ FLAG_NAMES = {
     THRUST_OUTSIDE: "line of thrust outside the slice",
     NONPOSITIVE: "factor of safety not positive or not finite",
     INVALID_SURFACE: "surface rejected by the slice bank",
+    NEGATIVE_STRENGTH: "negative shear strength on slice bases",
 }
 
 

@@ -14,14 +14,16 @@ at the base midpoint, ``G0`` the loads' couples about the base midpoints).
 This is written independently of the GLE recursion, in plain numpy
 vectorised over (samples, surfaces, slices), and solved by Newton's method
 on (F, theta); it must agree with Morgenstern-Price with a constant
-interslice function, which the tests check.
+interslice function, which the tests check (flags included: a root whose
+negative base strengths cancel the others is flagged ``NEGATIVE_STRENGTH``
+as in :mod:`slope.methods.gle`).
 """
 from __future__ import annotations
 
 import numpy as np
 
-from .gle import THRUST_E_FRACTION
-from .result import NEGATIVE_NORMAL, NONPOSITIVE, THRUST_OUTSIDE
+from .gle import NEGATIVE_STRENGTH_FRACTION, THRUST_E_FRACTION
+from .result import NEGATIVE_NORMAL, NEGATIVE_STRENGTH, NONPOSITIVE, THRUST_OUTSIDE
 
 __all__ = ["spencer", "thrust_line"]
 
@@ -164,11 +166,15 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
     X = lam[..., None] * E
     n_eff = A * ca - B * sa - Q * sam - terms.ul
     neg = (n_eff < -1e-9 * np.abs(A)).any(axis=2)
+    strength = c * terms.length + n_eff * tan_phi
+    spurious = (np.maximum(-strength, 0.0).sum(axis=2)
+                > NEGATIVE_STRENGTH_FRACTION * np.maximum(strength, 0.0).sum(axis=2))
     y = thrust_line(terms, E, X)
     outside = thrust_outside(terms, E, y)
     ok = flags == 0
     flags |= np.where(ok & neg, NEGATIVE_NORMAL, 0)
     flags |= np.where(ok & outside, THRUST_OUTSIDE, 0)
+    flags |= np.where(ok & spurious, NEGATIVE_STRENGTH, 0)
     out = {"fs": F, "lam": lam, "converged": conv & np.isfinite(F), "flags": flags,
            "iterations": iters}
     if return_forces:

@@ -11,7 +11,7 @@ from scipy.optimize import brentq
 from slope.errors import InputError
 from slope.methods import FSResult, factor_of_safety, prepare_bank
 from slope.methods.janbu import janbu_depth_ratio, janbu_f0
-from slope.methods.result import NEGATIVE_NORMAL, SMALL_M_ALPHA
+from slope.methods.result import NEGATIVE_NORMAL, NEGATIVE_STRENGTH, SMALL_M_ALPHA, THRUST_OUTSIDE
 from slope.slices import SliceBank
 
 GW = 9.81
@@ -524,3 +524,90 @@ def test_bad_input_names_the_item(kwargs, word):
 def test_result_type():
     r = factor_of_safety(_mixed_bank(), 10.0, 0.5)
     assert isinstance(r, FSResult) and r.method == "bishop"
+
+
+# ------------------------------- spurious Morgenstern-Price roots (levee) --
+_LEVEE = __import__("pathlib").Path(__file__).resolve().parents[2] / "cases" / "levee_soft_clay.toml"
+# the trial circles of the demo levee's centre-lattice search ([search]:
+# centres x 0..20 m, y 6..20 m on an 11 x 11 lattice, 10 radii set by the
+# lowest point from the base y = -12 m to 4.5 m); circles centred on the
+# levee axis x = 0 have no driving moment
+_TANGENTS = np.linspace(-12.0, 4.5, 10)
+
+
+def _levee_bank(circles, hypothesis):
+    from slope.bank import build_bank
+    from slope.case import load_case
+    from slope.strength import base_strength
+
+    sec = load_case(str(_LEVEE)).section
+    bank = build_bank(sec, circles, n_slices=30)
+    bank = bank.subset(np.nonzero(bank.valid)[0])
+    c, tp = base_strength(bank, sec.materials, hypothesis)
+    return prepare_bank(bank), c, tp
+
+
+def _counted(r):
+    # what the searches count: converged, no flag other than the tolerated
+    # negative-normal (1) and thrust-outside (4)
+    return r.converged & ((r.flags & ~(NEGATIVE_NORMAL | THRUST_OUTSIDE)) == 0) & np.isfinite(r.fs)
+
+
+@pytest.mark.parametrize("hypothesis,centre_y,k_tangent", [
+    # values before the fix, all counted by the searches:
+    ("drained", 7.4, 4),     # reported: M-P half-sine 0.277, counted as critical
+    ("drained", 6.0, 5),     # 0.387
+    ("drained", 17.2, 4),    # 632.6, lam = 5.2
+    ("undrained", 6.0, 4),   # 8.12, lam = 3.1
+])
+def test_mp_half_sine_spurious_root_on_circle_without_driving_moment(hypothesis, centre_y, k_tangent):
+    from slope.surfaces import Circle
+
+    r = centre_y - _TANGENTS[k_tangent]
+    pt, c, tp = _levee_bank([Circle(0.0, centre_y, r)], hypothesis)
+    # statics: the circle is centred on the axis of the symmetric levee, so
+    # the loads have no moment about its centre; moment equilibrium about the
+    # centre, F M_active = sum mt (c l + N' tan phi), then admits no finite F
+    # unless the base strengths cancel
+    assert abs(pt.m_active[0]) < 1e-9 * pt.force_scale[0] * pt.length_scale[0]
+    mp = factor_of_safety(pt, c, tp, method="morgenstern-price", interslice="half-sine",
+                          return_forces=True)
+    sp = factor_of_safety(pt, c, tp, method="spencer")
+    if _counted(mp)[0, 0]:
+        # Spencer = M-P with constant f (theory); half-sine within 1-2 % of
+        # Spencer on circles in published comparisons (common practice)
+        assert _counted(sp)[0, 0]
+        assert abs(mp.fs[0, 0] / sp.fs[0, 0] - 1) < 0.02
+    else:
+        assert not mp.ok[0, 0]
+    if mp.converged[0, 0] and np.isfinite(mp.fs[0, 0]):
+        strength = c * pt.length + mp.normal_eff[0] * tp
+        cancelled = np.maximum(-strength, 0).sum() > 0.5 * np.maximum(strength, 0).sum()
+        assert bool(mp.flags[0, 0] & NEGATIVE_STRENGTH) == cancelled
+
+
+@pytest.mark.parametrize("hypothesis", ["undrained", "drained"])
+def test_mp_half_sine_follows_spencer_on_the_levee_search_bank(hypothesis):
+    from slope.search import lattice_circles
+    from slope.case import load_case
+
+    circles = lattice_circles(load_case(str(_LEVEE)).section, x_range=(0.0, 20.0),
+                              y_range=(6.0, 20.0), nx=11, ny=11, n_radii=10)
+    pt, c, tp = _levee_bank(circles, hypothesis)
+    mp = factor_of_safety(pt, c, tp, method="morgenstern-price", interslice="half-sine")
+    sp = factor_of_safety(pt, c, tp, method="spencer")
+    bi = factor_of_safety(pt, c, tp, method="bishop")
+    cm, cs = _counted(mp)[0], _counted(sp)[0]
+    # every circle M-P counts, Spencer counts too, within 3 % (published
+    # comparisons: 1-2 % on circles, common practice; 3 % for 30 slices)
+    assert cm.sum() > 800
+    assert cs[cm].all()
+    ratio = mp.fs[0, cm] / sp.fs[0, cm]
+    assert np.abs(ratio - 1).max() < 0.03
+    # and not far below Bishop simplified where that is admissible
+    ok_b = cm & bi.ok[0]
+    assert (mp.fs[0, ok_b] / bi.fs[0, ok_b]).min() > 0.9
+    # the critical circles agree (reported: 0.277 from a spurious root)
+    crit_mp = mp.fs[0, cm].min()
+    crit_sp = sp.fs[0, cs].min()
+    assert abs(crit_mp / crit_sp - 1) < 0.02
