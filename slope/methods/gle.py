@@ -34,12 +34,13 @@ over a symmetric embankment) the physical F is unbounded, yet Newton can
 land on a finite F with large ``|lam|`` that is only in equilibrium because
 slice bases with a *negative* Mohr-Coulomb strength ``c l + N' tan phi``
 cancel the resistance of the others (flag ``NEGATIVE_STRENGTH``, see
-:data:`NEGATIVE_STRENGTH_FRACTION`). When the first run does not converge or
-ends on such a root, the solve is repeated by continuation in the interslice
+:data:`NEGATIVE_STRENGTH_FRACTION`). When the first run ends on such a root
+or on F <= 0, the solve is repeated by continuation in the interslice
 function, ``(1 - t) + t f`` for t = 0 (Spencer's constant function), 1/2
 and 1, each step started from the root of the previous one; its root
-replaces the first when it converges without that flag. A root that keeps
-the flag is returned with it, so searches never take it as critical.
+replaces the first when it converges without that flag (the iteration count
+then includes the continuation). A root that keeps the flag is returned
+with it, so searches never take it as critical.
 
 The line of thrust follows from the moment equilibrium of each slice about
 its base midpoint, marching from the upslope end.
@@ -69,15 +70,14 @@ NEGATIVE_STRENGTH_FRACTION = 0.5
 
 
 @njit(cache=True, fastmath=_FASTMATH)
-def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, tw, G0m, s1, s2, tol, max_iter,
+def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, max_iter,
             F, lam):
-    """Newton on (F, lam) for one (sample, surface), interslice function
-    ``(1 - tw) + tw f`` (tw = 1: f itself, tw = 0: Spencer's constant).
+    """Newton on (F, lam) for one (sample, surface) with the interslice
+    function ``f[fr]``.
 
     Returns F, lam, iterations, converged.
     """
     N = ca.shape[1]
-    w0 = 1.0 - tw
     done = False
     n_it = 0
     for it in range(max_iter):
@@ -98,8 +98,8 @@ def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, tw, G0m, s1, s2, tol, m
             T = Bi * cai + Ai * sai
             Phi = F * cai + t * sai
             Psi = t * cai - F * sai
-            fi = w0 + tw * f[m, i] if i > 0 else 0.0
-            fj = w0 + tw * f[m, i + 1]
+            fi = f[fr, i] if i > 0 else 0.0
+            fj = f[fr, i + 1]
             D = Phi - lam * fi * Psi
             G = Phi - lam * fj * Psi
             invG = 1.0 / G
@@ -257,23 +257,30 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
             lam0 = 0.0
         s1 = fscale[m]
         s2 = fscale[m] * lscale[m]
-        F, lam, n_it, done = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, 1.0, G0[m],
+        F, lam, n_it, done = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0[m],
                                      s1, s2, tol, max_iter, F0, lam0)
         fl = 8
         if F > 0.0 and np.isfinite(F):
             fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
                        fscale, lscale, F, lam, E_out, X_out, yt_out, neff_out, False)
-        if not done or (fl & 40) != 0:
-            # Newton from (Bishop's F, lam = 0) missed or reached a spurious root
-            # (negative base strength): continuation from Spencer's constant
-            # function, whose root is found reliably from that start, to f in
-            # two steps, each started from the root of the previous one
+        if (fl & 40) != 0:
+            # Newton from (Bishop's F, lam = 0) diverged or reached a spurious
+            # root (negative base strength): continuation from Spencer's
+            # constant function, whose root is found reliably from that start,
+            # to f in two steps, each started from the root of the previous
+            # one. Not retried when Newton merely ran out of iterations: on the
+            # demo and benchmark banks the continuation rescued none of those
+            # and cost a fifth of the M-P throughput.
             F2 = F0
             lam2 = 0.0
             ok = True
+            ft = np.empty((1, f.shape[1]))
             for step in range(3):
-                F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f,
-                                           0.5 * step, G0[m], s1, s2, tol, max_iter, F2, lam2)
+                tw = 0.5 * step
+                for i in range(f.shape[1]):
+                    ft[0, i] = (1.0 - tw) + tw * f[m, i]
+                F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, 0,
+                                           G0[m], s1, s2, tol, max_iter, F2, lam2)
                 n_it += k2
                 if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
                     ok = False
