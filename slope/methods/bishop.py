@@ -31,14 +31,22 @@ _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 
 
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)
-def _single_equation_kernel(c, tp, ca, sa, wb, wa, l, A, ub, ul, mn, use_mn, den0,
-                            valid, tol, max_iter, m_alpha_min,
+def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA_ca, lsa,
+                            ulsa, use_mn, den0, valid, tol, max_iter, m_alpha_min,
                             fs, iters, conv, flags, neff, want_forces):
-    # wb = w b and wa = w (A - u b) are per-surface terms, so the numerator
-    # of slice i is (wb c + wa tan phi) / m_alpha.
+    # c and tp are C-contiguous (Sc, Mc, N) with Sc in {1, S}, Mc in {1, M}:
+    # one compiled specialisation whatever the broadcasting of the inputs, so
+    # the vectorised sums run in the same order (identical bits) for every
+    # layout and number of samples. wb = w b, wa = w (A - u b), inv_ca =
+    # 1 / cos a, mnA_ca = mn A / cos a, lsa = l sin a, ulsa = u l sin a are
+    # per-surface terms; the numerator of slice i is (wb c + wa tan phi) / m_alpha.
     S = fs.shape[0]
     M = fs.shape[1]
     N = ca.shape[1]
+    sc_all = c.shape[0] > 1
+    mc_all = c.shape[1] > 1
+    st_all = tp.shape[0] > 1
+    mt_all = tp.shape[1] > 1
     for k in prange(S * M):
         s = k // M
         m = k - s * M
@@ -47,47 +55,57 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, l, A, ub, ul, mn, use_mn, den
             iters[s, m] = 0
             conv[s, m] = False
             continue
+        # row indices, not row views: a view costs reference counting per
+        # (sample, surface) in every thread
+        cs = s if sc_all else 0
+        cm = m if mc_all else 0
+        ts = s if st_all else 0
+        tm = m if mt_all else 0
         circ = not use_mn[m]
         # start: F -> infinity, m_alpha = cos a, N = A / cos a
         num = 0.0
-        den = den0[m]
         for i in range(N):
-            num += (wb[m, i] * c[s, m, i] + wa[m, i] * tp[s, m, i]) / ca[m, i]
-            if not circ:
-                den += mn[m, i] * A[m, i] / ca[m, i]
+            num += (wb[m, i] * c[cs, cm, i] + wa[m, i] * tp[ts, tm, i]) * inv_ca[m, i]
+        den = den0[m]
+        if not circ:
+            for i in range(N):
+                den += mnA_ca[m, i]
         F = num / den
         if not (F > 0.0) or not np.isfinite(F):
             F = 1.0
         done = False
         n_it = 0
-        fl = 0
+        # the iterate the last pass evaluated, within tol of the returned F:
+        # admissibility is judged there (as before the loops were split)
+        F_eval = F
         for it in range(max_iter):
             n_it = it + 1
+            F_eval = F
             inv = 1.0 / F
             inv2 = inv * inv
             num = 0.0
             dnum = 0.0
             den = den0[m]
             dden = 0.0
-            fl = 0
-            for i in range(N):
-                t = tp[s, m, i]
-                cc = c[s, m, i]
-                st = sa[m, i] * t
-                ma = ca[m, i] + st * inv
-                r = 1.0 / ma
-                P = (wb[m, i] * cc + wa[m, i] * t) * r
-                num += P
-                g = st * inv2 * r          # -d(m_alpha)/dF / m_alpha
-                dnum += P * g
-                # admissibility at this iterate; the last one is within tol of F
-                ne = (A[m, i] - ub[m, i] - cc * l[m, i] * sa[m, i] * inv) * r
-                if ma <= m_alpha_min:
-                    fl |= 2
-                if ne < -1e-9 * abs(A[m, i]):
-                    fl |= 1
-                if not circ:
-                    K = (cc * l[m, i] - ul[m, i] * t) * sa[m, i]
+            # two versions of the loop, branch-free inside, so that they vectorise
+            if circ:
+                for i in range(N):
+                    t = tp[ts, tm, i]
+                    st = sa[m, i] * t
+                    r = 1.0 / (ca[m, i] + st * inv)
+                    P = (wb[m, i] * c[cs, cm, i] + wa[m, i] * t) * r
+                    num += P
+                    dnum += P * (st * inv2 * r)
+            else:
+                for i in range(N):
+                    t = tp[ts, tm, i]
+                    st = sa[m, i] * t
+                    r = 1.0 / (ca[m, i] + st * inv)
+                    P = (wb[m, i] * c[cs, cm, i] + wa[m, i] * t) * r
+                    g = st * inv2 * r          # -d(m_alpha)/dF / m_alpha
+                    num += P
+                    dnum += P * g
+                    K = c[cs, cm, i] * lsa[m, i] - ulsa[m, i] * t
                     Nn = (A[m, i] - K * inv) * r
                     den += mn[m, i] * Nn
                     dden += mn[m, i] * (K * inv2 * r + Nn * g)
@@ -110,12 +128,59 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, l, A, ub, ul, mn, use_mn, den
         if not (F > 0.0) or not np.isfinite(F):
             flags[s, m] = 8
             continue
+        # admissibility at the last evaluated iterate, once
+        inv = 1.0 / F_eval
+        fl = 0
+        for i in range(N):
+            cc = c[cs, cm, i]
+            st = sa[m, i] * tp[ts, tm, i]
+            ma = ca[m, i] + st * inv
+            r = 1.0 / ma
+            ne = (A[m, i] - ub[m, i] - cc * l[m, i] * sa[m, i] * inv) * r
+            if ma <= m_alpha_min:
+                fl |= 2
+            if ne < -1e-9 * abs(A[m, i]):
+                fl |= 1
         flags[s, m] = fl
         if want_forces:
             inv = 1.0 / F
             for i in range(N):
-                ma = ca[m, i] + sa[m, i] * tp[s, m, i] * inv
-                neff[s, m, i] = (A[m, i] - ub[m, i] - c[s, m, i] * l[m, i] * sa[m, i] * inv) / ma
+                ma = ca[m, i] + sa[m, i] * tp[ts, tm, i] * inv
+                neff[s, m, i] = (A[m, i] - ub[m, i] - c[cs, cm, i] * l[m, i] * sa[m, i] * inv) / ma
+
+
+def _compact(x, N):
+    """Strength array for the kernel: C-contiguous, writeable, (Sc, Mc, N).
+
+    ``x`` is (S, M, N), usually a read-only broadcast view. Sample and
+    surface axes of stride 0 shrink to length 1 (the kernel reuses row 0);
+    a slice axis of stride 0 is materialised. The kernel only reads the
+    array, but it must not be typed read-only: numba's read-only
+    specialisation of the kernel runs a third slower. A contiguous read-only
+    view of writeable memory is therefore re-viewed from its owner instead of
+    copied (the copy would cost a third of the kernel time).
+    """
+    x = np.asarray(x, dtype=float)
+    idx = tuple(slice(0, 1) if (x.shape[d] > 1 and x.strides[d] == 0) else slice(None)
+                for d in range(2))
+    core = x[idx]
+    if core.shape[2] != N or (N > 1 and core.strides[2] == 0):
+        return np.array(np.broadcast_to(core, core.shape[:2] + (N,)), order="C")
+    if not core.flags.c_contiguous:
+        return np.array(core, order="C")
+    if core.flags.writeable:
+        return core
+    owner = core
+    while isinstance(owner.base, np.ndarray):
+        owner = owner.base
+    try:
+        if not owner.flags.writeable:
+            raise ValueError
+        offset = core.__array_interface__["data"][0] - owner.__array_interface__["data"][0]
+        return np.ndarray(core.shape, dtype=float, buffer=owner, offset=offset,
+                          strides=core.strides)
+    except (ValueError, TypeError, BufferError):
+        return np.array(core, order="C")
 
 
 def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
@@ -124,6 +189,20 @@ def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
 
     Shared by Bishop (moment equilibrium, ``w = mt``) and Janbu (horizontal
     force equilibrium, ``w = 1 / cos a``, no ``mn`` term).
+
+    Parameters
+    ----------
+    terms : BankTerms
+    c, tan_phi : ndarray, shape (s, m, n)
+        Cohesion (kPa) and tan of friction angle (-), broadcast views allowed.
+    w : ndarray, shape (m, n)
+        Weight of each slice's resisting term (m for moments, - for forces).
+    den0 : ndarray, shape (m,)
+        Constant part of the left-hand side (kN m/m or kN/m).
+    use_mn : ndarray of bool, shape (m,)
+        Surfaces whose normal forces have a moment (``mn`` term).
+    tol, max_iter, m_alpha_min, return_forces
+        As for :func:`bishop`.
 
     Returns
     -------
@@ -137,13 +216,18 @@ def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
     flags = np.zeros((S, M), dtype=np.int64)
     neff = np.empty((S, M, N) if return_forces else (1, 1, 1))
     w = np.asarray(w, dtype=float)
-    wb = np.ascontiguousarray(w * terms.width)
-    wa = np.ascontiguousarray(w * (terms.A - terms.ub))
-    _single_equation_kernel(c, tan_phi, terms.cos_a, terms.sin_a, wb, wa,
-                            terms.length, terms.A, terms.ub, terms.ul, terms.mn,
-                            np.ascontiguousarray(use_mn, dtype=np.bool_),
-                            np.ascontiguousarray(den0, dtype=float),
-                            np.ascontiguousarray(terms.valid), float(tol), int(max_iter),
+    C = np.ascontiguousarray
+    ca, sa, A = C(terms.cos_a), C(terms.sin_a), C(terms.A)
+    wb = C(w * terms.width)
+    wa = C(w * (terms.A - terms.ub))
+    inv_ca = C(1.0 / terms.cos_a)
+    mn = C(terms.mn)
+    lsa = C(terms.length * terms.sin_a)
+    _single_equation_kernel(_compact(c, N), _compact(tan_phi, N), ca, sa, wb, wa,
+                            inv_ca, C(terms.length), A, C(terms.ub), C(terms.ul), mn,
+                            C(mn * A * inv_ca), lsa, C(terms.ul * terms.sin_a),
+                            C(use_mn, dtype=np.bool_), C(den0, dtype=float),
+                            C(terms.valid), float(tol), int(max_iter),
                             float(m_alpha_min), fs, iters, conv, flags, neff,
                             bool(return_forces))
     out = {"fs": fs, "converged": conv, "flags": flags, "iterations": iters}

@@ -611,3 +611,26 @@ def test_mp_half_sine_follows_spencer_on_the_levee_search_bank(hypothesis):
     crit_mp = mp.fs[0, cm].min()
     crit_sp = sp.fs[0, cs].min()
     assert abs(crit_mp / crit_sp - 1) < 0.02
+
+
+@pytest.mark.parametrize("method", ["bishop", "janbu"])
+def test_single_equation_bits_independent_of_layout_and_batch(method):
+    # The simulator's reproducibility rule: a sample's FS must not depend on
+    # how its strengths are laid out (broadcast, read-only, contiguous) or on
+    # how many samples share the call; compared bit for bit.
+    bank = _mixed_bank()
+    rng = np.random.default_rng(11)
+    c_surf = rng.uniform(5, 20, (1, 5, 40))
+    tp = np.tan(np.radians(rng.uniform(20, 35, (6, 5, 40))))
+    ref = factor_of_safety(bank, np.broadcast_to(c_surf, (6, 5, 40)), tp, method=method)
+    dense = factor_of_safety(bank, np.repeat(c_surf, 6, axis=0), tp, method=method)
+    frozen = tp.copy()
+    frozen.flags.writeable = False
+    ro = factor_of_safety(bank, c_surf, frozen, method=method)
+    for other in (dense, ro):
+        np.testing.assert_array_equal(other.fs, ref.fs)
+        np.testing.assert_array_equal(other.flags, ref.flags)
+    for s in (0, 3, 5):
+        one = factor_of_safety(bank, c_surf, tp[s:s + 1], method=method)
+        np.testing.assert_array_equal(one.fs[0], ref.fs[s])
+        np.testing.assert_array_equal(one.iterations[0], ref.iterations[s])
