@@ -70,6 +70,11 @@ def main():
         ms, ss = 20, 5
         sub = bank.subset(slice(0, ms))
         c, tp = strengths(sub, sec, ss)
+        # warm-up of the loop path too: one-surface banks and per-slice
+        # strength rows may need other numba specialisations than the
+        # vectorised call (compiling one inside the timed loop once gave a
+        # ratio of 36,713x)
+        factor_of_safety(sub.subset([0]), c[0, 0], tp[0, 0], method=method, **kw)
         t0 = time.perf_counter()
         for j in range(ms):
             one = sub.subset([j])
