@@ -104,7 +104,12 @@ def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant"
     Returns
     -------
     FSResult
-        ``fs`` (s, m) with ``converged``, ``flags`` / ``admissible``,
+        ``fs`` (s, m) with ``converged``, ``flags`` / ``admissible``
+        (bits of :data:`FLAG_NAMES`: negative effective normal force,
+        m_alpha too small, thrust line outside a slice, F not positive,
+        surface rejected by the bank, and for Spencer / Morgenstern-Price
+        negative base shear strengths cancelling much of the rest -- a
+        spurious root),
         ``iterations``, ``lam`` (Spencer, M-P), ``f0`` (Janbu).
     """
     key = _ALIASES.get(str(method).lower())
