@@ -210,17 +210,47 @@ def base_values(problem, seed, indices):
     return out
 
 
+def deterministic_value(bank, materials, prop):
+    """Material value of ``prop`` on every base of ``bank``, and the override key it multiplies.
+
+    Returns
+    -------
+    values : ndarray (m, n)
+        su (kPa) for ``su`` and ``su_ratio`` (the factor scales the whole
+        undrained law), c' (kPa) or φ' (degrees).
+    key : {"su", "c", "phi"}
+    """
+    if prop in ("su", "su_ratio"):
+        return base_strength(bank, materials, "undrained")[0], "su"
+    c, tphi = base_strength(bank, materials, "drained")
+    return (c, "c") if prop == "c" else (np.degrees(np.arctan(tphi)), "phi")
+
+
+def strength_overrides(problem, values, det):
+    """Overrides for :func:`slope.strength.base_strength` from per-property base values.
+
+    ``values``: key -> base values (NaN outside the property's zones);
+    ``det``: prop -> (deterministic values, key), which multiplier
+    properties scale. Unit weights are not strengths and are skipped; two
+    properties acting on one key (su and su_ratio) fill each other's NaN.
+    """
+    out = {}
+    for p in problem.properties:
+        if p.prop == "unit_weight":
+            continue
+        v, key = values[p.key], p.prop
+        if p.multiplier:
+            d, key = det(p.prop)
+            v = v * d
+        out[key] = v if key not in out else np.where(np.isnan(v), out[key], v)
+    return out
+
+
 def _det_value(problem, prop):
-    """Deterministic per-base value of a property on the valid surfaces (for multiplier fields)."""
+    """:func:`deterministic_value` on the valid surfaces, kept with the stencil."""
     st = stencil(problem)
     if prop not in st.deterministic:
-        mats = problem.section.materials
-        if prop in ("su", "su_ratio"):
-            c, _ = base_strength(st.bank, mats, "undrained")
-            st.deterministic[prop] = (c, "su")
-        else:
-            c, tphi = base_strength(st.bank, mats, "drained")
-            st.deterministic[prop] = (c, "c") if prop == "c" else (np.degrees(np.arctan(tphi)), "phi")
+        st.deterministic[prop] = deterministic_value(st.bank, problem.section.materials, prop)
     return st.deterministic[prop]
 
 
@@ -234,23 +264,13 @@ def batch_fs(problem, seed, indices):
     """
     st = stencil(problem)
     vals = _valid_base_values(problem, seed, indices)
-    overrides = {}
+    overrides = strength_overrides(problem, vals, lambda prop: _det_value(problem, prop))
     weight_factors = {}
     for i, p in enumerate(problem.properties):
-        v = vals[p.key]
         if p.prop == "unit_weight":
             for z in problem.zones_of(i):
                 if z in st.zones:  # one value per zone and realisation, on all its bases
-                    weight_factors[z] = v.reshape(len(indices), -1)[:, st.zones[z][0][0]]
-            continue
-        key = p.prop
-        if p.multiplier:
-            det, key = _det_value(problem, p.prop)
-            v = v * det[None]
-        if key in overrides:
-            overrides[key] = np.where(np.isnan(v), overrides[key], v)
-        else:
-            overrides[key] = v
+                    weight_factors[z] = vals[p.key].reshape(len(indices), -1)[:, st.zones[z][0][0]]
     mats = problem.section.materials
     if weight_factors:
         # weights change per realisation: slice terms are rebuilt for each one

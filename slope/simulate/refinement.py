@@ -21,9 +21,8 @@ import numpy as np
 from ..bank import section_with_unit_weights
 from ..errors import InputError
 from ..search import refine
-from ..strength import base_strength
 from ..surfaces import Circle
-from .engine import _correlated, bilinear
+from .engine import _correlated, bilinear, deterministic_value, strength_overrides
 from .problem import AVERAGING
 
 __all__ = ["RefineSettings", "realisation_overrides", "refine_realisation"]
@@ -91,12 +90,13 @@ def _grid_values(problem, seed, k):
     return out
 
 
-def realisation_overrides(problem, seed, k, section=None):
+def realisation_overrides(problem, seed, k, section=None, values=None):
     """Strength overrides of realisation k for any slice bank.
 
     ``section``: the section the banks are built from (default the
     problem's; a copy with the realisation's unit weights has other
-    material names).
+    material names). ``values``: the realisation's grid values if already
+    generated (``_grid_values``).
 
     Returns
     -------
@@ -105,7 +105,7 @@ def realisation_overrides(problem, seed, k, section=None):
         ``su_ratio``; shape ``(m, n)``) for :func:`slope.strength.base_strength`,
         as :func:`slope.simulate.engine.batch_fs` maps them onto its bank.
     """
-    values = _grid_values(problem, seed, k)
+    values = _grid_values(problem, seed, k) if values is None else values
     grid = problem.grid
     npb = AVERAGING[problem.averaging]
     mats = (problem.section if section is None else section).materials
@@ -123,21 +123,8 @@ def realisation_overrides(problem, seed, k, section=None):
                 per_key[p.key][mask] = float(v.ravel()[0])
             else:
                 per_key[p.key][mask] = bilinear(grid, v, xb[mask], yb[mask])[0].mean(axis=-1)
-        out = {}
-        for p in problem.properties:
-            if p.prop == "unit_weight":
-                continue  # in the section's materials, not a strength
-            v, key = per_key[p.key], p.prop
-            if p.multiplier:
-                if p.prop in ("su", "su_ratio"):
-                    det, key = base_strength(bank, mats, "undrained")[0], "su"
-                elif p.prop == "c":
-                    det = base_strength(bank, mats, "drained")[0]
-                else:
-                    det = np.degrees(np.arctan(base_strength(bank, mats, "drained")[1]))
-                v = v * det
-            out[key] = v if key not in out else np.where(np.isnan(v), out[key], v)
-        return out
+        # unit weights are in the section's materials, not strengths (skipped here)
+        return strength_overrides(problem, per_key, lambda prop: deterministic_value(bank, mats, prop))
 
     return overrides
 
@@ -163,14 +150,15 @@ def refine_realisation(problem, seed, k, start, settings: RefineSettings):
     """
     surf = problem.surfaces[int(start)]
     section = problem.section
-    weights = {z: float(v.ravel()[0]) for (i, z), v in _grid_values(problem, seed, k).items()
+    values = _grid_values(problem, seed, k)
+    weights = {z: float(v.ravel()[0]) for (i, z), v in values.items()
                if problem.properties[i].prop == "unit_weight"}
     if weights:  # the realisation's unit weights, as the bank's terms had them
         section = section_with_unit_weights(section, weights)
     try:
         res = refine(section, surf, n_vertices=settings.n_vertices, method=settings.method,
                      hypothesis=problem.hypothesis, n_slices=problem.n_slices,
-                     overrides=realisation_overrides(problem, seed, k, section),
+                     overrides=realisation_overrides(problem, seed, k, section, values),
                      max_evaluations=settings.max_evaluations)
     except InputError:
         return float("nan"), None  # the start surface is not usable by the refinement's method

@@ -18,10 +18,8 @@ from .run import simulate
 __all__ = ["averaging_report", "theta_sweep", "surface_variance_factor", "reduced_variance_problem"]
 
 
-def _with_thetas(problem, thetas):
-    # a unit weight is always one random variable per zone (RandomProperty): its θ stays infinite
-    props = [p if p.prop == "unit_weight" else dataclasses.replace(p, theta_h=th, theta_v=tv)
-             for p, (th, tv) in zip(problem.properties, thetas)]
+def _with_properties(problem, props):
+    """The same problem with other random properties (same order, same materials)."""
     new = RandomProblem(problem.section, problem.hypothesis, problem.method, props, problem.surfaces,
                         problem.fixed_index, cross_correlation=list(problem.cross_correlation),
                         n_slices=problem.n_slices, cell=problem.cell, field_method=problem.field_method,
@@ -29,6 +27,12 @@ def _with_thetas(problem, thetas):
     # same geometry and grid: share the bank and the base mapping rather than rebuilding them
     new._bank, new._terms, new._stencil = problem._bank, problem._terms, problem._stencil
     return new
+
+
+def _with_thetas(problem, thetas):
+    # a unit weight is always one random variable per zone (RandomProperty): its θ stays infinite
+    return _with_properties(problem, [p if p.prop == "unit_weight" else dataclasses.replace(p, theta_h=th, theta_v=tv)
+                                      for p, (th, tv) in zip(problem.properties, thetas)])
 
 
 def surface_variance_factor(problem, i, surface=None, *, max_points=3000):
@@ -105,12 +109,7 @@ def reduced_variance_problem(problem):
         table.append({"property": p.key, "length_m": T, "gamma": g, "gamma_1d_theta_h": g1,
                       "std_point": float(p.marginal.std), "std_averaged": float(marg.std),
                       "distribution": marg.name})
-    new = RandomProblem(problem.section, problem.hypothesis, problem.method, props, problem.surfaces,
-                        problem.fixed_index, cross_correlation=list(problem.cross_correlation),
-                        n_slices=problem.n_slices, cell=problem.cell, field_method=problem.field_method,
-                        averaging=problem.averaging, interslice=problem.interslice)
-    new._bank, new._terms, new._stencil = problem._bank, problem._terms, problem._stencil
-    return new, table
+    return _with_properties(problem, props), table
 
 
 def _summary(res):
