@@ -131,51 +131,19 @@ class SliceBankLimitState:
 
         X = np.atleast_2d(np.asarray(X, float))
         m, n = self.c0.shape
-        step = max(1, self.chunk // max(1, m * n))
-        fs, conv, adm = [], [], []
-        idx = np.flatnonzero(self.valid)
-        if idx.size == 0:
+        if not self.valid.any():
             raise InputError("slice bank has no valid surface")
-        if self.weight_cols:
-            return self._per_sample(X)
-        terms = self._prepared()
-        for a in range(0, X.shape[0], step):
-            c, t = self.strengths(X[a:a + step])
-            if np.any(c < 0) or np.any(t < 0):
-                raise InputError("random strengths produced negative c or tan(phi); use a "
-                                 "positive marginal (lognormal, truncated-normal, beta)")
-            r = factor_of_safety(terms, c, t, method=self.method, **self.method_opts)
-            fs.append(r.fs)
-            conv.append(r.converged)
-            adm.append(r.admissible & self.valid[None, :])
-        fs = np.concatenate(fs)
-        return (np.where(self.valid[None, :], fs, np.nan), np.concatenate(conv),
-                np.concatenate(adm))
-
-    def _per_sample(self, X):
-        # a random unit weight changes the slice terms themselves: one bank per sample
-        from slope.bank import scale_unit_weights
-        from slope.methods import factor_of_safety, prepare_bank
-        from slope.strength import base_strength
-
-        m, n = self.c0.shape
-        step = max(1, self.chunk // max(1, 20 * m * n))  # a stacked bank holds ~20 arrays of s·m·n
+        # a stacked bank (random unit weight) holds ~20 arrays of samples × m × n
+        step = max(1, self.chunk // max(1, (20 if self.weight_cols else 1) * m * n))
         fs, conv, adm = [], [], []
         for a in range(0, X.shape[0], step):
             x = X[a:a + step]
             s = x.shape[0]
-            factors = {zi: x[:, col] for col, zi in self.weight_cols.items()}
-            if any(np.any(~(f > 0)) for f in factors.values()):
-                raise InputError("random unit weight factor <= 0; use a positive marginal (lognormal, "
-                                 "truncated-normal, beta)")
-            # the samples' banks stacked as s × m surfaces: one kernel call for the chunk
-            bank = scale_unit_weights(self.bank, self.weight_parts, factors)
-            c0, t0 = base_strength(bank, self.materials, self.hypothesis)
-            c, t = self.strengths(x, c0.reshape(s, m, n), t0.reshape(s, m, n))
+            terms, c, t = self._chunk(x)
             if np.any(c < 0) or np.any(t < 0):
                 raise InputError("random strengths produced negative c or tan(phi); use a "
                                  "positive marginal (lognormal, truncated-normal, beta)")
-            r = factor_of_safety(prepare_bank(bank), c.reshape(1, s * m, n), t.reshape(1, s * m, n),
+            r = factor_of_safety(terms, c.reshape(-1, terms.n_surfaces, n), t.reshape(-1, terms.n_surfaces, n),
                                  method=self.method, **self.method_opts)
             fs.append(r.fs.reshape(s, m))
             conv.append(np.asarray(r.converged).reshape(s, m))
@@ -183,3 +151,22 @@ class SliceBankLimitState:
         fs = np.concatenate(fs)
         return (np.where(self.valid[None, :], fs, np.nan), np.concatenate(conv),
                 np.concatenate(adm))
+
+    def _chunk(self, x):
+        """Slice terms and base strengths ``(s, m, n)`` of the samples ``x``."""
+        if not self.weight_cols:
+            return (self._prepared(), *self.strengths(x))
+        # a random unit weight changes the slice terms themselves: the samples' banks are
+        # stacked as s × m surfaces, so the chunk still goes through one kernel call
+        from slope.bank import scale_unit_weights
+        from slope.methods import prepare_bank
+        from slope.strength import base_strength
+
+        s, (m, n) = x.shape[0], self.c0.shape
+        factors = {zi: x[:, col] for col, zi in self.weight_cols.items()}
+        if any(np.any(~(f > 0)) for f in factors.values()):
+            raise InputError("random unit weight factor <= 0; use a positive marginal (lognormal, "
+                             "truncated-normal, beta)")
+        bank = scale_unit_weights(self.bank, self.weight_parts, factors)
+        c0, t0 = base_strength(bank, self.materials, self.hypothesis)
+        return (prepare_bank(bank), *self.strengths(x, c0.reshape(s, m, n), t0.reshape(s, m, n)))
