@@ -160,6 +160,18 @@ def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, m
     return F, lam, n_it, done
 
 
+@njit(cache=True, fastmath=_FASTMATH, inline="always")
+def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
+    """Interslice normal force on the right of slice i from the one on its left (force recursion)."""
+    t = tp[s, m, i]
+    Phi = F * ca[m, i] + t * sa[m, i]
+    Psi = t * ca[m, i] - F * sa[m, i]
+    fi = f[m, i] if i > 0 else 0.0
+    R = c[s, m, i] * l[m, i] - ul[m, i] * t + (A[m, i] * ca[m, i] - B[m, i] * sa[m, i]) * t
+    T = B[m, i] * ca[m, i] + A[m, i] * sa[m, i]
+    return (E * (Phi - lam * fi * Psi) + F * T - R) / (Phi - lam * f[m, i + 1] * Psi)
+
+
 @njit(cache=True, fastmath=_FASTMATH)
 def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
           lscale, F, lam, E_out, X_out, yt_out, neff_out, want):
@@ -169,14 +181,7 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     E = 0.0
     Emax = 0.0
     for i in range(N):
-        t = tp[s, m, i]
-        Phi = F * ca[m, i] + t * sa[m, i]
-        Psi = t * ca[m, i] - F * sa[m, i]
-        fi = f[m, i] if i > 0 else 0.0
-        fj = f[m, i + 1]
-        R = c[s, m, i] * l[m, i] - ul[m, i] * t + (A[m, i] * ca[m, i] - B[m, i] * sa[m, i]) * t
-        T = B[m, i] * ca[m, i] + A[m, i] * sa[m, i]
-        En = (E * (Phi - lam * fi * Psi) + F * T - R) / (Phi - lam * fj * Psi)
+        En = _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam)
         if i < N - 1 and En > Emax:
             Emax = En
         E = En
@@ -186,14 +191,10 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     s_neg = 0.0
     for i in range(N):
         t = tp[s, m, i]
-        Phi = F * ca[m, i] + t * sa[m, i]
-        Psi = t * ca[m, i] - F * sa[m, i]
         fi = f[m, i] if i > 0 else 0.0
         fj = f[m, i + 1]
         cl = c[s, m, i] * l[m, i]
-        R = cl - ul[m, i] * t + (A[m, i] * ca[m, i] - B[m, i] * sa[m, i]) * t
-        T = B[m, i] * ca[m, i] + A[m, i] * sa[m, i]
-        En = (E * (Phi - lam * fi * Psi) + F * T - R) / (Phi - lam * fj * Psi)
+        En = _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam)
         Xi = lam * fi * E
         Xn = lam * fj * En
         dE = E - En
