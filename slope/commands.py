@@ -415,10 +415,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         raise InputError(f"--export-fields {exp}: must not be --out or inside it; give a separate folder")
     ident = {"path": str(case_path), "title": case.title, "hypothesis": hyp, "seed": seed,
              "fingerprint": prob.fingerprint()}
-    if refine_below is None:
-        refine_below = case.simulation.get("refine_below")
-        refine_method = case.simulation.get("refine_method", refine_method)
-    refine = None if refine_below is None else RefineSettings(below=refine_below, method=refine_method)
+    refine = (RefineSettings.from_case(case.simulation) if refine_below is None else
+              RefineSettings(below=refine_below, method=refine_method))
     resumed = _check_out_for_simulate(out, store_header(prob, seed, refine), ident, resume)
     store = out / _STORE
     with _scheduler(scheduler) as client:

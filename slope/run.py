@@ -116,13 +116,11 @@ def _status(n, n_valid):
 
 def _simulation(case, det, hyp, *, n, n_jobs, quiet):
     """Spatially variable run (a) and the same with every θ → ∞ (b)."""
-    from .simulate import simulate
+    from .simulate import RefineSettings, simulate
 
     seed = int(case.simulation["seed"])
     block = int(case.simulation["batch"])
-    below = case.simulation.get("refine_below")
-    refine = None if below is None else {"below": float(below),
-                                         "method": case.simulation.get("refine_method", "spencer")}
+    refine = RefineSettings.from_case(case.simulation)
     out, arrays = {}, {}
     for label, override in (("spatial", None), ("single_random_variable", (math.inf, math.inf))):
         prob = random_problem(case, det, hyp, theta_override=override)

@@ -76,6 +76,12 @@ class RefineSettings:
     def describe(self) -> dict:
         return asdict(self)
 
+    @classmethod
+    def from_case(cls, simulation: dict):
+        """Settings of a case's ``[simulation]`` table (``refine_below``, ``refine_method``); None when absent."""
+        below = simulation.get("refine_below")
+        return None if below is None else cls(below=below, method=simulation.get("refine_method", "spencer"))
+
 
 def _grid_values(problem, seed, k):
     """Physical values of realisation k on the whole grid: {(i, z): (nx, ny) or (1, 1)}."""
