@@ -3,7 +3,7 @@ realisations written to NPZ, VTU or XDMF.
 
 ``add_fields_parser(subparsers)`` adds the ``fields`` command (with ``vrf``
 and ``sample``) to a parent parser; ``main(argv)`` runs it standalone
-(``python -m fields.cli vrf ...``) and maps :class:`InputError` to exit 2.
+(``python -m slipfield.fields.cli vrf ...``) and maps :class:`InputError` to exit 2.
 """
 from __future__ import annotations
 
@@ -294,7 +294,7 @@ def add_fields_parser(subparsers):
 
 def build_parser() -> argparse.ArgumentParser:
     """Standalone parser with the ``vrf`` and ``sample`` commands."""
-    return _fill(argparse.ArgumentParser(prog="python -m fields.cli",
+    return _fill(argparse.ArgumentParser(prog="python -m slipfield.fields.cli",
                                          description="slipfield random-field tools"))
 
 

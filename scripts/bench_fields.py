@@ -29,7 +29,7 @@ import numpy as np
 
 sys.path.insert(0, os.path.join(os.path.dirname(__file__), os.pardir))
 
-from fields import RegularGrid, get_model, make_generator  # noqa: E402
+from slipfield.fields import RegularGrid, get_model, make_generator  # noqa: E402
 
 
 def per_realisation(fn, n):

@@ -16,8 +16,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from fields import get_model  # noqa: E402
-from fields.cli import main  # noqa: E402
+from slipfield.fields import get_model  # noqa: E402
+from slipfield.fields.cli import main  # noqa: E402
 
 
 def main_bench():

@@ -19,11 +19,11 @@ import time
 
 import numpy as np
 
-from slope.bank import build_bank
-from slope.examples import two_zone_section
-from slope.methods import factor_of_safety, prepare_bank
-from slope.search import lattice_circles
-from slope.strength import base_strength
+from slipfield.slope.bank import build_bank
+from slipfield.slope.examples import two_zone_section
+from slipfield.slope.methods import factor_of_safety, prepare_bank
+from slipfield.slope.search import lattice_circles
+from slipfield.slope.strength import base_strength
 
 
 def strengths(bank, sec, n_samples, seed=1):

@@ -32,10 +32,10 @@ import time
 import numpy as np
 from scipy import optimize, special
 
-from slope.examples import two_zone_section
-from slope.reliability import form, monte_carlo, random_vector, subset_simulation
-from slope.reliability.slope_limit_state import SliceBankLimitState
-from slope.search import centre_lattice
+from slipfield.slope.examples import two_zone_section
+from slipfield.slope.reliability import form, monte_carlo, random_vector, subset_simulation
+from slipfield.slope.limit_state import SliceBankLimitState
+from slipfield.slope.search import centre_lattice
 
 TARGET_PF = 1e-5
 COV_BASE = {"c": 0.3, "phi": 0.1}

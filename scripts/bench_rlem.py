@@ -25,12 +25,12 @@ import time
 
 import numpy as np
 
-from fields.marginals import make_marginal
-from slope.examples import two_zone_section
-from slope.search import lattice_circles
-from slope.simulate import RandomProblem, RandomProperty, simulate
-from slope.simulate.engine import batch_fs
-from slope.surfaces import Circle
+from slipfield.fields.marginals import make_marginal
+from slipfield.slope.examples import two_zone_section
+from slipfield.slope.search import lattice_circles
+from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
+from slipfield.slope.simulate.engine import batch_fs
+from slipfield.slope.surfaces import Circle
 
 
 def build_problem():

@@ -12,9 +12,9 @@ import time
 
 import numpy as np
 
-from slope.examples import two_zone_section
-from slope.search import centre_lattice, evaluate_surfaces, lattice_circles
-from slope.surfaces import Circle
+from slipfield.slope.examples import two_zone_section
+from slipfield.slope.search import centre_lattice, evaluate_surfaces, lattice_circles
+from slipfield.slope.surfaces import Circle
 
 NX, NY, NR = 16, 16, 10  # 2,560 trial circles
 

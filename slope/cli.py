@@ -10,13 +10,13 @@ import json
 import sys
 import traceback
 
-from fields.errors import InputError
+from slipfield.fields.errors import InputError
 
 __all__ = ["main", "build_parser"]
 
 
 def _cmd_run(args) -> int:
-    from .run import run_case
+    from .commands.run import run_case
 
     results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet)
     if args.json:
@@ -42,7 +42,7 @@ def _cmd_run(args) -> int:
 
 
 def _cmd_check(args) -> int:
-    from .case import load_case
+    from .case.build import load_case
 
     case = load_case(args.case)
     print(f"{args.case}: ok ({case.title}; zones {', '.join(case.section.zone_names)}; "
@@ -51,7 +51,7 @@ def _cmd_check(args) -> int:
 
 
 def _cmd_simulate(args) -> int:
-    from .commands import simulate_case
+    from .commands.simulate import simulate_case
 
     r = simulate_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, batch=args.batch,
                       seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
@@ -77,7 +77,7 @@ def _cmd_simulate(args) -> int:
 
 
 def _cmd_sweep(args) -> int:
-    from .commands import sweep_case
+    from .commands.simulate import sweep_case
 
     r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
                    realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
@@ -151,7 +151,7 @@ def build_parser() -> argparse.ArgumentParser:
     w.add_argument("--theta-v", default=None, help="θv values, m, comma separated, inf allowed "
                    "(default sweep.theta_v of the case)")
     w.set_defaults(func=_cmd_sweep)
-    from fields.cli import add_fields_parser
+    from slipfield.fields.cli import add_fields_parser
     add_fields_parser(sub)
     return p
 

@@ -1,5 +1,5 @@
 """Exceptions of the slope package."""
-from fields.errors import InputError as _FieldsInputError
+from slipfield.fields.errors import InputError as _FieldsInputError
 
 
 class InputError(_FieldsInputError):

@@ -7,8 +7,8 @@ from pathlib import Path
 
 import pytest
 
-from slope.case import load_case
-from slope.case_schema import CaseError, parse_case
+from slipfield.slope.case.build import load_case
+from slipfield.slope.case.schema import CaseError, parse_case
 
 CASES = Path(__file__).resolve().parents[1] / "cases"
 

@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from slope.cli import main
+from slipfield.slope.cli import main
 
 CASE = str(Path(__file__).resolve().parents[1] / "cases" / "levee_soft_clay.toml")
 
@@ -81,9 +81,9 @@ def test_resume_against_another_seed_is_refused(full_run, tmp_path, capsys):
 
 
 def test_exported_fields_read_back_through_meshio_equal_the_simulated_ones(full_run):
-    from slope.analysis import trial_surfaces, random_problem
-    from slope.case import load_case
-    from slope.simulate import realise_fields
+    from slipfield.slope.case.analyses import trial_surfaces, random_problem
+    from slipfield.slope.case.build import load_case
+    from slipfield.slope.simulate import realise_fields
 
     ex = full_run / "fields"
     manifest = json.loads((ex / "fields.json").read_text())

@@ -24,11 +24,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from slope.bank import build_bank
-from slope.run import run_case, sliding_mass_geometry
-from slope.section import Section, Zone
-from slope.strength import Material
-from slope.surfaces import Circle
+from slipfield.slope.bank import build_bank
+from slipfield.slope.commands.run import run_case, sliding_mass_geometry
+from slipfield.slope.section import Section, Zone
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle
 
 ROOT = Path(__file__).resolve().parents[1]
 DOC = ROOT / "docs" / "results-json.md"

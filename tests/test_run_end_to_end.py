@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from slope.cli import main
+from slipfield.slope.cli import main
 
 CASES = Path(__file__).resolve().parents[1] / "cases"
 

@@ -18,8 +18,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from slope.errors import InputError
-from slope.slices import SliceBank
+from slipfield.slope.errors import InputError
+from slipfield.slope.slices import SliceBank
 
 from .bishop import bishop
 from .gle import morgenstern_price

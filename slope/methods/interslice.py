@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from slope.errors import InputError
+from slipfield.slope.errors import InputError
 
 __all__ = ["interslice_function", "INTERSLICE_NAMES"]
 

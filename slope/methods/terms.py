@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from slope.errors import InputError
-from slope.slices import SliceBank
+from slipfield.slope.errors import InputError
+from slipfield.slope.slices import SliceBank
 
 __all__ = ["BankTerms", "prepare_bank"]
 

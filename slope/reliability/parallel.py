@@ -16,7 +16,7 @@ import math
 import numpy as np
 from scipy import special
 
-from fields.seeding import realisation_rng
+from slipfield.fields.seeding import realisation_rng
 
 from ..errors import InputError
 

@@ -16,8 +16,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from fields.errors import InputError as _FieldsInputError
-from fields.marginals import Marginal, make_marginal, nataf_matrix
+from slipfield.fields.errors import InputError as _FieldsInputError
+from slipfield.fields.marginals import Marginal, make_marginal, nataf_matrix
 
 from ..errors import InputError
 

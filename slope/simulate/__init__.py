@@ -5,7 +5,7 @@ averaging_report, theta_sweep, SimulationResult.
 """
 from .problem import RandomProblem, RandomProperty
 from .refinement import RefineSettings
-from .run import SimulationResult, load_store, realise_fields, simulate, store_header
+from .driver import SimulationResult, load_store, realise_fields, simulate, store_header
 from .studies import averaging_report, theta_sweep
 
 __all__ = ["RandomProperty", "RandomProblem", "simulate", "SimulationResult", "realise_fields",

@@ -17,7 +17,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import sparse
 
-from fields.seeding import realisation_rng
+from slipfield.fields.seeding import realisation_rng
 
 from ..bank import scale_unit_weights, unit_weight_parts
 from ..methods import factor_of_safety, prepare_bank

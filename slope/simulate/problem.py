@@ -11,8 +11,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from fields import RegularGrid, get_model, make_generator
-from fields.marginals import nataf_correlation
+from slipfield.fields import RegularGrid, get_model, make_generator
+from slipfield.fields.marginals import nataf_correlation
 
 from ..bank import build_bank
 from ..errors import InputError

@@ -7,13 +7,13 @@ import math
 import numpy as np
 from scipy import special
 
-from fields import variance_function
-from fields.averaging import cell_average_covariance
-from fields.marginals import scaled_spread
+from slipfield.fields import variance_function
+from slipfield.fields.averaging import cell_average_covariance
+from slipfield.fields.marginals import scaled_spread
 
 from ..errors import InputError
 from .problem import RandomProblem
-from .run import simulate
+from .driver import simulate
 
 __all__ = ["averaging_report", "theta_sweep", "surface_variance_factor", "reduced_variance_problem"]
 

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from fields import (InputError, RegularGrid, cell_average_covariance, get_model,
+from slipfield.fields import (InputError, RegularGrid, cell_average_covariance, get_model,
                     grid_cell_covariance, make_generator, variance_function,
                     variance_function_2d)
 

@@ -5,7 +5,7 @@ import math
 import numpy as np
 import pytest
 
-from fields.cli import main
+from slipfield.fields.cli import main
 
 
 def _run(capsys, argv):
@@ -43,7 +43,7 @@ def test_vrf_rect_against_quadrature(capsys):
     # for a correlation even in u and v (axis-aligned), integrated by scipy.
     from scipy.integrate import dblquad
 
-    from fields import get_model
+    from slipfield.fields import get_model
 
     X, Y = 20.0, 2.0
     model = get_model("exponential", theta_h=20.0, theta_v=2.0)
@@ -119,7 +119,7 @@ def test_help_each(capsys):
 @pytest.mark.parametrize("ext", ["vtu", "xdmf"])
 def test_sample_mesh_formats_match_npz(tmp_path, ext):
     # the same seed gives the same realisations whatever the output format
-    from fields import io as fio
+    from slipfield.fields import io as fio
 
     base = ["sample", "--model", "gaussian", "--theta", "2", "--grid", "6x4", "--spacing", "0.5",
             "--n", "3", "--seed", "5", "--batch", "2", "--quiet"]
@@ -145,8 +145,8 @@ def test_sample_beta_bounds(tmp_path):
 def test_sample_on_mesh_cell_centres(tmp_path):
     # a 4x2 quad mesh equal to a grid: the Cholesky field at its cell centres
     # must equal the Cholesky field on the same grid cells (same points, same seed)
-    from fields import RegularGrid
-    from fields import io as fio
+    from slipfield.fields import RegularGrid
+    from slipfield.fields import io as fio
 
     grid = RegularGrid(0.0, 0.0, 4, 2, 1.0, 1.0)
     mesh = fio.grid_mesh(grid)

@@ -11,10 +11,10 @@ import math
 import numpy as np
 import pytest
 
-from fields import RegularGrid, get_model, make_generator
-from fields.conditioning import ConditionalGenerator, from_gaussian, to_gaussian
-from fields.errors import InputError
-from fields.marginals import make_marginal
+from slipfield.fields import RegularGrid, get_model, make_generator
+from slipfield.fields.conditioning import ConditionalGenerator, from_gaussian, to_gaussian
+from slipfield.fields.errors import InputError
+from slipfield.fields.marginals import make_marginal
 
 MODEL = get_model("exponential", theta_h=8.0, theta_v=2.0, angle=-10.0)
 DATA_P = np.array([[1.0, 1.0], [4.0, 2.0], [7.5, 0.5]])

@@ -17,8 +17,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from fields import InputError, RegularGrid, get_model, make_generator, realisation_rng
-from fields.generators import gstools_seed
+from slipfield.fields import InputError, RegularGrid, get_model, make_generator, realisation_rng
+from slipfield.fields.generators import gstools_seed
 
 FAMILY_P = 1e-4
 
@@ -181,7 +181,7 @@ def test_circulant_embedding_is_exact(average_cells):
     # the torus covariance restricted to the grid lags must equal the model's
     # correlation (or cell-average covariance): exactness of the embedding
     # (Dietrich & Newsam 1997), checked without sampling
-    from fields import grid_cell_covariance
+    from slipfield.fields import grid_cell_covariance
     from scipy import fft as sfft
 
     m = get_model("spherical", theta_h=5.0, theta_v=1.0, angle=30.0)

@@ -3,9 +3,9 @@ and the mesh geometry helpers of fields.io."""
 import numpy as np
 import pytest
 
-from fields import RegularGrid
-from fields import io as fio
-from fields.errors import InputError
+from slipfield.fields import RegularGrid
+from slipfield.fields import io as fio
+from slipfield.fields.errors import InputError
 
 GRID = RegularGrid(1.0, -2.0, 5, 3, 0.5, 0.25)
 

@@ -5,9 +5,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from fields.errors import InputError
-from fields.marginals import make_marginal, nataf_correlation, nataf_matrix
-from fields.marginals import _physical_correlation
+from slipfield.fields.errors import InputError
+from slipfield.fields.marginals import make_marginal, nataf_correlation, nataf_matrix
+from slipfield.fields.marginals import _physical_correlation
 
 Z = np.linspace(-7.0, 7.0, 57)
 

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy import integrate, special
 
-import fields
-from fields import InputError, get_model
+from slipfield import fields
+from slipfield.fields import InputError, get_model
 
 ALL = [("exponential", {}), ("gaussian", {}), ("second-order-markov", {}),
        ("spherical", {}), ("matern", {"nu": 0.5}), ("matern", {"nu": 1.5}),

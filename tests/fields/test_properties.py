@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from fields import get_model
-from fields.errors import InputError
-from fields.marginals import make_marginal, nataf_matrix
-from fields.properties import DepthTrend, PropertyField, correlated_properties
+from slipfield.fields import get_model
+from slipfield.fields.errors import InputError
+from slipfield.fields.marginals import make_marginal, nataf_matrix
+from slipfield.fields.properties import DepthTrend, PropertyField, correlated_properties
 
 EXP = get_model("exponential", theta_h=1.0, theta_v=1.0)
 FAR = np.column_stack([np.arange(5) * 100.0, np.zeros(5)])  # 5 independent points
@@ -144,7 +144,7 @@ def test_zone_masks_dict_and_overlap_error():
 
 
 def test_reproducible_whatever_batch_and_grid_shape():
-    from fields import RegularGrid
+    from slipfield.fields import RegularGrid
     g = RegularGrid(0.0, 0.0, 6, 4, 0.5, 0.5)
     specs = [PropertyField("c", C_LN, EXP), PropertyField("phi", PHI_BETA, EXP)]
     cp = correlated_properties(specs, [[1, -0.5], [-0.5, 1]], grid=g, method="fft")

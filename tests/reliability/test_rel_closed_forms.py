@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy import integrate, special, stats
 
-from slope.reliability import (InfiniteSlope, LimitState, estimate_pf, form, fosm,
+from slipfield.slope.reliability import (InfiniteSlope, LimitState, estimate_pf, form, fosm,
                                hong, importance_sampling, latin_hypercube, monte_carlo,
                                random_vector, rosenblueth)
 

@@ -2,8 +2,8 @@
 import numpy as np
 import pytest
 
-from slope.errors import InputError
-from slope.reliability import (LimitState, form, hong, monte_carlo, random_vector,
+from slipfield.slope.errors import InputError
+from slipfield.slope.reliability import (LimitState, form, hong, monte_carlo, random_vector,
                                rosenblueth, subset_simulation, tornado)
 
 OK = [dict(name="c", dist="normal", mean=10.0, cov=0.2),

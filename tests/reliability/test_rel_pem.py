@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
-from slope.errors import InputError
-from slope.reliability import hong, hong_points, random_vector, rosenblueth
+from slipfield.slope.errors import InputError
+from slipfield.slope.reliability import hong, hong_points, random_vector, rosenblueth
 
 
 def _solve_three_point_rule(skew, kurt):

@@ -35,11 +35,11 @@ import numpy as np
 import pytest
 from scipy import special
 
-from slope.examples import simple_slope
-from slope.reliability import form, monte_carlo, pf_lognormal, random_vector
-from slope.reliability.slope_limit_state import SliceBankLimitState
-from slope.search import centre_lattice
-from slope.strength import Material
+from slipfield.slope.examples import simple_slope
+from slipfield.slope.reliability import form, monte_carlo, pf_lognormal, random_vector
+from slipfield.slope.limit_state import SliceBankLimitState
+from slipfield.slope.search import centre_lattice
+from slipfield.slope.strength import Material
 
 H, GAMMA, C_MEAN = 10.0, 20.0, 0.25
 C_CRIT = 0.17                                  # recalled from memory (Griffiths & Fenton 2004)

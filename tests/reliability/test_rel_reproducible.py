@@ -2,7 +2,7 @@
 import numpy as np
 import pytest
 
-from slope.reliability import (InfiniteSlope, form, importance_sampling, latin_hypercube,
+from slipfield.slope.reliability import (InfiniteSlope, form, importance_sampling, latin_hypercube,
                                monte_carlo, random_vector, sample_variables, subset_simulation)
 
 

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 from scipy import special
 
-from slope.reliability import (first_order_indices, fosm, monte_carlo, random_vector,
+from slipfield.slope.reliability import (first_order_indices, fosm, monte_carlo, random_vector,
                                rank_correlations, tornado)
 
 A = np.array([0.05, 1.2, -0.02])

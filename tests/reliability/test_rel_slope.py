@@ -32,12 +32,12 @@ import numpy as np
 import pytest
 from scipy import special
 
-from slope.examples import simple_slope, two_zone_section
-from slope.reliability import (LimitState, form, hong, monte_carlo, random_vector,
+from slipfield.slope.examples import simple_slope, two_zone_section
+from slipfield.slope.reliability import (LimitState, form, hong, monte_carlo, random_vector,
                                rosenblueth, subset_simulation)
-from slope.reliability.slope_limit_state import SliceBankLimitState
-from slope.search import centre_lattice
-from slope.strength import Material
+from slipfield.slope.limit_state import SliceBankLimitState
+from slipfield.slope.search import centre_lattice
+from slipfield.slope.strength import Material
 
 LEVEL = 0.999
 
@@ -233,8 +233,8 @@ def test_research_surface_never_above_the_fixed_surface():
     # Huang, Griffiths & Fenton 2010: the least FS over the trial surfaces of
     # each sample is at most the fixed surface's, so the system pf is at least
     # the single-surface pf; same seed, same samples, compared sample by sample
-    from slope import analysis
-    from slope.case import load_case
+    from slipfield.slope.case import analyses as analysis
+    from slipfield.slope.case.build import load_case
 
     case = load_case("cases/levee_soft_clay.toml")
     case.data["analysis"]["hypotheses"] = ["undrained"]

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from slope.errors import InputError
-from slope.reliability import (beta_from_pf, beta_lognormal, beta_normal, binomial_interval,
+from slipfield.slope.errors import InputError
+from slipfield.slope.reliability import (beta_from_pf, beta_lognormal, beta_normal, binomial_interval,
                                convergence_history, estimate_pf, fs_distribution)
 
 

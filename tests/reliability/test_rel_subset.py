@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy import special, stats
 
-from slope.reliability import random_vector, subset_simulation
+from slipfield.slope.reliability import random_vector, subset_simulation
 
 BETA = -special.ndtri(1e-4)  # 3.719: pf = 1e-4 exactly
 

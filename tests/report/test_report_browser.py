@@ -12,7 +12,7 @@ import matplotlib.image as mpimg
 import numpy as np
 import pytest
 
-from slope.report import (
+from slipfield.slope.report import (
     plot_failure_map,
     plot_field_realisation,
     plot_fs_distribution,

@@ -13,8 +13,8 @@ from matplotlib.collections import PolyCollection, QuadMesh
 from matplotlib.patches import Polygon, Rectangle
 from scipy import stats
 
-from slope.errors import InputError
-from slope.report import (
+from slipfield.slope.errors import InputError
+from slipfield.slope.report import (
     figure_png_bytes,
     fit_fs_distributions,
     plot_failure_map,
@@ -26,7 +26,7 @@ from slope.report import (
     plot_tornado,
     plot_variance_reduction,
 )
-from slope.report.style import CYCLE, PALETTE
+from slipfield.slope.report.style import CYCLE, PALETTE
 
 GROUND = np.array([[0.0, 10.0], [10.0, 10.0], [30.0, 0.0], [50.0, 0.0]])
 CIRCLE = np.array([[5.0, 10.0], [15.0, 3.0], [25.0, 0.8], [32.0, 0.0]])
@@ -74,7 +74,7 @@ def test_section_draws_zones_water_and_labelled_surfaces():
 
 
 def test_section_reuses_given_axes_and_rejects_bad_ground():
-    from slope.report.style import new_figure
+    from slipfield.slope.report.style import new_figure
 
     fig, ax = new_figure()
     assert plot_section(ax, GROUND) is fig
@@ -286,7 +286,7 @@ def test_palette_is_okabe_ito():
 
 # --------------------------------------------------------------------------- added figures
 def test_fs_vs_theta_two_panels_with_infinite_marker():
-    from slope.report import plot_fs_vs_theta
+    from slipfield.slope.report import plot_fs_vs_theta
 
     theta = [1.0, 4.0, 16.0, np.inf]
     mean = [1.40, 1.38, 1.37, 1.36]
@@ -310,7 +310,7 @@ def test_pf_vs_theta_log_axis_reports_zero_values():
 
 
 def test_realisations_share_one_colour_scale():
-    from slope.report import plot_realisations
+    from slipfield.slope.report import plot_realisations
 
     rng = np.random.default_rng(3)
     xc, yc = np.arange(0.5, 20, 1.0), np.arange(0.5, 8, 1.0)
@@ -331,7 +331,7 @@ def test_realisations_share_one_colour_scale():
 
 
 def test_failure_geometry_histograms_count_every_failure():
-    from slope.report import plot_failure_geometry
+    from slipfield.slope.report import plot_failure_geometry
 
     rng = np.random.default_rng(9)
     area = rng.gamma(4.0, 10.0, 250)
@@ -354,7 +354,7 @@ def test_tornado_marks_clipped_variables():
 
 
 def test_pf_comparison_points_and_intervals():
-    from slope.report import plot_pf_comparison
+    from slipfield.slope.report import plot_pf_comparison
 
     labels = ["spatial field (θh = 20 m, θv = 2 m)", "single random variable", "variance-function estimate"]
     pf = np.array([0.012, 0.048, 0.010])
@@ -380,7 +380,7 @@ def test_constant_fs_draws_no_density_curves():
 
 
 def test_public_api_star_import():
-    import slope.report as rep
+    import slipfield.slope.report as rep
 
     ns = {}
     exec("from slope.report import *", ns)

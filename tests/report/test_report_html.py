@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 from matplotlib.figure import Figure
 
-from slope.errors import InputError
-from slope.report import (
+from slipfield.slope.errors import InputError
+from slipfield.slope.report import (
     CAUTION,
     format_value,
     plot_pf_convergence,

@@ -2,8 +2,8 @@
 import numpy as np
 import pytest
 
-from slope.errors import InputError
-from slope.report import annual_probability, figure_png_bytes, plot_risk_chart, risk_points
+from slipfield.slope.errors import InputError
+from slipfield.slope.report import annual_probability, figure_png_bytes, plot_risk_chart, risk_points
 
 
 def _gid(fig, gid):
@@ -95,7 +95,7 @@ def test_zero_pf_shown_as_upper_bound_or_reported():
 
 
 def test_tolerability_line_is_a_power_law_through_its_anchor():
-    from slope.report import tolerability_line
+    from slipfield.slope.report import tolerability_line
 
     # log P = log P0 + b (log C - log C0): a straight line on log–log axes (closed form).
     ln = tolerability_line("example (invented)", "test fixture, no publication", 10.0, 1e-4, -1.0, (1.0, 1000.0))

@@ -19,7 +19,7 @@ from pathlib import Path
 import matplotlib.image as mpimg
 import pytest
 
-from slope.run import run_case
+from slipfield.slope.commands.run import run_case
 from test_report_browser import CHROMIUM, _chromium, _console, _probe  # same folder: one way to drive Chromium
 
 pytestmark = pytest.mark.skipif(

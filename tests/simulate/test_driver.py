@@ -2,13 +2,13 @@ import math
 
 import numpy as np
 
-from slope.bank import build_bank
-from slope.examples import simple_slope
-from slope.search import lattice_circles
-from slope.simulate import RandomProblem, RandomProperty, simulate
-from slope.strength import Material
-from slope.surfaces import Circle
-from fields.marginals import make_marginal
+from slipfield.slope.bank import build_bank
+from slipfield.slope.examples import simple_slope
+from slipfield.slope.search import lattice_circles
+from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle
+from slipfield.fields.marginals import make_marginal
 
 
 def _problem(theta):
@@ -33,9 +33,9 @@ def test_single_variable_scales_fs():
     # FS of a phi = 0 slope is linear in su (closed form of Bishop with
     # tan phi = 0), so FS_crit,k = FS_det(su = 1) * su_k exactly; su_k is the
     # lognormal (mean 50, COV 0.3) of realisation_rng(seed, k, 0, 0)
-    from fields.marginals import make_marginal
-    from fields.seeding import realisation_rng
-    from slope.methods import factor_of_safety
+    from slipfield.fields.marginals import make_marginal
+    from slipfield.fields.seeding import realisation_rng
+    from slipfield.slope.methods import factor_of_safety
     p = _problem(math.inf)
     r = simulate(p, 10, seed=1)
     unit = factor_of_safety(p.bank, np.ones(p.bank.zone.shape), 0.0, method="bishop")
@@ -51,7 +51,7 @@ def test_resume_equals_uninterrupted_and_refuses_other_problem(tmp_path):
     # resume contract ("up to n"): a run stopped after 10 realisations and
     # resumed to 20 equals one uninterrupted run of 20
     import pytest
-    from slope.errors import InputError
+    from slipfield.slope.errors import InputError
     p = _problem(10.0)
     full = simulate(p, 20, seed=2, batch=5)
     simulate(p, 10, seed=2, batch=5, store=tmp_path / "s")

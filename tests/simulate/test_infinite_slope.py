@@ -21,14 +21,14 @@ import numpy as np
 import pytest
 from scipy.stats import chi2, norm
 
-from fields import get_model, variance_function
-from fields.marginals import make_marginal
-from slope.methods import factor_of_safety
-from slope.section import Section, Zone
-from slope.simulate import RandomProblem, RandomProperty, simulate
-from slope.simulate.studies import reduced_variance_problem, surface_variance_factor
-from slope.strength import Material
-from slope.surfaces import Polyline
+from slipfield.fields import get_model, variance_function
+from slipfield.fields.marginals import make_marginal
+from slipfield.slope.methods import factor_of_safety
+from slipfield.slope.section import Section, Zone
+from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
+from slipfield.slope.simulate.studies import reduced_variance_problem, surface_variance_factor
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Polyline
 
 TAN_B = 0.5          # 2H:1V face
 Z = 3.0              # m, vertical depth of the slip plane
@@ -175,11 +175,11 @@ def test_random_unit_weight_closed_form_simulator_and_form(geometry):
     # With f lognormal (mean 1, COV V), pf = P(f > FS_mean)
     # = 1 − Φ((ln FS_mean − μ_ln)/σ_ln) and FORM is exact (the limit state is
     # linear in the standard normal of ln f; Hasofer & Lind 1974).
-    from slope.bank import unit_weight_parts
-    from slope.reliability import form
-    from slope.reliability.limit_state import LimitState
-    from slope.reliability.slope_limit_state import SliceBankLimitState
-    from slope.reliability.variables import RandomVariable, RandomVector
+    from slipfield.slope.bank import unit_weight_parts
+    from slipfield.slope.reliability import form
+    from slipfield.slope.reliability.limit_state import LimitState
+    from slipfield.slope.limit_state import SliceBankLimitState
+    from slipfield.slope.reliability.variables import RandomVariable, RandomVector
 
     fs1, _, bank = geometry
     su, V = 1.1 / fs1, 0.1                     # FS at the mean unit weight 1.1 (invented)
@@ -193,7 +193,7 @@ def test_random_unit_weight_closed_form_simulator_and_form(geometry):
     se = math.sqrt(pf_exact * (1 - pf_exact) / N)
     assert abs(r.pf - pf_exact) < Z_CRIT * se, (r.pf, pf_exact)
     # FS_k · f_k is the same number for every realisation
-    from fields.seeding import realisation_rng
+    from slipfield.fields.seeding import realisation_rng
 
     fk = np.array([f.from_standard_normal(realisation_rng(21, k, 0, 0).standard_normal()) for k in range(N)])
     np.testing.assert_allclose(r.fs * fk, 1.1, rtol=1e-6)

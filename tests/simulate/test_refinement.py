@@ -11,10 +11,10 @@ import math
 import numpy as np
 import pytest
 
-from slope.errors import InputError
-from slope.simulate import RefineSettings, simulate
-from slope.simulate.engine import _valid_base_values, stencil
-from slope.simulate.refinement import realisation_overrides
+from slipfield.slope.errors import InputError
+from slipfield.slope.simulate import RefineSettings, simulate
+from slipfield.slope.simulate.engine import _valid_base_values, stencil
+from slipfield.slope.simulate.refinement import realisation_overrides
 
 from test_studies import _gf_problem
 
@@ -37,7 +37,7 @@ def test_homogeneous_realisations_reach_the_published_fs():
     r = simulate(p, 6, seed=3, refine=5.0)
     assert r.n_refined == 6
     su_mean = p.properties[0].marginal.mean
-    from fields.seeding import realisation_rng
+    from slipfield.fields.seeding import realisation_rng
 
     su = np.array([p.properties[0].marginal.from_standard_normal(realisation_rng(3, k, 0, 0).standard_normal())
                    for k in range(6)])
@@ -81,8 +81,8 @@ def test_refinement_uses_the_realisations_unit_weight():
     # FS ∝ 1/f for φ = 0 when every weight scales by f: the refined FS of a
     # realisation with unit-weight factor f_k times f_k is the same number
     # (the refined FS of the slope at the mean unit weight) for every k
-    from fields.marginals import make_marginal
-    from slope.simulate import RandomProblem, RandomProperty
+    from slipfield.fields.marginals import make_marginal
+    from slipfield.slope.simulate import RandomProblem, RandomProperty
 
     p0, _ = _gf_problem(math.inf, 0.3)
     f = make_marginal("lognormal", mean=1.0, cov=0.08)
@@ -90,7 +90,7 @@ def test_refinement_uses_the_realisations_unit_weight():
                                                                          math.inf)],
                       p0.surfaces, p0.fixed_index, n_slices=20, cell=1.0)
     r = simulate(p, 4, seed=9, refine=5.0)
-    from fields.seeding import realisation_rng
+    from slipfield.fields.seeding import realisation_rng
 
     fk = np.array([f.from_standard_normal(realisation_rng(9, k, 0, 0).standard_normal()) for k in range(4)])
     np.testing.assert_allclose(r.fs_bank * fk, r.fs_bank[0] * fk[0], rtol=1e-9)

@@ -11,13 +11,13 @@ import time
 import numpy as np
 import pytest
 
-from fields.marginals import make_marginal
-from slope.errors import InputError
-from slope.examples import simple_slope
-from slope.search import lattice_circles
-from slope.simulate import RandomProblem, RandomProperty, simulate
-from slope.strength import Material
-from slope.surfaces import Circle
+from slipfield.fields.marginals import make_marginal
+from slipfield.slope.errors import InputError
+from slipfield.slope.examples import simple_slope
+from slipfield.slope.search import lattice_circles
+from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle
 
 N = 60
 

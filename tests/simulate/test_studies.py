@@ -10,16 +10,16 @@ import numpy as np
 import pytest
 from scipy.stats import norm
 
-from fields.marginals import make_marginal
-from slope import analysis
-from slope.case import load_case
-from slope.examples import simple_slope
-from slope.methods import factor_of_safety
-from slope.search import lattice_circles
-from slope.simulate import RandomProblem, RandomProperty, averaging_report, realise_fields, simulate, theta_sweep
-from slope.simulate.engine import base_values, bilinear
-from slope.strength import Material
-from slope.surfaces import Circle
+from slipfield.fields.marginals import make_marginal
+from slipfield.slope.case import analyses as analysis
+from slipfield.slope.case.build import load_case
+from slipfield.slope.examples import simple_slope
+from slipfield.slope.methods import factor_of_safety
+from slipfield.slope.search import lattice_circles
+from slipfield.slope.simulate import RandomProblem, RandomProperty, averaging_report, realise_fields, simulate, theta_sweep
+from slipfield.slope.simulate.engine import base_values, bilinear
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle
 
 ALPHA = 1e-3
 Z_CRIT = norm.ppf(1 - ALPHA / 2)
@@ -120,7 +120,7 @@ def _gf_problem(theta, cov, mean_c=0.25, H=10.0, gamma=20.0, nx=6, ny=6, n_radii
 
 
 def build(sec, surfaces):
-    from slope.bank import build_bank
+    from slipfield.slope.bank import build_bank
 
     return build_bank(sec, surfaces, 20)
 

@@ -3,14 +3,14 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from slope.bank import build_bank
-from slope.errors import InputError
-from slope.examples import simple_slope, two_zone_section
-from slope.loads import Loads, StripLoad, TensionCrack
-from slope.section import Section, Zone
-from slope.strength import Material, base_strength
-from slope.surfaces import Circle, Circles, Polyline, circle_through, cut_ground
-from slope.water import Water
+from slipfield.slope.bank import build_bank
+from slipfield.slope.errors import InputError
+from slipfield.slope.examples import simple_slope, two_zone_section
+from slipfield.slope.loads import Loads, StripLoad, TensionCrack
+from slipfield.slope.section import Section, Zone
+from slipfield.slope.strength import Material, base_strength
+from slipfield.slope.surfaces import Circle, Circles, Polyline, circle_through, cut_ground
+from slipfield.slope.water import Water
 
 GW = 9.81
 
@@ -261,7 +261,7 @@ def test_scaled_unit_weights_equal_a_bank_built_with_them(water):
     # doubled zone at a time reproduce a bank built with other unit weights
     from dataclasses import replace
 
-    from slope.bank import scale_unit_weights, unit_weight_parts
+    from slipfield.slope.bank import scale_unit_weights, unit_weight_parts
 
     sec = two_zone_section()
     if water == "ru":

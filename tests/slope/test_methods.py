@@ -8,11 +8,11 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from slope.errors import InputError
-from slope.methods import FSResult, factor_of_safety, prepare_bank
-from slope.methods.janbu import janbu_depth_ratio, janbu_f0
-from slope.methods.result import NEGATIVE_NORMAL, NEGATIVE_STRENGTH, SMALL_M_ALPHA, THRUST_OUTSIDE
-from slope.slices import SliceBank
+from slipfield.slope.errors import InputError
+from slipfield.slope.methods import FSResult, factor_of_safety, prepare_bank
+from slipfield.slope.methods.janbu import janbu_depth_ratio, janbu_f0
+from slipfield.slope.methods.result import NEGATIVE_NORMAL, NEGATIVE_STRENGTH, SMALL_M_ALPHA, THRUST_OUTSIDE
+from slipfield.slope.slices import SliceBank
 
 GW = 9.81
 ALL_METHODS = ["ordinary", "bishop", "janbu", "spencer", "morgenstern-price"]
@@ -342,9 +342,9 @@ def test_every_slice_in_equilibrium(method, interslice):
 
 # ---------------------------------------------------------- mirror images --
 def _mirrored_sections():
-    from slope.section import Section, Zone
-    from slope.strength import Material
-    from slope.water import Water
+    from slipfield.slope.section import Section, Zone
+    from slipfield.slope.strength import Material
+    from slipfield.slope.water import Water
     mat = Material("soil", unit_weight=19.0, unit_weight_sat=20.0, c=8.0, phi=28.0)
     g = np.array([[-30.0, 10.0], [0.0, 10.0], [20.0, 0.0], [50.0, 0.0]])
     w = np.array([[-30.0, 6.0], [0.0, 5.0], [20.0, 0.0], [50.0, 0.0]])
@@ -362,9 +362,9 @@ def _mirrored_sections():
 @pytest.mark.parametrize("method", ALL_METHODS)
 def test_mirror_image_sections_give_equal_fs(method):
     # A section and its mirror image are the same problem (symmetry of statics).
-    from slope.bank import build_bank
-    from slope.surfaces import Circles
-    from slope.strength import base_strength
+    from slipfield.slope.bank import build_bank
+    from slipfield.slope.surfaces import Circles
+    from slipfield.slope.strength import base_strength
     right, left = _mirrored_sections()
     xc = np.array([8.0, 12.0, 5.0])
     yc = np.array([18.0, 20.0, 15.0])
@@ -536,9 +536,9 @@ _TANGENTS = np.linspace(-12.0, 4.5, 10)
 
 
 def _levee_bank(circles, hypothesis):
-    from slope.bank import build_bank
-    from slope.case import load_case
-    from slope.strength import base_strength
+    from slipfield.slope.bank import build_bank
+    from slipfield.slope.case.build import load_case
+    from slipfield.slope.strength import base_strength
 
     sec = load_case(str(_LEVEE)).section
     bank = build_bank(sec, circles, n_slices=30)
@@ -561,7 +561,7 @@ def _counted(r):
     ("undrained", 6.0, 4),   # 8.12, lam = 3.1
 ])
 def test_mp_half_sine_spurious_root_on_circle_without_driving_moment(hypothesis, centre_y, k_tangent):
-    from slope.surfaces import Circle
+    from slipfield.slope.surfaces import Circle
 
     r = centre_y - _TANGENTS[k_tangent]
     pt, c, tp = _levee_bank([Circle(0.0, centre_y, r)], hypothesis)
@@ -588,8 +588,8 @@ def test_mp_half_sine_spurious_root_on_circle_without_driving_moment(hypothesis,
 
 @pytest.mark.parametrize("hypothesis", ["undrained", "drained"])
 def test_mp_half_sine_follows_spencer_on_the_levee_search_bank(hypothesis):
-    from slope.search import lattice_circles
-    from slope.case import load_case
+    from slipfield.slope.search import lattice_circles
+    from slipfield.slope.case.build import load_case
 
     circles = lattice_circles(load_case(str(_LEVEE)).section, x_range=(0.0, 20.0),
                               y_range=(6.0, 20.0), nx=11, ny=11, n_radii=10)

@@ -10,14 +10,14 @@ tolerances below are set from those two effects, not tuned.
 import numpy as np
 import pytest
 
-from slope.bank import build_bank
-from slope.examples import simple_slope, two_zone_section
-from slope.methods import factor_of_safety
-from slope.search import centre_lattice, evaluate_surfaces, window
-from slope.section import Section, Zone
-from slope.strength import Material, base_strength
-from slope.surfaces import Circle, Circles, Polyline
-from slope.water import Water
+from slipfield.slope.bank import build_bank
+from slipfield.slope.examples import simple_slope, two_zone_section
+from slipfield.slope.methods import factor_of_safety
+from slipfield.slope.search import centre_lattice, evaluate_surfaces, window
+from slipfield.slope.section import Section, Zone
+from slipfield.slope.strength import Material, base_strength
+from slipfield.slope.surfaces import Circle, Circles, Polyline
+from slipfield.slope.water import Water
 
 PHI0_TOL = ("negative-normal", "thrust-outside", "small-m-alpha")  # m_alpha = cos a is harmless for phi = 0
 

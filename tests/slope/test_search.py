@@ -8,13 +8,13 @@ from above. Grids are small to keep the suite fast.
 import numpy as np
 import pytest
 
-from slope.errors import InputError
-from slope.examples import simple_slope
-from slope.search import (block_surfaces, centre_lattice, critical_surface, evaluate_surfaces,
+from slipfield.slope.errors import InputError
+from slipfield.slope.examples import simple_slope
+from slipfield.slope.search import (block_surfaces, centre_lattice, critical_surface, evaluate_surfaces,
                           kinematic_reason, refine, weak_layer, window)
-from slope.section import Section
-from slope.strength import Material
-from slope.surfaces import Circle, Polyline, cut_ground
+from slipfield.slope.section import Section
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle, Polyline, cut_ground
 
 BETA_COT = 2.0
 PHI = 30.0

@@ -5,10 +5,10 @@ Areas are checked against the shoelace formula and trapezoids (closed forms).
 import numpy as np
 import pytest
 
-from slope.errors import InputError
-from slope.examples import layered_weak_section, simple_slope, two_zone_section
-from slope.section import Section, Zone, polygon_area
-from slope.strength import Material
+from slipfield.slope.errors import InputError
+from slipfield.slope.examples import layered_weak_section, simple_slope, two_zone_section
+from slipfield.slope.section import Section, Zone, polygon_area
+from slipfield.slope.strength import Material
 
 SOIL = {"soil": Material("soil", unit_weight=20.0, c=10.0, phi=25.0)}
 GROUND = [[0.0, 10.0], [10.0, 10.0], [30.0, 0.0], [40.0, 0.0]]

@@ -19,7 +19,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import InputError
+from .bank import scale_unit_weights
+from .errors import InputError
+from .methods import factor_of_safety, prepare_bank
+from .strength import base_strength
 
 __all__ = ["SliceBankLimitState", "PROPERTIES"]
 
@@ -52,8 +55,6 @@ class SliceBankLimitState:
 
     def __init__(self, bank, materials, assign, *, method="bishop", hypothesis="drained",
                  chunk=2_000_000, weight_parts=None, **method_opts):
-        from slope.methods import factor_of_safety, prepare_bank  # noqa: F401
-        from slope.strength import base_strength
 
         if not assign:
             raise InputError("assign: map at least one column of X to (zone, property)")
@@ -80,7 +81,7 @@ class SliceBankLimitState:
                          - {self.zone_names[z] for z in (weight_parts or {})})
         if missing:
             raise InputError(f"weight_parts: no unit_weight_parts for zone(s) {missing}; compute them with "
-                             "slope.bank.unit_weight_parts(section, surfaces, zones, n_slices)")
+                             "slipfield.slope.bank.unit_weight_parts(section, surfaces, zones, n_slices)")
         self.weight_parts = weight_parts or {}
         self.materials = materials
         self.bank = bank
@@ -95,7 +96,6 @@ class SliceBankLimitState:
         self._terms = None
 
     def _prepared(self):
-        from slope.methods import prepare_bank
 
         if self._terms is None:
             self._terms = prepare_bank(self.bank)
@@ -127,7 +127,6 @@ class SliceBankLimitState:
         return np.where(valid_rows, c, 0.0), np.where(valid_rows, t, 0.0)
 
     def __call__(self, X):
-        from slope.methods import factor_of_safety
 
         X = np.atleast_2d(np.asarray(X, float))
         m, n = self.c0.shape
@@ -158,9 +157,6 @@ class SliceBankLimitState:
             return (self._prepared(), *self.strengths(x))
         # a random unit weight changes the slice terms themselves: the samples' banks are
         # stacked as s × m surfaces, so the chunk still goes through one kernel call
-        from slope.bank import scale_unit_weights
-        from slope.methods import prepare_bank
-        from slope.strength import base_strength
 
         s, (m, n) = x.shape[0], self.c0.shape
         factors = {zi: x[:, col] for col, zi in self.weight_cols.items()}

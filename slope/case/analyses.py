@@ -17,20 +17,20 @@ import math
 
 import numpy as np
 
-from fields.marginals import make_marginal
+from slipfield.fields.marginals import make_marginal
 
-from .bank import unit_weight_parts
-from .case import Case, theta_value
-from .errors import InputError
-from .reliability.limit_state import LimitState
-from .reliability.pem import hong, rosenblueth
-from .reliability.form import form
-from .reliability.sampling import latin_hypercube, monte_carlo
-from .reliability.sensitivity import rank_correlations, tornado
-from .reliability.slope_limit_state import SliceBankLimitState
-from .reliability.variables import RandomVariable, RandomVector
-from .search import evaluate_surfaces, centre_lattice, window
-from .surfaces import Circle, Polyline
+from ..bank import unit_weight_parts
+from .build import Case, theta_value
+from ..errors import InputError
+from ..reliability.limit_state import LimitState
+from ..reliability.pem import hong, rosenblueth
+from ..reliability.form import form
+from ..reliability.sampling import latin_hypercube, monte_carlo
+from ..reliability.sensitivity import rank_correlations, tornado
+from ..limit_state import SliceBankLimitState
+from ..reliability.variables import RandomVariable, RandomVector
+from ..search import evaluate_surfaces, centre_lattice, window
+from ..surfaces import Circle, Polyline
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
            "properties_for"]
@@ -311,7 +311,7 @@ def _surface_list(surfaces):
 
 def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=None):
     """The :class:`slope.simulate.RandomProblem` of a case under one hypothesis."""
-    from .simulate import RandomProblem, RandomProperty
+    from ..simulate import RandomProblem, RandomProperty
 
     props = properties_for(case, hypothesis)
     if not props:

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "METHOD_NAMES", "FIELD_MODEL_NAMES"]
 

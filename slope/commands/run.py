@@ -25,10 +25,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .analysis import deterministic, random_problem, single_variable_reliability, surface_xy
-from .case import load_case
-from .errors import InputError
-from .reliability.stats import convergence_history, estimate_pf
+from ..case.analyses import deterministic, random_problem, single_variable_reliability, surface_xy
+from ..case.build import load_case
+from ..errors import InputError
+from ..reliability.stats import convergence_history, estimate_pf
 
 __all__ = ["run_case", "sliding_mass_geometry", "RESULTS_VERSION"]
 
@@ -116,7 +116,7 @@ def _status(n, n_valid):
 
 def _simulation(case, det, hyp, *, n, n_jobs, quiet):
     """Spatially variable run (a) and the same with every θ → ∞ (b)."""
-    from .simulate import RefineSettings, simulate
+    from ..simulate import RefineSettings, simulate
 
     seed = int(case.simulation["seed"])
     block = int(case.simulation["batch"])
@@ -176,8 +176,8 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
 
 def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
     """The quick estimate: single variables with σ × √γ along the fixed deterministic critical surface."""
-    from .simulate import simulate
-    from .simulate.studies import reduced_variance_problem
+    from ..simulate import simulate
+    from ..simulate.studies import reduced_variance_problem
 
     red, table = reduced_variance_problem(prob)
     t0 = time.perf_counter()
@@ -214,8 +214,8 @@ def _shown(fs, crit):
 
 def _field_figures(case, prob, shown, hyp):
     """One figure per random property: its field in the realisations of ``shown``, each with its critical surface."""
-    from . import report as rp
-    from .simulate import realise_fields
+    from .. import report as rp
+    from ..simulate import realise_fields
 
     if not shown:
         return []
@@ -241,7 +241,7 @@ def _field_figures(case, prob, shown, hyp):
 
 def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
     """Make and save the figures; returns [(heading, caption, Figure)]."""
-    from . import report as rp
+    from .. import report as rp
 
     figs = []
     sec = case.section
@@ -324,7 +324,7 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
             figs.append((f"failure_geometry_{hyp}",
                          f"Failure geometry: sliding-mass area and greatest depth of the failed critical surfaces, {hyp}",
                          f, ""))
-    from fields import variance_function, get_model
+    from slipfield.fields import variance_function, get_model
     T = np.logspace(-1.5, 1.5, 60)
     gam = {}
     for name in ("exponential", "gaussian", "second-order-markov", "spherical"):
@@ -395,7 +395,7 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     dict
         The content of ``results.json``.
     """
-    from . import report as rp
+    from .. import report as rp
 
     t_start = time.perf_counter()
     formats = tuple(dict.fromkeys(("png", *figure_formats)))
@@ -491,7 +491,7 @@ def _summary_rows(results) -> list:
 
 
 def _tables(stage, results, sim):
-    from .report import write_csv
+    from ..report import write_csv
 
     rows = [[h, m, r["fs"], r["n_trials"], r["n_counted"], r["status"]]
             for h, ms in results["deterministic"].items() for m, r in ms.items()]

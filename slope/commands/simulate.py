@@ -26,7 +26,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
+from ..errors import InputError
 from .run import _jsonable
 
 __all__ = ["simulate_case", "sweep_case", "export_realisations", "parse_theta_list", "EXPORT_FORMATS"]
@@ -41,7 +41,7 @@ _STORE = "store"
 
 # --------------------------------------------------------------- helpers
 def _write_json(path: Path, obj) -> None:
-    from .report import atomic_write_text
+    from ..report import atomic_write_text
 
     atomic_write_text(path, json.dumps(_jsonable(obj), indent=2, allow_nan=False))
 
@@ -128,7 +128,7 @@ def _scheduler(address):
 
 def _problem(case, hypothesis, theta_override=None):
     """Search the case's bank once (run method only) and build its RandomProblem."""
-    from .analysis import random_problem, trial_surfaces
+    from ..case.analyses import random_problem, trial_surfaces
 
     hyps = list(case.analysis["hypotheses"])
     hyp = hypothesis or hyps[0]
@@ -168,7 +168,7 @@ def _statuses(store: Path, n: int, fs) -> list[str]:
     next qualifying one is critical; ``no-valid-surface``: no surface qualified
     (FS empty, excluded from pf).
     """
-    from .simulate import load_store
+    from ..simulate import load_store
 
     stored = load_store(store)
     flags = ({k: stored[k][:n].astype(bool) for k in ("nonconv", "inadm", "none")}
@@ -241,10 +241,10 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
     Multiplier properties (su, su_ratio) are factors (-) of the material's
     deterministic value (its depth law or ratio), as in the simulator.
     """
-    from fields.io import NpzSeriesWriter, XdmfSeriesWriter, grid_mesh, write_vtu
+    from slipfield.fields.io import NpzSeriesWriter, XdmfSeriesWriter, grid_mesh, write_vtu
 
-    from .report import write_csv
-    from .simulate import realise_fields
+    from ..report import write_csv
+    from ..simulate import realise_fields
 
     if fmt not in EXPORT_FORMATS:
         raise InputError(f"export format {fmt!r} is not supported; use one of {', '.join(EXPORT_FORMATS)}")
@@ -313,7 +313,7 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
                  "property's zones",
         "time_value": "realisation index k" if fmt == "xdmf" else None,
         "index": "realisations.csv", "properties": props,
-        "reproduce": "slope.simulate.realise_fields(problem, seed, k) returns the same arrays (nx, ny)",
+        "reproduce": "slipfield.slope.simulate.realise_fields(problem, seed, k) returns the same arrays (nx, ny)",
     }
     _write_json(directory / "fields.json", manifest)
     return manifest
@@ -352,7 +352,7 @@ def _check_out_for_simulate(out: Path, head: dict, ident: dict, resume: bool) ->
 
 
 def _stored_count(store: Path) -> int:
-    from .simulate import load_store
+    from ..simulate import load_store
 
     stored = load_store(store)
     return int(stored["fs"].size) if stored else 0
@@ -395,12 +395,12 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     dict
         The content of ``results.json``.
     """
-    from .case import load_case
-    from .report import write_csv
+    from ..case.build import load_case
+    from ..report import write_csv
     from .run import CAUTION
-    from .simulate import simulate
-    from .simulate import store_header
-    from .simulate.refinement import RefineSettings
+    from ..simulate import simulate
+    from ..simulate import store_header
+    from ..simulate.refinement import RefineSettings
 
     t0 = time.perf_counter()
     if export_format not in EXPORT_FORMATS:
@@ -519,10 +519,10 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     dict
         The content of ``sweep.json``.
     """
-    from . import report as rp
-    from .case import load_case
+    from .. import report as rp
+    from ..case.build import load_case
     from .run import CAUTION
-    from .simulate import theta_sweep
+    from ..simulate import theta_sweep
 
     t0 = time.perf_counter()
     case = load_case(case_path)
@@ -576,7 +576,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
 
 def _sweep_figures(rows, grid_vals, fig_dir, title, hyp) -> list[str]:
     """pf and mean/σ FS against θh, one series per θv; returns notes on what was not drawn."""
-    from . import report as rp
+    from .. import report as rp
 
     th, tv = grid_vals["theta_h"], grid_vals["theta_v"]
     by = {(r["theta_h"], r["theta_v"]): r for r in rows}

@@ -13,12 +13,12 @@ from pathlib import Path
 
 import numpy as np
 
-from .case_schema import CaseError, read_case, to_float
-from .errors import InputError
-from .loads import Loads, StripLoad, TensionCrack
-from .section import Section, Zone
-from .strength import Material
-from .water import Water
+from .schema import CaseError, read_case, to_float
+from ..errors import InputError
+from ..loads import Loads, StripLoad, TensionCrack
+from ..section import Section, Zone
+from ..strength import Material
+from ..water import Water
 
 __all__ = ["Case", "load_case", "build_section", "build_materials"]
 
