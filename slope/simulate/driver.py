@@ -487,9 +487,11 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
             if bar is not None:
                 bar.update(hi - lo)
     except SchedulerLost as exc:
-        kept = f"{done} of {n} realisations are kept in {store}" if st is not None else "nothing was stored"
-        raise SchedulerLost(f"{exc} after {done} of {n} realisations; {kept}: run again with --resume "
-                            "(resume=True) and without --scheduler to continue locally") from None
+        if st is None:
+            raise SchedulerLost(f"{exc} after {done} of {n} realisations; nothing was stored: run again, "
+                                "without --scheduler to run locally") from None
+        raise SchedulerLost(f"{exc} after {done} of {n} realisations; those are kept in {store}: run again "
+                            "with --resume (resume=True) and without --scheduler to continue locally") from None
     finally:
         stream.close()  # an interrupted run stops its workers; written blocks stay
         if bar is not None:

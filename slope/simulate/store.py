@@ -56,8 +56,13 @@ BLOCK = 100  # realisations per on-disk block (fixed, independent of jobs and ba
 HEADER = "header.json"
 _NAME = re.compile(r"^block_(\d{6})\.npz$")
 _META = ("_start", "_stop", "_store", "_checksum")
-_UMASK = os.umask(0o022)
-os.umask(_UMASK)
+
+
+def _umask() -> int:
+    """The process umask, read when a file is made (it may change after import)."""
+    m = os.umask(0o022)
+    os.umask(m)
+    return m
 
 
 class StoreRepairWarning(UserWarning):
@@ -117,9 +122,9 @@ _PHRASES = {"problem": "the problem differs (hash mismatch)", "seed": "the seed 
 
 
 def _phrase(key: str) -> str:
-    if key in _PHRASES:
-        return _PHRASES[key]
     head, _, rest = key.partition(".")
+    if head in _PHRASES:
+        return _PHRASES[head]
     if head == "case" and rest:
         return f"the case's [{rest.split('.')[0]}] table differs"
     return f"{key} differs"
@@ -169,7 +174,7 @@ class BlockStore:
         diff = _differences(old["identity"], self.identity)
         if diff:
             raise InputError(f"cannot resume from store {self.folder}: it holds another run "
-                             f"({'; '.join(_phrase(k) for k in diff[:8])}); {fix}")
+                             f"({'; '.join(dict.fromkeys(_phrase(k) for k in diff))}); {fix}")
         return True
 
     def open(self, *, resume: bool, **kw) -> bool:
@@ -281,7 +286,7 @@ class BlockStore:
                 fh.write(data)
                 fh.flush()
                 os.fsync(fh.fileno())
-            os.chmod(tmp, 0o666 & ~_UMASK)
+            os.chmod(tmp, 0o666 & ~_umask())
             os.replace(tmp, path)
         except BaseException:
             Path(tmp).unlink(missing_ok=True)
