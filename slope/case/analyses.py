@@ -32,7 +32,7 @@ from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, centre_lattice, window
 from ..surfaces import Circle, Polyline
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
            "properties_for"]
 
 # which random properties act under which hypothesis
