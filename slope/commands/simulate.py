@@ -21,6 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..case.preflight import preflight
 from ..errors import InputError
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
 from .export import EXPORT_FORMATS, export_realisations
@@ -179,6 +180,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                          f"{', '.join(EXPORT_FORMATS)}")
     case = load_case(case_path)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed)
+    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
     exp = None if export_fields is None else Path(export_fields)
     if exp is not None:
         a, b = exp.absolute().resolve(), Path(out_dir).absolute().resolve()

@@ -12,6 +12,7 @@ import time
 
 import numpy as np
 
+from ..case.preflight import preflight
 from ..errors import InputError
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, write_json
 from .folders import OutputFolder
@@ -69,8 +70,9 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             given = [str(v) for v in sw[key]]
         grid_vals[key] = parse_theta_list(given, opt)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed, default_n=sw.get("realisations"))
+    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)  # checked before any computation
+    preflight(case, realisations=n, search=False)
     hyp, _, prob = problem_of(case, hypothesis)
-    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)
     client = None if scheduler is None else connect_scheduler(scheduler, option="--scheduler")
     try:  # every input is checked: from here on the sweep computes, then writes
         rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
