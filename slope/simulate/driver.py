@@ -11,6 +11,7 @@ from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
 from .engine import batch_fs, stencil
 from .problem import RandomProblem
+from .executors import SCHEDULER_TIMEOUT_S, SchedulerLost, connect_scheduler, run_tasks
 from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK",
@@ -165,9 +166,7 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
-def _run_block(problem, seed, start, stop, refine=None, parent=None):
-    if parent is not None:
-        _watch_parent(parent)
+def _run_block(problem, seed, start, stop, refine=None):
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
     out = _reduce(problem, fs, conv, adm)
     if refine is not None:
@@ -182,38 +181,6 @@ def _run_block(problem, seed, start, stop, refine=None, parent=None):
                 fs_c[r] = f
                 out["refined"][r] = True
     return out
-
-
-_WATCHED = None
-
-
-def _watch_parent(parent: int, period: float = 0.5) -> None:
-    """In a pool worker: end this process when the run that started it is gone.
-
-    A killed run (``kill -9``) cannot stop its pool; the worker is then
-    re-parented, so a daemon thread polls ``os.getppid()`` and exits. The
-    worker also leaves Ctrl-C to its parent, which stops the pool in order.
-    """
-    global _WATCHED
-    if _WATCHED is not None or os.getpid() == parent:
-        return
-    import signal
-    import threading
-    import time
-
-    _WATCHED = parent
-    try:
-        signal.signal(signal.SIGINT, signal.SIG_IGN)
-    except ValueError:  # not the main thread of the worker: the parent still stops the pool
-        pass
-
-    def watch():
-        while True:
-            if os.getppid() != parent:
-                os._exit(3)
-            time.sleep(period)
-
-    threading.Thread(target=watch, name="slipfield-parent-watch", daemon=True).start()
 
 
 def _concat(parts):
@@ -269,116 +236,6 @@ def _blocks(lo, hi, size):
         out.append((a, b))
         a = b
     return out
-
-
-class SchedulerLost(InputError):
-    """The dask scheduler stopped answering during a run (its finished blocks are stored)."""
-
-
-def _scheduler_results(client, futs):
-    """Results of dask futures in order; a lost scheduler raises :class:`SchedulerLost`."""
-    from dask.distributed import TimeoutError as DaskTimeout
-
-    lost = (OSError, *_cancelled_errors())
-    for f in futs:
-        while True:
-            try:
-                yield f.result(timeout=1.0)
-                break
-            except (DaskTimeout, TimeoutError):
-                if client.status not in ("running", "connecting", "newly-created"):
-                    raise SchedulerLost("the dask scheduler stopped answering") from None
-            except lost as exc:
-                raise SchedulerLost(f"the dask scheduler stopped answering ({type(exc).__name__})") from None
-
-
-def _cancelled_errors():
-    import concurrent.futures
-
-    import asyncio
-
-    errs = [concurrent.futures.CancelledError, asyncio.CancelledError]
-    try:
-        from distributed.client import FutureCancelledError
-        errs.append(FutureCancelledError)
-    except ImportError:
-        pass
-    return tuple(e for e in errs if isinstance(e, type) and issubclass(e, BaseException))
-
-
-def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
-    """Results of ``_run_block`` for each range, yielded in order as they complete.
-
-    One stream of tasks for the whole run (not one parallel call per stored
-    block), so workers never wait for each other at block boundaries.
-    """
-    if scheduler is not None:
-        futs = scheduler.map(_run_block, [problem] * len(ranges), [seed] * len(ranges),
-                             [a for a, _ in ranges], [b for _, b in ranges], [refine] * len(ranges),
-                             pure=False)
-        try:
-            yield from _scheduler_results(scheduler, futs)
-        finally:
-            try:
-                scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
-            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
-                pass
-        return
-    if n_jobs == 1 or len(ranges) == 1:
-        for a, b in ranges:
-            yield _run_block(problem, seed, a, b, refine)
-        return
-    from joblib import Parallel, delayed
-
-    parent = os.getpid()
-    yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-        delayed(_run_block)(problem, seed, a, b, refine, parent) for a, b in ranges)
-
-
-SCHEDULER_TIMEOUT_S = 5.0
-
-
-def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
-    """A dask.distributed Client for a scheduler address, or a clear InputError within ``timeout``.
-
-    Every step (TCP connect, handshake, registration) is bounded: the client
-    is built in a helper thread and abandoned when it has not answered in
-    time, so an address that accepts connections but never answers cannot
-    hang the run.
-
-    Parameters
-    ----------
-    address : str
-        ``tcp://host:port``.
-    timeout : float, s
-    option : str
-        Name of the option in messages (``--scheduler`` on the command line).
-    """
-    import threading
-
-    try:
-        from dask.distributed import Client
-    except ImportError:
-        raise InputError(f"{option} needs dask.distributed; install it (pip install distributed) or omit "
-                         f"{option} to run locally") from None
-    box = {}
-
-    def connect():
-        try:
-            box["client"] = Client(address, timeout=timeout, set_as_default=False)
-        except BaseException as exc:  # noqa: BLE001 - reported to the caller below
-            box["error"] = exc
-
-    t = threading.Thread(target=connect, name="slipfield-scheduler-connect", daemon=True)
-    t.start()
-    t.join(timeout + 1.0)
-    if "client" in box:
-        return box["client"]
-    why = " ".join(str(box.get("error", "")).split()) or (type(box["error"]).__name__ if "error" in box
-                                                          else "no answer")
-    raise InputError(f"{option} {address}: no dask scheduler answered within {timeout:g} s ({why}); check the "
-                     f"address (tcp://host:port) and that the scheduler is running, or omit {option} to run "
-                     "locally")
 
 
 def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False, progress=False,
@@ -471,7 +328,8 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
 
         bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), unit="real")
     plan = [(b, lo, hi, _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]) for b, lo, hi in todo]
-    stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler, refine)
+    stream = run_tasks(_run_block, [(problem, seed, a, b, refine) for *_, rs in plan for a, b in rs],
+                       n_jobs=n_jobs, scheduler=scheduler)
     done = sum(p["_stop"] - b for b, p in parts.items())
     try:
         for b, lo, hi, ranges in plan:
