@@ -8,10 +8,16 @@ run cannot stop its pool otherwise).
 from __future__ import annotations
 
 import os
+import warnings
 
 from ..errors import InputError
 
 __all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S"]
+
+# An interrupted run closes the pool's result stream on purpose (the finished blocks are
+# stored); joblib's advice about unused results is not for the user.
+warnings.filterwarnings("ignore", message=r".*tasks have been successfully executed\s+but not used",
+                        category=UserWarning)
 
 
 class SchedulerLost(InputError):
