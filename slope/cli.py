@@ -224,8 +224,20 @@ _CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the s
 
 
 def main(argv=None) -> int:
+    import logging
+
     parser = build_parser()
     args = parser.parse_args(argv)
+    if getattr(args, "scheduler", None):
+        # a lost or silent dask scheduler is reported once, in slipfield's words (exit 2), not as
+        # the client's own tracebacks of its reconnection attempts
+        try:
+            import distributed  # noqa: F401 - creates its loggers, whose levels are set below
+        except ImportError:
+            pass
+        for name in list(logging.root.manager.loggerDict):
+            if name.split(".")[0] in ("distributed", "tornado"):
+                logging.getLogger(name).setLevel(logging.CRITICAL)
     try:
         old_term = signal.signal(signal.SIGTERM, _on_sigterm)
     except ValueError:  # not the main thread (embedded use): leave signals alone

@@ -37,8 +37,8 @@ def _scheduler_results(client, futs):
             except (DaskTimeout, TimeoutError):
                 if client.status not in ("running", "connecting", "newly-created"):
                     raise SchedulerLost("the dask scheduler stopped answering") from None
-            except lost as exc:
-                raise SchedulerLost(f"the dask scheduler stopped answering ({type(exc).__name__})") from None
+            except lost:
+                raise SchedulerLost("the dask scheduler stopped answering (connection lost)") from None
 
 
 def _cancelled_errors():
