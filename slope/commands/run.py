@@ -406,7 +406,7 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     from ..case.preflight import check_option, preflight
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
-    preflight(case, realisations=n)
+    preflight(case, realisations=None if realisations is None else n)
     out_dir = Path(out_dir)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
