@@ -30,7 +30,7 @@ from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, search_from_case
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
            "properties_for"]
 
 
