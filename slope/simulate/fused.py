@@ -39,9 +39,9 @@ from ..strength import base_strength
 __all__ = ["StrengthMap", "strength_map", "CHUNK_VALUES"]
 
 #: slice bases × realisations evaluated together (two float arrays of this
-#: many values, 2 MB each): large enough to amortise a kernel call, small
+#: many values, 4 MB each): large enough to amortise a kernel call, small
 #: enough to stay in cache and to bound memory for any bank size.
-CHUNK_VALUES = 1 << 18
+CHUNK_VALUES = 1 << 19
 
 _C, _TAN = 0, 1
 
