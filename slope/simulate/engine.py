@@ -27,7 +27,7 @@ from .fused import strength_map
 from .problem import AVERAGING
 
 __all__ = ["standard_normals", "base_values", "batch_fs", "bilinear", "bilinear_weights",
-           "BaseStencil", "stencil"]
+           "BaseStencil", "stencil", "prepare", "zone_cell_values"]
 
 
 def bilinear_weights(grid, x, y):
@@ -134,6 +134,16 @@ def stencil(problem) -> BaseStencil:
     st = getattr(problem, "_stencil", None)
     if st is None:
         st = problem._stencil = BaseStencil(problem)
+    return st
+
+
+def prepare(problem):
+    """Build what every realisation reuses (stencil, strength map, field generators), once."""
+    st = stencil(problem)
+    strength_map(problem, st, lambda prop: _det_value(problem, prop))
+    for i, p in enumerate(problem.properties):
+        if not p.single:
+            problem.generator(i)
     return st
 
 

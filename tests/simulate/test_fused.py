@@ -61,3 +61,25 @@ def test_negative_strengths_are_still_refused(monkeypatch):
     p = RandomProblem(sec, "drained", "bishop", [prop], _surfaces(sec), 0, n_slices=12, cell=1.0)
     with pytest.raises(InputError, match="strengths must be >= 0"):
         engine.batch_fs(p, 1, range(20))
+
+
+def test_fixed_surface_problem_keeps_fs_fixed_bit_for_bit():
+    # the quick σ√γ estimate evaluates only the fixed surface: its FS per realisation must be the
+    # one the whole bank gives there (noise depends on seed, realisation, property, zone only)
+    from slipfield.slope.simulate import simulate
+    from slipfield.slope.simulate.studies import fixed_surface_problem, reduced_variance_problem
+    sec = two_zone_section()
+    props = [RandomProperty("clay", "c", make_marginal("lognormal", mean=12.0, cov=0.3), 20.0, 2.0),
+             RandomProperty("fill", "phi", make_marginal("lognormal", mean=32.0, cov=0.1), 15.0, 1.5)]
+    surfaces = _surfaces(sec)
+    valid = RandomProblem(sec, "drained", "bishop", props, surfaces, 0, n_slices=12, cell=1.0).bank.valid
+    p = RandomProblem(sec, "drained", "bishop", props, surfaces, int(np.flatnonzero(valid)[2]),
+                      n_slices=12, cell=1.0)
+    red, _ = reduced_variance_problem(p)
+    red1, _ = reduced_variance_problem(p, fixed_only=True)
+    for whole, alone in ((p, fixed_surface_problem(p)), (red, red1)):
+        a, b = simulate(whole, 12, seed=4), simulate(alone, 12, seed=4)
+        assert len(alone.surfaces) == 1
+        np.testing.assert_array_equal(a.fs_fixed, b.fs_fixed)
+        np.testing.assert_array_equal(a.fixed_ok, b.fixed_ok)
+        assert np.unique(a.fs_fixed).size > 1
