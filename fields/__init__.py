@@ -13,7 +13,7 @@ from .seeding import realisation_rng, realisation_rngs
 
 _LAZY = {
     "CorrelationModel": ".models", "get_model": ".models", "MODEL_NAMES": ".models",
-    "FieldGenerator": ".generators", "make_generator": ".generators",
+    "FieldGenerator": ".generators", "make_generator": ".generators", "generator_names": ".generators",
     "variance_function": ".averaging", "variance_function_2d": ".averaging",
     "grid_cell_covariance": ".averaging", "cell_average_covariance": ".averaging",
     "PropertyField": ".properties", "DepthTrend": ".properties", "correlated_properties": ".properties",
@@ -28,6 +28,7 @@ __all__ = [
     "RegularGrid",
     "FieldGenerator",
     "make_generator",
+    "generator_names",
     "variance_function",
     "variance_function_2d",
     "grid_cell_covariance",

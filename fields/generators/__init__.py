@@ -5,12 +5,12 @@ them itself): scipy.linalg and gstools are not loaded for an FFT run.
 """
 import importlib
 
-from .base import FieldGenerator, generator_names, make_generator, register
+from .base import FieldGenerator, generator_names, generator_options, make_generator, register
 
 _LAZY = {"CholeskyGenerator": ".cholesky", "CirculantGenerator": ".circulant", "KLGenerator": ".kl",
          "SpectralGenerator": ".spectral", "gstools_seed": ".spectral"}
 
-__all__ = ["FieldGenerator", "make_generator", "register", "generator_names",
+__all__ = ["FieldGenerator", "make_generator", "register", "generator_names", "generator_options",
            "CholeskyGenerator", "KLGenerator", "CirculantGenerator", "SpectralGenerator",
            "gstools_seed"]
 
