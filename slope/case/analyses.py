@@ -30,6 +30,7 @@ from ..reliability.sensitivity import rank_correlations, tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, centre_lattice, window
+from ..search_families import add_families
 from ..surfaces import Circle, Polyline
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
@@ -55,8 +56,17 @@ def trial_surfaces(case: Case, hypothesis: str, method: str):
     -------
     SearchResult
         Every trial surface with its FS; ``surfaces`` is the bank the
-        simulator re-searches.
+        simulator re-searches: the circles of ``[search] kind`` plus the
+        block and dynamic-programming families the table asks for.
     """
+    s = case.data.get("search", {"kind": "centre-lattice", "trials": 1500, "min_depth": 0.5})
+    opts = dict(hypothesis=hypothesis, method=method, n_slices=case.analysis["slices"])
+    if method == "morgenstern-price":
+        opts["interslice"] = case.analysis["interslice"]
+    return add_families(case.section, _circle_search(case, hypothesis, method), s, **opts)
+
+
+def _circle_search(case: Case, hypothesis: str, method: str):
     s = case.data.get("search", {"kind": "centre-lattice", "trials": 1500, "min_depth": 0.5})
     sec = case.section
     n_slices = case.analysis["slices"]
