@@ -155,9 +155,15 @@ def band_grid(section, path_x, path_y, columns, nodes, half_width, margin):
 def _segment_bank(section, grid: NodeGrid, direction: int) -> SliceBank:
     """Every segment between consecutive columns as a one-slice surface.
 
-    Slice quantities as :func:`slope.bank.build_bank` computes them (weights
-    by 3-point Gauss quadrature across the width, pore pressure and stresses
-    at the base midpoint); rows in the order (column j, node a at j, node b at j+1).
+    Rows in the order (column j, node a at j, node b at j+1). The weight of
+    a segment's slice is the trapezoid rule over the soil columns above its
+    two end nodes (computed once per node, not per segment: the ground is
+    straight between columns, so the rule is exact unless a zone or water
+    boundary bends inside the column); top loads (ponded water, strips)
+    depend on the column interval only; pore pressure, zone and vertical
+    stress are taken at the base midpoint as :func:`slope.bank.build_bank`
+    does. The grid only guides the search: every path is judged afterwards
+    on a regular slice bank.
     """
     nc, nn = grid.y.shape
     d = int(direction)
@@ -173,31 +179,29 @@ def _segment_bank(section, grid: NodeGrid, direction: int) -> SliceBank:
     xm = 0.5 * (xl + xr)
     ybase = 0.5 * (ybl + ybr)
     alpha = np.arctan2(ybl - ybr, width)
-    tq, wq = np.polynomial.legendre.leggauss(3)
-    tq, wq = 0.5 * (tq + 1.0), 0.5 * wq
-    xq_sec = d * (xl[:, None] + width[:, None] * tq)
-    yb_q = ybl[:, None] + (ybr - ybl)[:, None] * tq
-    yt_q = np.maximum(section.ground_y(xq_sec), yb_q)
-    W_q, M_q = _column_weight(section, xq_sec, yb_q, yt_q, moment=True)
-    wsum = np.sum(wq * W_q, axis=-1)
+    gcol = section.ground_y(grid.x)
+    Wn = _column_weight(section, np.repeat(grid.x, nn), grid.y.ravel(),
+                        np.repeat(gcol, nn)).reshape(nc, nn)  # kPa: soil column above each node
+    wsum = 0.5 * (Wn[J, A_] + Wn[J + 1, B_]).ravel()
     weight = width * wsum
-    ycen = np.where(wsum > 0, np.sum(wq * M_q, axis=-1) / np.where(wsum > 0, wsum, 1.0), ybase)
     water, loads = section.water, section.loads
-    qv = np.zeros(m)
-    qh = np.zeros(m)
-    lo, hi = np.minimum(d * xl, d * xr), np.maximum(d * xl, d * xr)
+    lo_i, hi_i = grid.x[:-1], grid.x[1:]
+    qv_i = np.zeros(nc - 1)
+    qh_i = np.zeros(nc - 1)
     if water is not None and water.phreatic is not None:
-        fv, fh, _ = _ponded_top(section, water, lo, hi)
-        qv += fv
-        qh += d * fh
+        fv, fh, _ = _ponded_top(section, water, lo_i, hi_i)
+        qv_i += fv
+        qh_i += d * fh
     if loads is not None:
-        for s in loads.strips:
-            qv += s.force_on(d * xl, d * xr)[0]
+        for s_ in loads.strips:
+            qv_i += s_.force_on(lo_i, hi_i)[0]
+    jj = J.ravel()
+    qv, qh = qv_i[jj], qh_i[jj]
     xm_sec = d * xm
     ytop = section.ground_y(xm_sec)
     eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
     zone = section.zone_at(xm_sec, ybase + eps)
-    sig_soil = _column_weight(section, xm_sec, ybase, np.maximum(ytop, ybase))
+    sig_soil = wsum  # trapezoid of the end columns, as for the weight
     sig_tot = sig_soil.copy()
     if loads is not None:
         sig_tot += loads.surcharge(xm_sec)
@@ -215,7 +219,7 @@ def _segment_bank(section, grid: NodeGrid, direction: int) -> SliceBank:
         direction=np.full(m, d), x_left=col(xl), x_right=col(xr), width=col(width), x_mid=col(xm),
         y_base_left=col(ybl), y_base_right=col(ybr), y_base=col(ybase), y_top_left=col(section.ground_y(d * xl)),
         y_top_right=col(section.ground_y(d * xr)), y_top=col(ytop), alpha=col(alpha),
-        base_length=col(width / np.cos(alpha)), weight=col(weight), y_centroid=col(ycen), u_base=col(u),
+        base_length=col(width / np.cos(alpha)), weight=col(weight), y_centroid=col(ybase), u_base=col(u),
         sigma_v_eff=col(sig_tot - u), depth=col(ytop - ybase), zone=zone.reshape(m, 1), q_v=col(qv), q_h=col(qh),
         x_q=col(xm), y_q=col(ytop), kh=float(loads.kh) if loads is not None else 0.0,
         crack_force=np.zeros(m), crack_y=nan, centre_x=nan, centre_y=nan, radius=nan, valid=valid,
@@ -322,11 +326,13 @@ def _backtrack(pred, j, a):
 
 
 def _path_root(terms, c, tp, first, nodes, theta, F_hint):
-    """Root F of ΣQ(F) = 0 along one path, by bisection.
+    """Root F of ΣQ(F) = 0 along one path.
 
     Where every denominator F cos(α-θ) + tanφ sin(α-θ) is positive, ΣQ falls
-    as F grows; "ΣQ(F) is finite and negative" is therefore false below the
-    root and true above it, which bisection needs and nothing more.
+    as F grows, so "ΣQ(F) is finite and negative" is false below the root
+    and true above it: the root is bracketed on a geometric grid of trial
+    values, then the bracket is narrowed on finer grids (all trials of a
+    grid at once).
     """
     j = np.arange(first, first + len(nodes) - 1)
     a, b = np.asarray(nodes[:-1]), np.asarray(nodes[1:])
@@ -336,26 +342,24 @@ def _path_root(terms, c, tp, first, nodes, theta, F_hint):
     cam = terms.cos_a[j, a, b] * np.cos(theta) + terms.sin_a[j, a, b] * np.sin(theta)
     sam = terms.sin_a[j, a, b] * np.cos(theta) - terms.cos_a[j, a, b] * np.sin(theta)
 
-    def above(F):
-        dn = F * cam + t * sam
-        return bool(np.all(dn > 0) and np.sum((Rc - F * T) / dn) < 0)
+    def above(F):  # F: (k,) trial values -> (k,) bool
+        dn = F[:, None] * cam + t * sam
+        with np.errstate(divide="ignore", invalid="ignore"):
+            g = np.sum((Rc - F[:, None] * T) / dn, axis=1)
+        return np.all(dn > 0, axis=1) & (g < 0)
 
-    hi = max(float(F_hint), 1e-6)
-    for _ in range(60):
-        if above(hi):
-            break
-        hi *= 2.0
-    else:
+    F0 = max(float(F_hint), 1e-6)
+    grid = F0 * np.geomspace(1e-3, 1e3, 121)
+    ab = above(grid)
+    if not ab.any():
         return np.nan
-    lo = hi
-    while above(lo) and lo > 1e-9:
-        lo *= 0.5
-    for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        if above(mid):
-            hi = mid
-        else:
-            lo = mid
+    i = int(np.argmax(ab))
+    lo, hi = (grid[i - 1] if i > 0 else 0.0), grid[i]
+    for _ in range(4):
+        trial = np.linspace(lo, hi, 33)
+        ab = above(trial)
+        i = int(np.argmax(ab))
+        lo, hi = (trial[i - 1] if i > 0 else lo), trial[i]
         if hi - lo <= 1e-9 * hi:
             break
     return hi
@@ -448,7 +452,7 @@ def _spencer(section, xy, hypothesis, overrides, n_slices):
 
 
 def dp_surface(section, start, *, hypothesis="drained", overrides=None, settings: DPSettings | None = None,
-               n_slices=30, first_terms=None):
+               n_slices=30, first_terms=None, start_solution=None):
     """Critical polyline by dynamic programming in bands about a start surface.
 
     Parameters
@@ -469,6 +473,9 @@ def dp_surface(section, start, *, hypothesis="drained", overrides=None, settings
         The first band's segment terms when already built (they depend only
         on the geometry and the start, so a caller may keep them across
         realisations; see :func:`first_band`).
+    start_solution : (float, float), optional
+        F and Spencer's θ (rad) of the start surface when known (else
+        Spencer's method is run on it): the first trial F and θ.
 
     Returns
     -------
@@ -480,7 +487,10 @@ def dp_surface(section, start, *, hypothesis="drained", overrides=None, settings
     if overrides is not None and not callable(overrides):
         raise InputError("dynamic-programming search: strength overrides must be a function of the slice bank")
     st = DPSettings() if settings is None else settings
-    F, theta = _spencer(section, _start_xy(section, start), hypothesis, overrides, n_slices)
+    if start_solution is None:
+        F, theta = _spencer(section, _start_xy(section, start), hypothesis, overrides, n_slices)
+    else:
+        F, theta = (float(v) for v in start_solution)
     if not np.isfinite(theta):
         F, theta = np.nan, 0.0
     seg = first_band(section, start, st) if first_terms is None else first_terms
@@ -489,12 +499,14 @@ def dp_surface(section, start, *, hypothesis="drained", overrides=None, settings
     for k in range(st.passes):
         c, tp = _strengths(seg, section, hypothesis, overrides)
         best_xy, best_F, th = None, np.inf, theta
-        for _ in range(st.theta_rounds):
+        for rnd in range(st.theta_rounds):
             Fp, xy = least_path(seg, c, tp, F if np.isfinite(F) else 1.0, th)
             if xy is None:
                 break
             if Fp < best_F:
                 best_F, best_xy = Fp, xy
+            if rnd + 1 == st.theta_rounds:
+                break
             _, th_new = _spencer(section, xy, hypothesis, overrides, n_slices)
             if not np.isfinite(th_new) or abs(th_new - th) < 1e-3:
                 break

@@ -22,6 +22,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from ..errors import InputError
+from ..simulate.refinement import REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "METHOD_NAMES", "FIELD_MODEL_NAMES"]
 
@@ -281,6 +282,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
                             doc="refine the critical surface of realisations with a bank FS below this (-)"),
         "refine_method": Key(_string(("spencer", "morgenstern-price", "janbu")), default="spencer",
                              doc="method of slices of the refined polylines"),
+        "refine_search": Key(_string(REFINE_SEARCHES),
+                             doc="per-realisation search below refine_below: the critical surface bent by Nelder-Mead, "
+                                 "or dynamic programming (Baker 1980) from the lowest surfaces of different families"),
     },
     "reliability": {
         "methods": Key(_string_list(("monte-carlo", "latin-hypercube", "point-estimate", "fosm", "form", "subset")),
@@ -614,6 +618,10 @@ def _check_search_families(case: dict, search: dict, zone_names: set, where, pro
             elif v[1] <= x_lo or v[0] >= x_hi:
                 problems.append(f"{where('search.block', i, r)}{key}.{r} {v!r} does not intersect the ground line "
                                 f"(x = {x_lo:g} to {x_hi:g} m); give a range on it")
+    sim = case.get("simulation", {})
+    if "refine_search" in sim and "refine_below" not in sim:
+        problems.append(f"{where('simulation', None, 'refine_search')}simulation.refine_search does nothing without "
+                        "simulation.refine_below (the bank FS below which realisations are searched); give both")
     method = case.get("analysis", {}).get("method")
     if (blocks or "dynamic_programming" in search) and method is not None and method not in POLYLINE_METHODS:
         problems.append(f"{where('analysis', None, 'method')}analysis.method {method!r} takes moments about a point, "
