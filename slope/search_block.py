@@ -29,7 +29,7 @@ import numpy as np
 from .errors import InputError
 from .surfaces import Polyline
 
-__all__ = ["BLOCK_FAMILY", "block_base", "block_polylines"]
+__all__ = ["BLOCK_FAMILY", "block_base", "block_polylines", "block_search"]
 
 BLOCK_FAMILY = "block"
 _BASE_SAMPLES = 801
@@ -178,3 +178,17 @@ def block_polylines(section, zone, entry, exit, points=10, lift=0.25, hypothesis
         raise InputError(f"{key}: no block's wedges reach zone {zone!r} between entry {list(entry)} and "
                          f"exit {list(exit)}; move the ranges so the wedges from them meet the zone's base")
     return out
+
+
+def block_search(section, *, zone, entry, exit, points=10, lift=0.25, method="spencer", hypothesis="drained",
+                 **evaluate_opts):
+    """``block`` search: the sliding blocks of :func:`block_polylines`, evaluated.
+
+    ``evaluate_opts`` as for :func:`slope.search.evaluate_surfaces`.
+    """
+    from .search import evaluate_surfaces
+
+    blocks = block_polylines(section, zone, entry, exit, points=points, lift=lift, hypothesis=hypothesis,
+                             key="block search")
+    return evaluate_surfaces(section, blocks, search=BLOCK_FAMILY, method=method, hypothesis=hypothesis,
+                             **evaluate_opts)

@@ -48,7 +48,8 @@ from .slices import SliceBank
 from .strength import base_strength
 from .surfaces import Circle, Polyline, cut_ground
 
-__all__ = ["DP_FAMILY", "NodeGrid", "band_grid", "segment_terms", "first_band", "least_path", "dp_surface", "DPSettings"]
+__all__ = ["DP_FAMILY", "NodeGrid", "band_grid", "segment_terms", "first_band", "least_path", "dp_surface", "DPSettings",
+           "dynamic_programming"]
 
 DP_FAMILY = "dynamic-programming"
 _M_ALPHA_MIN = 0.2  # as Bishop's default: slices with cos(α-θ)(1 + tanφ tan(α-θ)/F) below it are left out
@@ -546,3 +547,38 @@ def first_band(section, start, settings: DPSettings | None = None) -> SegmentTer
     seg = segment_terms(section, grid, d)
     seg.depth = depth
     return seg
+
+
+def dynamic_programming(section, *, start=None, settings: DPSettings | None = None, method="spencer",
+                        hypothesis="drained", n_slices=40, **evaluate_opts):
+    """``dynamic-programming`` search: paths by :func:`dp_surface` from a start surface, evaluated.
+
+    Parameters
+    ----------
+    start : Circle or Polyline, optional
+        Default: the critical circle of a ``centre-lattice`` search with the
+        same method and hypothesis.
+    settings : DPSettings
+    method, hypothesis, n_slices, **evaluate_opts
+        As for :func:`slope.search.evaluate_surfaces` (``overrides`` as a
+        function of the slice bank also steers the grids).
+
+    Returns
+    -------
+    SearchResult
+        The path of every pass and the start surface, so the critical
+        surface is never above the start.
+    """
+    from .search import centre_lattice, evaluate_surfaces
+
+    if start is None:
+        first = centre_lattice(section, hypothesis=hypothesis, method=method, n_slices=n_slices, **evaluate_opts)
+        if first.critical is None:
+            raise InputError("dynamic-programming search: the centre-lattice search found no usable circle to "
+                             "start from; give start=")
+        start = first.critical
+    ov = evaluate_opts.get("overrides")
+    paths = dp_surface(section, start, hypothesis=hypothesis, overrides=ov if callable(ov) else None,
+                       settings=settings, n_slices=n_slices)
+    return evaluate_surfaces(section, paths + [start], search=DP_FAMILY, method=method, hypothesis=hypothesis,
+                             n_slices=n_slices, **evaluate_opts)

@@ -15,6 +15,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import InputError
+from .methods import POLYLINE_METHOD_NAMES
 from .search import evaluate_surfaces
 from .search_block import BLOCK_FAMILY, block_polylines
 from .search_dp import DP_FAMILY, DPSettings, dp_surface
@@ -26,7 +27,7 @@ __all__ = ["FAMILY_NAMES", "family_tables", "add_families", "family_counts", "be
 #: the families a bank can hold, in report order
 FAMILY_NAMES = ("circle", BLOCK_FAMILY, DP_FAMILY)
 #: methods that judge non-circular surfaces by full or force equilibrium (not moments about a point)
-POLYLINE_METHODS = ("spencer", "morgenstern-price", "janbu")
+POLYLINE_METHODS = POLYLINE_METHOD_NAMES
 
 
 def family_tables(table: dict) -> tuple[list, dict | None]:
