@@ -28,6 +28,7 @@ from ..reliability.sensitivity import tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, search_from_case
+from ..search_families import add_families
 from ..surfaces import Circle
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
@@ -49,14 +50,18 @@ def trial_surfaces(case: Case, hypothesis: str, method: str):
     -------
     SearchResult
         Every trial surface with its FS; ``surfaces`` is the bank the
-        simulator re-searches.
+        simulator re-searches: the circles of ``[search] kind`` plus the
+        block and dynamic-programming families the table asks for.
     """
     opts = dict(hypothesis=hypothesis, method=method, n_slices=case.analysis["slices"])
     if method == "morgenstern-price":
         opts["interslice"] = case.analysis["interslice"]
     cache = case.extras.setdefault("trial_surfaces", {})  # a preflight's searches, not repeated by the run
     if (hypothesis, method) not in cache:
-        cache[(hypothesis, method)] = search_from_case(case.section, case.data["search"], **opts)
+        table = case.data["search"]
+        circles = search_from_case(case.section, table, **opts)
+        cache[(hypothesis, method)] = add_families(case.section, circles, table, min_depth=table.get("min_depth"),
+                                                   **opts)
     return cache[(hypothesis, method)]
 
 
