@@ -227,7 +227,10 @@ def main(argv=None) -> int:
     import logging
 
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # a refused option (exit 2, argparse's message printed), --help or --version
+        return int(exc.code or 0)
     if getattr(args, "scheduler", None):
         # a lost or silent dask scheduler is reported once, in slipfield's words (exit 2), not as
         # the client's own tracebacks of its reconnection attempts

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..case.preflight import check_option
 from ..errors import InputError
 from .run import _jsonable
 
@@ -24,18 +25,6 @@ def write_json(path: Path, obj) -> None:
 
 def slug(key: str) -> str:
     return re.sub(r"[^A-Za-z0-9]+", "_", key).strip("_") or "field"
-
-
-def _positive_int(value, option, lo):
-    if value is None:
-        return None
-    try:
-        v = int(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{option}: {value!r} is not an integer; give an integer >= {lo}") from None
-    if v < lo:
-        raise InputError(f"{option}: {v} is too small; give an integer >= {lo}")
-    return v
 
 
 def parse_theta_list(text, option: str) -> list[float]:
@@ -95,12 +84,17 @@ def problem_of(case, hypothesis, theta_override=None):
     return hyp, det, prob
 
 
+def _option(value, option, lo):
+    """``None`` (not given) or a whole number of at least ``lo`` (one check for every command)."""
+    return None if value is None else check_option(value, option, lo)
+
+
 def settings(case, realisations, jobs, batch, seed, default_n=None):
     sim = case.simulation
-    n = _positive_int(realisations, "--realisations", 1) or int(default_n or sim["realisations"])
-    return (n, _positive_int(jobs, "--jobs", 1) or int(sim["jobs"]),
-            _positive_int(batch, "--batch", 1) or int(sim["batch"]),
-            int(sim["seed"]) if seed is None else _positive_int(seed, "--seed", 0))
+    n = _option(realisations, "--realisations", 1) or int(default_n or sim["realisations"])
+    return (n, _option(jobs, "--jobs", 1) or int(sim["jobs"]),
+            _option(batch, "--batch", 1) or int(sim["batch"]),
+            int(sim["seed"]) if seed is None else _option(seed, "--seed", 0))
 
 
 def summary(res) -> dict:
