@@ -39,7 +39,8 @@ from .marginals import Marginal
 from .models import CorrelationModel
 from .seeding import realisation_rng
 
-__all__ = ["ConditionalGenerator", "to_gaussian", "from_gaussian", "NOISE_STREAM"]
+__all__ = ["ConditionalGenerator", "to_gaussian", "from_gaussian", "NOISE_STREAM",
+           "DataCovariance", "add_kriged_residuals"]
 
 #: last sub-stream key of the simulated measurement noise (an arbitrary tag
 #: unlikely to clash with property/zone keys).
@@ -92,6 +93,76 @@ def from_gaussian(marginal, z):
     if not isinstance(marginal, Marginal):
         raise InputError("marginal must be a fields.marginals.Marginal (make_marginal)")
     return marginal.from_standard_normal(z)
+
+
+class DataCovariance:
+    """Factor of the data covariance ``C_dd + diag(σ²_e)`` and kriging weights.
+
+    The piece of simple kriging shared by :class:`ConditionalGenerator` and
+    by callers that generate the unconditional field themselves (the slope
+    simulator conditions only the grid cells its slice bases touch).
+
+    Parameters
+    ----------
+    model : CorrelationModel
+        Unit-variance model of the field.
+    data_points : array_like, shape (n_data, 2)
+        Data locations (m).
+    nugget : float or array_like, shape (n_data,)
+        Measurement-error variance of each datum (standard-normal units, >= 0).
+    """
+
+    def __init__(self, model, data_points, nugget=0.0):
+        d = np.asarray(data_points, dtype=float)
+        nug = np.broadcast_to(np.asarray(nugget, dtype=float), (d.shape[0],)).copy()
+        if not (np.all(np.isfinite(nug)) and np.all(nug >= 0)):
+            raise InputError("nugget must be variance(s) >= 0 (standard-normal units)")
+        self.model, self.data_points, self.nugget = model, d, nug
+        C_dd = model.covariance_matrix(d) + np.diag(nug)
+        try:
+            self.cho = linalg.cho_factor(C_dd, lower=True, check_finite=False)
+            ok = np.all(np.diag(self.cho[0]) > 1e-7)
+        except linalg.LinAlgError:
+            ok = False
+        if not ok:
+            dist = np.hypot(*(d[:, None, :] - d[None, :, :]).transpose(2, 0, 1))
+            np.fill_diagonal(dist, np.inf)
+            i, j = np.unravel_index(np.argmin(dist), dist.shape)
+            raise InputError(f"the data covariance matrix is singular: data points {min(i, j)} "
+                             f"and {max(i, j)} are {dist[i, j]:.3g} m apart; merge them or give "
+                             "nugget > 0 (measurement-error variance)")
+
+    def weights(self, targets):
+        """Simple-kriging weights ``C_td C_dd⁻¹``, shape (n_targets, n_data)."""
+        C_td = self.model.covariance_matrix(np.asarray(targets, dtype=float), self.data_points)
+        return linalg.cho_solve(self.cho, C_td.T, check_finite=False).T
+
+    def noise(self, seed, indices, stream=()):
+        """Simulated measurement errors ``(len(indices), n_data)`` (zero where σ²_e = 0)."""
+        nd = self.data_points.shape[0]
+        if not np.any(self.nugget > 0):
+            return np.zeros((len(indices), nd))
+        e = np.stack([realisation_rng(seed, int(k), *stream, NOISE_STREAM).standard_normal(nd)
+                      for k in indices]) if len(indices) else np.empty((0, nd))
+        return e * np.sqrt(self.nugget)
+
+
+def add_kriged_residuals(out, resid, weights):
+    """``out += resid @ weights.T`` summed datum by datum (in place).
+
+    Element-wise accumulation over the data instead of a matrix product, so
+    that a realisation's values do not depend on how many rows are computed
+    together (BLAS kernels change with the number of rows).
+
+    Parameters
+    ----------
+    out : ndarray (s, n_targets)
+    resid : ndarray (s, n_data)
+    weights : ndarray (n_targets, n_data)
+    """
+    for j in range(resid.shape[1]):
+        out += resid[:, j:j + 1] * weights[None, :, j]
+    return out
 
 
 class ConditionalGenerator:

@@ -289,4 +289,13 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),
                          field_method=sim["field_method"], averaging=sim["averaging"],
-                         interslice=case.analysis["interslice"])
+                         interslice=case.analysis["interslice"], site_data=_site_data(case, rp))
+
+
+def _site_data(case: Case, rp) -> dict:
+    """Gaussian-space site data of the random properties that have some (see slope.site_data)."""
+    from ..site_data import gaussian_site_data
+
+    readings = case.extras.get("site_data") or []
+    return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
+            for p in rp if any(r.key == p.key for r in readings)}

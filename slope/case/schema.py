@@ -150,6 +150,19 @@ def _number_or_table(v):
     return _number(lo=0)(v)
 
 
+def _tuples(width, what):
+    """A list of [a, b, ...] rows of ``width`` finite numbers (site data readings)."""
+    def check(v):
+        if not isinstance(v, list) or not v:
+            return f"must be a non-empty list of [{what}] rows"
+        for p in v:
+            if (not isinstance(p, list) or len(p) != width
+                    or any(isinstance(q, bool) or not isinstance(q, (int, float)) or not math.isfinite(q) for q in p)):
+                return f"must be a list of [{what}] rows of numbers; bad row {p!r}"
+        return None
+    return check
+
+
 @dataclass(frozen=True)
 class Key:
     """One key of a table: its checker, whether it is required, its default."""
@@ -243,6 +256,15 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "circle": Key(_table, doc="fixed circle {x, y, r} (m)"),
         "polyline": Key(_points(2), doc="fixed surface, [x, y] points (m)"),
     },
+    "site_data": {
+        "property": Key(_string(), required=True, doc="\"material.property\" of a [[random]] entry"),
+        "x": Key(_number(), doc="position of a vertical profile (m); with readings"),
+        "readings": Key(_tuples(2, "elevation (m), value"), doc="profile readings at x"),
+        "points": Key(_tuples(3, "x (m), elevation (m), value"), doc="single measurements"),
+        "file": Key(_string(), doc="CSV beside the case, columns x,elevation,value"),
+        "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
+        "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
+    },
     "random": {
         "material": Key(_string(), required=True),
         "property": Key(_string(PROPS), required=True),
@@ -300,7 +322,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 }
 
 #: Top-level entries that are arrays of tables.
-ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation")
+ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation", "site_data")
 #: Nested array tables (parent table, key).
 NESTED_ARRAYS = {("section", "zone"), ("section", "layer"), ("risk", "tolerability"), ("water", "piezometric")}
 
@@ -554,6 +576,7 @@ def _check_references(case: dict, where, problems: list[str]) -> None:
             if b not in props:
                 problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}].between: {b!r} is not a random property; "
                                 f"use \"material.property\" of a [[random]] entry (defined: {', '.join(sorted(props)) or 'none'})")
+    _check_site_data_refs(case, props, where, problems)
     search = case.get("search", {})
     if search.get("kind") == "fixed" and "circle" not in search and "polyline" not in search:
         problems.append(f"{where('search', None, 'kind')}search.kind = \"fixed\" needs search.circle {{x, y, r}} or search.polyline")
@@ -574,6 +597,26 @@ def _check_references(case: dict, where, problems: list[str]) -> None:
     for i, s in enumerate(case.get("surcharge", [])):
         if "x_from" in s and "x_to" in s and s["x_from"] >= s["x_to"]:
             problems.append(f"{where('surcharge', i, 'x_to')}surcharge[{i}]: x_from must be below x_to")
+
+
+def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
+    """[[site_data]]: a random property, one location form, one error form."""
+    for i, d in enumerate(case.get("site_data", [])):
+        p = d.get("property")
+        if p is not None and p not in props:
+            problems.append(f"{where('site_data', i, 'property')}site_data[{i}].property {p!r} is not a random "
+                            f"property; use \"material.property\" of a [[random]] entry (defined: "
+                            f"{', '.join(sorted(props)) or 'none'})")
+        forms = [k for k in ("readings", "points", "file") if k in d]
+        if len(forms) != 1:
+            problems.append(f"{where('site_data', i, None)}site_data[{i}]: give exactly one of readings (with x), "
+                            f"points or file{'; found ' + ', '.join(forms) if forms else ''}")
+        if ("x" in d) != ("readings" in d):
+            problems.append(f"{where('site_data', i, 'x')}site_data[{i}]: x (m) goes with readings and only with "
+                            "them; a profile is x plus [elevation, value] readings")
+        if "error_sd" in d and "error_cov" in d:
+            problems.append(f"{where('site_data', i, 'error_cov')}site_data[{i}]: give error_sd or error_cov, "
+                            "not both")
 
 
 def read_case(path: str | Path) -> dict:
