@@ -30,6 +30,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from numba import njit
 from scipy import linalg
 
 from .errors import InputError
@@ -148,21 +149,33 @@ class DataCovariance:
 
 
 def add_kriged_residuals(out, resid, weights):
-    """``out += resid @ weights.T`` summed datum by datum (in place).
+    """``out += resid @ weights.T`` with a fixed order of summation (in place).
 
-    Element-wise accumulation over the data instead of a matrix product, so
-    that a realisation's values do not depend on how many rows are computed
-    together (BLAS kernels change with the number of rows).
+    Each value is accumulated datum by datum in a compiled loop instead of a
+    BLAS product, so that a realisation's values do not depend on how many
+    rows are computed together (BLAS kernels change with the number of rows
+    and threads) and stay bit-identical for any batch size or worker count.
 
     Parameters
     ----------
-    out : ndarray (s, n_targets)
+    out : ndarray (s, n_targets), float64, C order
     resid : ndarray (s, n_data)
     weights : ndarray (n_targets, n_data)
     """
-    for j in range(resid.shape[1]):
-        out += resid[:, j:j + 1] * weights[None, :, j]
+    _accumulate(out, np.ascontiguousarray(resid, dtype=float), np.ascontiguousarray(weights, dtype=float))
     return out
+
+
+@njit(cache=True)
+def _accumulate(out, resid, weights):  # pragma: no cover - compiled
+    s, nt = out.shape
+    nd = resid.shape[1]
+    for r in range(s):
+        for t in range(nt):
+            acc = out[r, t]
+            for j in range(nd):
+                acc += resid[r, j] * weights[t, j]
+            out[r, t] = acc
 
 
 class ConditionalGenerator:
@@ -323,13 +336,7 @@ class ConditionalGenerator:
                 np.empty((0, nd))
             zu_d = zu_d + math.sqrt(self.nugget) * noise
         resid = self.data_values[None, :] - zu_d
-        # element-wise accumulation over the (few) data instead of a matmul, so
-        # that a realisation is bit-identical whatever the batch size (BLAS
-        # kernels change with the number of rows)
-        out = zu_t.copy()
-        for j in range(resid.shape[1]):
-            out += resid[:, j:j + 1] * self.weights[None, :, j]
-        return out
+        return add_kriged_residuals(np.array(zu_t, dtype=float), resid, self.weights)
 
     def sample_grid(self, seed, indices, stream=()):
         """Like :meth:`sample`, shaped ``(len(indices), nx, ny)`` (grid targets only)."""
