@@ -17,9 +17,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import shutil
-import tempfile
 import time
 from pathlib import Path
 
@@ -370,7 +367,7 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg")) -> dict:
+             figure_formats=("png", "svg"), overwrite=False) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -389,6 +386,10 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     figure_formats : sequence of str
         Files written per figure under ``figures/``: ``"png"`` (always, it is
         what the report embeds) and optionally ``"svg"``.
+    overwrite : bool
+        Allow an ``out_dir`` holding another slipfield command's output
+        (:class:`slope.commands.folders.OutputFolder`: only slipfield's own
+        files are ever replaced).
 
     Returns
     -------
@@ -407,9 +408,10 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
     preflight(case, realisations=n)
-    out_dir = Path(out_dir)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
+    from .folders import OutputFolder
+
+    out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
+    stage = out.stage()
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
@@ -439,15 +441,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
         results["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         (stage / "results.json").write_text(json.dumps(_jsonable(results), indent=2, allow_nan=False))
-        if out_dir.exists():
-            old = out_dir.with_name(f".{out_dir.name}.old-{os.getpid()}")
-            out_dir.rename(old)
-            stage.rename(out_dir)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            stage.rename(out_dir)
+        out.commit(stage)
     except BaseException:
-        shutil.rmtree(stage, ignore_errors=True)
+        out.discard(stage)
         raise
     return _jsonable(results)
 
