@@ -289,13 +289,20 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),
                          field_method=sim["field_method"], averaging=sim["averaging"],
-                         interslice=case.analysis["interslice"], site_data=_site_data(case, rp))
+                         interslice=case.analysis["interslice"],
+                         site_data=_site_data(case, rp, theta_override))
 
 
-def _site_data(case: Case, rp) -> dict:
-    """Gaussian-space site data of the random properties that have some (see slope.site_data)."""
+def _site_data(case: Case, rp, theta_override=None) -> dict:
+    """Gaussian-space site data of the random properties that have some (see slope.site_data).
+
+    Under a θ override to infinity (the single-random-variable comparison of a
+    run, a sweep's "inf") the properties are no longer fields and the data
+    are left out: that comparison is unconditional.
+    """
     from ..site_data import gaussian_site_data
 
     readings = case.extras.get("site_data") or []
     return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
-            for p in rp if any(r.key == p.key for r in readings)}
+            for p in rp if any(r.key == p.key for r in readings)
+            and not (theta_override is not None and p.single)}

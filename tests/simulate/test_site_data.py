@@ -205,3 +205,43 @@ def test_csv_profile_conditions_the_su_field_through_the_depth_law(tmp_path):
     np.testing.assert_allclose(z, (np.log([15 / 13.5, 1.0]) + 0.5 * s ** 2) / s)
     # delta method: σ_z = (σ_e / su_law) f(v)/φ(z) = 0.05 v / (v s) for a lognormal
     np.testing.assert_allclose(np.sqrt(nug), 0.05 / s)
+
+
+def test_conditional_sd_map_is_sqrt_one_minus_rho_squared():
+    from slipfield.slope.commands.site_effect import conditional_sd
+
+    theta = 4.0
+    xd = np.array([[5.5, -2.5]])
+    p = _problem(theta, 50.0, 0.2, 1.0, {"clay.su": (xd, np.array([0.4]), np.array([0.0]))})
+    sd = conditional_sd(p)["clay.su"]
+    g = p.grid
+    i0, j0 = int((xd[0, 0] - g.x0) // g.dx), int((xd[0, 1] - g.y0) // g.dy)
+    for d in (0, 1, 3, 40):
+        assert sd[i0 + d, j0] == pytest.approx(math.sqrt(1 - math.exp(-4.0 * d / theta)), abs=1e-9)
+    assert np.isnan(sd[0, -1])                              # above the ground: not soil
+
+
+@pytest.mark.slow  # a whole run with its report
+def test_run_reports_pf_with_and_without_the_data(tmp_path):
+    import json
+
+    from slipfield.slope.cli import main
+
+    path = _case(tmp_path, """
+[[site_data]]
+property = "clay.su"
+x = 22.25
+readings = [[-0.75, 30.0], [-1.75, 32.0], [-2.75, 35.0]]
+[simulation]
+realisations = 60
+[reliability]
+methods = ["monte-carlo"]
+samples = 100
+""")
+    assert main(["run", str(path), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    s = json.loads((tmp_path / "out" / "results.json").read_text())["spatial_simulation"]["undrained"]["site_data"]
+    assert s["n_data"] == {"clay.su": 3}
+    assert 0 <= s["pf_conditional"] <= 1 and 0 <= s["pf_unconditional"] <= 1
+    assert "changed pf from" in s["statement"]
+    assert (tmp_path / "out" / "figures" / "site_data_sd_undrained.png").exists()
+    assert "changed pf from" in (tmp_path / "out" / "report.html").read_text()
