@@ -38,6 +38,8 @@ class SiteDataEffect:
     interval_conditional: tuple
     interval_unconditional: tuple
     n_data: dict
+    fs_conditional_mean: float | None = None
+    fs_material_values: float | None = None
 
     def sentence(self) -> str:
         """One plain sentence saying how much the data changed pf."""
@@ -53,10 +55,14 @@ class SiteDataEffect:
             change = f"by a factor of {pc / pu:.3g}"
         else:
             change = "from {0:.3g} to {1:.3g}".format(pu, pc)
+        fs = ""
+        if self.fs_conditional_mean is not None and self.fs_material_values is not None:
+            fs = (f" With strengths at their conditional mean the least FS of the bank is "
+                  f"{self.fs_conditional_mean:.3f} (material values: {self.fs_material_values:.3f}).")
         return (f"{self.hypothesis}: conditioning on {data} changed pf from {pu:.3g} "
                 f"[{lu:.3g}, {hu:.3g}] to {pc:.3g} [{lc:.3g}, {hc:.3g}] ({change}, same seed); "
                 + ("the 95 % intervals overlap, so the change is within the sampling uncertainty of this run."
-                   if overlap else "the 95 % intervals do not overlap."))
+                   if overlap else "the 95 % intervals do not overlap.") + fs)
 
     def to_dict(self) -> dict:
         return {"hypothesis": self.hypothesis, "pf_conditional": self.pf_conditional,
@@ -64,8 +70,11 @@ class SiteDataEffect:
                 "pf_interval_95_conditional": list(self.interval_conditional),
                 "pf_interval_95_unconditional": list(self.interval_unconditional),
                 "n_data": dict(self.n_data), "statement": self.sentence(),
+                "deterministic_fs_conditional_mean": self.fs_conditional_mean,
+                "deterministic_fs_material_values": self.fs_material_values,
                 "note": "unconditional: the same simulation (same seed, same fields before conditioning) "
-                        "without the site data"}
+                        "without the site data; deterministic FS on the run's surface bank with the "
+                        "strengths at their conditional mean where data exist (material values elsewhere)"}
 
 
 def site_data_effect(prob, est_conditional, hypothesis, *, n, seed, batch, n_jobs, quiet, refine=None):
@@ -101,7 +110,10 @@ def site_data_effect(prob, est_conditional, hypothesis, *, n, seed, batch, n_job
     pc, ic = pf_int(est_conditional)
     pu, iu = pf_int(est_u)
     n_data = {k: int(np.asarray(v[0]).shape[0]) for k, v in prob.site_data.items()}
-    return SiteDataEffect(hypothesis, pc, pu, ic, iu, n_data), fs
+    from ..simulate.conditioning import conditional_mean_fs
+
+    det = conditional_mean_fs(prob)
+    return SiteDataEffect(hypothesis, pc, pu, ic, iu, n_data, det["fs"], det["fs_material_values"]), fs
 
 
 def conditional_sd(prob):

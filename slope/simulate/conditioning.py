@@ -93,3 +93,62 @@ def conditioner(problem, i, z):
         cache[(i, z)] = (ZoneConditioner(p.correlation_model(), problem.grid, pts[inside], zv[inside],
                                          nug[inside]) if np.any(inside) else None)
     return cache[(i, z)]
+
+
+#: Gauss–Hermite (probabilists') nodes for the conditional mean in physical units
+_GH_X, _GH_W = np.polynomial.hermite_e.hermegauss(24)
+_GH_W = _GH_W / _GH_W.sum()
+
+
+def conditional_mean_fs(problem):
+    """Least FS over the bank with strengths at their conditional mean where site data exist.
+
+    The physical conditional mean E[F⁻¹(Φ(Z)) | data] of each cell, Z ~
+    N(kriged mean, kriging variance), is integrated by Gauss–Hermite
+    quadrature (24 nodes); it is mapped on the slice bases as the simulator
+    maps a realisation. Zones without data keep the material's values.
+
+    Returns
+    -------
+    dict
+        ``fs`` (least FS over the valid, converged, admissible surfaces, or
+        None), ``fs_material_values`` (the same bank with the material's
+        values, for comparison), ``bank_index`` of the least.
+    """
+    from slipfield.slope.methods import factor_of_safety
+    from slipfield.slope.search import _TOLERABLE
+    from slipfield.slope.strength import base_strength
+
+    from .engine import _det_value, stencil, strength_overrides
+
+    st = stencil(problem)
+    vals = {p.key: np.full((1,) + st.shape, np.nan) for p in problem.properties}
+    centres = problem.grid.points()
+    for z, (bases, cells, W) in st.zones.items():
+        for i, p in enumerate(problem.properties):
+            if z not in problem.zones_of(i):
+                continue
+            cd = conditioner(problem, i, z)
+            if cd is None:
+                continue
+            Wk = cd.weights(cells)
+            m = Wk @ cd.z
+            C = cd.cov.model.covariance_matrix(centres[cells], cd.cov.data_points)
+            sd = np.sqrt(np.clip(1.0 - np.einsum("td,td->t", Wk, C), 0.0, 1.0))
+            phys = np.asarray(p.marginal.from_standard_normal(m[None, :] + sd[None, :] * _GH_X[:, None]), float)
+            mean = _GH_W @ phys
+            vals[p.key].reshape(1, -1)[0, bases] = W @ mean
+    tolerated = _TOLERABLE["negative-normal"] | _TOLERABLE["thrust-outside"]
+    out = {}
+    for label, v in (("fs", vals), ("fs_material_values", None)):
+        ov = (strength_overrides(problem, v, lambda prop: _det_value(problem, prop)) if v is not None else None)
+        c, tphi = base_strength(st.bank, problem.section.materials, problem.hypothesis, overrides=ov)
+        res = factor_of_safety(st.terms, c, tphi, problem.method, interslice=problem.interslice)
+        fs = np.asarray(res.fs, float).reshape(-1)
+        ok = np.asarray(res.converged).reshape(-1) & ((np.asarray(res.flags).reshape(-1) & ~tolerated) == 0) \
+            & np.isfinite(fs)
+        k = int(np.argmin(np.where(ok, fs, np.inf))) if ok.any() else None
+        out[label] = None if k is None else float(fs[k])
+        if label == "fs":
+            out["bank_index"] = None if k is None else int(st.rows[k])
+    return out

@@ -81,6 +81,45 @@ def test_realisations_do_not_depend_on_batch_size_or_jobs():
     assert p.fingerprint() != _problem(7.0, 50.0, 0.2, 0.5).fingerprint()
 
 
+def _surface_quadrature(n=300):
+    """Points and weights (summing to 1, ∝ length) of the line average over SURFACE."""
+    u, w = np.polynomial.legendre.leggauss(n)
+    P = np.asarray(SURFACE.points)
+    qs, ws = [], []
+    for a, b in zip(P[:-1], P[1:]):
+        qs.append(a + np.outer(0.5 * (u + 1), b - a))
+        ws.append(0.5 * w * np.hypot(*(b - a)))
+    w = np.concatenate(ws)
+    return np.vstack(qs), w / w.sum()
+
+
+def _planar_data(theta, mu, sd, cell):
+    """Five weak readings (invented) at cell centres next to the slip plane, and E[s̄u | data] in closed form."""
+    xs = np.array([10.25, 20.25, 30.25, 40.25, 50.25])
+    ys = np.round((xs * TAN_B - Z - 0.25) / cell) * cell + 0.25
+    pts = np.column_stack([xs, ys])
+    su_d = mu * np.array([0.85, 0.8, 0.9, 0.75, 0.85])
+    q, w = _surface_quadrature()
+    rho = lambda a, b: np.exp(-2.0 * np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1]) / theta)
+    k = np.linalg.solve(rho(pts, pts), w @ rho(q, pts))
+    return pts, su_d, mu + float(k @ (su_d - mu))
+
+
+def test_deterministic_fs_uses_the_conditional_mean():
+    from slipfield.slope.simulate.conditioning import conditional_mean_fs
+
+    theta, cell, mu = 7.0, 0.5, 50.0
+    sd = 0.2 * mu
+    p0 = _problem(math.inf, mu, 0.2, cell)
+    fs1 = float(factor_of_safety(p0.bank, np.ones(p0.bank.zone.shape), 0.0, method="ordinary").fs[0, 0])
+    pts, su_d, mean_bar = _planar_data(theta, mu, sd, cell)
+    r = conditional_mean_fs(_problem(theta, mu, 0.2, cell, {"clay.su": (pts, (su_d - mu) / sd, np.zeros(5))}))
+    # normal marginal: FS is linear in su, so FS at the conditional mean = fs1 · E[s̄u | data];
+    # 0.5 % covers the field's cell-centre representation (θ/cell = 14; 0.15 % measured)
+    assert r["fs"] == pytest.approx(fs1 * mean_bar, rel=5e-3)
+    assert r["fs_material_values"] == pytest.approx(fs1 * mu, rel=1e-9)
+
+
 def test_conditional_pf_of_the_planar_slope_matches_gaussian_conditioning():
     theta, cell, cov, N = 7.0, 0.5, 0.2, 300
     p0 = _problem(math.inf, 50.0, cov, cell)
@@ -88,20 +127,12 @@ def test_conditional_pf_of_the_planar_slope_matches_gaussian_conditioning():
     fs1 = float(factor_of_safety(b, np.ones(b.zone.shape), 0.0, method="ordinary").fs[0, 0])
     mu = 1.05 / fs1
     sd = cov * mu
-    # a profile of five readings on the slip plane, all weak (invented), at cell centres
-    xs = np.array([10.25, 20.25, 30.25, 40.25, 50.25])
-    ys = np.round((xs * TAN_B - Z - 0.25) / cell) * cell + 0.25
-    pts = np.column_stack([xs, ys])
-    su_d = mu * np.array([0.85, 0.8, 0.9, 0.75, 0.85])
+    pts, su_d, _ = _planar_data(theta, mu, sd, cell)   # five weak readings by the slip plane
     data = {"clay.su": (pts, (su_d - mu) / sd, np.zeros(5))}
-    # closed form: s̄u over the plane (Gauss–Legendre along it), Markov ρ = exp(−2r/θ)
-    u, w = np.polynomial.legendre.leggauss(400)
-    x0, x1 = 0.1, LF - 0.1
-    xq = 0.5 * (x1 - x0) * u + 0.5 * (x1 + x0)
-    yq = xq * TAN_B - Z
-    w = w / w.sum()
+    # closed form: s̄u over the whole surface (the plane and its two short ends),
+    # Gauss–Legendre on each segment weighted by its length; Markov ρ = exp(−2r/θ)
+    q, w = _surface_quadrature()
     rho = lambda a, b: np.exp(-2.0 * np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1]) / theta)
-    q = np.column_stack([xq, yq])
     gamma_T = float(w @ rho(q, q) @ w)
     c_s = w @ rho(q, pts)
     C = rho(pts, pts)
