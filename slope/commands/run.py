@@ -176,7 +176,7 @@ def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
     from ..simulate import simulate
     from ..simulate.studies import reduced_variance_problem
 
-    red, table = reduced_variance_problem(prob)
+    red, table = reduced_variance_problem(prob, fixed_only=True)  # only fs_fixed is read
     t0 = time.perf_counter()
     res = simulate(red, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet)
     wall = time.perf_counter() - t0
@@ -407,7 +407,7 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     from ..case.preflight import check_option, preflight
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
-    preflight(case, realisations=n)
+    preflight(case, realisations=None if realisations is None else n)
     from .folders import OutputFolder
 
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation

@@ -9,7 +9,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
-from .engine import batch_fs, stencil
+from .engine import batch_fs, prepare
 from .problem import RandomProblem
 from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
@@ -416,9 +416,57 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
         return
     from joblib import Parallel, delayed
 
+    # the problem (stencil, slice terms, generators: ~20 MB for the levee demo) goes to
+    # each worker once through a file, not pickled with every task
+    path = _ship(problem)
     parent = os.getpid()
-    yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-        delayed(_run_block)(problem, seed, a, b, refine, parent) for a, b in ranges)
+    try:
+        yield from Parallel(n_jobs=n_jobs, return_as="generator")(
+            delayed(_run_shipped_block)(path, seed, a, b, refine, parent) for a, b in ranges)
+    finally:
+        _unship(path)
+
+
+_WORKER_PROBLEM = {}  # in a worker process: the path of the problem it holds -> that problem
+
+
+def _ship(problem):
+    """Write the prepared problem to a private temporary file; its path identifies it."""
+    import pickle
+    import tempfile
+
+    folder = tempfile.mkdtemp(prefix="slipfield-problem-")
+    path = os.path.join(folder, "problem.pickle")
+    with open(path, "wb") as fh:
+        pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
+    return path
+
+
+def _unship(path):
+    """Remove the file :func:`_ship` wrote and its folder (nothing else)."""
+    try:
+        os.remove(path)
+        os.rmdir(os.path.dirname(path))
+    except OSError:
+        pass
+
+
+def _run_shipped_block(path, seed, start, stop, refine=None, parent=None):
+    """:func:`_run_block` in a worker, loading the shipped problem on the worker's first task."""
+    problem = _WORKER_PROBLEM.get(path)
+    if problem is None:
+        import pickle
+
+        with open(path, "rb") as fh:
+            problem = pickle.load(fh)
+        _WORKER_PROBLEM.clear()  # one problem held per worker: memory stays bounded over a run
+        _WORKER_PROBLEM[path] = problem
+        # the workers already use every core: compiled kernels run single-threaded in them
+        # (results do not depend on the thread count)
+        import numba
+
+        numba.set_num_threads(1)
+    return _run_block(problem, seed, start, stop, refine, parent)
 
 
 SCHEDULER_TIMEOUT_S = 5.0
@@ -533,7 +581,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             progress=progress, scheduler=client, refine=refine, store_identity=store_identity)
         finally:
             client.close()
-    stencil(problem)  # geometry and base mapping built once, before pickling to workers
+    prepare(problem)  # geometry, base mapping and strength map built once, before pickling to workers
     parts = {}
     st = None
     if store is not None:
