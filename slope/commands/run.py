@@ -22,7 +22,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case.analyses import deterministic, random_problem, single_variable_reliability, surface_xy
+from ..case.analyses import (deterministic, random_problem, risk_scenarios, single_variable_reliability,
+                              surface_xy)
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import convergence_history, estimate_pf
@@ -354,23 +355,11 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
         gam[name] = np.array([float(variance_function(m, t)) for t in T])
     f = rp.plot_variance_reduction(T, gam)
     figs.append(("variance_reduction", "Variance function γ(T) of the correlation models (θ = 1)", f))
-    risk = case.data.get("risk")
-    if risk is not None:
-        scen = []
-        for hyp, s in sim.items():
-            if s is None:
-                continue
-            summ = s["summary"]["spatial"]["critical_surface_searched"]
-            sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
-            if "annual_pf" in risk:
-                sc["annual_probability"] = risk["annual_pf"]
-            else:
-                sc.update(pf=summ["pf"], annual_exceedance=risk["annual_exceedance"],
-                          pf_interval=tuple(summ["pf_interval_95"]))
-            scen.append(sc)
-        if scen:
-            f = rp.plot_risk_chart(scen, risk.get("tolerability", []), consequence_label=risk["consequence_label"])
-            figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
+    risk = risk_scenarios(case, {h: s["summary"]["spatial"]["critical_surface_searched"]
+                                 for h, s in sim.items() if s is not None})
+    if risk is not None and risk["scenarios"]:
+        f = rp.plot_risk_chart(risk["scenarios"], risk["tolerability"], consequence_label=risk["consequence_label"])
+        figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
     figs = [f if len(f) == 4 else (*f, "") for f in figs]
     for stem, _, fig, _ in figs:
         rp.save_figure(fig, fig_dir, stem, formats=formats)
@@ -462,7 +451,8 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
                      "figures": [{"figure": stage / "figures" / f"{stem}.png", "caption": cap}], "tables": []}
                     for stem, cap, _, text in figs]
         rp.write_report(stage / "report.html", case.title, summary_rows, sections,
-                        caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n)})
+                        caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n),
+                              **({"note": case.data["case"]["note"]} if case.data["case"].get("note") else {})})
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
         results["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         (stage / "results.json").write_text(json.dumps(_jsonable(results), indent=2, allow_nan=False))
