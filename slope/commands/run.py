@@ -426,6 +426,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
 
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
     stage = out.stage()
+    from ..simulate.driver import start_workers
+
+    start_workers(n_jobs)  # the pool starts while the search runs
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
