@@ -367,7 +367,8 @@ def start_workers(n_jobs):
         try:
             from joblib import Parallel, delayed
 
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)() for _ in range(int(n_jobs)))
+            parent = os.getpid()
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent) for _ in range(int(n_jobs)))
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
@@ -381,8 +382,16 @@ def _await_workers():
         _WARMING.join()
 
 
-def _warm_worker():
-    """In a worker: import the simulator and load its compiled kernels (tiny calls)."""
+def _warm_worker(parent=None):
+    """In a worker: import the simulator and load its compiled kernels (tiny calls).
+
+    The worker also starts watching ``parent`` (it ends if the run is killed
+    during the search, before any task reached it).
+    """
+    if parent is not None:
+        from .executors import _watch_parent
+
+        _watch_parent(parent)
     from slipfield.fields import marginals  # noqa: F401
     from slipfield.fields.generators import circulant  # noqa: F401
 
