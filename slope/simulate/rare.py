@@ -23,7 +23,8 @@ the acceptance rate does not collapse as the dimension grows (tens of
 thousands of noise components here), which is where the component-wise
 modified Metropolis step of Au & Beck stalls. σₖ = min(1, λ σ̂ₖ) with σ̂ₖ the
 spread of the seeds in component k; λ is adapted after every group of
-pa·Nc chains (pa = 0.1) towards the acceptance rate 0.44 by
+pa·Nc chains (pa = 0.1, at least 10 chains so that a group is a useful
+batch of work for the processes) towards the acceptance rate 0.44 by
 log λ ← log λ + (â − 0.44)/√i, and carried from level to level (start 0.6),
 as the paper recommends. Plain conditional sampling (fixed ρ) was not
 chosen: its acceptance depends on how far the level's failure domain is
@@ -74,6 +75,7 @@ STREAM = 7_340_021
 MIN_SEEDS = 10            # chains per level: σ̂ and γ need several of them
 _TARGET_ACCEPTANCE = 0.44  # Papaioannou et al. (2015)
 _ADAPT_FRACTION = 0.1      # pa: chains per adaptation step / chains
+_ADAPT_MIN = 10            # but at least this many chains per step: a useful batch for the processes
 _LAMBDA0 = 0.6
 
 
@@ -428,7 +430,7 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
         perm = realisation_rng(seed, level, STREAM, 1).permutation(nc)
         U0, Y0, C0 = seeds["u"][perm], seeds["fs"][perm], seeds["crit"][perm]
         spread = U0.std(axis=0, ddof=1)
-        n_a = max(1, int(round(_ADAPT_FRACTION * nc)))
+        n_a = max(_ADAPT_MIN, int(round(_ADAPT_FRACTION * nc)))
         res_fs = np.empty((ns, nc))
         res_crit = np.empty((ns, nc), int)
         res_acc = np.empty((ns - 1, nc), bool)
