@@ -22,6 +22,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from ..errors import InputError
+from ..simulate.rare import AUTO_MIN_FAILURES, ESTIMATORS, SubsetSettings
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "METHOD_NAMES", "FIELD_MODEL_NAMES"]
 
@@ -266,6 +267,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
                             doc="refine the critical surface of realisations with a bank FS below this (-)"),
         "refine_method": Key(_string(("spencer", "morgenstern-price", "janbu")), default="spencer",
                              doc="method of slices of the refined polylines"),
+        # subset simulation (slope.simulate.rare); names from its registry
+        "estimator": Key(_string(ESTIMATORS), default="monte-carlo",
+                         doc="monte-carlo, subset (small pf), or auto (subset when the first batch of Monte Carlo "
+                             f"sees fewer than {AUTO_MIN_FAILURES} failures)"),
+        "level_probability": Key(_number(lo=0, hi=0.5, lo_open=True),
+                                 doc="subset: conditional probability of each level (-), default 0.1"),
+        "samples_per_level": Key(_integer(lo=1), doc="subset: samples per level, default 1000"),
     },
     "reliability": {
         "methods": Key(_string_list(("monte-carlo", "latin-hypercube", "point-estimate", "fosm", "form", "subset")),
@@ -562,12 +570,28 @@ def _check_references(case: dict, where, problems: list[str]) -> None:
         v = search.get(key)
         if v is not None and (len(v) != 2 or v[0] >= v[1]):
             problems.append(f"{where('search', None, key)}search.{key} must be [low, high] with low < high")
+    _check_subset(case.get("simulation", {}), where, problems)
     risk = case.get("risk")
     if risk is not None and "annual_exceedance" not in risk and "annual_pf" not in risk:
         problems.append(f"{where('risk', None, None)}risk needs annual_exceedance (of the analysed loading) or annual_pf")
     for i, s in enumerate(case.get("surcharge", [])):
         if "x_from" in s and "x_to" in s and s["x_from"] >= s["x_to"]:
             problems.append(f"{where('surcharge', i, 'x_to')}surcharge[{i}]: x_from must be below x_to")
+
+
+def _check_subset(sim: dict, where, problems: list[str]) -> None:
+    """Subset simulation settings: used only by its estimators, and a whole number of chains."""
+    given = [k for k in ("level_probability", "samples_per_level") if k in sim]
+    if sim.get("estimator", "monte-carlo") == "monte-carlo":
+        for k in given:
+            problems.append(f"{where('simulation', None, k)}simulation.{k} is used only by subset simulation; set "
+                            "simulation.estimator = \"subset\" or \"auto\", or remove it")
+        return
+    try:
+        SubsetSettings.from_case(sim)
+    except InputError as exc:
+        key = "level_probability" if str(exc).startswith("level_probability") else "samples_per_level"
+        problems.append(f"{where('simulation', None, key)}simulation.{key}: {str(exc).split(': ', 1)[1]}")
 
 
 def read_case(path: str | Path) -> dict:

@@ -114,8 +114,8 @@ def _status(n, n_valid):
     return f"{n - n_valid} of {n} realisations without a converged, admissible surface excluded from pf"
 
 
-def _simulation(case, det, hyp, *, n, n_jobs, quiet):
-    """Spatially variable run (a) and the same with every θ → ∞ (b)."""
+def _simulation(case, det, hyp, *, n, n_jobs, quiet, estimator=("monte-carlo", None)):
+    """Spatially variable run (a) and the same with every θ → ∞ (b); subset simulation of (a) when chosen."""
     from ..simulate import RefineSettings, simulate
 
     seed = int(case.simulation["seed"])
@@ -165,6 +165,9 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                           "max_depth": _spread(depth)}
         arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": crit, "problem": prob,
                          "area": area, "depth": depth}
+    from .subset_cmd import run_subset
+
+    run_subset(out, arrays, estimator, seed=seed, batch=block, n_jobs=n_jobs, refine=refine, quiet=quiet)
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)
@@ -370,7 +373,8 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg")) -> dict:
+             figure_formats=("png", "svg"), estimator=None, level_probability=None,
+             samples_per_level=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -405,13 +409,17 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     case = load_case(case_path)
     n = int(realisations or case.simulation["realisations"])
     n_jobs = int(jobs or case.simulation["jobs"])
+    from .subset_cmd import estimator_settings
+
+    est = estimator_settings(case, estimator, level_probability, samples_per_level)
     out_dir = Path(out_dir)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
-        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet) for h in case.analysis["hypotheses"]}
+        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet, estimator=est)
+               for h in case.analysis["hypotheses"]}
         for r in rel.values():
             _reliability_status(r["summary"] if r else None)
         results = {
@@ -469,6 +477,10 @@ def _summary_rows(results) -> list:
             c = s[k]["critical_surface_searched"]
             rows.append((f"pf, {h}, {label} (critical surface re-searched)", c["pf"], "-",
                          f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}"))
+        if s["spatial"].get("subset"):
+            from .subset_cmd import subset_row
+
+            rows.append(subset_row(h, s["spatial"]["subset"]))
         c = s["analytic_variance_reduction"]
         if c["pf"] is not None:
             gam = ", ".join(f"γ {t['property']} {t['gamma']:.3g}" for t in c["properties"])

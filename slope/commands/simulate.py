@@ -360,7 +360,8 @@ def _stored_count(store: Path) -> int:
 
 def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=None, seed=None, hypothesis=None,
                   resume=False, scheduler=None, export_fields=None, export_format="xdmf",
-                  progress=False, refine_below=None, refine_method="spencer") -> dict:
+                  progress=False, refine_below=None, refine_method="spencer", estimator=None,
+                  level_probability=None, samples_per_level=None) -> dict:
     """Spatially variable simulation of a case, streamed to ``out_dir`` (resumable).
 
     Parameters
@@ -389,6 +390,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         into a polyline with their own fields (``slope.simulate.refinement``).
     refine_method : str
         Method of slices of the refinement (default ``spencer``).
+    estimator, level_probability, samples_per_level : optional
+        Override ``simulation.estimator`` etc. (:mod:`slope.commands.subset_cmd`):
+        with subset simulation ``store/`` holds its level checkpoints and
+        ``--resume`` continues from the last finished level.
 
     Returns
     -------
@@ -417,6 +422,17 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
              "fingerprint": prob.fingerprint()}
     refine = (RefineSettings.from_case(case.simulation) if refine_below is None else
               RefineSettings(below=refine_below, method=refine_method))
+    est, sub = _estimator(case, prob, estimator, level_probability, samples_per_level, seed, n_jobs, block,
+                          refine)
+    if est[0] == "subset":
+        from .subset_cmd import simulate_subset_case
+
+        if exp is not None:
+            raise InputError("--export-fields: with subset simulation the fields of the most typical failure are "
+                             "written to subset_typical_failure.npz in --out; leave --export-fields out")
+        return simulate_subset_case(case, case_path, prob, hyp, out, sub, seed=seed, n_jobs=n_jobs, batch=block,
+                                    resume=resume, scheduler=scheduler, refine=refine, progress=progress,
+                                    chosen_by=est[1])
     resumed = _check_out_for_simulate(out, store_header(prob, seed, refine), ident, resume)
     store = out / _STORE
     with _scheduler(scheduler) as client:
@@ -460,6 +476,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
             "export_fields": None if exp is None else {"folder": str(exp), "format": export_format},
             "caution": CAUTION,
         }
+        if est[1] is not None:
+            results["estimator"], results["estimator_choice"] = "monte-carlo", est[1]
         results["wall_time_s"] = round(time.perf_counter() - t0, 3)
         results["files"] = ["fs_realisations.csv", "results.json", f"{_STORE}/"]
         _write_json(stage / "results.json", results)
@@ -476,6 +494,19 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     return _jsonable(results)
 
 
+def _estimator(case, prob, estimator, level_probability, samples_per_level, seed, n_jobs, block, refine):
+    """((name, how it was chosen), SubsetSettings or None); ``auto`` decided on Monte Carlo's first batch."""
+    from ..simulate import simulate
+    from .subset_cmd import estimator_settings, resolve_auto
+
+    name, sub = estimator_settings(case, estimator, level_probability, samples_per_level)
+    if name != "auto":
+        return (name, None), sub
+    first = simulate(prob, block, seed, n_jobs=n_jobs, batch=block, refine=refine)
+    chosen, k = resolve_auto(name, first.fs)
+    return (chosen, {"estimator": "auto", "first_batch": block, "first_batch_failures": k}), sub
+
+
 def _replace_dir(stage: Path, target: Path) -> None:
     """Move a finished staging folder onto ``target``, replacing an earlier one only now."""
     if target.exists():
@@ -489,7 +520,8 @@ def _replace_dir(stage: Path, target: Path) -> None:
 
 # ------------------------------------------------------------------ sweep
 def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=None, jobs=None, batch=None,
-               seed=None, hypothesis=None, scheduler=None, progress=False) -> dict:
+               seed=None, hypothesis=None, scheduler=None, progress=False, estimator=None, level_probability=None,
+               samples_per_level=None) -> dict:
     """pf over a grid of scales of fluctuation, with common random numbers.
 
     Every random property gets the same (θh, θv) at a grid point; the same
@@ -539,9 +571,18 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: is a file; give a folder")
+    from .subset_cmd import estimator_settings
+
+    est, sub = estimator_settings(case, estimator, level_probability, samples_per_level)
     with _scheduler(scheduler) as client:
-        rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
-                           batch=block, progress=progress, scheduler=client)
+        if est == "monte-carlo":
+            rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
+                               batch=block, progress=progress, scheduler=client)
+        else:
+            from ..simulate.rare import theta_sweep_rare
+
+            rows = theta_sweep_rare(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, sub, est,
+                                    n_jobs=n_jobs, batch=block, scheduler=client)
     for r in rows:  # the sweep files name the interval bounds explicitly
         r["pf_low"], r["pf_high"] = r.pop("lo"), r.pop("hi")
     out.parent.mkdir(parents=True, exist_ok=True)
@@ -559,7 +600,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             "case": {"path": str(case_path), "title": case.title}, "hypothesis": hyp, "method": prob.method,
             "seed": seed, "realisations_per_point": n, "theta_h": grid_vals["theta_h"],
             "theta_v": grid_vals["theta_v"], "rows": rows,
-            "common_random_numbers": "same seed and streams at every grid point",
+            "common_random_numbers": "same seed and streams at every grid point", "estimator": est,
             "infinite_theta": "a point with theta_h or theta_v = inf is run with both = inf (single random "
                               "variable per property); theta_h_run/theta_v_run give what was run",
             "units": {"theta": "m", "fs": "-", "pf": "probability (fraction)"},
