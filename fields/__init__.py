@@ -7,7 +7,7 @@ from .averaging import (cell_average_covariance, grid_cell_covariance, variance_
                         variance_function_2d)
 from .conditioning import ConditionalGenerator, from_gaussian, to_gaussian
 from .errors import InputError
-from .generators import FieldGenerator, make_generator
+from .generators import FieldGenerator, generator_names, make_generator
 from .grid import RegularGrid
 from .models import MODEL_NAMES, CorrelationModel, get_model
 from .properties import DepthTrend, PropertyField, correlated_properties
@@ -21,6 +21,7 @@ __all__ = [
     "RegularGrid",
     "FieldGenerator",
     "make_generator",
+    "generator_names",
     "variance_function",
     "variance_function_2d",
     "grid_cell_covariance",

@@ -15,6 +15,31 @@ from slipfield.fields.errors import InputError
 __all__ = ["main", "build_parser"]
 
 
+def _whole(lo):
+    """argparse type: a whole number >= lo (refused at parse time, exit 2)."""
+    def parse(text):
+        try:
+            v = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; give one >= {lo}") from None
+        if v < lo:
+            raise argparse.ArgumentTypeError(f"{v} is too small; give a whole number >= {lo}")
+        return v
+    parse.__name__ = f"whole number >= {lo}"
+    return parse
+
+
+def _positive_number(text):
+    """argparse type: a finite number > 0."""
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give a number > 0") from None
+    if not (v > 0 and v != float("inf")):
+        raise argparse.ArgumentTypeError(f"{text} is not a finite number > 0")
+    return v
+
+
 def _cmd_run(args) -> int:
     from .commands.run import run_case
 
@@ -44,8 +69,9 @@ def _cmd_run(args) -> int:
 
 def _cmd_check(args) -> int:
     from .case.build import load_case
+    from .case.preflight import preflight
 
-    case = load_case(args.case)
+    case = preflight(load_case(args.case))  # every check run makes, so "ok" means the run will start
     print(f"{args.case}: ok ({case.title}; zones {', '.join(case.section.zone_names)}; "
           f"{len(case.randoms)} random properties)")
     return 0
@@ -118,14 +144,14 @@ def _cmd_sweep(args) -> int:
 def _sim_options(p, *, sweep=False):
     p.add_argument("case", help="case file (.toml)")
     p.add_argument("--out", required=True, help="output folder")
-    p.add_argument("--realisations", type=int, default=None,
+    p.add_argument("--realisations", type=_whole(1), default=None,
                    help="realisations" + (" per grid point (default sweep.realisations, then "
                                           "simulation.realisations)" if sweep else
                                           " (default simulation.realisations)"))
-    p.add_argument("--jobs", type=int, default=None, help="local worker processes (default simulation.jobs)")
-    p.add_argument("--batch", type=int, default=None,
+    p.add_argument("--jobs", type=_whole(1), default=None, help="local worker processes (default simulation.jobs)")
+    p.add_argument("--batch", type=_whole(1), default=None,
                    help="realisations evaluated together (memory; default simulation.batch)")
-    p.add_argument("--seed", type=int, default=None, help="run seed (default simulation.seed)")
+    p.add_argument("--seed", type=_whole(0), default=None, help="run seed (default simulation.seed)")
     p.add_argument("--hypothesis", choices=("drained", "undrained"), default=None,
                    help="drainage hypothesis (default: the first of analysis.hypotheses)")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
@@ -154,14 +180,16 @@ def _estimator_kw(args) -> dict:
 
 
 def build_parser() -> argparse.ArgumentParser:
+    from .methods import POLYLINE_METHOD_NAMES
+
     p = argparse.ArgumentParser(prog="slipfield", description="Probability of failure of slopes with spatially "
                                 "variable soil strength.")
     sub = p.add_subparsers(dest="command", required=True)
     r = sub.add_parser("run", help="run every analysis of a case and write results, figures and report.html")
     r.add_argument("case", help="case file (.toml)")
     r.add_argument("--out", default="out", help="output folder (default: out)")
-    r.add_argument("--realisations", type=int, default=None, help="override simulation.realisations")
-    r.add_argument("--jobs", type=int, default=None, help="override simulation.jobs")
+    r.add_argument("--realisations", type=_whole(1), default=None, help="override simulation.realisations")
+    r.add_argument("--jobs", type=_whole(1), default=None, help="override simulation.jobs")
     r.add_argument("--json", action="store_true", help="print the summary as JSON")
     r.add_argument("--quiet", action="store_true", help="no progress output")
     _estimator_options(r)
@@ -178,10 +206,10 @@ def build_parser() -> argparse.ArgumentParser:
                    help="write each realisation's property fields on the section grid, with its FS, to DIR2")
     s.add_argument("--export-format", choices=("xdmf", "vtu", "npz"), default="xdmf",
                    help="format of --export-fields (default xdmf: one time series per property)")
-    s.add_argument("--refine-below", type=float, default=None, metavar="FS",
+    s.add_argument("--refine-below", type=_positive_number, default=None, metavar="FS",
                    help="refine the critical surface of realisations with a bank FS below FS into a polyline "
                         "with their own fields (slower; off by default)")
-    s.add_argument("--refine-method", default="spencer", choices=("spencer", "morgenstern-price", "janbu"),
+    s.add_argument("--refine-method", default="spencer", choices=POLYLINE_METHOD_NAMES,
                    help="method of slices of the refined polylines (default spencer; with --refine-below)")
     _estimator_options(s)
     s.set_defaults(func=_cmd_simulate)

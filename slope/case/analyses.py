@@ -13,7 +13,6 @@ the arrays the figures need.
 """
 from __future__ import annotations
 
-import math
 
 import numpy as np
 
@@ -23,16 +22,14 @@ from ..bank import unit_weight_parts
 from .build import Case, theta_value
 from ..errors import InputError
 from ..reliability.limit_state import LimitState
-from ..reliability.pem import hong, rosenblueth
-from ..reliability.form import form
-from ..reliability.sampling import latin_hypercube, monte_carlo
-from ..reliability.sensitivity import rank_correlations, tornado
+from ..reliability.registry import Settings, run_estimator
+from ..reliability.sensitivity import tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
-from ..search import evaluate_surfaces, centre_lattice, window
-from ..surfaces import Circle, Polyline
+from ..search import evaluate_surfaces, search_from_case
+from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
            "properties_for"]
 
 # which random properties act under which hypothesis
@@ -57,30 +54,13 @@ def trial_surfaces(case: Case, hypothesis: str, method: str):
         Every trial surface with its FS; ``surfaces`` is the bank the
         simulator re-searches.
     """
-    s = case.data.get("search", {"kind": "centre-lattice", "trials": 1500, "min_depth": 0.5})
-    sec = case.section
-    n_slices = case.analysis["slices"]
-    opts = dict(hypothesis=hypothesis, method=method, n_slices=n_slices,
-                interslice=case.analysis["interslice"]) if method == "morgenstern-price" else \
-        dict(hypothesis=hypothesis, method=method, n_slices=n_slices)
-    kind = s.get("kind", "centre-lattice")
-    trials = int(s.get("trials", 1500))
-    if kind == "fixed":
-        if "circle" in s:
-            c = s["circle"]
-            surf = Circle(float(c["x"]), float(c["y"]), float(c["r"]))
-        else:
-            surf = Polyline(np.asarray(s["polyline"], float))
-        return evaluate_surfaces(sec, [surf], search="fixed", **opts)
-    n_radii = 10
-    per_axis = max(3, int(round(math.sqrt(trials / n_radii))))
-    if kind == "window":
-        n_ends = max(3, int(round(math.sqrt(trials / n_radii))))
-        return window(sec, upslope=tuple(s["entry"]), downslope=tuple(s["exit"]),
-                      n_up=n_ends, n_down=n_ends, n_radii=n_radii, **opts)
-    return centre_lattice(sec, x_range=tuple(s["x_range"]) if "x_range" in s else None,
-                          y_range=tuple(s["y_range"]) if "y_range" in s else None,
-                          nx=per_axis, ny=per_axis, n_radii=n_radii, **opts)
+    opts = dict(hypothesis=hypothesis, method=method, n_slices=case.analysis["slices"])
+    if method == "morgenstern-price":
+        opts["interslice"] = case.analysis["interslice"]
+    cache = case.extras.setdefault("trial_surfaces", {})  # a preflight's searches, not repeated by the run
+    if (hypothesis, method) not in cache:
+        cache[(hypothesis, method)] = search_from_case(case.section, case.data["search"], **opts)
+    return cache[(hypothesis, method)]
 
 
 def _search_dict(res, section) -> dict:
@@ -245,8 +225,7 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
     names = [_name(r) for r in props]
     variables = RandomVector([RandomVariable(n, marginal_of(case, r)) for n, r in zip(names, props)],
                              _correlation(case, props))
-    cfg = case.data.get("reliability", {"methods": ["monte-carlo", "point-estimate", "form"],
-                                        "samples": 5000, "tornado_k": 2.0})
+    cfg = case.data["reliability"]
     research = bool(cfg.get("research_surface", False))
     if research:
         # every sample takes the least FS over the whole trial bank (a per-sample search of those surfaces)
@@ -261,29 +240,14 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                  "surface": ("re-searched over the trial surfaces for each sample" if research else
                              "fixed (deterministic critical surface)"), "method": method}
     arrays: dict = {}
-    for m in cfg["methods"]:
-        if m in ("monte-carlo", "latin-hypercube"):
-            fn = monte_carlo if m == "monte-carlo" else latin_hypercube
-            res = fn(ls, variables, int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
-            est = res.main.estimate
-            out[m] = _pf_dict(est) | {"n_evaluations": int(res.n_evaluations)}
-            arrays[m] = {"fs": res.fs, "history": res.main.history}
-            if res.X is not None:
-                rc = rank_correlations(res.X, res.fs, names)
-                out[m]["spearman"] = {k: float(v) if np.isscalar(v) else v for k, v in rc.items()}
-        elif m == "point-estimate":
-            pe = rosenblueth(ls, variables) if len(names) <= 6 else hong(ls, variables)
-            out[m] = {"scheme": pe.method, "mean_fs": pe.mean_fs, "std_fs": pe.std_fs,
-                      "beta_normal": pe.beta_normal, "pf_normal": pe.pf_normal,
-                      "beta_lognormal": pe.beta_lognormal, "pf_lognormal": pe.pf_lognormal,
-                      "n_evaluations": int(pe.n_evaluations), "n_nonconverged": int(pe.n_nonconverged),
-                      "n_inadmissible": int(pe.n_inadmissible)}
-        elif m == "form":
-            fr = form(ls, variables)
-            out[m] = {"beta": fr.beta, "pf": fr.pf, "converged": bool(fr.converged),
-                      "design_point": dict(zip(names, map(float, fr.design_point_x))),
-                      "importance": {k: float(v) for k, v in fr.importance.items()},
-                      "n_evaluations": int(fr.n_evaluations)}
+    settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
+    for m in cfg["methods"]:  # each through the registry; one that cannot reach an answer says so in its row
+        try:
+            out[m], arr = run_estimator(m, ls, variables, settings)
+        except InputError as exc:
+            out[m], arr = {"status": f"not computed: {exc}"}, {}
+        if arr:
+            arrays[m] = arr
     k = float(cfg.get("tornado_k", 2.0))
     tr = tornado(ls, variables, k=k)
     out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
@@ -292,15 +256,6 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                       "clipped": list(tr.clipped)}
     arrays["tornado"] = tr
     return {"summary": out, "arrays": arrays}
-
-
-def _pf_dict(est) -> dict:
-    return {"pf": float(est.pf), "pf_interval_95": [float(est.ci[0]), float(est.ci[1])],
-            "ci_method": est.ci_method, "n": int(est.n), "n_valid": int(est.n_valid),
-            "n_failed": int(est.n_fail), "n_nonconverged": int(est.n_nonconverged),
-            "n_inadmissible": int(est.n_inadmissible), "mean_fs": float(est.mean_fs),
-            "std_fs": float(est.std_fs), "beta_from_pf": float(est.beta_from_pf),
-            "beta_normal": float(est.beta_normal), "beta_lognormal": float(est.beta_lognormal)}
 
 
 def _surface_list(surfaces):

@@ -21,17 +21,24 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
+from slipfield.fields import MODEL_NAMES, generator_names
+from slipfield.fields.marginals import MARGINAL_FORMS
+
 from ..errors import InputError
+from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
+from ..reliability.registry import ESTIMATOR_NAMES
+from ..search import case_search_names
+from ..simulate.problem import AVERAGING, PROPS
 from ..simulate.rare import AUTO_MIN_FAILURES, ESTIMATORS, SubsetSettings
 
-__all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "METHOD_NAMES", "FIELD_MODEL_NAMES"]
+__all__ = ["CaseError", "read_case", "parse_case", "SCHEMA"]
 
-METHOD_NAMES = ("ordinary", "bishop", "janbu", "spencer", "morgenstern-price")
-FIELD_MODEL_NAMES = ("exponential", "markov", "gaussian", "squared-exponential",
-                     "second-order-markov", "spherical", "matern")
-DISTRIBUTIONS = ("normal", "lognormal", "truncated-normal", "beta", "uniform", "triangular")
-SEARCH_KINDS = ("centre-lattice", "window", "fixed")
-RANDOM_PROPERTIES = ("c", "phi", "su", "su_ratio", "unit_weight")
+# Every list of names below comes from the registry that runs the names: a
+# name added there is accepted here, and nothing here is retyped.
+#: distributions that can make a property random (every form has a spread or bounds)
+DISTRIBUTIONS = tuple(n for n, forms in MARGINAL_FORMS.items() if all(f - {"mean"} for f in forms))
+#: interslice functions a case can name (a tabulated function needs a table a case file cannot give)
+CASE_INTERSLICE = tuple(n for n in INTERSLICE_NAMES if n != "tabulated")
 
 
 class CaseError(InputError):
@@ -224,10 +231,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "methods": Key(_string_list(METHOD_NAMES), default=["bishop", "spencer"]),
         "method": Key(_string(METHOD_NAMES), default="bishop", doc="method of the random runs"),
         "slices": Key(_integer(lo=5), default=30),
-        "interslice": Key(_string(("constant", "half-sine", "clipped-sine")), default="half-sine"),
+        "interslice": Key(_string(CASE_INTERSLICE), default="half-sine"),
     },
     "search": {
-        "kind": Key(_string(SEARCH_KINDS), default="centre-lattice"),
+        "kind": Key(_string(case_search_names()), default="centre-lattice"),
         "trials": Key(_integer(lo=10), default=1500, doc="number of trial surfaces in the bank"),
         "x_range": Key(_number_list(min_len=2), doc="[x_min, x_max] of circle centres or of the entry/exit region (m)"),
         "y_range": Key(_number_list(min_len=2), doc="[y_min, y_max] of circle centres (m)"),
@@ -239,7 +246,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "random": {
         "material": Key(_string(), required=True),
-        "property": Key(_string(RANDOM_PROPERTIES), required=True),
+        "property": Key(_string(PROPS), required=True),
         "distribution": Key(_string(DISTRIBUTIONS), default="lognormal"),
         "mean": Key(_number(), doc="default: the material's value"),
         "cov": Key(_number(lo=0, lo_open=True), required=True, doc="coefficient of variation (-)"),
@@ -247,7 +254,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "upper": Key(_number(), doc="upper bound (bounded distributions)"),
         "theta_h": Key(_number(lo=0, lo_open=True, allow_inf=True), required=True, doc="horizontal scale of fluctuation (m) or \"inf\""),
         "theta_v": Key(_number(lo=0, lo_open=True, allow_inf=True), required=True, doc="vertical scale of fluctuation (m) or \"inf\""),
-        "model": Key(_string(FIELD_MODEL_NAMES), default="exponential"),
+        "model": Key(_string(MODEL_NAMES), default="exponential"),
         "nu": Key(_number(lo=0, lo_open=True), default=1.5, doc="Matérn smoothness"),
         "angle": Key(_number(lo=-90, hi=90), default=0.0, doc="rotation of θh from +x, counter-clockwise (degrees)"),
     },
@@ -259,13 +266,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "realisations": Key(_integer(lo=1), default=1000),
         "seed": Key(_integer(lo=0), default=1),
         "cell": Key(_number(lo=0, lo_open=True), default=0.5, doc="random-field cell size (m)"),
-        "field_method": Key(_string(("fft", "cholesky", "kl", "spectral")), default="fft"),
-        "averaging": Key(_string(("base-average", "midpoint")), default="base-average"),
+        "field_method": Key(_string(generator_names()), default="fft"),
+        "averaging": Key(_string(tuple(AVERAGING)), default="base-average"),
         "jobs": Key(_integer(lo=1), default=1),
         "batch": Key(_integer(lo=1), default=100),
         "refine_below": Key(_number(lo=0, lo_open=True),
                             doc="refine the critical surface of realisations with a bank FS below this (-)"),
-        "refine_method": Key(_string(("spencer", "morgenstern-price", "janbu")), default="spencer",
+        "refine_method": Key(_string(POLYLINE_METHOD_NAMES), default="spencer",
                              doc="method of slices of the refined polylines"),
         # subset simulation (slope.simulate.rare); names from its registry
         "estimator": Key(_string(ESTIMATORS), default="monte-carlo",
@@ -276,8 +283,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "samples_per_level": Key(_integer(lo=1), doc="subset: samples per level, default 1000"),
     },
     "reliability": {
-        "methods": Key(_string_list(("monte-carlo", "latin-hypercube", "point-estimate", "fosm", "form", "subset")),
-                       default=["monte-carlo", "point-estimate", "form"]),
+        "methods": Key(_string_list(ESTIMATOR_NAMES), default=["monte-carlo", "point-estimate", "form"]),
         "samples": Key(_integer(lo=10), default=5000),
         "tornado_k": Key(_number(lo=0, lo_open=True), default=2.0, doc="tornado bars at mean ± k σ (common practice: k = 2)"),
         "research_surface": Key(_bool, default=False, doc="re-search the critical surface for each sample"),
@@ -447,7 +453,7 @@ def parse_case(text: str, path: str = "<case>") -> dict:
     for i, mat in enumerate(case.get("material", [])):
         if isinstance(mat.get("su"), dict):
             mat["su"] = _check_table(mat["su"], "material.su", f"material[{i}].su", "material", i, where, problems)
-    for name in ("case", "analysis", "simulation", "seismic"):
+    for name in ("case", "analysis", "simulation", "seismic", "search", "reliability"):
         if name not in case:
             case[name] = _check_table({}, name, name, name, None, where, problems)
     if "section" not in raw:

@@ -363,7 +363,7 @@ def _reliability_status(summ):
     if not summ:
         return
     for m, r in summ.items():
-        if not isinstance(r, dict) or m in ("tornado",):
+        if not isinstance(r, dict) or m in ("tornado",) or "status" in r:
             continue
         if m == "form":
             r["status"] = "ok" if r.get("converged") else "FORM iteration did not converge: beta and pf not reliable"
@@ -407,11 +407,13 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         raise InputError(f"figure_formats: {sorted(set(formats) - {'png', 'svg'})} not supported; "
                          "choose from 'png' and 'svg'")
     case = load_case(case_path)
-    n = int(realisations or case.simulation["realisations"])
-    n_jobs = int(jobs or case.simulation["jobs"])
+    from ..case.preflight import check_option, preflight
+    n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
+    n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
     from .subset_cmd import estimator_settings
 
     est = estimator_settings(case, estimator, level_probability, samples_per_level)
+    preflight(case, realisations=n)
     out_dir = Path(out_dir)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
@@ -464,11 +466,11 @@ def _summary_rows(results) -> list:
         for m, r in ms.items():
             rows.append((f"FS, {h}, {m}", r["fs"], "-", f"{r['n_counted']} of {r['n_trials']} trial surfaces counted"))
     for h, r in results["single_variable_reliability"].items():
-        if r and "monte-carlo" in r:
+        if r and "pf" in r.get("monte-carlo", {}):
             mc = r["monte-carlo"]
             rows.append((f"pf, {h}, single random variables (Monte Carlo)", mc["pf"], "-",
                          f"95 % interval {mc['pf_interval_95'][0]:.3g} – {mc['pf_interval_95'][1]:.3g}, n = {mc['n']}"))
-        if r and "form" in r:
+        if r and "beta" in r.get("form", {}):
             rows.append((f"β, {h}, FORM", r["form"]["beta"], "-", "Hasofer–Lind"))
     for h, s in results["spatial_simulation"].items():
         if not s:
@@ -513,13 +515,19 @@ def _tables(stage, results, sim):
         if not r:
             continue
         for m in ("monte-carlo", "latin-hypercube"):
-            if m in r:
+            if m in r and "pf" in r[m]:
                 rows.append([h, m, r[m]["pf"], *r[m]["pf_interval_95"], r[m]["beta_from_pf"], r[m]["mean_fs"], r[m]["std_fs"]])
-        if "point-estimate" in r:
+        if "point-estimate" in r and "mean_fs" in r["point-estimate"]:
             p = r["point-estimate"]
             rows.append([h, p["scheme"], p["pf_lognormal"], None, None, p["beta_lognormal"], p["mean_fs"], p["std_fs"]])
-        if "form" in r:
+        if "fosm" in r and "mean_fs" in r["fosm"]:
+            p = r["fosm"]
+            rows.append([h, "fosm", p["pf_lognormal"], None, None, p["beta_lognormal"], p["mean_fs"], p["std_fs"]])
+        if "form" in r and "pf" in r["form"]:
             rows.append([h, "form", r["form"]["pf"], None, None, r["form"]["beta"], None, None])
+        if "subset" in r and "pf" in r["subset"]:
+            p = r["subset"]
+            rows.append([h, "subset", p["pf"], None, None, p["beta_from_pf"], None, None])
     write_csv(stage / "reliability.csv", ["hypothesis", "method", "pf (-)", "pf low (-)", "pf high (-)",
                                           "beta (-)", "mean FS (-)", "std FS (-)"], rows)
     rows = []

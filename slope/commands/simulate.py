@@ -26,6 +26,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..case.preflight import preflight
 from ..errors import InputError
 from .run import _jsonable
 
@@ -413,6 +414,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                          f"{', '.join(EXPORT_FORMATS)}")
     case = load_case(case_path)
     n, n_jobs, block, seed = _settings(case, realisations, jobs, batch, seed)
+    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by _problem
     hyp, _, prob = _problem(case, hypothesis)
     out = Path(out_dir)
     exp = None if export_fields is None else Path(export_fields)
@@ -567,6 +569,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             given = [str(v) for v in sw[key]]
         grid_vals[key] = parse_theta_list(given, opt)
     n, n_jobs, block, seed = _settings(case, realisations, jobs, batch, seed, default_n=sw.get("realisations"))
+    preflight(case, realisations=n, search=False)
     hyp, _, prob = _problem(case, hypothesis)
     out = Path(out_dir)
     if out.exists() and not out.is_dir():

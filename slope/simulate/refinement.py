@@ -20,15 +20,13 @@ import numpy as np
 
 from ..bank import section_with_unit_weights
 from ..errors import InputError
+from ..methods import POLYLINE_METHOD_NAMES
 from ..search import refine
 from ..surfaces import Circle
 from .engine import _correlated, bilinear, deterministic_value, strength_overrides
 from .problem import AVERAGING
 
 __all__ = ["RefineSettings", "realisation_overrides", "refine_realisation"]
-
-_POLYLINE_METHODS = ("spencer", "morgenstern-price", "janbu")
-
 
 @dataclass(frozen=True)
 class RefineSettings:
@@ -62,9 +60,9 @@ class RefineSettings:
             raise InputError(f"refine below (--refine-below): {self.below!r}; give a factor of safety > 0, e.g. 1.2")
         object.__setattr__(self, "below", b)
         m = str(self.method).lower()
-        if m not in _POLYLINE_METHODS:
+        if m not in POLYLINE_METHOD_NAMES:
             raise InputError(f"refine method (--refine-method): {self.method!r}; polylines need one of "
-                             f"{', '.join(_POLYLINE_METHODS)}")
+                             f"{', '.join(POLYLINE_METHOD_NAMES)}")
         object.__setattr__(self, "method", m)
         if int(self.n_vertices) < 3:
             raise InputError(f"refine n_vertices: {self.n_vertices!r}; give at least 3")
