@@ -59,6 +59,13 @@ def _cmd_run(args) -> int:
                 b = s["single_random_variable"]["critical_surface_searched"]
                 print(f"  pf {h}: spatial {a['pf']:.4f} [{a['pf_interval_95'][0]:.4f}, {a['pf_interval_95'][1]:.4f}]"
                       f"  single random variable {b['pf']:.4f} [{b['pf_interval_95'][0]:.4f}, {b['pf_interval_95'][1]:.4f}]")
+                sub = s["spatial"].get("subset") or {}
+                if sub.get("pf") is not None:
+                    lo, hi = sub["pf_interval_95"]
+                    print(f"  pf {h}: spatial, subset simulation {sub['pf']:.3g} [{lo:.3g}, {hi:.3g}], "
+                          f"{sub['n_evaluations']} FS evaluations")
+                elif sub.get("ran"):
+                    print(f"  pf {h}: spatial, subset simulation: {sub['message']}")
                 q = s.get("analytic_variance_reduction") or {}
                 if q.get("pf") is not None:
                     print(f"  pf {h}: quick estimate (σ√γ on the fixed surface) {q['pf']:.4f} "

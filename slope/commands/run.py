@@ -419,7 +419,7 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
     try:
         det = deterministic(case)
-        rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
+        rel = {h: single_variable_reliability(case, det, h, n_jobs=1, estimator=est) for h in case.analysis["hypotheses"]}
         sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet, estimator=est)
                for h in case.analysis["hypotheses"]}
         for r in rel.values():
