@@ -142,7 +142,7 @@ def _cmd_sweep(args) -> int:
         print(f"{r['case']['title']} ({r['hypothesis']}): {len(r['rows'])} grid points x "
               f"{r['realisations_per_point']} realisations; results in {args.out} (sweep.csv, sweep.json, figures/)")
         for row in r["rows"]:
-            pf = "n/a" if row["pf"] is None else f"{row['pf']:.4f}"
+            pf = "n/a" if row["pf"] is None else f"{row['pf']:.4g}"
             th = lambda v: "inf" if v is None or v == float("inf") else f"{v:g}"  # noqa: E731 - JSON has no inf
             print(f"  θh {th(row['theta_h'])} m, θv {th(row['theta_v'])} m: pf {pf}")
     return 0

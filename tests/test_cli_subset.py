@@ -137,3 +137,19 @@ def test_unknown_estimator_option_exits_2(tmp_path, capsys):
     with pytest.raises(SystemExit) as e:
         main(["simulate", _case(tmp_path), "--out", str(tmp_path / "o"), "--estimator", "rare"])
     assert e.value.code == 2 and "--estimator" in capsys.readouterr().err
+
+
+def test_sweep_with_subset_simulation(tmp_path):
+    # spatial averaging along a 35 m plane: with θ = 10 m the averaged su has a fraction of the
+    # point variance (Vanmarcke 1983), so pf at mean FS 1.26 is far below the θ → ∞ value
+    case = _case(tmp_path)
+    out = tmp_path / "sw"
+    assert main(["sweep", case, "--out", str(out), "--quiet", "--theta-h", "10,inf", "--theta-v", "2",
+                 "--estimator", "subset", "--samples-per-level", "100"]) == 0
+    res = json.loads((out / "sweep.json").read_text())
+    assert res["estimator"] == "subset"
+    rows = {r["theta_h_run"]: r for r in res["rows"]}
+    spatial, single = rows[10.0], rows[None]      # JSON writes inf as null
+    for r in (spatial, single):
+        assert r["estimator"] == "subset" and r["pf_low"] < r["pf"] < r["pf_high"]
+    assert spatial["pf_high"] < single["pf_low"]

@@ -129,6 +129,7 @@ def test_one_estimate_within_three_of_its_sds(block, pf):
     assert su.shape == (grid.nx, grid.ny) and np.nanmean(su) < mean   # weaker than average where it failed
 
 
+@pytest.mark.slow
 def test_twenty_seeds_mean_and_spread(block):
     mean = _mean_for(block, 1e-5)
     exact = _exact(block, mean, block["g_model"])
