@@ -244,3 +244,20 @@ def test_constant_fs_stops_with_what_was_reached():
 def test_bad_settings_name_the_key(p0, n, key):
     with pytest.raises(InputError, match=key):
         SubsetSettings(p0, n)
+
+
+def test_single_lognormal_variable_twenty_seeds():
+    # FS = R/S with R lognormal (mean set so that pf = 1e-5 exactly, closed form) and S = 1:
+    # the single-variable estimator (slope.reliability.subset_simulation) to the same standard
+    from slipfield.slope.reliability import random_vector, subset_simulation
+
+    m = make_marginal("lognormal", mean=1.0, cov=COV)
+    mu, sg = m.params["mu_ln"], m.params["sigma_ln"]
+    mean = 1.0 / math.exp(mu + norm.ppf(1e-5) * sg)
+    v = random_vector([dict(name="R", dist="lognormal", mean=mean, cov=COV)])
+    runs = [subset_simulation(lambda X: X[:, 0], v, seed=500 + k, n_per_level=500) for k in range(R)]
+    pf = np.array([r.pf for r in runs])
+    m_, sd = pf.mean(), pf.std(ddof=1)
+    assert abs(m_ - 1e-5) < 3 * sd / math.sqrt(R), (m_, sd)
+    lo, hi = np.sqrt(chi2.ppf([0.0015, 0.9985], R - 1) / (R - 1))
+    assert lo * np.mean([r.cov_pf for r in runs]) < sd / m_ < hi * np.mean([r.cov_pf_upper for r in runs])
