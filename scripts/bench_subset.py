@@ -102,6 +102,8 @@ def part2(n, jobs):
           f"{lay.size} standard normals per sample; {n} samples per level, {jobs} processes")
     print(f"  all states of one level would take {level_mb:.0f} MB; seeds of one level "
           f"{st.n_chains * lay.size * 8 / 1e6:.0f} MB")
+    stencil(prob)
+    rss0 = _rss_mb()
     t0 = time.perf_counter()
     r = subset_simulate(prob, st, int(case.simulation["seed"]), n_jobs=jobs, batch=int(case.simulation["batch"]),
                         progress=True)
@@ -117,10 +119,18 @@ def part2(n, jobs):
     if k6 is not None:
         print(f"  reached P(FS <= {r.levels[k6]['threshold']:.3f}) = {reached[k6]:.2g} at level {k6}: about "
               f"{per_level * (k6 + 1):.0f} s for a pf of order 1e-6")
-    rss_self = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    rss_children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
-    print(f"  peak memory: this process {rss_self:.0f} MB, largest worker {rss_children:.0f} MB "
-          f"(one level's states: {level_mb:.0f} MB)")
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"  memory of the driving process: {rss0:.0f} MB with the problem built, peak {peak:.0f} MB during the "
+          f"run: +{peak - rss0:.0f} MB for {len(r.levels)} levels (all states of one level: {level_mb:.0f} MB; "
+          f"each worker holds only its chains)")
+
+
+def _rss_mb():
+    with open("/proc/self/status") as fh:
+        for line in fh:
+            if line.startswith("VmRSS:"):
+                return float(line.split()[1]) / 1024
+    return float("nan")
 
 
 def main(argv=None):
