@@ -121,6 +121,8 @@ def test_resume_with_other_settings_is_refused(auto_run, capsys):
     ([], 'estimator = "rare"\n', "simulation.estimator"),
     ([], 'level_probability = 0.2\n', "simulation.level_probability"),
     ([], 'estimator = "subset"\nsamples_per_level = 105\n', "simulation.samples_per_level"),
+    ([], 'estimator = "auto"\nfield_method = "spectral"\n', "simulation.field_method"),
+    (["--estimator", "subset"], 'field_method = "spectral"\n', "simulation.field_method"),
 ])
 @pytest.mark.parametrize("command", ["simulate", "run", "sweep"])
 def test_bad_input_exits_2_naming_the_key_before_writing(tmp_path, capsys, args, extra, key, command):

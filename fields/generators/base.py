@@ -265,3 +265,9 @@ def generator_names():
     from . import cholesky, circulant, kl, spectral  # noqa: F401
     return tuple(sorted(_REGISTRY))
 
+
+def noise_generator_names():
+    """Method names whose generators expose their white noise (:meth:`FieldGenerator.noise`)."""
+    from . import cholesky, circulant, kl, spectral  # noqa: F401
+    return tuple(sorted(n for n, cls in _REGISTRY.items() if cls.noise_size is not None))
+

@@ -593,6 +593,13 @@ def _check_subset(sim: dict, where, problems: list[str]) -> None:
             problems.append(f"{where('simulation', None, k)}simulation.{k} is used only by subset simulation; set "
                             "simulation.estimator = \"subset\" or \"auto\", or remove it")
         return
+    from slipfield.fields.generators import noise_generator_names
+
+    if sim.get("field_method", "fft") not in noise_generator_names():
+        problems.append(f"{where('simulation', None, 'field_method')}simulation.field_method = "
+                        f"{sim.get('field_method')!r} cannot be used with estimator {sim['estimator']!r}: subset "
+                        "simulation moves the fields' white noise, which this generator draws inside GSTools; use "
+                        f"one of {', '.join(noise_generator_names())}")
     try:
         SubsetSettings.from_case(sim)
     except InputError as exc:

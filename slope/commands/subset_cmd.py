@@ -35,6 +35,12 @@ def estimator_settings(case, estimator=None, level_probability=None, samples_per
             raise InputError("--level-probability / --samples-per-level are used only by subset simulation; give "
                              "--estimator subset or auto, or leave them out")
         return name, None
+    from slipfield.fields.generators import noise_generator_names
+
+    if sim["field_method"] not in noise_generator_names():
+        raise InputError(f"simulation.field_method = {sim['field_method']!r}: subset simulation moves the fields' "
+                         f"white noise, which this generator draws inside GSTools; use one of "
+                         f"{', '.join(noise_generator_names())} with --estimator {name}")
     return name, SubsetSettings.from_case(sim, level_probability, samples_per_level)
 
 
