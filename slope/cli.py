@@ -1,18 +1,31 @@
 """The ``slipfield`` command line: a thin layer over the Python API.
 
 Exit status: 0 success, 2 bad input (the message names the field and the
-fix), 1 an internal failure.
+fix) or a dask scheduler that stopped answering, 130 interrupted (Ctrl-C),
+143 terminated (SIGTERM), 1 an internal failure.
 """
 from __future__ import annotations
 
 import argparse
 import json
+import signal
 import sys
 import traceback
 
 from slipfield.fields.errors import InputError
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "version"]
+
+
+def version() -> str:
+    """The installed distribution's version (``importlib.metadata``)."""
+    from importlib.metadata import PackageNotFoundError
+    from importlib.metadata import version as dist_version
+
+    try:
+        return dist_version("slipfield")
+    except PackageNotFoundError:
+        return "unknown (not installed)"
 
 
 def _whole(lo):
@@ -44,7 +57,7 @@ def _cmd_run(args) -> int:
     from .commands.run import run_case
 
     results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
-                       **_estimator_kw(args))
+                       overwrite=args.overwrite, **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -91,7 +104,7 @@ def _cmd_simulate(args) -> int:
                       seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
                       export_fields=args.export_fields, export_format=args.export_format,
                       progress=not args.quiet, refine_below=args.refine_below,
-                      refine_method=args.refine_method, **_estimator_kw(args))
+                      refine_method=args.refine_method, overwrite=args.overwrite, **_estimator_kw(args))
     if r.get("estimator") == "subset":
         _print_subset(r, args)
     elif args.json:
@@ -134,7 +147,7 @@ def _cmd_sweep(args) -> int:
     r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
                    realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
                    hypothesis=args.hypothesis, scheduler=args.scheduler, progress=not args.quiet,
-                   **_estimator_kw(args))
+                   overwrite=args.overwrite, **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations_per_point", "rows")},
                          indent=2))
@@ -165,6 +178,14 @@ def _sim_options(p, *, sweep=False):
                    help="run on a dask.distributed scheduler, e.g. tcp://host:8786")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _overwrite_option(p)
+
+
+def _overwrite_option(p):
+    p.add_argument("--overwrite", action="store_true",
+                   help="allow an output folder that holds slipfield's own earlier output of another command "
+                        "(or, for simulate without --resume, start its run afresh); only files slipfield wrote "
+                        "there are replaced, never others")
 
 
 def _estimator_options(p):
@@ -177,7 +198,7 @@ def _estimator_options(p):
     p.add_argument("--level-probability", type=float, default=None, metavar="P0",
                    help="subset: conditional probability of each level, in (0, 0.5] (default "
                         "simulation.level_probability, then 0.1)")
-    p.add_argument("--samples-per-level", type=int, default=None, metavar="N",
+    p.add_argument("--samples-per-level", type=_whole(1), default=None, metavar="N",
                    help="subset: samples per level (default simulation.samples_per_level, then 1000)")
 
 
@@ -191,6 +212,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = argparse.ArgumentParser(prog="slipfield", description="Probability of failure of slopes with spatially "
                                 "variable soil strength.")
+    p.add_argument("--version", action="version", version=f"slipfield {version()}")
     sub = p.add_subparsers(dest="command", required=True)
     r = sub.add_parser("run", help="run every analysis of a case and write results, figures and report.html")
     r.add_argument("case", help="case file (.toml)")
@@ -199,6 +221,7 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--jobs", type=_whole(1), default=None, help="override simulation.jobs")
     r.add_argument("--json", action="store_true", help="print the summary as JSON")
     r.add_argument("--quiet", action="store_true", help="no progress output")
+    _overwrite_option(r)
     _estimator_options(r)
     r.set_defaults(func=_cmd_run)
     c = sub.add_parser("check", help="check a case file and report every problem at once")
@@ -233,22 +256,48 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised in the main thread so that staging folders and workers are cleaned up."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+_CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the same command with --resume to "
+                         "continue",
+             "run": "nothing was written to --out; run the command again",
+             "sweep": "nothing was written to --out; run the command again"}
+
+
 def main(argv=None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # a refused option (exit 2, argparse's message printed), --help or --version
+        return int(exc.code or 0)
+    try:
+        old_term = signal.signal(signal.SIGTERM, _on_sigterm)
+    except ValueError:  # not the main thread (embedded use): leave signals alone
+        old_term = None
     try:
         return int(args.func(args) or 0)
     except InputError as exc:
         print(f"slipfield: error: {exc}", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print("slipfield: interrupted", file=sys.stderr)
-        return 1
+    except KeyboardInterrupt as exc:
+        how = _CONTINUE.get(args.command, "run the command again")
+        what = "terminated" if isinstance(exc, Terminated) else "interrupted"
+        print(f"slipfield: {what}; {how}", file=sys.stderr)
+        return 143 if isinstance(exc, Terminated) else 130
     except Exception as exc:  # noqa: BLE001 - an internal failure: report it, exit 1
         traceback.print_exc(file=sys.stderr)
         print(f"slipfield: internal error: {type(exc).__name__}: {exc} (please report it with the case file)",
               file=sys.stderr)
         return 1
+    finally:
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
 
 
 if __name__ == "__main__":

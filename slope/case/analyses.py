@@ -16,10 +16,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from slipfield.fields.marginals import make_marginal
+from slipfield.fields.marginals import make_marginal, marginal_form
 
 from ..bank import unit_weight_parts
 from .build import Case, theta_value
+from .schema import acts_under
 from ..errors import InputError
 from ..reliability.limit_state import LimitState
 from ..reliability.registry import Settings, run_estimator
@@ -31,10 +32,6 @@ from ..surfaces import Circle
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
            "properties_for"]
-
-# which random properties act under which hypothesis
-_DRAINED_PROPS = ("c", "phi")
-_UNDRAINED_PROPS = ("su", "su_ratio")
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -109,24 +106,21 @@ def deterministic(case: Case) -> dict:
 
 
 def properties_for(case: Case, hypothesis: str) -> list[dict]:
-    """The case's random properties that act under ``hypothesis``.
-
-    Drained: c', φ' of every material; undrained: su (as a factor on the
-    material's su law), su_ratio, and c', φ' of materials without an undrained
-    strength (they stay drained); a unit weight acts under both.
-    """
+    """The case's random properties that act under ``hypothesis`` (rule: :func:`.schema.acts_under`)."""
     mats = case.section.materials
-    out = []
-    for r in case.randoms:
-        m = mats[r["material"]]
-        p = r["property"]
-        if p == "unit_weight":
-            out.append(r)
-        elif hypothesis == "drained" and p in _DRAINED_PROPS:
-            out.append(r)
-        elif hypothesis == "undrained" and (p in _UNDRAINED_PROPS or (p in _DRAINED_PROPS and not m.has_undrained)):
-            out.append(r)
-    return out
+    return [r for r in case.randoms if acts_under(r["property"], mats[r["material"]].has_undrained, hypothesis)]
+
+
+def _marginal_kwargs(r: dict, default_mean: float, scale: float = 1.0) -> dict:
+    """Parameters of a [[random]] entry for make_marginal, in the form its keys state (values ÷ ``scale``)."""
+    given = {k for k in ("mean", "lower", "upper", "mode") if k in r} | ({"spread"} if "cov" in r else set())
+    form = marginal_form(r["distribution"], given, implied={"mean"})
+    kw = {k: float(r[k]) / scale for k in ("lower", "upper", "mode") if k in r}
+    if "mean" in form:
+        kw["mean"] = float(r.get("mean", default_mean * scale)) / scale
+    if "cov" in r:
+        kw["cov"] = float(r["cov"])
+    return kw
 
 
 def marginal_of(case: Case, r: dict):
@@ -134,28 +128,26 @@ def marginal_of(case: Case, r: dict):
 
     c' (kPa) and φ' (degrees) keep their values (mean: the material's unless
     given); su and su_ratio are factors of mean 1 on the material's
-    undrained law, so a trend with depth keeps its shape; a unit weight is
-    given in kN/m³ (mean: the material's γ unless given) and used as the
-    factor value/γ on γ and γsat.
+    undrained law, so a trend with depth keeps its shape (bounds and mode are
+    factors too); a unit weight is given in kN/m³ (mean: the material's γ
+    unless given) and used as the factor value/γ on γ and γsat.
     """
     mat = case.section.materials[r["material"]]
     p = r["property"]
-    kw = {k: r[k] for k in ("lower", "upper") if k in r}
     if p == "unit_weight":
         g = float(mat.unit_weight)
-        mean = float(r.get("mean", g))
-        if mean <= 0:
-            raise InputError(f"random property {r['material']}.unit_weight: the mean is {mean:g} kN/m³; give a "
-                             "positive mean")
-        return make_marginal(r["distribution"], mean=mean / g, cov=float(r["cov"]),
-                             **{k: v / g for k, v in kw.items()})
+        kw = _marginal_kwargs(r, 1.0, g)
+        if kw.get("mean", 1.0) <= 0:
+            raise InputError(f"random property {r['material']}.unit_weight: the mean is {kw['mean'] * g:g} kN/m³; "
+                             "give a positive mean")
+        return make_marginal(r["distribution"], **kw)
     if p in ("su", "su_ratio"):
-        return make_marginal(r["distribution"], mean=float(r.get("mean", 1.0)), cov=float(r["cov"]), **kw)
-    mean = float(r.get("mean", getattr(mat, p)))
-    if mean <= 0:
-        raise InputError(f"random property {r['material']}.{p}: the mean is {mean:g}; give a positive "
+        return make_marginal(r["distribution"], **_marginal_kwargs(r, 1.0))
+    kw = _marginal_kwargs(r, float(getattr(mat, p)))
+    if kw.get("mean", 1.0) <= 0:
+        raise InputError(f"random property {r['material']}.{p}: the mean is {kw['mean']:g}; give a positive "
                          f"mean in the [[random]] entry or in the material")
-    return make_marginal(r["distribution"], mean=mean, cov=float(r["cov"]), **kw)
+    return make_marginal(r["distribution"], **kw)
 
 
 def _name(r) -> str:

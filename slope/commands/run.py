@@ -17,9 +17,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import shutil
-import tempfile
 import time
 from pathlib import Path
 
@@ -182,7 +179,7 @@ def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
     from ..simulate import simulate
     from ..simulate.studies import reduced_variance_problem
 
-    red, table = reduced_variance_problem(prob)
+    red, table = reduced_variance_problem(prob, fixed_only=True)  # only fs_fixed is read
     t0 = time.perf_counter()
     res = simulate(red, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet)
     wall = time.perf_counter() - t0
@@ -373,7 +370,7 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg"), estimator=None, level_probability=None,
+             figure_formats=("png", "svg"), overwrite=False, estimator=None, level_probability=None,
              samples_per_level=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
@@ -393,6 +390,10 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     figure_formats : sequence of str
         Files written per figure under ``figures/``: ``"png"`` (always, it is
         what the report embeds) and optionally ``"svg"``.
+    overwrite : bool
+        Allow an ``out_dir`` holding another slipfield command's output
+        (:class:`slope.commands.folders.OutputFolder`: only slipfield's own
+        files are ever replaced).
 
     Returns
     -------
@@ -413,10 +414,11 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     from .subset_cmd import estimator_settings
 
     est = estimator_settings(case, estimator, level_probability, samples_per_level)
-    preflight(case, realisations=n)
-    out_dir = Path(out_dir)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
+    preflight(case, realisations=None if realisations is None else n)
+    from .folders import OutputFolder
+
+    out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
+    stage = out.stage()
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1, estimator=est) for h in case.analysis["hypotheses"]}
@@ -447,15 +449,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
         results["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         (stage / "results.json").write_text(json.dumps(_jsonable(results), indent=2, allow_nan=False))
-        if out_dir.exists():
-            old = out_dir.with_name(f".{out_dir.name}.old-{os.getpid()}")
-            out_dir.rename(old)
-            stage.rename(out_dir)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            stage.rename(out_dir)
+        out.commit(stage)
     except BaseException:
-        shutil.rmtree(stage, ignore_errors=True)
+        out.discard(stage)
         raise
     return _jsonable(results)
 

@@ -126,37 +126,65 @@ def write_subset_outputs(res, folder: Path, title: str) -> list[str]:
     return files
 
 
-def simulate_subset_case(case, case_path, prob, hyp, out: Path, settings, *, seed, n_jobs, batch, resume,
-                         scheduler, refine, progress, chosen_by=None) -> dict:
-    """``slipfield simulate`` with subset simulation: level checkpoints in ``out/store``, outputs staged."""
-    import os
+def choose_estimator(case, prob, estimator, level_probability, samples_per_level, seed, n_jobs, block, refine):
+    """The estimator ``simulate`` runs: ``(dict of the choice, SubsetSettings or None)``.
+
+    ``auto`` runs Monte Carlo's first batch (``block`` realisations, in memory)
+    and decides on its failures; the dict records why.
+    """
+    from ..simulate import simulate
+
+    name, sub = estimator_settings(case, estimator, level_probability, samples_per_level)
+    if name != "auto":
+        return {"estimator": name, "estimator_setting": name}, sub
+    first = simulate(prob, block, seed, n_jobs=n_jobs, batch=block, refine=refine)
+    chosen, k = resolve_auto(name, first.fs)
+    return {"estimator": chosen, "estimator_setting": "auto", "first_batch": block, "first_batch_failures": k}, sub
+
+
+def simulate_subset_case(case, case_path, prob, hyp, out, settings, *, seed, n_jobs, batch, resume, overwrite,
+                         scheduler, refine, progress, chosen, identity) -> dict:
+    """``slipfield simulate`` with subset simulation: level checkpoints in ``out/store``, outputs staged.
+
+    ``out`` is the checked :class:`~.folders.OutputFolder`; ``identity`` the
+    case fingerprint the store is tied to.
+    """
     import shutil
-    import tempfile
     import time
 
+    from ..simulate import connect_scheduler
     from ..simulate.rare import subset_simulate
-    from ..simulate.rare_store import subset_store_header
+    from ..simulate.rare_store import LevelStore, subset_store_identity
+    from ._shared import RESULTS_VERSION, write_json
     from .run import CAUTION, _jsonable
-    from .simulate import RESULTS_VERSION, _STORE, _check_out_for_simulate, _scheduler, _write_json
 
     t0 = time.perf_counter()
+    store = out.path / "store"
+    fresh = overwrite and not resume
     ident = {"path": str(case_path), "title": case.title, "hypothesis": hyp, "seed": seed,
              "fingerprint": prob.fingerprint()}
-    resumed = _check_out_for_simulate(out, subset_store_header(prob, seed, settings, refine), ident, resume)
-    store = out / _STORE
-    with _scheduler(scheduler) as client:
+    lv = LevelStore(store, subset_store_identity(prob, seed, settings, refine, identity))
+    resumed = False if fresh else lv.check(
+        resume=resume, fix="use a new --out (or --overwrite to start this one afresh)",
+        resume_hint="pass --resume to continue it")
+    client = None if scheduler is None else connect_scheduler(scheduler, option="--scheduler")
+    try:
         # every input is checked: from here on the run writes
-        out.mkdir(parents=True, exist_ok=True)
-        store.mkdir(exist_ok=True)
-        _write_json(store / "case.json", ident)
-        res = subset_simulate(prob, settings, seed, n_jobs=n_jobs, batch=batch, store=str(store),
-                              scheduler=client, refine=refine, progress=progress)
-    stage = Path(tempfile.mkdtemp(prefix=".partial-", dir=out))
+        out.claim(folders=["store"])
+        if fresh and store.exists():
+            shutil.rmtree(store)  # slipfield's own store (listed in the folder's marker)
+        res = subset_simulate(prob, settings, seed, n_jobs=n_jobs, batch=batch, store=str(store), resume=resumed,
+                              scheduler=client, refine=refine, progress=progress, store_identity=identity)
+        write_json(store / "case.json", ident)
+    finally:
+        if client is not None:
+            client.close()
+    stage = out.stage()
     try:
         files = write_subset_outputs(res, stage, case.title)
         results = {
             "slipfield_results_version": RESULTS_VERSION, "command": "simulate", "estimator": "subset",
-            "estimator_choice": chosen_by,
+            "estimator_choice": chosen,
             "case": {"path": str(case_path), "title": case.title, "note": case.data["case"].get("note", "")},
             "hypothesis": hyp, "method": prob.method, "seed": seed, "batch": batch, "jobs": n_jobs,
             "scheduler": scheduler, "resumed": bool(resumed), "problem_fingerprint": ident["fingerprint"],
@@ -165,15 +193,12 @@ def simulate_subset_case(case, case_path, prob, hyp, out: Path, settings, *, see
             "units": {"fs": "-", "pf": "probability (fraction)", "theta": "m"}, "caution": CAUTION,
         }
         results["wall_time_s"] = round(time.perf_counter() - t0, 3)
-        results["files"] = files + ["results.json", f"{_STORE}/"]
-        _write_json(stage / "results.json", results)
-        for f in files:
-            dst = out / f
-            dst.parent.mkdir(parents=True, exist_ok=True)
-            os.replace(stage / f, dst)
-        os.replace(stage / "results.json", out / "results.json")  # last: marks a finished run
-    finally:
-        shutil.rmtree(stage, ignore_errors=True)
+        results["files"] = files + ["results.json", "store/"]
+        write_json(stage / "results.json", results)
+        out.commit(stage)
+    except BaseException:
+        out.discard(stage)
+        raise
     return _jsonable(results)
 
 

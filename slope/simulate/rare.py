@@ -61,7 +61,7 @@ from ..errors import InputError
 from ..reliability.subset import _gamma
 from .driver import _concat, _run_block, simulate
 from .problem import RandomProblem
-from .rare_store import LevelStore
+from .rare_store import LevelStore, subset_store_identity
 
 __all__ = ["SubsetSettings", "NoiseLayout", "GivenNoise", "subset_simulate", "ESTIMATORS",
            "AUTO_MIN_FAILURES", "STREAM"]
@@ -339,8 +339,8 @@ def _level_from_samples(fs, crit, st: SubsetSettings, chains_shape, level):
     return info
 
 
-def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=100, store=None,
-                    scheduler=None, refine=None, progress=False):
+def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=100, store=None, resume=False,
+                    scheduler=None, refine=None, progress=False, store_identity=None):
     """Subset simulation of pf = P(FS < threshold) over the simulator's whole random input.
 
     Parameters
@@ -353,13 +353,18 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
     batch : int
         Samples evaluated together (memory ~ batch × surfaces × slices).
     store : str, optional
-        Folder of the level checkpoints: a run interrupted between levels
-        continues from its last finished level (same problem, seed, settings).
+        Folder of the level checkpoints (:class:`~.rare_store.LevelStore`).
+    resume : bool
+        Continue the run held in ``store`` from its last finished level (it
+        must be of the same problem, seed and settings); without it a
+        ``store`` holding a run is refused.
     scheduler : dask.distributed.Client, optional
     refine : RefineSettings, optional
         As :func:`slope.simulate.simulate`.
     progress : bool
         Print one line per finished level.
+    store_identity : dict, optional
+        More identity for the store (e.g. the case's fingerprint).
 
     Returns
     -------
@@ -380,14 +385,18 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
     layout = NoiseLayout(problem)
     st = settings
     N, nc, ns = st.samples_per_level, st.n_chains, st.chain_length
-    ckpt = None if store is None else LevelStore(store, problem, seed, st, refine)
-    state = None if ckpt is None else ckpt.load()
+    ckpt = None
+    if store is not None:
+        ckpt = LevelStore(store, subset_store_identity(problem, seed, st, refine, store_identity))
+        resume = ckpt.open(resume=resume)
+    state = ckpt.load() if resume else None
     counts = {"n": 0, "nonconv": 0, "inadm": 0, "none": 0, "refined": 0}
     levels, lam = [], _LAMBDA0
     gen_stats = {"acceptance": None, "lambda": None}  # of the chains that made the current level
     if state is None:
         mc = simulate(problem, N, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler, refine=refine,
-                      store=None if ckpt is None else ckpt.level0_dir(), resume=True)
+                      store=None if ckpt is None else ckpt.level0_dir(), resume=resume,
+                      store_identity=store_identity)
         fs, crit = _fs_rank(mc.fs), mc.critical_index.copy()
         counts.update(n=N, nonconv=mc.n_nonconverged, inadm=mc.n_inadmissible, none=mc.n_no_valid,
                       refined=mc.n_refined)

@@ -198,10 +198,12 @@ def test_interrupted_run_resumes_between_levels(block, tmp_path, monkeypatch):
     with pytest.raises(KeyboardInterrupt):
         subset_simulate(_problem(mean), st, seed=4, batch=50, store=tmp_path / "s")
     monkeypatch.setattr(rare_store.LevelStore, "save", save)
-    again = subset_simulate(_problem(mean), st, seed=4, batch=50, store=tmp_path / "s")
+    again = subset_simulate(_problem(mean), st, seed=4, batch=50, store=tmp_path / "s", resume=True)
     assert again.levels == whole.levels and again.pf == whole.pf and again.n_evaluations == whole.n_evaluations
     with pytest.raises(InputError, match="seed differs"):
-        subset_simulate(_problem(mean), st, seed=5, store=tmp_path / "s")
+        subset_simulate(_problem(mean), st, seed=5, store=tmp_path / "s", resume=True)
+    with pytest.raises(InputError, match="already holds a run"):
+        subset_simulate(_problem(mean), st, seed=4, store=tmp_path / "s")
 
 
 def test_theta_infinite_is_the_single_variable_estimate(block):
