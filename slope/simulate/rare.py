@@ -277,11 +277,16 @@ def _replay(layout, seed, level, chain, u0, rho, sigma, accepted, step):
 def _map(fn, calls, n_jobs, scheduler):
     """``fn(*args)`` for each argument tuple, in order: locally, with joblib, or on a dask cluster."""
     if scheduler is not None:
+        from .driver import _scheduler_results
+
         futs = [scheduler.submit(fn, *a, pure=False) for a in calls]
         try:
-            return [f.result() for f in futs]
+            return list(_scheduler_results(scheduler, futs))  # a lost scheduler: SchedulerLost, as Monte Carlo
         finally:
-            scheduler.cancel(futs)
+            try:
+                scheduler.cancel(futs)
+            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
+                pass
     if n_jobs == 1 or len(calls) == 1:
         return [fn(*a) for a in calls]
     from joblib import Parallel, delayed

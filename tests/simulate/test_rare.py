@@ -147,11 +147,13 @@ def test_twenty_seeds_mean_and_spread(block):
 class _InlineClient:
     """The part of a dask.distributed Client the simulator uses, run in this process."""
 
+    status = "running"
+
     class _Done:
         def __init__(self, v):
             self.v = v
 
-        def result(self):
+        def result(self, timeout=None):
             return self.v
 
     def submit(self, fn, *args, pure=False):
