@@ -43,6 +43,9 @@ PRESENTATION_KEYS = frozenset({
     "simulation.jobs", "simulation.batch",          # results are identical for any jobs and batch
     "simulation.seed",                              # the seed actually used is recorded on its own (--seed)
     "simulation.refine_below", "simulation.refine_method",  # the refinement used is recorded on its own
+    # the estimator: a Monte Carlo store holds realisations, whichever estimator chose it; a subset
+    # store records its settings in its own identity (slope.simulate.rare_store)
+    "simulation.estimator", "simulation.level_probability", "simulation.samples_per_level",
     "simulation.refine_search",
     "analysis.hypotheses",                          # the hypothesis actually run is recorded on its own
     "analysis.methods",                             # the deterministic table of `run`; simulate uses analysis.method
