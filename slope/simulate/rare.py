@@ -60,6 +60,7 @@ from slipfield.fields.seeding import realisation_rng
 from ..errors import InputError
 from ..reliability.subset import _gamma
 from .driver import _concat, _run_block, simulate
+from .engine import stencil
 from .problem import RandomProblem
 from .rare_store import LevelStore, subset_store_identity
 
@@ -234,12 +235,37 @@ def _propose(u, rho, sigma, xi):
     return rho * u + sigma * xi
 
 
-def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, b, rho, sigma, n_steps, refine, batch):
+def _worker_problem(problem, parent):
+    """The problem in a task: itself, or loaded once per worker from the file the run shipped it in."""
+    if not isinstance(problem, str):
+        return problem
+    from . import driver
+
+    if parent is not None:
+        driver._watch_parent(parent)
+    held = driver._WORKER_PROBLEM.get(problem)
+    if held is None:
+        import pickle
+
+        import numba
+
+        with open(problem, "rb") as fh:
+            held = pickle.load(fh)
+        driver._WORKER_PROBLEM.clear()  # one problem per worker, as Monte Carlo's blocks
+        driver._WORKER_PROBLEM[problem] = held
+        numba.set_num_threads(1)  # the workers already use every core; results do not depend on it
+    return held
+
+
+def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, b, rho, sigma, n_steps, refine, batch,
+                parent=None):
     """Advance chains ``chains`` (global numbers) from their seeds ``u0`` for ``n_steps`` steps.
 
-    Returns dict: ``fs``, ``crit`` (n_steps + 1, k) (row 0: the seeds),
-    ``accepted`` (n_steps, k) bool, ``counts`` of the evaluations.
+    ``problem`` is the RandomProblem or the path it was shipped to (local
+    processes). Returns dict: ``fs``, ``crit`` (n_steps + 1, k) (row 0: the
+    seeds), ``accepted`` (n_steps, k) bool, ``counts`` of the evaluations.
     """
+    problem = _worker_problem(problem, parent)
     rngs = _rngs(seed, level, chains)
     u, y, c = np.array(u0, float), np.array(y0, float), np.array(c0, int)
     fs, crit, acc = [y.copy()], [c.copy()], []
@@ -300,7 +326,7 @@ def _split(items, parts):
 
 
 # ------------------------------------------------------------------ levels
-def _level_from_samples(fs, crit, st: SubsetSettings, chains_shape, level):
+def _level_from_samples(fs, st: SubsetSettings, chains_shape, level):
     """Threshold, probability and CoV of one level from its samples' FS (see module doc)."""
     N, nc, t = st.samples_per_level, st.n_chains, st.threshold
     order = np.argsort(fs, kind="stable")
@@ -397,6 +423,34 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
     state = ckpt.load() if resume else None
     counts = {"n": 0, "nonconv": 0, "inadm": 0, "none": 0, "refined": 0}
     levels, lam = [], _LAMBDA0
+    if state is not None:
+        levels, lam, counts = state["levels"], state["lambda"], state["counts"]
+    # the problem goes to the workers once (a file for local processes, scattered on a cluster),
+    # not pickled with every group of chains
+    shipped, parent = problem, None
+    if scheduler is not None:
+        shipped = scheduler.scatter(problem, broadcast=True)
+    elif n_jobs > 1:
+        from .driver import _ship
+
+        stencil(problem)
+        shipped, parent = _ship(problem), os.getpid()
+    try:
+        final, stop = _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs,
+                              batch, scheduler, refine, progress, resume, store_identity)
+    finally:
+        if isinstance(shipped, str):
+            from .driver import _unship
+
+            _unship(shipped)
+    return SubsetResult.build(problem=problem, settings=st, seed=seed, levels=levels, counts=counts,
+                              stop=stop, final=final, layout=layout, refine=refine)
+
+
+def _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs, batch,
+            scheduler, refine, progress, resume, store_identity):
+    """The level loop of :func:`subset_simulate` (fills ``levels`` and ``counts``): (final samples, stop message)."""
+    N, nc, ns = st.samples_per_level, st.n_chains, st.chain_length
     gen_stats = {"acceptance": None, "lambda": None}  # of the chains that made the current level
     if state is None:
         mc = simulate(problem, N, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler, refine=refine,
@@ -407,12 +461,11 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
                       refined=mc.n_refined)
         chains_shape, level, replay = None, 0, None
     else:
-        levels, lam, counts = state["levels"], state["lambda"], state["counts"]
         level = len(levels) - 1
-    stop = None
+    stop = final = None
     while True:
         if state is None:
-            info = _level_from_samples(fs, crit, st, chains_shape, level)
+            info = _level_from_samples(fs, st, chains_shape, level)
             if "stop" in info:
                 stop = info["stop"]
                 final = None
@@ -453,7 +506,8 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
             sigma = np.minimum(1.0, lam * spread)
             rho = np.sqrt(1.0 - sigma * sigma)
             grp = np.arange(a, min(a + n_a, nc))
-            calls = [(problem, layout, seed, level, g, U0[g], Y0[g], C0[g], b, rho, sigma, ns - 1, refine, batch)
+            calls = [(shipped, layout, seed, level, g, U0[g], Y0[g], C0[g], b, rho, sigma, ns - 1, refine, batch,
+                      parent)
                      for g in _split(grp, n_jobs if scheduler is None else len(grp))]
             for g, out in zip([c[4] for c in calls], _map(_run_chains, calls, n_jobs, scheduler)):
                 res_fs[:, g], res_crit[:, g], res_acc[:, g] = out["fs"], out["crit"], out["accepted"]
@@ -469,8 +523,7 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
         fs, crit = res_fs.ravel(), res_crit.ravel()
         chains_shape = (ns, nc)
         replay = _Replay(U0, res_acc, lams, n_a, spread, nc)
-    return SubsetResult.build(problem=problem, settings=st, seed=seed, levels=levels, counts=counts,
-                              stop=stop, final=final, layout=layout, refine=refine)
+    return final, stop
 
 
 class _Replay:
