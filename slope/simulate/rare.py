@@ -436,19 +436,21 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
         stencil(problem)
         shipped, parent = _ship(problem), os.getpid()
     try:
+        level0_fs = []  # Monte Carlo's FS of level 0 (when computed in this call, not resumed)
         final, stop = _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs,
-                              batch, scheduler, refine, progress, resume, store_identity)
+                              batch, scheduler, refine, progress, resume, store_identity, level0_fs)
     finally:
         if isinstance(shipped, str):
             from .driver import _unship
 
             _unship(shipped)
     return SubsetResult.build(problem=problem, settings=st, seed=seed, levels=levels, counts=counts,
-                              stop=stop, final=final, layout=layout, refine=refine)
+                              stop=stop, final=final, layout=layout, refine=refine,
+                              level0_fs=level0_fs[0] if level0_fs else None)
 
 
 def _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs, batch,
-            scheduler, refine, progress, resume, store_identity):
+            scheduler, refine, progress, resume, store_identity, level0_fs):
     """The level loop of :func:`subset_simulate` (fills ``levels`` and ``counts``): (final samples, stop message)."""
     N, nc, ns = st.samples_per_level, st.n_chains, st.chain_length
     gen_stats = {"acceptance": None, "lambda": None}  # of the chains that made the current level
@@ -457,6 +459,7 @@ def _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam
                       store=None if ckpt is None else ckpt.level0_dir(), resume=resume,
                       store_identity=store_identity)
         fs, crit = _fs_rank(mc.fs), mc.critical_index.copy()
+        level0_fs.append(np.asarray(mc.fs, float))
         counts.update(n=N, nonconv=mc.n_nonconverged, inadm=mc.n_inadmissible, none=mc.n_no_valid,
                       refined=mc.n_refined)
         chains_shape, level, replay = None, 0, None
@@ -574,8 +577,10 @@ def theta_sweep_rare(problem, theta_h, theta_v, n, seed, settings, estimator="su
                 if use == "subset":
                     r = subset_simulate(prob, settings, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler)
                     lo, hi = r.interval_95
+                    f0 = r.level0_fs[np.isfinite(r.level0_fs)]  # level 0: N Monte Carlo realisations
                     done[eff] = {"estimator": "subset", "pf": r.pf, "lo": lo, "hi": hi, "cov": r.cov,
-                                 "status": r.status, "mean_fs": float("nan"), "std_fs": float("nan"),
+                                 "status": r.status, "mean_fs": float(f0.mean()) if f0.size else float("nan"),
+                                 "std_fs": float(f0.std(ddof=1)) if f0.size > 1 else float("nan"),
                                  "n": r.n_evaluations, "n_valid": r.n_evaluations - r.counts["none"],
                                  "n_nonconverged": r.counts["nonconv"], "n_inadmissible": r.counts["inadm"],
                                  "n_no_valid_surface": r.counts["none"]}

@@ -58,6 +58,9 @@ class SubsetResult:
     failures : dict of ndarray
         Last-level samples with FS < threshold: ``fs``, ``crit`` (bank index
         of the critical surface), ``sample`` (flat index in the level).
+    level0_fs : ndarray or None
+        Critical FS of level 0 (the first N Monte Carlo realisations; NaN
+        without a valid surface); None when level 0 came from a checkpoint.
     """
 
     pf: float | None
@@ -77,11 +80,12 @@ class SubsetResult:
     final_fs: np.ndarray = field(repr=False)
     problem: object = field(default=None, repr=False)
     refine: object = None
+    level0_fs: np.ndarray | None = field(default=None, repr=False)
     _layout: object = field(default=None, repr=False)
     _replay: object = field(default=None, repr=False)
 
     @classmethod
-    def build(cls, *, problem, settings, seed, levels, counts, stop, final, layout, refine):
+    def build(cls, *, problem, settings, seed, levels, counts, stop, final, layout, refine, level0_fs=None):
         probs = [lv["probability"] for lv in levels]
         deltas = [lv["cov"] for lv in levels]
         reached = float(np.prod(probs)) if probs else 1.0
@@ -119,7 +123,7 @@ class SubsetResult:
                    beta=float(beta_from_pf(pf)) if pf else float("nan"), pf_upper=reached, levels=levels,
                    n_evaluations=int(counts["n"]), counts=dict(counts), status=status, message=msg,
                    settings=settings, seed=int(seed), failures=failures, final_fs=final_fs, problem=problem,
-                   refine=refine, _layout=layout, _replay=replay)
+                   refine=refine, level0_fs=level0_fs, _layout=layout, _replay=replay)
 
     @property
     def thresholds(self) -> list:
@@ -194,6 +198,14 @@ class SubsetResult:
         u = self.failure_noise(which)
         return realise_fields(self.problem, GivenNoise(self._layout, u[None], [0]), 0)
 
+    def _level0(self, what):
+        if self.level0_fs is None:
+            return None
+        f = self.level0_fs[np.isfinite(self.level0_fs)]
+        if f.size < 2:
+            return None
+        return float(f.mean()) if what == "mean" else float(f.std(ddof=1))
+
     def to_dict(self) -> dict:
         """JSON-ready summary (FS dimensionless, pf a fraction)."""
         lo, hi = self.interval_95
@@ -206,6 +218,7 @@ class SubsetResult:
                 "n_failure_samples": int(self.failures["fs"].size),
                 "n_nonconverged": int(self.counts["nonconv"]), "n_inadmissible": int(self.counts["inadm"]),
                 "n_no_valid_surface": int(self.counts["none"]), "n_refined": int(self.counts["refined"]),
+                "level0_mean_fs": self._level0("mean"), "level0_std_fs": self._level0("std"),
                 "settings": self.settings.describe(), "seed": self.seed,
                 "refine": None if self.refine is None else self.refine.describe(),
                 "method": "subset simulation (Au & Beck 2001), adaptive conditional sampling "
