@@ -178,13 +178,29 @@ class NoiseLayout:
             for z in problem.zones_of(i):
                 self.blocks[(i, z)] = (off, size)
                 off += size
+        # site data with measurement errors: the simulated errors are random input too
+        from .conditioning import conditioner
+
+        for i, p in enumerate(problem.properties):
+            for z in problem.zones_of(i):
+                c = conditioner(problem, i, z)
+                if c is not None and np.any(c.cov.nugget > 0):
+                    self.blocks[("error", i, z)] = (off, c.cells.size)
+                    off += c.cells.size
         self.size = off
 
     def draw(self, problem, seed, indices) -> np.ndarray:
         """The noise of Monte Carlo realisations ``indices``, as the engine draws it: ``(s, size)``."""
+        from slipfield.fields.conditioning import NOISE_STREAM
+
         idx = [int(k) for k in indices]
         out = np.empty((len(idx), self.size))
-        for (i, z), (off, size) in self.blocks.items():
+        for key, (off, size) in self.blocks.items():
+            if key[0] == "error":  # as DataCovariance.noise draws them, before scaling
+                out[:, off:off + size] = [realisation_rng(seed, k, *key[1:], NOISE_STREAM).standard_normal(size)
+                                          for k in idx]
+                continue
+            i, z = key
             if problem.properties[i].single:
                 out[:, off] = [realisation_rng(seed, k, i, z).standard_normal() for k in idx]
             else:
@@ -201,6 +217,12 @@ class GivenNoise:
 
     def __init__(self, layout: NoiseLayout, U, keys):
         self.layout, self.U, self.keys = layout, np.asarray(U, float), np.asarray(keys, np.int64)
+
+    def measurement_errors(self, cond, indices, stream):
+        """Simulated measurement errors of a :class:`~.conditioning.ZoneConditioner` for rows ``indices``."""
+        rows = np.asarray(list(indices), dtype=np.int64)
+        off, size = self.layout.blocks[("error", *stream)]
+        return self.U[rows, off:off + size] * np.sqrt(cond.cov.nugget)
 
     def standard_normals(self, problem, indices, i, z):
         rows = np.asarray(list(indices), dtype=np.int64)

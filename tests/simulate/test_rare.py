@@ -268,3 +268,21 @@ def test_single_lognormal_variable_twenty_seeds():
     assert abs(m_ - 1e-5) < 3 * sd / math.sqrt(R), (m_, sd)
     lo, hi = np.sqrt(chi2.ppf([0.0015, 0.9985], R - 1) / (R - 1))
     assert lo * np.mean([r.cov_pf for r in runs]) < sd / m_ < hi * np.mean([r.cov_pf_upper for r in runs])
+
+
+def test_site_data_with_measurement_errors_are_part_of_the_input(block):
+    # conditioned fields with noisy data: the simulated errors are random input as well, so level 0
+    # is still Monte Carlo's first N realisations and a rebuilt chain state has its recorded FS
+    import dataclasses
+
+    mean = _mean_for(block, 1e-3)
+    data = {"clay.su": (np.array([[10.0, 2.0], [20.0, 7.0]]), np.array([-1.0, -0.5]), np.array([0.1, 0.2]))}
+    p = dataclasses.replace(_problem(mean), site_data=data)
+    r = subset_simulate(p, SubsetSettings(0.1, 100, max_levels=2), seed=6, batch=100)
+    f = np.sort(simulate(dataclasses.replace(_problem(mean), site_data=data), 100, seed=6).fs)
+    assert r.levels[0]["threshold"] == 0.5 * (f[9] + f[10])
+    assert any(k[0] == "error" for k in NoiseLayout(p).blocks)
+    k = int(np.argmin(r.final_fs))
+    u = r._replay.state(r._layout, r.seed, len(r.levels) - 1, k)
+    fs, _, _ = batch_fs(p, GivenNoise(NoiseLayout(p), u[None], [0]), [0])
+    assert fs[0, 0] == pytest.approx(r.final_fs[k], rel=1e-12)
