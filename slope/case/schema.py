@@ -29,7 +29,8 @@ from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
 from ..reliability.registry import ESTIMATOR_NAMES
 from ..search import SEARCHES, case_search_names
 from ..simulate.problem import AVERAGING, PROPS
-from ..simulate.rare import AUTO_MIN_FAILURES, ESTIMATORS, SubsetSettings
+from ..estimators import AUTO_MIN_FAILURES, ESTIMATORS
+from ..simulate.rare import SubsetSettings
 from ..simulate.refinement import REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]

@@ -58,6 +58,7 @@ import numpy as np
 from slipfield.fields.seeding import realisation_rng
 
 from ..errors import InputError
+from ..estimators import AUTO_MIN_FAILURES, ESTIMATORS
 from ..reliability.subset import _gamma
 from .driver import _concat, _run_block, simulate
 from .engine import stencil
@@ -67,10 +68,6 @@ from .rare_store import LevelStore, subset_store_identity
 __all__ = ["SubsetSettings", "NoiseLayout", "GivenNoise", "subset_simulate", "ESTIMATORS",
            "AUTO_MIN_FAILURES", "STREAM"]
 
-#: ``[simulation] estimator`` names: the registry the case schema and the CLI read.
-ESTIMATORS = ("monte-carlo", "subset", "auto")
-#: ``auto``: subset simulation when Monte Carlo's first level of samples sees fewer failures.
-AUTO_MIN_FAILURES = 10
 #: Stream tag of subset simulation's own random numbers (never a property index).
 STREAM = 7_340_021
 MIN_SEEDS = 10            # chains per level: σ̂ and γ need several of them
