@@ -45,6 +45,10 @@ class SimulationResult:
         Realisations whose FS the refinement lowered.
     refine : dict or None
         The refinement settings.
+    refine_rejected : dict or None
+        With refinement: trial shapes and candidates the refinement did not
+        accept as a minimum (only clean solutions are), counted by reason
+        over all refined realisations.
     """
 
     fs: np.ndarray
@@ -59,6 +63,7 @@ class SimulationResult:
     fs_bank: np.ndarray | None = None
     n_refined: int = 0
     refine: dict | None = None
+    refine_rejected: dict | None = None
 
     @property
     def n(self) -> int:
@@ -110,6 +115,7 @@ class SimulationResult:
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined,
+                "refine_rejected": self.refine_rejected,
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
 
     def failure_map(self, x_edges, y_edges):
@@ -166,12 +172,25 @@ def _run_block(problem, seed, start, stop, refine=None):
         fs_c = out["fs"]
         out["fs_bank"] = fs_c.copy()
         out["refined"] = np.zeros(fs_c.size, bool)
+        from .refinement import REFINE_REASONS
+
+        out["refine_rejected"] = np.zeros((fs_c.size, len(REFINE_REASONS)), dtype=np.int64)
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
-            f, _ = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+            f, _, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+            out["refine_rejected"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
     return out
+
+
+def _refine_rejected(allr):
+    if "refine_rejected" not in allr:
+        return None
+    from .refinement import REFINE_REASONS
+
+    tot = np.asarray(allr["refine_rejected"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
+    return {k: int(v) for k, v in zip(REFINE_REASONS, tot) if v}
 
 
 def _concat(parts):
@@ -407,6 +426,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             seed=seed, problem=problem,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
+                            refine_rejected=_refine_rejected(allr),
                             refine=None if refine is None else refine.describe())
 
 

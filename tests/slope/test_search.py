@@ -60,13 +60,17 @@ def test_window_cohesionless_slope_and_flat_arcs():
 
 def _refined():
     sec = simple_slope(10.0, 2.0, 1.0, material=Material("soil", unit_weight=20.0, c=10.0, phi=20.0))
-    first = centre_lattice(sec, nx=8, ny=8, n_radii=6, method="spencer")
+    # a clean start circle (refine accepts only clean minima, issue 11)
+    first = centre_lattice(sec, nx=8, ny=8, n_radii=6, method="spencer", tolerate=())
     return sec, first, refine(sec, first.critical, n_vertices=6, method="spencer", max_evaluations=120)
 
 
 def test_refine_never_worse_than_its_start_polyline():
     sec, first, r = _refined()
-    assert len(r.fs) == 3 and r.counted.all()  # start polyline, refined, start circle
+    assert len(r.fs) == 3 and r.counted[:2].all()  # start polyline, refined, start circle
+    # a minimum must be a clean solution: the start circle counts only without a flag
+    assert r.counted[2] == (r.flags[2] == 0)
+    assert r.critical_flags == 0
     assert r.fs[1] <= r.fs[0] + 1e-12
     assert r.history == sorted(r.history, reverse=True)
     xs, ys = r.surfaces[1].points.T
@@ -94,7 +98,7 @@ def test_kinematic_checks_reject_inadmissible_polylines():
     assert kinematic_reason(sec, xs, np.array([0.0, 3.0, 5.5, 10.0])) == "a vertex lies above the ground line"
     assert kinematic_reason(sec, xs[[0, 2, 1, 3]], ok_y) == "vertices out of order"
     # the same kink is refused by refine's objective: a start on it is unusable
-    with pytest.raises(InputError, match="start surface is not usable"):
+    with pytest.raises(InputError, match="start surface has no clean"):
         refine(sec, Polyline(np.c_[xs, kink]), n_vertices=4, max_evaluations=5)
 
 
