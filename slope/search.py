@@ -215,6 +215,13 @@ def _face_extent(section):
     xs = np.linspace(section.x_min, section.x_max, 2001)
     ys = section.ground_y(xs)
     inner = xs[(ys > lo) & (ys < hi)]
+    if inner.size == 0:
+        # a face narrower than the sampling step (a near-vertical cut written
+        # with a face 0.01 m wide): sample each ground segment itself
+        t = np.linspace(0.0, 1.0, 101)
+        xs = (g[:-1, 0, None] + np.diff(g[:, 0])[:, None] * t).ravel()
+        ys = (g[:-1, 1, None] + np.diff(g[:, 1])[:, None] * t).ravel()
+        inner = xs[(ys > lo) & (ys < hi)]
     return float(inner.min()), float(inner.max()), h
 
 
