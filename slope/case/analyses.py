@@ -262,6 +262,36 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                              "fixed (deterministic critical surface)"), "method": method}
     arrays: dict = {}
     for m in cfg["methods"]:
+        # a method that cannot reach an answer reports it in its own row and
+        # never stops the others (FORM's line search can step to phi' > 90
+        # degrees, where tan(phi') < 0, when FS is well below 1)
+        try:
+            _run_reliability_method(m, ls, variables, names, cfg, seed, n_jobs, out, arrays)
+        except (InputError, ArithmeticError, np.linalg.LinAlgError) as exc:
+            out[m] = _failed_row(m, exc)
+    k = float(cfg.get("tornado_k", 2.0))
+    try:
+        tr = tornado(ls, variables, k=k)
+    except (InputError, ArithmeticError, np.linalg.LinAlgError) as exc:
+        out["tornado"] = _failed_row("tornado", exc) | {"k": k}
+        return {"summary": out, "arrays": arrays}
+    out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
+                      "fs_mean": float(tr.fs_mean), "names": list(tr.names),
+                      "fs_low": [float(v) for v in tr.fs_low], "fs_high": [float(v) for v in tr.fs_high],
+                      "clipped": list(tr.clipped)}
+    arrays["tornado"] = tr
+    return {"summary": out, "arrays": arrays}
+
+
+def _failed_row(m, exc) -> dict:
+    """The row of a reliability method that could not reach an answer."""
+    why = str(exc) if isinstance(exc, InputError) else "a numerical failure in the evaluation"
+    return {"status": f"failed: {why}", "failed": True}
+
+
+def _run_reliability_method(m, ls, variables, names, cfg, seed, n_jobs, out, arrays):
+    """Run one reliability method into ``out[m]`` (and its arrays)."""
+    if True:  # the body keeps the indentation it had in the loop (other branches edit it)
         if m in ("monte-carlo", "latin-hypercube"):
             fn = monte_carlo if m == "monte-carlo" else latin_hypercube
             res = fn(ls, variables, int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
@@ -284,14 +314,6 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                       "design_point": dict(zip(names, map(float, fr.design_point_x))),
                       "importance": {k: float(v) for k, v in fr.importance.items()},
                       "n_evaluations": int(fr.n_evaluations)}
-    k = float(cfg.get("tornado_k", 2.0))
-    tr = tornado(ls, variables, k=k)
-    out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
-                      "fs_mean": float(tr.fs_mean), "names": list(tr.names),
-                      "fs_low": [float(v) for v in tr.fs_low], "fs_high": [float(v) for v in tr.fs_high],
-                      "clipped": list(tr.clipped)}
-    arrays["tornado"] = tr
-    return {"summary": out, "arrays": arrays}
 
 
 def _pf_dict(est) -> dict:

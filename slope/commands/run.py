@@ -266,7 +266,9 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
             f = rp.plot_fs_distribution(fs[ok], n_excluded=int((~ok).sum()), pf=s["pf"],
                                         pf_interval=tuple(s["pf_interval_95"]))
             figs.append((f"fs_single_variable_{hyp}", f"FS distribution, single random variables, {hyp}", f))
-        tr = r["arrays"]["tornado"]
+        tr = r["arrays"].get("tornado")
+        if tr is None:  # the tornado could not be evaluated: its status is in its row
+            continue
         f = rp.plot_tornado(tr.names, tr.fs_low, tr.fs_high, tr.fs_mean, k=tr.k, clipped=tr.clipped)
         figs.append((f"tornado_{hyp}", f"Tornado chart (mean ± {tr.k:g}σ), {hyp}", f))
     for hyp, s in sim.items():
@@ -360,7 +362,7 @@ def _reliability_status(summ):
     if not summ:
         return
     for m, r in summ.items():
-        if not isinstance(r, dict) or m in ("tornado",):
+        if not isinstance(r, dict) or m in ("tornado",) or r.get("failed"):
             continue
         if m == "form":
             r["status"] = "ok" if r.get("converged") else "FORM iteration did not converge: beta and pf not reliable"
@@ -456,11 +458,11 @@ def _summary_rows(results) -> list:
         for m, r in ms.items():
             rows.append((f"FS, {h}, {m}", r["fs"], "-", f"{r['n_counted']} of {r['n_trials']} trial surfaces counted"))
     for h, r in results["single_variable_reliability"].items():
-        if r and "monte-carlo" in r:
+        if r and "monte-carlo" in r and not r["monte-carlo"].get("failed"):
             mc = r["monte-carlo"]
             rows.append((f"pf, {h}, single random variables (Monte Carlo)", mc["pf"], "-",
                          f"95 % interval {mc['pf_interval_95'][0]:.3g} – {mc['pf_interval_95'][1]:.3g}, n = {mc['n']}"))
-        if r and "form" in r:
+        if r and "form" in r and not r["form"].get("failed"):
             rows.append((f"β, {h}, FORM", r["form"]["beta"], "-", "Hasofer–Lind"))
     for h, s in results["spatial_simulation"].items():
         if not s:
@@ -501,12 +503,12 @@ def _tables(stage, results, sim):
         if not r:
             continue
         for m in ("monte-carlo", "latin-hypercube"):
-            if m in r:
+            if m in r and not r[m].get("failed"):
                 rows.append([h, m, r[m]["pf"], *r[m]["pf_interval_95"], r[m]["beta_from_pf"], r[m]["mean_fs"], r[m]["std_fs"]])
-        if "point-estimate" in r:
+        if "point-estimate" in r and not r["point-estimate"].get("failed"):
             p = r["point-estimate"]
             rows.append([h, p["scheme"], p["pf_lognormal"], None, None, p["beta_lognormal"], p["mean_fs"], p["std_fs"]])
-        if "form" in r:
+        if "form" in r and not r["form"].get("failed"):
             rows.append([h, "form", r["form"]["pf"], None, None, r["form"]["beta"], None, None])
     write_csv(stage / "reliability.csv", ["hypothesis", "method", "pf (-)", "pf low (-)", "pf high (-)",
                                           "beta (-)", "mean FS (-)", "std FS (-)"], rows)
