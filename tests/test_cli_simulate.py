@@ -86,11 +86,17 @@ def test_exported_fields_read_back_through_meshio_equal_the_simulated_ones(full_
     from slipfield.slope.simulate import realise_fields
 
     ex = full_run / "fields"
-    manifest = json.loads((ex / "fields.json").read_text())
+    text = (ex / "fields.json").read_text()
+    manifest = json.loads(text)
+    # issue 11: the manifest held Python object reprs; now the marginal's name and parameters
+    assert "Marginal(" not in text and "np.float64" not in text
     case = load_case(CASE)
     hyp = manifest["hypothesis"]
     prob = random_problem(case, {hyp: {"bank": trial_surfaces(case, hyp, case.analysis["method"])}}, hyp)
     for prop in manifest["properties"]:
+        mg = prop["marginal"]
+        assert mg["name"] in ("lognormal", "normal", "truncated-normal", "beta", "uniform", "triangular")
+        assert mg["mean"] > 0 and mg["std"] > 0 and isinstance(mg["parameters"], dict)
         with meshio.xdmf.TimeSeriesReader(str(ex / prop["file"])) as reader:
             reader.read_points_cells()
             got = {}

@@ -5,8 +5,8 @@
 - :func:`single_variable_reliability` — each random property as one random
   variable (θ → ∞) on the deterministic critical surface: Monte Carlo,
   point estimates, FORM, tornado, rank correlations;
-- :func:`spatial_simulation` — the random limit-equilibrium simulation
-  (:mod:`slope.simulate`) with the averaging report.
+- :func:`random_problem` — the random limit-equilibrium problem of a case
+  (:mod:`slope.simulate`), which ``slipfield run`` simulates.
 
 Each returns JSON-ready dicts (units in the keys or a ``units`` entry) plus
 the arrays the figures need.
@@ -32,8 +32,8 @@ from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, centre_lattice, window
 from ..surfaces import Circle, Polyline
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
-           "properties_for"]
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
+           "properties_for", "marginal_of"]
 
 # which random properties act under which hypothesis
 _DRAINED_PROPS = ("c", "phi")

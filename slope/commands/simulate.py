@@ -193,6 +193,21 @@ def _statuses(store: Path, n: int, fs) -> list[str]:
 
 
 # ----------------------------------------------------------------- export
+def _finite_or_none(v):
+    v = float(v)
+    return v if np.isfinite(v) else None
+
+
+def _property_manifest(p) -> dict:
+    """A random property as plain data: the marginal's name and parameters, never an object repr."""
+    d = {k: v for k, v in p.describe().items() if k not in ("marginal", "marginal_repr")}
+    m = p.marginal
+    d["marginal"] = {"name": m.name, "mean": float(m.mean), "std": float(m.std),
+                     "lower": _finite_or_none(m.lower), "upper": _finite_or_none(m.upper),
+                     "parameters": {k: _finite_or_none(v) for k, v in dict(m.params).items()}}
+    return d
+
+
 def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, indices=None,
                         statuses=None) -> dict:
     """Write each realisation's property fields on the section grid, with its FS.
@@ -300,7 +315,7 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
         props.append({"key": p.key, "file": files[p.key].name, "array": names[p.key],
                       "unit": "-" if p.multiplier else _UNITS[p.prop],
                       "meaning": ("factor of the material's deterministic value" if p.multiplier
-                                  else "value of the property"), **p.describe()})
+                                  else "value of the property"), **_property_manifest(p)})
         if fmt == "xdmf":
             props[-1]["heavy_data"] = files[p.key].with_suffix(".h5").name
     manifest = {

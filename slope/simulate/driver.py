@@ -124,6 +124,7 @@ class SimulationResult:
         Fraction of realisations (over all n) whose critical surface has
         FS < 1 and passes through each cell (a cell counts once per
         realisation when any slice-base midpoint of that surface lies in it).
+        ``x_edges``, ``y_edges`` in the section frame (m).
 
         Returns
         -------
@@ -137,7 +138,9 @@ class SimulationResult:
         failed = np.isfinite(self.fs) & (self.fs < 1.0)
         idx, counts = np.unique(self.critical_index[failed], return_counts=True)
         for j, cnt in zip(idx, counts):
-            h, _, _ = np.histogram2d(bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+            # slice positions are in the sliding frame (x' = direction * x):
+            # back to the section frame, or the map is mirrored for slopes facing -x
+            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
             out += (h > 0) * cnt
         return out / max(self.n, 1)
 
