@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import csv
 import json
-import time
 from pathlib import Path
 
 import meshio
@@ -125,11 +124,10 @@ def test_bad_sweep_value_exits_2_and_writes_nothing(tmp_path, capsys, bad):
 
 def test_unreachable_scheduler_exits_2_quickly_and_writes_nothing(tmp_path, capsys):
     out = tmp_path / "s"
-    t0 = time.perf_counter()
+    # how long the refusal takes is measured by scripts/bench_scheduler_refusal.py (no timed tests)
     rc = main(["simulate", CASE, "--out", str(out), "--realisations", "5", "--quiet",
                "--scheduler", "tcp://127.0.0.1:1"])
     assert rc == 2
-    assert time.perf_counter() - t0 < 30
     assert "--scheduler" in capsys.readouterr().err
     assert not out.exists()
 

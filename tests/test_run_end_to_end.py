@@ -11,6 +11,7 @@ import json
 from pathlib import Path
 
 import pytest
+from scipy.stats import binomtest
 
 from slipfield.slope.cli import main
 
@@ -38,8 +39,9 @@ def test_run_writes_every_output(tmp_path, name):
             continue
         for k in ("spatial", "single_random_variable"):
             c = sim[k]["critical_surface_searched"]
-            lo, hi = c["pf_interval_95"]
-            assert lo <= c["pf"] <= hi
+            # the 95 % Wilson interval of (n_failed, n_valid), against scipy's
+            ref = binomtest(c["n_failed"], c["n_valid"]).proportion_ci(0.95, method="wilson")
+            assert c["pf_interval_95"] == pytest.approx([ref.low, ref.high], rel=1e-12, abs=1e-15)
             assert c["n_valid"] + c["n_without_admissible_surface"] == 60
     assert not any(p.name.startswith(".out.partial") for p in tmp_path.iterdir())
 
