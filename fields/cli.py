@@ -17,7 +17,6 @@ from pathlib import Path
 
 import numpy as np
 
-from .averaging import variance_function, variance_function_2d
 from .errors import InputError
 from .generators import make_generator
 from .grid import RegularGrid
@@ -99,6 +98,8 @@ def run_vrf(args) -> int:
                 raise InputError(f"--lengths must be >= 0 (m), got {v!r}")
         rows = [f"{v:g}" for v in lengths]
         label = "length (m)"
+    from .averaging import variance_function, variance_function_2d
+
     table = {}
     for name in models:
         model = get_model(name, theta_h=th, theta_v=tv, angle=args.angle, **_model_kwargs(args))

@@ -30,11 +30,12 @@ from slipfield.slope.commands.run import run_case, sliding_mass_geometry
 from slipfield.slope.section import Section, Zone
 from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle
+from support.demos import DEMO_REALISATIONS
 
 ROOT = Path(__file__).resolve().parents[1]
 DOC = ROOT / "docs" / "results-json.md"
 CASES = ROOT / "cases"
-N_REAL = 30  # structure, not statistics: few realisations keep each run ~10 s
+
 
 # Wildcards of the document's paths; `None` = any key.
 WILDCARDS = {
@@ -130,17 +131,11 @@ def fs_pf_without_method_or_status(doc):
 
 
 SCHEMA = load_schema(DOC.read_text(encoding="utf-8"))
-_RUNS = {}
 
 
 @pytest.fixture(scope="module", params=["levee_soft_clay.toml", "cut_residual_soil.toml"])
-def run_output(request, tmp_path_factory):
-    name = request.param
-    if name not in _RUNS:
-        out = tmp_path_factory.mktemp("results-json") / "out"
-        run_case(CASES / name, out, realisations=N_REAL, jobs=1, figure_formats=("png",))  # SVG: test_run_end_to_end
-        _RUNS[name] = out
-    return _RUNS[name]
+def run_output(request, demo_run):
+    return demo_run(request.param)
 
 
 def test_document_is_parsed_and_every_number_has_units():
@@ -179,7 +174,7 @@ def test_pf_inside_interval_and_equal_to_the_per_realisation_table(run_output):
                 assert c["pf"] == pytest.approx(c["n_failed"] / c["n_valid"], rel=1e-15)
                 checked += 1
             c = r["critical_surface_searched"]
-            assert c["n_valid"] + c["n_without_admissible_surface"] == r["realisations"] == N_REAL
+            assert c["n_valid"] + c["n_without_admissible_surface"] == r["realisations"] == DEMO_REALISATIONS
             assert c["n_failed"] == round(c["pf"] * c["n_valid"])
             assert r["failure_geometry"]["n_failed"] == c["n_failed"]
         fs = np.array([float(x["FS critical (-)"]) for x in rows if x["hypothesis"] == hyp])
@@ -231,6 +226,7 @@ def test_sliding_mass_geometry_of_a_circular_segment():
         sliding_mass_geometry(bank, [-1])
 
 
+@pytest.mark.slow
 def test_refinement_from_the_case_file_is_reported_and_documented(tmp_path):
     # [simulation] refine_below reaches both runs of every hypothesis and the
     # refined results follow the same documented structure

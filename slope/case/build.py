@@ -143,7 +143,9 @@ def load_case(path: str | Path) -> Case:
     except InputError as exc:
         if isinstance(exc, CaseError):
             raise
-        raise CaseError(str(path), [f"[section]/[water]/loads: {exc}"]) from None
+        # the library's parameter names become the case file's keys
+        msg = str(exc).replace("lower base_y", "lower section.bottom").replace("base_y", "section.bottom")
+        raise CaseError(str(path), [f"[section]/[water]/loads: {msg}"]) from None
     return Case(str(path), data, section)
 
 

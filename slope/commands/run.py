@@ -17,9 +17,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import shutil
-import tempfile
 import time
 from pathlib import Path
 
@@ -179,7 +176,7 @@ def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
     from ..simulate import simulate
     from ..simulate.studies import reduced_variance_problem
 
-    red, table = reduced_variance_problem(prob)
+    red, table = reduced_variance_problem(prob, fixed_only=True)  # only fs_fixed is read
     t0 = time.perf_counter()
     res = simulate(red, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet)
     wall = time.perf_counter() - t0
@@ -362,7 +359,7 @@ def _reliability_status(summ):
     if not summ:
         return
     for m, r in summ.items():
-        if not isinstance(r, dict) or m in ("tornado",) or r.get("failed"):
+        if not isinstance(r, dict) or m in ("tornado",) or "status" in r:
             continue
         if m == "form":
             r["status"] = "ok" if r.get("converged") else "FORM iteration did not converge: beta and pf not reliable"
@@ -372,7 +369,7 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg")) -> dict:
+             figure_formats=("png", "svg"), overwrite=False) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -391,6 +388,10 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     figure_formats : sequence of str
         Files written per figure under ``figures/``: ``"png"`` (always, it is
         what the report embeds) and optionally ``"svg"``.
+    overwrite : bool
+        Allow an ``out_dir`` holding another slipfield command's output
+        (:class:`slope.commands.folders.OutputFolder`: only slipfield's own
+        files are ever replaced).
 
     Returns
     -------
@@ -405,11 +406,14 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         raise InputError(f"figure_formats: {sorted(set(formats) - {'png', 'svg'})} not supported; "
                          "choose from 'png' and 'svg'")
     case = load_case(case_path)
-    n = int(realisations or case.simulation["realisations"])
-    n_jobs = int(jobs or case.simulation["jobs"])
-    out_dir = Path(out_dir)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
+    from ..case.preflight import check_option, preflight
+    n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
+    n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
+    preflight(case, realisations=None if realisations is None else n)
+    from .folders import OutputFolder
+
+    out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
+    stage = out.stage()
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
@@ -439,15 +443,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
         results["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         (stage / "results.json").write_text(json.dumps(_jsonable(results), indent=2, allow_nan=False))
-        if out_dir.exists():
-            old = out_dir.with_name(f".{out_dir.name}.old-{os.getpid()}")
-            out_dir.rename(old)
-            stage.rename(out_dir)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            stage.rename(out_dir)
+        out.commit(stage)
     except BaseException:
-        shutil.rmtree(stage, ignore_errors=True)
+        out.discard(stage)
         raise
     return _jsonable(results)
 
@@ -458,11 +456,11 @@ def _summary_rows(results) -> list:
         for m, r in ms.items():
             rows.append((f"FS, {h}, {m}", r["fs"], "-", f"{r['n_counted']} of {r['n_trials']} trial surfaces counted"))
     for h, r in results["single_variable_reliability"].items():
-        if r and "monte-carlo" in r and not r["monte-carlo"].get("failed"):
+        if r and "pf" in r.get("monte-carlo", {}):
             mc = r["monte-carlo"]
             rows.append((f"pf, {h}, single random variables (Monte Carlo)", mc["pf"], "-",
                          f"95 % interval {mc['pf_interval_95'][0]:.3g} – {mc['pf_interval_95'][1]:.3g}, n = {mc['n']}"))
-        if r and "form" in r and not r["form"].get("failed"):
+        if r and "beta" in r.get("form", {}):
             rows.append((f"β, {h}, FORM", r["form"]["beta"], "-", "Hasofer–Lind"))
     for h, s in results["spatial_simulation"].items():
         if not s:
@@ -503,13 +501,19 @@ def _tables(stage, results, sim):
         if not r:
             continue
         for m in ("monte-carlo", "latin-hypercube"):
-            if m in r and not r[m].get("failed"):
+            if m in r and "pf" in r[m]:
                 rows.append([h, m, r[m]["pf"], *r[m]["pf_interval_95"], r[m]["beta_from_pf"], r[m]["mean_fs"], r[m]["std_fs"]])
-        if "point-estimate" in r and not r["point-estimate"].get("failed"):
+        if "point-estimate" in r and "mean_fs" in r["point-estimate"]:
             p = r["point-estimate"]
             rows.append([h, p["scheme"], p["pf_lognormal"], None, None, p["beta_lognormal"], p["mean_fs"], p["std_fs"]])
-        if "form" in r and not r["form"].get("failed"):
+        if "fosm" in r and "mean_fs" in r["fosm"]:
+            p = r["fosm"]
+            rows.append([h, "fosm", p["pf_lognormal"], None, None, p["beta_lognormal"], p["mean_fs"], p["std_fs"]])
+        if "form" in r and "pf" in r["form"]:
             rows.append([h, "form", r["form"]["pf"], None, None, r["form"]["beta"], None, None])
+        if "subset" in r and "pf" in r["subset"]:
+            p = r["subset"]
+            rows.append([h, "subset", p["pf"], None, None, p["beta_from_pf"], None, None])
     write_csv(stage / "reliability.csv", ["hypothesis", "method", "pf (-)", "pf low (-)", "pf high (-)",
                                           "beta (-)", "mean FS (-)", "std FS (-)"], rows)
     rows = []

@@ -104,6 +104,20 @@ class RandomProperty:
                 "theta_h": self.theta_h, "theta_v": self.theta_v, "model": self.model,
                 "angle": self.angle, "nu": self.nu, "multiplier": self.multiplier}
 
+    def manifest(self) -> dict:
+        """The property as plain data for users' files: the marginal's name and
+        parameters, never a Python object repr (``describe`` feeds the fingerprint)."""
+        def num(v):
+            v = float(v)
+            return v if math.isfinite(v) else None
+
+        d = {k: v for k, v in self.describe().items() if k not in ("marginal", "marginal_repr")}
+        m = self.marginal
+        d["marginal"] = {"name": m.name, "mean": float(m.mean), "std": float(m.std),
+                         "lower": num(m.lower), "upper": num(m.upper),
+                         "parameters": {k: num(v) for k, v in dict(m.params).items()}}
+        return d
+
 
 @dataclass
 class RandomProblem:
@@ -248,5 +262,26 @@ class RandomProblem:
                 "interslice": self.interslice, "fixed_index": self.fixed_index,
                 "ground": g.round(9).tolist(), "zones": [repr(z) for z in self.section.zones],
                 "materials": {k: repr(v) for k, v in sorted(self.section.materials.items())},
-                "surfaces": [repr(s) for s in self.surfaces]}
+                "surfaces": [repr(s) for s in self.surfaces],
+                # water and loads change every base's pore pressure and driving force
+                "water": _canonical(self.section.water), "loads": _canonical(self.section.loads)}
         return hashlib.sha256(json.dumps(desc, sort_keys=True, default=str).encode()).hexdigest()
+
+
+def _canonical(obj):
+    """JSON-ready, full-precision description of a dataclass / array / container (for hashing)."""
+    import dataclasses
+
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return {type(obj).__name__: {f.name: _canonical(getattr(obj, f.name)) for f in dataclasses.fields(obj)}}
+    if isinstance(obj, np.ndarray):
+        return [_canonical(v) for v in obj.tolist()]
+    if isinstance(obj, dict):
+        return {str(k): _canonical(v) for k, v in sorted(obj.items(), key=lambda kv: str(kv[0]))}
+    if isinstance(obj, (list, tuple)):
+        return [_canonical(v) for v in obj]
+    if isinstance(obj, (float, np.floating)):
+        return repr(float(obj))
+    if obj is None or isinstance(obj, (bool, int, str)):
+        return obj
+    return repr(obj)

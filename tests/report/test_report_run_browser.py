@@ -19,11 +19,10 @@ from pathlib import Path
 import matplotlib.image as mpimg
 import pytest
 
-from slipfield.slope.commands.run import run_case
-from test_report_browser import CHROMIUM, _chromium, _console, _probe  # same folder: one way to drive Chromium
+from support.chromium import HAVE_CHROMIUM, console_messages as _console, probe as _probe, run_chromium as _chromium
 
 pytestmark = pytest.mark.skipif(
-    not os.path.exists(CHROMIUM),
+    not HAVE_CHROMIUM,
     reason="headless Chromium not found at /usr/bin/chromium: install the Debian package 'chromium' "
     "(apt-get install -y chromium) to run the browser check of the run report",
 )
@@ -33,10 +32,8 @@ ARTEFACTS = Path(os.environ.get("SLIPFIELD_ARTEFACTS") or ROOT / "tests" / "arte
 
 
 @pytest.fixture(scope="module")
-def run_output(tmp_path_factory):
-    out = tmp_path_factory.mktemp("run-report") / "out"
-    run_case(ROOT / "cases" / "levee_soft_clay.toml", out, realisations=40, jobs=1, figure_formats=("png",))
-    return out
+def run_output(demo_run):
+    return demo_run("levee_soft_clay.toml")
 
 
 def test_run_report_renders_every_figure_and_the_summary(tmp_path, run_output):
