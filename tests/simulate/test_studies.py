@@ -211,7 +211,7 @@ def test_failure_map_lies_where_the_failed_surface_is_on_a_slope_facing_minus_x(
     # not from the bank the map reads, and the mass lies between them.
     from slipfield.slope.surfaces import cut_ground
 
-    p, _ = _gf_problem(math.inf, 0.5)
+    p, _ = gf_problem(math.inf, 0.5)
     assert p.bank.direction[p.fixed_index] == -1
     r = simulate(p, 60, seed=8)
     failed = np.isfinite(r.fs) & (r.fs < 1)
