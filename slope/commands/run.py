@@ -273,7 +273,9 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
             f = rp.plot_fs_distribution(fs[ok], n_excluded=int((~ok).sum()), pf=s["pf"],
                                         pf_interval=tuple(s["pf_interval_95"]))
             figs.append((f"fs_single_variable_{hyp}", f"FS distribution, single random variables, {hyp}", f))
-        tr = r["arrays"]["tornado"]
+        tr = r["arrays"].get("tornado")
+        if tr is None:  # the tornado could not be evaluated: its status is in its row
+            continue
         f = rp.plot_tornado(tr.names, tr.fs_low, tr.fs_high, tr.fs_mean, k=tr.k, clipped=tr.clipped)
         figs.append((f"tornado_{hyp}", f"Tornado chart (mean ± {tr.k:g}σ), {hyp}", f))
     for hyp, s in sim.items():

@@ -242,7 +242,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
             "realisations_from_store": int(min(n_before, n)),
             "store_blocks_recomputed": list(res.store_notices),
             "problem_fingerprint": ident["fingerprint"],
-            "properties": [p.describe() for p in prob.properties],
+            "properties": [p.manifest() for p in prob.properties],
             "simulation": summary(res),
             "units": {"fs": "-", "pf": "probability (fraction)", "theta": "m"},
             "fs_csv_status": {"ok": "lowest FS of the bank counted",
