@@ -17,6 +17,7 @@ import hashlib
 import json
 import sys
 import time
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -171,7 +172,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     """
     from ..case.build import load_case
     from ..report import write_csv
-    from ..simulate import connect_scheduler, simulate
+    from ..simulate import StoreRepairWarning, connect_scheduler, simulate
     from ..simulate.refinement import RefineSettings
     from .run import CAUTION
 
@@ -215,8 +216,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         out.claim(folders=[_STORE])
         if fresh:
             _remove_store(store)
-        res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=resumed,
-                       progress=progress, scheduler=client, refine=refine, store_identity=identity)
+        with warnings.catch_warnings():  # repaired blocks are reported below, in the user's words
+            warnings.simplefilter("ignore", StoreRepairWarning)
+            res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=resumed,
+                           progress=progress, scheduler=client, refine=refine, store_identity=identity)
         write_json(store / "case.json", ident)
     finally:
         if client is not None:

@@ -71,8 +71,8 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
         grid_vals[key] = parse_theta_list(given, opt)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed, default_n=sw.get("realisations"))
     preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
+    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)  # checked before any computation
     hyp, _, prob = problem_of(case, hypothesis)
-    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)
     client = None if scheduler is None else connect_scheduler(scheduler, option="--scheduler")
     try:  # every input is checked: from here on the sweep computes, then writes
         rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,

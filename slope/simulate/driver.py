@@ -11,6 +11,7 @@ from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
 from .engine import batch_fs, prepare
 from .problem import RandomProblem
+from .executors import SCHEDULER_TIMEOUT_S, SchedulerLost, connect_scheduler, run_tasks
 from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
@@ -229,9 +230,7 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
-def _run_block(problem, seed, start, stop, refine=None, parent=None):
-    if parent is not None:
-        _watch_parent(parent)
+def _run_block(problem, seed, start, stop, refine=None):
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
     out = _reduce(problem, fs, conv, adm)
     if refine is not None:
@@ -293,38 +292,6 @@ def _circles_only(problem, fs, conv, adm, out):
     out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
 
 
-_WATCHED = None
-
-
-def _watch_parent(parent: int, period: float = 0.5) -> None:
-    """In a pool worker: end this process when the run that started it is gone.
-
-    A killed run (``kill -9``) cannot stop its pool; the worker is then
-    re-parented, so a daemon thread polls ``os.getppid()`` and exits. The
-    worker also leaves Ctrl-C to its parent, which stops the pool in order.
-    """
-    global _WATCHED
-    if _WATCHED is not None or os.getpid() == parent:
-        return
-    import signal
-    import threading
-    import time
-
-    _WATCHED = parent
-    try:
-        signal.signal(signal.SIGINT, signal.SIG_IGN)
-    except ValueError:  # not the main thread of the worker: the parent still stops the pool
-        pass
-
-    def watch():
-        while True:
-            if os.getppid() != parent:
-                os._exit(3)
-            time.sleep(period)
-
-    threading.Thread(target=watch, name="slipfield-parent-watch", daemon=True).start()
-
-
 def _concat(parts):
     keys = parts[0].keys()
     return {k: np.concatenate([p[k] for p in parts]) for k in keys}
@@ -380,73 +347,23 @@ def _blocks(lo, hi, size):
     return out
 
 
-class SchedulerLost(InputError):
-    """The dask scheduler stopped answering during a run (its finished blocks are stored)."""
-
-
-def _scheduler_results(client, futs):
-    """Results of dask futures in order; a lost scheduler raises :class:`SchedulerLost`."""
-    from dask.distributed import TimeoutError as DaskTimeout
-
-    lost = (OSError, *_cancelled_errors())
-    for f in futs:
-        while True:
-            try:
-                yield f.result(timeout=1.0)
-                break
-            except (DaskTimeout, TimeoutError):
-                if client.status not in ("running", "connecting", "newly-created"):
-                    raise SchedulerLost("the dask scheduler stopped answering") from None
-            except lost as exc:
-                raise SchedulerLost(f"the dask scheduler stopped answering ({type(exc).__name__})") from None
-
-
-def _cancelled_errors():
-    import concurrent.futures
-
-    import asyncio
-
-    errs = [concurrent.futures.CancelledError, asyncio.CancelledError]
-    try:
-        from distributed.client import FutureCancelledError
-        errs.append(FutureCancelledError)
-    except ImportError:
-        pass
-    return tuple(e for e in errs if isinstance(e, type) and issubclass(e, BaseException))
-
-
 def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
     """Results of ``_run_block`` for each range, yielded in order as they complete.
 
-    One stream of tasks for the whole run (not one parallel call per stored
-    block), so workers never wait for each other at block boundaries.
+    One stream of tasks for the whole run (:func:`~.executors.run_tasks`, not
+    one parallel call per stored block), so workers never wait for each other
+    at block boundaries.
     """
-    if scheduler is not None:
-        futs = scheduler.map(_run_block, [problem] * len(ranges), [seed] * len(ranges),
-                             [a for a, _ in ranges], [b for _, b in ranges], [refine] * len(ranges),
-                             pure=False)
-        try:
-            yield from _scheduler_results(scheduler, futs)
-        finally:
-            try:
-                scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
-            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
-                pass
+    if scheduler is not None or n_jobs == 1 or len(ranges) == 1:
+        yield from run_tasks(_run_block, [(problem, seed, a, b, refine) for a, b in ranges],
+                             n_jobs=1, scheduler=scheduler)
         return
-    if n_jobs == 1 or len(ranges) == 1:
-        for a, b in ranges:
-            yield _run_block(problem, seed, a, b, refine)
-        return
-    from joblib import Parallel, delayed
-
     # the problem (stencil, slice terms, generators: ~20 MB for the levee demo) goes to
     # each worker once through a file, not pickled with every task
     _await_workers()
     path = _ship(problem)
-    parent = os.getpid()
     try:
-        yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-            delayed(_run_shipped_block)(path, seed, a, b, refine, parent) for a, b in ranges)
+        yield from run_tasks(_run_shipped_block, [(path, seed, a, b, refine) for a, b in ranges], n_jobs=n_jobs)
     finally:
         _unship(path)
 
@@ -473,7 +390,8 @@ def start_workers(n_jobs):
         try:
             from joblib import Parallel, delayed
 
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)() for _ in range(int(n_jobs)))
+            parent = os.getpid()
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent) for _ in range(int(n_jobs)))
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
@@ -487,8 +405,16 @@ def _await_workers():
         _WARMING.join()
 
 
-def _warm_worker():
-    """In a worker: import the simulator and load its compiled kernels (tiny calls)."""
+def _warm_worker(parent=None):
+    """In a worker: import the simulator and load its compiled kernels (tiny calls).
+
+    The worker also starts watching ``parent`` (it ends if the run is killed
+    during the search, before any task reached it).
+    """
+    if parent is not None:
+        from .executors import _watch_parent
+
+        _watch_parent(parent)
     from slipfield.fields import marginals  # noqa: F401
     from slipfield.fields.generators import circulant  # noqa: F401
 
@@ -519,7 +445,7 @@ def _unship(path):
         pass
 
 
-def _run_shipped_block(path, seed, start, stop, refine=None, parent=None):
+def _run_shipped_block(path, seed, start, stop, refine=None):
     """:func:`_run_block` in a worker, loading the shipped problem on the worker's first task."""
     problem = _WORKER_PROBLEM.get(path)
     if problem is None:
@@ -534,53 +460,7 @@ def _run_shipped_block(path, seed, start, stop, refine=None, parent=None):
         import numba
 
         numba.set_num_threads(1)
-    return _run_block(problem, seed, start, stop, refine, parent)
-
-
-SCHEDULER_TIMEOUT_S = 5.0
-
-
-def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
-    """A dask.distributed Client for a scheduler address, or a clear InputError within ``timeout``.
-
-    Every step (TCP connect, handshake, registration) is bounded: the client
-    is built in a helper thread and abandoned when it has not answered in
-    time, so an address that accepts connections but never answers cannot
-    hang the run.
-
-    Parameters
-    ----------
-    address : str
-        ``tcp://host:port``.
-    timeout : float, s
-    option : str
-        Name of the option in messages (``--scheduler`` on the command line).
-    """
-    import threading
-
-    try:
-        from dask.distributed import Client
-    except ImportError:
-        raise InputError(f"{option} needs dask.distributed; install it (pip install distributed) or omit "
-                         f"{option} to run locally") from None
-    box = {}
-
-    def connect():
-        try:
-            box["client"] = Client(address, timeout=timeout, set_as_default=False)
-        except BaseException as exc:  # noqa: BLE001 - reported to the caller below
-            box["error"] = exc
-
-    t = threading.Thread(target=connect, name="slipfield-scheduler-connect", daemon=True)
-    t.start()
-    t.join(timeout + 1.0)
-    if "client" in box:
-        return box["client"]
-    why = " ".join(str(box.get("error", "")).split()) or (type(box["error"]).__name__ if "error" in box
-                                                          else "no answer")
-    raise InputError(f"{option} {address}: no dask scheduler answered within {timeout:g} s ({why}); check the "
-                     f"address (tcp://host:port) and that the scheduler is running, or omit {option} to run "
-                     "locally")
+    return _run_block(problem, seed, start, stop, refine)
 
 
 def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False, progress=False,
