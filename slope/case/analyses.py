@@ -243,7 +243,8 @@ def _limit_state(case: Case, bank, props, hypothesis, method, surfaces):
     return _ExpandedLimitState(inner, expand)
 
 
-def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_jobs: int = 1) -> dict | None:
+def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_jobs: int = 1,
+                                estimator=None) -> dict | None:
     """Each random property as one random variable, on the critical surface.
 
     Returns None when no random property acts under ``hypothesis``.
@@ -274,8 +275,20 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                  "surface": ("re-searched over the trial surfaces for each sample" if research else
                              "fixed (deterministic critical surface)"), "method": method}
     arrays: dict = {}
-    settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
-    for m in cfg["methods"]:  # each through the registry; one that cannot reach an answer says so in its row
+    est_name, sub = estimator if estimator is not None else ("monte-carlo", None)
+    settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs,
+                        **({} if sub is None else {"level_probability": sub.level_probability,
+                                                   "samples_per_level": sub.samples_per_level}))
+    methods = list(cfg["methods"])
+    if est_name != "monte-carlo" and "subset" not in methods:
+        methods.append("subset")  # [simulation] estimator = subset/auto: the single variables' pf by subset too
+    for m in methods:  # each through the registry; one that cannot reach an answer says so in its row
+        if m == "subset" and "subset" not in cfg["methods"] and est_name == "auto":
+            from ..simulate.rare import AUTO_MIN_FAILURES
+
+            k = out.get("monte-carlo", {}).get("n_failed")
+            if k is not None and k >= AUTO_MIN_FAILURES:
+                continue  # auto: Monte Carlo saw enough failures
         try:
             out[m], arr = run_estimator(m, ls, variables, settings)
         except InputError as exc:

@@ -112,8 +112,8 @@ def _status(n, n_valid):
     return f"{n - n_valid} of {n} realisations without a converged, admissible surface excluded from pf"
 
 
-def _simulation(case, det, hyp, *, n, n_jobs, quiet):
-    """Spatially variable run (a) and the same with every θ → ∞ (b)."""
+def _simulation(case, det, hyp, *, n, n_jobs, quiet, estimator=("monte-carlo", None)):
+    """Spatially variable run (a) and the same with every θ → ∞ (b); subset simulation of (a) when chosen."""
     from ..simulate import RefineSettings, simulate
 
     seed = int(case.simulation["seed"])
@@ -172,6 +172,9 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                         quiet=quiet, refine=refine)
         out["site_data"] = effect.to_dict()
         arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
+    from .subset_cmd import run_subset
+
+    run_subset(out, arrays, estimator, seed=seed, batch=block, n_jobs=n_jobs, refine=refine, quiet=quiet)
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)
@@ -383,7 +386,8 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg"), overwrite=False) -> dict:
+             figure_formats=("png", "svg"), overwrite=False, estimator=None, level_probability=None,
+             samples_per_level=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -423,6 +427,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     from ..case.preflight import check_option, preflight
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
+    from .subset_cmd import estimator_settings
+
+    est = estimator_settings(case, estimator, level_probability, samples_per_level)
     preflight(case, realisations=None if realisations is None else n)
     from .folders import OutputFolder
 
@@ -433,8 +440,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     start_workers(n_jobs)  # the pool starts while the search runs
     try:
         det = deterministic(case)
-        rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
-        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet) for h in case.analysis["hypotheses"]}
+        rel = {h: single_variable_reliability(case, det, h, n_jobs=1, estimator=est) for h in case.analysis["hypotheses"]}
+        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet, estimator=est)
+               for h in case.analysis["hypotheses"]}
         for r in rel.values():
             _reliability_status(r["summary"] if r else None)
         results = {
@@ -487,6 +495,10 @@ def _summary_rows(results) -> list:
             c = s[k]["critical_surface_searched"]
             rows.append((f"pf, {h}, {label} (critical surface re-searched)", c["pf"], "-",
                          f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}"))
+        if s["spatial"].get("subset"):
+            from .subset_cmd import subset_row
+
+            rows.append(subset_row(h, s["spatial"]["subset"]))
         c = s["analytic_variance_reduction"]
         if c["pf"] is not None:
             gam = ", ".join(f"γ {t['property']} {t['gamma']:.3g}" for t in c["properties"])
