@@ -28,6 +28,7 @@ from ..reliability.sensitivity import tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, search_from_case
+from ..search_families import add_families
 from ..surfaces import Circle
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
@@ -49,14 +50,18 @@ def trial_surfaces(case: Case, hypothesis: str, method: str):
     -------
     SearchResult
         Every trial surface with its FS; ``surfaces`` is the bank the
-        simulator re-searches.
+        simulator re-searches: the circles of ``[search] kind`` plus the
+        block and dynamic-programming families the table asks for.
     """
     opts = dict(hypothesis=hypothesis, method=method, n_slices=case.analysis["slices"])
     if method == "morgenstern-price":
         opts["interslice"] = case.analysis["interslice"]
     cache = case.extras.setdefault("trial_surfaces", {})  # a preflight's searches, not repeated by the run
     if (hypothesis, method) not in cache:
-        cache[(hypothesis, method)] = search_from_case(case.section, case.data["search"], **opts)
+        table = case.data["search"]
+        circles = search_from_case(case.section, table, **opts)
+        cache[(hypothesis, method)] = add_families(case.section, circles, table, min_depth=table.get("min_depth"),
+                                                   **opts)
     return cache[(hypothesis, method)]
 
 
@@ -318,4 +323,20 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),
                          field_method=sim["field_method"], averaging=sim["averaging"],
-                         interslice=case.analysis["interslice"])
+                         interslice=case.analysis["interslice"],
+                         site_data=_site_data(case, rp, theta_override))
+
+
+def _site_data(case: Case, rp, theta_override=None) -> dict:
+    """Gaussian-space site data of the random properties that have some (see slope.site_data).
+
+    Under a θ override to infinity (the single-random-variable comparison of a
+    run, a sweep's "inf") the properties are no longer fields and the data
+    are left out: that comparison is unconditional.
+    """
+    from ..site_data import gaussian_site_data
+
+    readings = case.extras.get("site_data") or []
+    return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
+            for p in rp if any(r.key == p.key for r in readings)
+            and not (theta_override is not None and p.single)}

@@ -29,6 +29,7 @@ from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
 from ..reliability.registry import ESTIMATOR_NAMES
 from ..search import SEARCHES, case_search_names
 from ..simulate.problem import AVERAGING, PROPS
+from ..simulate.refinement import REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]
 
@@ -163,6 +164,19 @@ def _number_or_table(v):
     return _number(lo=0)(v)
 
 
+def _tuples(width, what):
+    """A list of [a, b, ...] rows of ``width`` finite numbers (site data readings)."""
+    def check(v):
+        if not isinstance(v, list) or not v:
+            return f"must be a non-empty list of [{what}] rows"
+        for p in v:
+            if (not isinstance(p, list) or len(p) != width
+                    or any(isinstance(q, bool) or not isinstance(q, (int, float)) or not math.isfinite(q) for q in p)):
+                return f"must be a list of [{what}] rows of numbers; bad row {p!r}"
+        return None
+    return check
+
+
 @dataclass(frozen=True)
 class Key:
     """One key of a table: its checker, whether it is required, its default."""
@@ -255,11 +269,35 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "min_depth": Key(_number(lo=0), default=0.5, doc="reject surfaces shallower than this (m)"),
         "circle": Key(_table, doc="fixed circle {x, y, r} (m)"),
         "polyline": Key(_points(2), doc="fixed surface, [x, y] points (m)"),
+        "block": Key(lambda v: None if isinstance(v, list) else "must be an array of tables [[search.block]]",
+                     doc="sliding-block surfaces along a weak zone, added to the bank"),
+        "dynamic_programming": Key(_table, doc="non-circular surfaces by dynamic programming (Baker 1980), added to the bank"),
+    },
+    "search.block": {
+        "zone": Key(_string(), required=True, doc="zone or layer whose base the block slides on"),
+        "entry": Key(_number_list(min_len=2), required=True, doc="[x_from, x_to] of the ground where the active wedge enters (m)"),
+        "exit": Key(_number_list(min_len=2), required=True, doc="[x_from, x_to] of the ground where the passive wedge leaves (m)"),
+        "points": Key(_integer(lo=2), default=10, doc="points in each range (points² blocks)"),
+        "lift": Key(_number(lo=0, hi=1, hi_open=True), default=0.25, doc="base height above the zone's bottom, fraction of its thickness"),
+    },
+    "search.dynamic_programming": {
+        "columns": Key(_integer(lo=3), default=25, doc="columns of nodes across each start surface (vertices of the path)"),
+        "nodes": Key(_integer(lo=3), default=21, doc="nodes per column below the ground"),
+        "passes": Key(_integer(lo=1), default=3, doc="grids, each a narrower band about the previous path"),
     },
     "search.circle": {
         "x": Key(_number(), required=True, doc="x of the centre (m)"),
         "y": Key(_number(), required=True, doc="y of the centre (m)"),
         "r": Key(_number(lo=0, lo_open=True), required=True, doc="radius (m)"),
+    },
+    "site_data": {
+        "property": Key(_string(), required=True, doc="\"material.property\" of a [[random]] entry"),
+        "x": Key(_number(), doc="position of a vertical profile (m); with readings"),
+        "readings": Key(_tuples(2, "elevation (m), value"), doc="profile readings at x"),
+        "points": Key(_tuples(3, "x (m), elevation (m), value"), doc="single measurements"),
+        "file": Key(_string(), doc="CSV beside the case, columns x,elevation,value"),
+        "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
+        "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
     },
     "random": {
         "material": Key(_string(), required=True),
@@ -293,6 +331,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
                             doc="refine the critical surface of realisations with a bank FS below this (-)"),
         "refine_method": Key(_string(POLYLINE_METHOD_NAMES), default="spencer",
                              doc="method of slices of the refined polylines"),
+        "refine_search": Key(_string(REFINE_SEARCHES),
+                             doc="per-realisation search below refine_below: the critical surface bent by Nelder-Mead, "
+                                 "or dynamic programming (Baker 1980) from the lowest surfaces of different families"),
     },
     "reliability": {
         "methods": Key(_string_list(ESTIMATOR_NAMES), default=["monte-carlo", "point-estimate", "form"]),
@@ -321,9 +362,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
 }
 
 #: Top-level entries that are arrays of tables.
-ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation")
+ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation", "site_data")
 #: Nested array tables (parent table, key).
-NESTED_ARRAYS = {("section", "zone"), ("section", "layer"), ("risk", "tolerability"), ("water", "piezometric")}
+NESTED_ARRAYS = {("section", "zone"), ("section", "layer"), ("risk", "tolerability"), ("water", "piezometric"),
+                 ("search", "block")}
 
 
 # ------------------------------------------------------------- locating
@@ -477,6 +519,10 @@ def parse_case(text: str, path: str = "<case>") -> dict:
     for i, mat in enumerate(case.get("material", [])):
         if isinstance(mat.get("su"), dict):
             mat["su"] = _check_table(mat["su"], "material.su", f"material[{i}].su", "material", i, where, problems)
+    if isinstance(case.get("search", {}).get("dynamic_programming"), dict):
+        case["search"]["dynamic_programming"] = _check_table(
+            case["search"]["dynamic_programming"], "search.dynamic_programming", "search.dynamic_programming",
+            "search.dynamic_programming", None, where, problems)
     for name in ("case", "analysis", "simulation", "seismic", "search", "reliability"):
         if name not in case:
             case[name] = _check_table({}, name, name, name, None, where, problems)
@@ -634,8 +680,10 @@ def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None
                             f"{between[1]} never act under the same hypothesis of analysis.hypotheses "
                             f"({', '.join(hyps_all)}), so their correlation changes nothing; remove it")
     _check_search(case, raw, where, problems)
+    _check_search_families(case, case.get("search", {}), zone_names, where, problems)
     _check_geometry(case, where, problems)
     _check_conditional_keys(case, raw, where, problems)
+    _check_site_data_refs(case, props, where, problems)
     risk = case.get("risk")
     if risk is not None and "annual_exceedance" not in risk and "annual_pf" not in risk:
         problems.append(f"{where('risk', None, None)}risk needs annual_exceedance (of the analysed loading) or annual_pf")
@@ -644,13 +692,32 @@ def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None
             problems.append(f"{where('surcharge', i, 'x_to')}surcharge[{i}]: x_from must be below x_to")
 
 
+def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
+    """[[site_data]]: a random property, one location form, one error form."""
+    for i, d in enumerate(case.get("site_data", [])):
+        p = d.get("property")
+        if p is not None and p not in props:
+            problems.append(f"{where('site_data', i, 'property')}site_data[{i}].property {p!r} is not a random "
+                            f"property; use \"material.property\" of a [[random]] entry (defined: "
+                            f"{', '.join(sorted(props)) or 'none'})")
+        forms = [k for k in ("readings", "points", "file") if k in d]
+        if len(forms) != 1:
+            problems.append(f"{where('site_data', i, None)}site_data[{i}]: give exactly one of readings (with x), "
+                            f"points or file{'; found ' + ', '.join(forms) if forms else ''}")
+        if ("x" in d) != ("readings" in d):
+            problems.append(f"{where('site_data', i, 'x')}site_data[{i}]: x (m) goes with readings and only with "
+                            "them; a profile is x plus [elevation, value] readings")
+        if "error_sd" in d and "error_cov" in d:
+            problems.append(f"{where('site_data', i, 'error_cov')}site_data[{i}]: give error_sd or error_cov, "
+                            "not both")
 def _check_search(case: dict, raw: dict, where, problems: list[str]) -> None:
     """The [search] table: the keys its kind reads (registry), the fixed surface, the ranges."""
     search = case.get("search", {})
     kind = search.get("kind")
     if kind not in SEARCHES:
         return
-    reads = set(SEARCHES[kind].keys) | {"kind", "min_depth"}
+    # block and dynamic_programming add surface families to the bank of any kind
+    reads = set(SEARCHES[kind].keys) | {"kind", "min_depth", "block", "dynamic_programming"}
     for key in raw.get("search", {}) if isinstance(raw.get("search"), dict) else ():
         if key in SCHEMA["search"] and key not in reads:
             problems.append(f"{where('search', None, key)}search.{key} is not read by search.kind = {kind!r} "
@@ -775,6 +842,40 @@ def _check_conditional_keys(case: dict, raw: dict, where, problems: list[str]) -
     if risk is not None and "annual_pf" in risk and "annual_exceedance" in risk:
         problems.append(f"{where('risk', None, 'annual_pf')}risk: give annual_pf or annual_exceedance, not both "
                         "(annual_pf would override the computed pf)")
+
+
+def _check_search_families(case: dict, search: dict, zone_names: set, where, problems: list[str]) -> None:
+    """Block and dynamic-programming searches: zones, ranges on the ground, a method for non-circular surfaces."""
+    from ..search_families import POLYLINE_METHODS
+
+    ground = case.get("section", {}).get("ground") or []
+    x_lo, x_hi = (ground[0][0], ground[-1][0]) if len(ground) >= 2 else (-math.inf, math.inf)
+    blocks = search.get("block", []) or []
+    for i, b in enumerate(blocks):
+        if not isinstance(b, dict):
+            continue
+        key = f"search.block[{i}]"
+        if b.get("zone") is not None and zone_names and b["zone"] not in zone_names:
+            problems.append(f"{where('search.block', i, 'zone')}{key}.zone {b['zone']!r} is not a zone or layer of the "
+                            f"section; use one of: {', '.join(sorted(map(str, zone_names)))}")
+        for r in ("entry", "exit"):
+            v = b.get(r)
+            if v is None:
+                continue
+            if len(v) != 2 or v[0] >= v[1]:
+                problems.append(f"{where('search.block', i, r)}{key}.{r} must be [x_from, x_to] with x_from < x_to (m)")
+            elif v[1] <= x_lo or v[0] >= x_hi:
+                problems.append(f"{where('search.block', i, r)}{key}.{r} {v!r} does not intersect the ground line "
+                                f"(x = {x_lo:g} to {x_hi:g} m); give a range on it")
+    sim = case.get("simulation", {})
+    if "refine_search" in sim and "refine_below" not in sim:
+        problems.append(f"{where('simulation', None, 'refine_search')}simulation.refine_search does nothing without "
+                        "simulation.refine_below (the bank FS below which realisations are searched); give both")
+    method = case.get("analysis", {}).get("method")
+    if (blocks or "dynamic_programming" in search) and method is not None and method not in POLYLINE_METHODS:
+        problems.append(f"{where('analysis', None, 'method')}analysis.method {method!r} takes moments about a point, "
+                        "which does not judge block or non-circular surfaces; with [[search.block]] or "
+                        f"[search.dynamic_programming] use one of {', '.join(POLYLINE_METHODS)}")
 
 
 def read_case(path: str | Path) -> dict:

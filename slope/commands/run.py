@@ -163,6 +163,15 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                           "max_depth": _spread(depth)}
         arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": crit, "problem": prob,
                          "area": area, "depth": depth}
+    if arrays["spatial"]["problem"].site_data:
+        from .site_effect import site_data_effect
+
+        sp = arrays["spatial"]
+        est_c = estimate_pf(sp["fs"], valid=np.isfinite(sp["fs"]))
+        effect, fs_u = site_data_effect(sp["problem"], est_c, hyp, n=n, seed=seed, batch=block, n_jobs=n_jobs,
+                                        quiet=quiet, refine=refine)
+        out["site_data"] = effect.to_dict()
+        arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)
@@ -177,7 +186,7 @@ def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
     from ..simulate import simulate
     from ..simulate.studies import reduced_variance_problem
 
-    red, table = reduced_variance_problem(prob)
+    red, table = reduced_variance_problem(prob, fixed_only=True)  # only fs_fixed is read
     t0 = time.perf_counter()
     res = simulate(red, n, seed, batch=block, n_jobs=n_jobs, progress=not quiet)
     wall = time.perf_counter() - t0
@@ -293,6 +302,22 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
         f = rp.plot_pf_comparison(labels, pfs, los, his)
         figs.append((f"pf_comparison_{hyp}", f"What spatial averaging changes: pf with and without it, {hyp}", f))
         prob = s["arrays"]["spatial"]["problem"]
+        if "site_data" in s["arrays"]:
+            from .site_effect import conditional_sd_figure
+
+            eff = s["arrays"]["site_data"]["effect"]
+            if eff.pf_conditional is not None and eff.pf_unconditional is not None:
+                f = rp.plot_pf_comparison(["conditioned on the site data", "without the site data (same seed)"],
+                                          [eff.pf_conditional, eff.pf_unconditional],
+                                          [min(eff.interval_conditional[0], eff.pf_conditional),
+                                           min(eff.interval_unconditional[0], eff.pf_unconditional)],
+                                          [max(eff.interval_conditional[1], eff.pf_conditional),
+                                           max(eff.interval_unconditional[1], eff.pf_unconditional)])
+                figs.append((f"pf_site_data_{hyp}", f"pf with and without the site data, {hyp}", f,
+                             eff.sentence()))
+            figs.append((f"site_data_sd_{hyp}", f"Site data locations and the conditional standard deviation "
+                                                f"relative to the unconditional one, {hyp}",
+                         conditional_sd_figure(prob, sec, hyp), ""))
         bank = prob.bank
         crit = s["arrays"]["spatial"]["crit"]
         figs += _field_figures(case, prob, s["summary"]["spatial"]["realisations_shown"], hyp)
@@ -401,6 +426,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
 
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
     stage = out.stage()
+    from ..simulate.driver import start_workers
+
+    start_workers(n_jobs)  # the pool starts while the search runs
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
