@@ -710,6 +710,8 @@ def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) ->
         if "error_sd" in d and "error_cov" in d:
             problems.append(f"{where('site_data', i, 'error_cov')}site_data[{i}]: give error_sd or error_cov, "
                             "not both")
+
+
 def _check_search(case: dict, raw: dict, where, problems: list[str]) -> None:
     """The [search] table: the keys its kind reads (registry), the fixed surface, the ranges."""
     search = case.get("search", {})
