@@ -23,6 +23,7 @@ from slipfield.slope.case.schema import CASE_INTERSLICE, DISTRIBUTIONS, SCHEMA
 from slipfield.slope.methods import METHOD_NAMES
 from slipfield.slope.reliability.registry import ESTIMATOR_NAMES
 from slipfield.slope.search import SEARCHES, case_search_names, critical_surface
+from slipfield.slope.search_dp import DPSettings
 from slipfield.slope.simulate import realise_fields, simulate
 from slipfield.slope.simulate.problem import AVERAGING
 
@@ -137,7 +138,9 @@ def test_every_library_search(tmp_path):
             "window": dict(upslope=(2.0, 10.0), downslope=(24.0, 32.0), n_up=4, n_down=4, n_radii=4),
             "fixed": dict(surfaces=critical_surface(sec, "centre-lattice", nx=4, ny=4, n_radii=4).critical),
             "refine": dict(max_evaluations=40, n_vertices=5),
-            "weak-layer": dict(zone="upper", x_from=4.0, x_to=30.0, n_positions=3, n_lengths=3)}
+            "weak-layer": dict(zone="upper", x_from=4.0, x_to=30.0, n_positions=3, n_lengths=3),
+            "block": dict(zone="upper", entry=(0.0, 8.0), exit=(16.0, 21.0), points=3),
+            "dynamic-programming": dict(settings=DPSettings(columns=6, nodes=5, passes=1))}
     assert set(opts) == set(SEARCHES), "a new search needs its options here"
     for name in SEARCHES:
         res = critical_surface(sec, name, n_slices=10, **opts[name])
