@@ -235,3 +235,22 @@ def test_fosm_and_subset_reach_results_and_tables(tmp_path):
     with open(tmp_path / "out" / "reliability.csv", newline="", encoding="utf-8") as f:
         methods = [row[1] for row in csv.reader(f)][1:]
     assert methods == ["fosm", "subset"]
+
+
+def test_readme_documents_every_key_and_name():
+    """The README's case-file table names every key of the schema and every name of the registries."""
+    import re
+    from pathlib import Path
+
+    from slipfield.slope.simulate.refinement import REFINE_SEARCHES
+
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    section = text[text.index("## The case file"):]
+    section = section[:section.index("\n## ", 5)]
+    words = set(re.findall(r"[A-Za-z_][A-Za-z0-9_\-]*", section))
+    keys = {k for table in SCHEMA.values() for k in table}
+    names = (set(METHOD_NAMES) | set(case_search_names()) | set(ESTIMATOR_NAMES) | set(DISTRIBUTIONS)
+             | set(generator_names()) | set(CASE_INTERSLICE) | set(REFINE_SEARCHES) | set(MODEL_NAMES)
+             | set(AVERAGING))
+    assert not (keys - words), f"keys missing from the README's case-file table: {sorted(keys - words)}"
+    assert not (names - words), f"names missing from the README's case-file table: {sorted(names - words)}"
