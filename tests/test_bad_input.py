@@ -178,6 +178,12 @@ def test_at_least_forty_mutations():
     (["simulate", "{case}", "--out", "{out}", "--refine-below", "-1"], "--refine-below"),
     (["simulate", "{case}", "--out", "{out}", "--refine-method", "bishop"], "--refine-method"),
     (["sweep", "{case}", "--out", "{out}", "--realisations", "0"], "--realisations"),
+    (["fields", "sample", "--model", "exponential", "--theta", "5", "--grid", "8x8", "--spacing", "1",
+      "--out", "{out}/a.npz", "--n", "0"], "--n"),
+    (["fields", "sample", "--model", "exponential", "--theta", "5", "--grid", "8x8", "--spacing", "1",
+      "--out", "{out}/a.npz", "--seed", "-2"], "--seed"),
+    (["fields", "sample", "--model", "exponential", "--theta", "5", "--grid", "8x8", "--spacing", "1",
+      "--out", "{out}/a.npz", "--method", "dense"], "--method"),
 ])
 def test_options_refused_at_parse_time(argv, option, tmp_path, capsys):
     argv = [a.format(case=CASES / "levee_soft_clay.toml", out=tmp_path / "out") for a in argv]
