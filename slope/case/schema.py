@@ -262,7 +262,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "search": {
         "kind": Key(_string(case_search_names()), default="centre-lattice"),
-        "trials": Key(_integer(lo=10), default=1500, doc="number of trial surfaces in the bank"),
+        "trials": Key(_integer(lo=10), default=1500, doc="about how many trial surfaces the bank holds (a lattice of max(3, round(√(trials/10)))² centres or entry × exit points, 10 radii each)"),
         "x_range": Key(_number_list(min_len=2), doc="[x_min, x_max] of circle centres or of the entry/exit region (m)"),
         "y_range": Key(_number_list(min_len=2), doc="[y_min, y_max] of circle centres (m)"),
         "entry": Key(_number_list(min_len=2), doc="window search: [x_from, x_to] where surfaces enter the ground (m)"),

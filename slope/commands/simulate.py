@@ -190,7 +190,9 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                          f"{', '.join(EXPORT_FORMATS)}")
     case = load_case(case_path)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed)
-    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
+    # the search of the one hypothesis is checked by problem_of
+    preflight(case, realisations=None if realisations is None else n, batch=None if batch is None else block,
+              search=False)
     exp = None if export_fields is None else Path(export_fields)
     if exp is not None:
         a, b = exp.absolute().resolve(), Path(out_dir).absolute().resolve()
