@@ -681,6 +681,14 @@ register_search(SearchKind("refine", _refine_search, None, (),
                            "a start surface turned into a polyline and optimised"))
 register_search(SearchKind("weak-layer", weak_layer, None, (),
                            "block surfaces along the bottom of a weak zone"))
+# issue 15's families: a case adds them to its bank with [[search.block]] and
+# [search.dynamic_programming] (slope.search_families), whatever its kind
+from .search_block import block_search  # noqa: E402 - the registry is complete once this module is
+from .search_dp import dynamic_programming  # noqa: E402
+register_search(SearchKind("block", block_search, None, (),
+                           "sliding blocks on a weak zone: Rankine active and passive wedges from entry and exit ranges"))
+register_search(SearchKind("dynamic-programming", dynamic_programming, None, (),
+                           "non-circular surfaces by dynamic programming over grids of nodes (Baker 1980)"))
 
 
 def _kind(name) -> SearchKind:

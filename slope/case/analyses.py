@@ -16,10 +16,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from slipfield.fields.marginals import make_marginal
+from slipfield.fields.marginals import make_marginal, marginal_form
 
 from ..bank import unit_weight_parts
 from .build import Case, theta_value
+from .schema import acts_under
 from ..errors import InputError
 from ..reliability.limit_state import LimitState
 from ..reliability.registry import Settings, run_estimator
@@ -27,14 +28,11 @@ from ..reliability.sensitivity import tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, search_from_case
+from ..search_families import add_families
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
-           "properties_for"]
-
-# which random properties act under which hypothesis
-_DRAINED_PROPS = ("c", "phi")
-_UNDRAINED_PROPS = ("su", "su_ratio")
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
+           "surface_xy", "properties_for"]
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -52,14 +50,18 @@ def trial_surfaces(case: Case, hypothesis: str, method: str):
     -------
     SearchResult
         Every trial surface with its FS; ``surfaces`` is the bank the
-        simulator re-searches.
+        simulator re-searches: the circles of ``[search] kind`` plus the
+        block and dynamic-programming families the table asks for.
     """
     opts = dict(hypothesis=hypothesis, method=method, n_slices=case.analysis["slices"])
     if method == "morgenstern-price":
         opts["interslice"] = case.analysis["interslice"]
     cache = case.extras.setdefault("trial_surfaces", {})  # a preflight's searches, not repeated by the run
     if (hypothesis, method) not in cache:
-        cache[(hypothesis, method)] = search_from_case(case.section, case.data["search"], **opts)
+        table = case.data["search"]
+        circles = search_from_case(case.section, table, **opts)
+        cache[(hypothesis, method)] = add_families(case.section, circles, table, min_depth=table.get("min_depth"),
+                                                   **opts)
     return cache[(hypothesis, method)]
 
 
@@ -103,30 +105,31 @@ def deterministic(case: Case) -> dict:
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
             res = evaluate_surfaces(case.section, first.surfaces, hypothesis=hyp, method=m,
                                     n_slices=case.analysis["slices"], search=first.search, **opts)
+            for k in ("shallower than search.min_depth",):  # dropped before the bank: counted for every method
+                if k in first.rejected:
+                    res.rejected[k] = first.rejected[k]
+                    res.n_trials = first.n_trials
             per_method[m] = _search_dict(res, case.section)
         out[hyp] = {"bank": first, "methods": per_method}
     return out
 
 
 def properties_for(case: Case, hypothesis: str) -> list[dict]:
-    """The case's random properties that act under ``hypothesis``.
-
-    Drained: c', φ' of every material; undrained: su (as a factor on the
-    material's su law), su_ratio, and c', φ' of materials without an undrained
-    strength (they stay drained); a unit weight acts under both.
-    """
+    """The case's random properties that act under ``hypothesis`` (rule: :func:`.schema.acts_under`)."""
     mats = case.section.materials
-    out = []
-    for r in case.randoms:
-        m = mats[r["material"]]
-        p = r["property"]
-        if p == "unit_weight":
-            out.append(r)
-        elif hypothesis == "drained" and p in _DRAINED_PROPS:
-            out.append(r)
-        elif hypothesis == "undrained" and (p in _UNDRAINED_PROPS or (p in _DRAINED_PROPS and not m.has_undrained)):
-            out.append(r)
-    return out
+    return [r for r in case.randoms if acts_under(r["property"], mats[r["material"]].has_undrained, hypothesis)]
+
+
+def _marginal_kwargs(r: dict, default_mean: float, scale: float = 1.0) -> dict:
+    """Parameters of a [[random]] entry for make_marginal, in the form its keys state (values ÷ ``scale``)."""
+    given = {k for k in ("mean", "lower", "upper", "mode") if k in r} | ({"spread"} if "cov" in r else set())
+    form = marginal_form(r["distribution"], given, implied={"mean"})
+    kw = {k: float(r[k]) / scale for k in ("lower", "upper", "mode") if k in r}
+    if "mean" in form:
+        kw["mean"] = float(r.get("mean", default_mean * scale)) / scale
+    if "cov" in r:
+        kw["cov"] = float(r["cov"])
+    return kw
 
 
 def marginal_of(case: Case, r: dict):
@@ -134,28 +137,59 @@ def marginal_of(case: Case, r: dict):
 
     c' (kPa) and φ' (degrees) keep their values (mean: the material's unless
     given); su and su_ratio are factors of mean 1 on the material's
-    undrained law, so a trend with depth keeps its shape; a unit weight is
-    given in kN/m³ (mean: the material's γ unless given) and used as the
-    factor value/γ on γ and γsat.
+    undrained law, so a trend with depth keeps its shape (bounds and mode are
+    factors too); a unit weight is given in kN/m³ (mean: the material's γ
+    unless given) and used as the factor value/γ on γ and γsat.
     """
     mat = case.section.materials[r["material"]]
     p = r["property"]
-    kw = {k: r[k] for k in ("lower", "upper") if k in r}
     if p == "unit_weight":
         g = float(mat.unit_weight)
-        mean = float(r.get("mean", g))
-        if mean <= 0:
-            raise InputError(f"random property {r['material']}.unit_weight: the mean is {mean:g} kN/m³; give a "
-                             "positive mean")
-        return make_marginal(r["distribution"], mean=mean / g, cov=float(r["cov"]),
-                             **{k: v / g for k, v in kw.items()})
+        kw = _marginal_kwargs(r, 1.0, g)
+        if kw.get("mean", 1.0) <= 0:
+            raise InputError(f"random property {r['material']}.unit_weight: the mean is {kw['mean'] * g:g} kN/m³; "
+                             "give a positive mean")
+        return make_marginal(r["distribution"], **kw)
     if p in ("su", "su_ratio"):
-        return make_marginal(r["distribution"], mean=float(r.get("mean", 1.0)), cov=float(r["cov"]), **kw)
-    mean = float(r.get("mean", getattr(mat, p)))
-    if mean <= 0:
-        raise InputError(f"random property {r['material']}.{p}: the mean is {mean:g}; give a positive "
+        return make_marginal(r["distribution"], **_marginal_kwargs(r, 1.0))
+    kw = _marginal_kwargs(r, float(getattr(mat, p)))
+    if kw.get("mean", 1.0) <= 0:
+        raise InputError(f"random property {r['material']}.{p}: the mean is {kw['mean']:g}; give a positive "
                          f"mean in the [[random]] entry or in the material")
-    return make_marginal(r["distribution"], mean=mean, cov=float(r["cov"]), **kw)
+    return make_marginal(r["distribution"], **kw)
+
+
+def risk_scenarios(case: Case, pf_by_hypothesis: dict) -> dict | None:
+    """The case's ``[risk]`` as scenarios of the risk chart, one per hypothesis; None without ``[risk]``.
+
+    Parameters
+    ----------
+    pf_by_hypothesis : dict
+        ``{hypothesis: {"pf": float, "pf_interval_95": [lo, hi]}}`` (the
+        spatial simulation's estimate; hypotheses without one are skipped).
+
+    Returns
+    -------
+    dict
+        ``scenarios`` (for :func:`slope.report.risk.risk_points`),
+        ``tolerability`` (the case's lines) and ``consequence_label``.
+    """
+    risk = case.data.get("risk")
+    if risk is None:
+        return None
+    scen = []
+    for hyp, est in pf_by_hypothesis.items():
+        if est is None:
+            continue
+        sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
+        if "annual_pf" in risk:
+            sc["annual_probability"] = risk["annual_pf"]
+        else:
+            sc.update(pf=est["pf"], annual_exceedance=risk["annual_exceedance"],
+                      pf_interval=tuple(est["pf_interval_95"]))
+        scen.append(sc)
+    return {"scenarios": scen, "tolerability": risk.get("tolerability", []),
+            "consequence_label": risk["consequence_label"]}
 
 
 def _name(r) -> str:
@@ -289,4 +323,20 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),
                          field_method=sim["field_method"], averaging=sim["averaging"],
-                         interslice=case.analysis["interslice"])
+                         interslice=case.analysis["interslice"],
+                         site_data=_site_data(case, rp, theta_override))
+
+
+def _site_data(case: Case, rp, theta_override=None) -> dict:
+    """Gaussian-space site data of the random properties that have some (see slope.site_data).
+
+    Under a θ override to infinity (the single-random-variable comparison of a
+    run, a sweep's "inf") the properties are no longer fields and the data
+    are left out: that comparison is unconditional.
+    """
+    from ..site_data import gaussian_site_data
+
+    readings = case.extras.get("site_data") or []
+    return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
+            for p in rp if any(r.key == p.key for r in readings)
+            and not (theta_override is not None and p.single)}

@@ -104,9 +104,10 @@ def memory_estimate(case: Case, realisations: int | None = None) -> dict:
     samples = int(case.data["reliability"]["samples"])
     research = bool(case.data["reliability"].get("research_surface"))
     out = {
-        "search.trials": float(trials) * slices * _BANK_ARRAYS * _FLOAT,
+        "search.trials × analysis.slices": float(trials) * slices * _BANK_ARRAYS * _FLOAT,
         "simulation.cell": float(min(batch, n)) * nx * ny * n_props * _FIELD_FLOATS * _FLOAT,
-        "simulation.batch": float(min(batch, n)) * trials * slices * _KERNEL_ARRAYS * _FLOAT,
+        "simulation.batch × search.trials × analysis.slices":
+            float(min(batch, n)) * trials * slices * _KERNEL_ARRAYS * _FLOAT,
         "simulation.realisations": float(n) * _PER_REALISATION * _FLOAT,
         "reliability.samples": float(samples) * (n_props * _PER_SAMPLE
                                                  + (trials * slices * _KERNEL_ARRAYS if research else 0)) * _FLOAT,
@@ -126,23 +127,21 @@ def _check_memory(case: Case, realisations, problems: list[str]) -> None:
     limit = MEMORY_SHARE * physical_memory()
     est = memory_estimate(case, realisations)
     fixes = {
-        "search.trials": "give fewer trials",
+        "search.trials × analysis.slices": "give fewer trials or slices",
         "simulation.cell": "give a larger cell (m) or a smaller simulation.batch",
-        "simulation.batch": "give a smaller batch or fewer search.trials",
+        "simulation.batch × search.trials × analysis.slices": "give a smaller batch, fewer trials or fewer slices",
         "simulation.realisations": "give fewer realisations (or run them in parts with slipfield simulate --resume)",
         "reliability.samples": "give fewer samples",
         "sweep.realisations": "give fewer realisations per grid point or fewer θ values",
     }
-    for key, b in est.items():
-        if b > limit:
-            where = "--realisations" if key == "simulation.realisations" and realisations is not None else key
-            problems.append(f"{where}: this size needs about {_gib(b)} at once, more than the {_gib(limit)} "
-                            f"this run may use ({MEMORY_SHARE:.0%} of the machine's memory); {fixes[key]}")
     total = sum(est.values())
-    if not problems and total > limit:
-        big = max(est, key=est.get)
-        problems.append(f"{big}: the run needs about {_gib(total)} in all, more than the {_gib(limit)} it may use; "
-                        f"{fixes[big]}")
+    if total > limit:  # one message: the part that dominates, with its key and fix
+        key = max(est, key=est.get)
+        where = "--realisations" if key == "simulation.realisations" and realisations is not None else key
+        problems.append(f"{where}: this size needs about {_gib(est[key])} at once ({_gib(total)} for the whole run), "
+                        f"more than the {_gib(limit)} a run may use ({MEMORY_SHARE:.0%} of this machine's memory); "
+                        f"{fixes[key]}")
+        return
     method = case.simulation["field_method"]
     if any(not (math.isinf(theta_value(r["theta_h"])) and math.isinf(theta_value(r["theta_v"])))
            for r in case.randoms):
@@ -194,22 +193,26 @@ def _check_searches(case: Case, problems: list[str]) -> None:
     from .analyses import random_problem, trial_surfaces
 
     method = case.analysis["method"]
+    empty = []
     for hyp in case.analysis["hypotheses"]:
         try:
             res = trial_surfaces(case, hyp, method)
-        except InputError as exc:
-            problems.append(f"[search] ({hyp}): {exc}")
-            continue
+        except InputError as exc:  # a search that cannot be built fails alike for every hypothesis: one message
+            problems.append(f"[search]: {exc}")
+            return
         if res.critical_index < 0:
             why = ", ".join(f"{k}: {v}" for k, v in sorted(res.rejected.items())) or "none tried"
-            problems.append(f"[search] ({hyp}, {method}): none of the {res.n_trials} trial surfaces gave a "
-                            f"converged, admissible factor of safety ({why}); widen or move the search "
-                            "(search.x_range/y_range, entry/exit, or the fixed surface)")
+            empty.append(f"{hyp} ({why})")
             continue
         try:
             random_problem(case, {hyp: {"bank": res}}, hyp)
         except InputError as exc:
             problems.append(f"[[random]]/[[cross_correlation]] ({hyp}): {exc}")
+            return
+    if empty:
+        problems.append(f"[search]: none of the trial surfaces gave a converged, admissible factor of safety by "
+                        f"analysis.method = {method!r} under {'; '.join(empty)}; widen or move the search "
+                        "(search.x_range/y_range, entry/exit, min_depth, or the fixed surface)")
 
 
 def preflight(case: Case, *, realisations: int | None = None, search: bool = True) -> Case:

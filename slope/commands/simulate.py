@@ -43,6 +43,7 @@ PRESENTATION_KEYS = frozenset({
     "simulation.jobs", "simulation.batch",          # results are identical for any jobs and batch
     "simulation.seed",                              # the seed actually used is recorded on its own (--seed)
     "simulation.refine_below", "simulation.refine_method",  # the refinement used is recorded on its own
+    "simulation.refine_search",
     "analysis.hypotheses",                          # the hypothesis actually run is recorded on its own
     "analysis.methods",                             # the deterministic table of `run`; simulate uses analysis.method
     "reliability",                                  # single-random-variable methods of `run`
@@ -191,7 +192,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     exp_folder = None if exp is None else OutputFolder(exp, "simulate --export-fields", option="--export-fields",
                                                        overwrite=overwrite)
     refine = (RefineSettings.from_case(case.simulation) if refine_below is None else
-              RefineSettings(below=refine_below, method=refine_method))
+              RefineSettings(below=refine_below, method=refine_method,
+                             search=case.simulation.get("refine_search", "nelder-mead")))
     if scheduler is None:
         from ..simulate.driver import start_workers
 

@@ -51,6 +51,14 @@ class SimulationResult:
         refinement, ``refined``.
     store_notices : list of str
         Stored blocks that were unusable and recomputed (name and reason).
+    fs_circles : ndarray (n,) or None
+        For banks holding other families besides circles: the least clean
+        FS over the bank's circles alone (pf with circles only, common
+        random numbers with ``fs``).
+    refined_xy : ndarray (n, v, 2) or None
+        With the dynamic-programming search: vertices (section frame, m) of
+        each realisation's accepted surface where the search lowered its FS,
+        NaN-padded (NaN rows elsewhere).
     """
 
     fs: np.ndarray
@@ -67,10 +75,45 @@ class SimulationResult:
     refine: dict | None = None
     flags: dict | None = None
     store_notices: list = field(default_factory=list)
+    fs_circles: np.ndarray | None = None
+    refined_xy: np.ndarray | None = None
 
     @property
     def n(self) -> int:
         return int(self.fs.size)
+
+    @property
+    def fs_circles_only(self) -> np.ndarray:
+        """Per-realisation FS with circles alone: the bank's circles, before any per-realisation search."""
+        if self.fs_circles is not None:
+            return self.fs_circles
+        return self.fs_bank if self.fs_bank is not None else self.fs
+
+    @property
+    def pf_circles(self) -> float:
+        return self._pf(self.fs_circles_only)[0]
+
+    @property
+    def pf_circles_interval(self):
+        return self._pf(self.fs_circles_only)[1]
+
+    def governing_families(self) -> np.ndarray:
+        """Family that governed each realisation (its critical surface's; the search's where it lowered FS)."""
+        from ..surfaces import family_of
+
+        if self.problem is None:
+            raise InputError("governing_families needs the result of simulate() (problem attached)")
+        fam = np.array([family_of(s) for s in self.problem.surfaces] + ["none"], dtype=object)
+        out = fam[np.where(self.critical_index >= 0, self.critical_index, len(fam) - 1)]
+        if self.refine is not None and self.refine.get("search") == "dynamic-programming":
+            refined = np.isfinite(self.fs) & np.isfinite(self.fs_bank) & (self.fs < self.fs_bank)
+            out = np.where(refined, "dynamic-programming (per realisation)", out)
+        return out
+
+    def family_counts(self) -> dict:
+        """{family: realisations it governed}, in order of first appearance."""
+        fams = self.governing_families()
+        return {str(f): int(np.sum(fams == f)) for f in dict.fromkeys(fams.tolist())}
 
     def _pf(self, fs):
         ok = np.isfinite(fs)
@@ -118,7 +161,19 @@ class SimulationResult:
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined,
+                **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
+
+    def _mechanism_dict(self) -> dict:
+        """pf with circles alone and the governing families: only when the bank or the search has other shapes."""
+        dp = self.refine is not None and self.refine.get("search") == "dynamic-programming"
+        if self.fs_circles is None and not dp:
+            return {}
+        lo, hi = self.pf_circles_interval
+        out = {"pf_circles_only": self.pf_circles, "pf_circles_only_interval_95_wilson": [lo, hi]}
+        if self.problem is not None:
+            out["governing_family"] = self.family_counts()
+        return out
 
     def failure_map(self, x_edges, y_edges):
         """Density of failed critical surfaces.
@@ -176,12 +231,43 @@ def _run_block(problem, seed, start, stop, refine=None, parent=None):
         fs_c = out["fs"]
         out["fs_bank"] = fs_c.copy()
         out["refined"] = np.zeros(fs_c.size, bool)
+        dp = getattr(refine, "search", "nelder-mead") == "dynamic-programming"
+        if dp:
+            from .mechanisms import max_vertices, mechanism_search
+
+            # one record per realisation (stores hold 1-D arrays): the accepted surface's vertices, NaN-padded
+            xy = np.zeros(fs_c.size, dtype=[("xy", float, (max_vertices(refine), 2))])
+            xy["xy"] = np.nan
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
-            f, _ = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+            if dp:
+                f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+            else:
+                f, surf = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
+                if dp and hasattr(surf, "points") and len(surf.points) <= xy["xy"].shape[1]:
+                    xy["xy"][r, :len(surf.points)] = surf.points
+        if dp:
+            out["refined_xy"] = xy
+    _circles_only(problem, fs, conv, adm, out)
     return out
+
+
+def _circles_only(problem, fs, conv, adm, out):
+    """pf with circles alone beside the free search: the least clean circle FS per realisation.
+
+    Only for banks that hold other families; a circles-only bank's is ``fs_bank``
+    (with a per-realisation search) or ``fs`` itself.
+    """
+    from .mechanisms import surface_families
+
+    circ = np.array([f == "circle" for f in surface_families(problem)])
+    if circ.all() or not circ.any():
+        return
+    good = np.where(conv & adm & np.isfinite(fs), fs, np.inf)[:, circ]
+    fc = good.min(axis=1)
+    out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
 
 
 _WATCHED = None
@@ -599,7 +685,9 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
                             refine=None if refine is None else refine.describe(), flags=flags,
-                            store_notices=list(st.notices) if st is not None else [])
+                            store_notices=list(st.notices) if st is not None else [],
+                            fs_circles=allr.get("fs_circles"),
+                            refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
 
 
 def realise_fields(problem, seed, k):
