@@ -38,9 +38,24 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import importlib
+
 import numpy as np
-from scipy import linalg, optimize, stats
 from threadpoolctl import threadpool_limits
+
+
+class _OnUse:
+    """A scipy module imported on first attribute use: the command line builds its parser
+    (``TRENDS``) with this module imported, and scipy.stats/linalg/optimize cost seconds."""
+
+    def __init__(self, name):
+        self._name = name
+
+    def __getattr__(self, attr):
+        return getattr(importlib.import_module(self._name), attr)
+
+
+linalg, optimize, stats = _OnUse("scipy.linalg"), _OnUse("scipy.optimize"), _OnUse("scipy.stats")
 
 from .averaging import variance_function
 from .errors import InputError
