@@ -190,7 +190,7 @@ def _overwrite_option(p):
 
 def _estimator_options(p):
     """--estimator and the subset simulation settings (run, simulate, sweep)."""
-    from .simulate.rare import ESTIMATORS
+    from .simulate.estimators import ESTIMATORS
 
     p.add_argument("--estimator", choices=ESTIMATORS, default=None,
                    help="pf estimator: monte-carlo, subset (subset simulation, for small pf) or auto "

@@ -57,6 +57,7 @@ import numpy as np
 
 from slipfield.fields.seeding import realisation_rng
 
+from .estimators import ESTIMATORS
 from ..errors import InputError
 from ..reliability.subset import _gamma
 from .driver import _concat, _run_block, simulate
@@ -68,7 +69,6 @@ __all__ = ["SubsetSettings", "NoiseLayout", "GivenNoise", "subset_simulate", "ES
            "AUTO_MIN_FAILURES", "STREAM"]
 
 #: ``[simulation] estimator`` names: the registry the case schema and the CLI read.
-ESTIMATORS = ("monte-carlo", "subset", "auto")
 #: ``auto``: subset simulation when Monte Carlo's first level of samples sees fewer failures.
 AUTO_MIN_FAILURES = 10
 #: Stream tag of subset simulation's own random numbers (never a property index).
