@@ -276,3 +276,28 @@ samples = 100
     assert "changed pf from" in s["statement"]
     assert (tmp_path / "out" / "figures" / "site_data_sd_undrained.png").exists()
     assert "changed pf from" in (tmp_path / "out" / "report.html").read_text()
+
+
+def test_profile_value_is_the_conditional_variance_of_the_surface_average():
+    # pre-posterior: for a Gaussian field the posterior variance of the line
+    # average does not depend on the values measured, so the closed form
+    # γ(T) − c_sᵀ C_dd⁻¹ c_s (quadrature along the surface) is the expected one
+    from slipfield.slope.simulate.drilling import profile_value
+
+    theta, cell = 7.0, 0.5
+    p = _problem(theta, 50.0, 0.2, cell)
+    res = profile_value(p, [30.1, -9.0], spacing=1.0)
+    q, w = _surface_quadrature()
+    rho = lambda a, b: np.exp(-2.0 * np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1]) / theta)
+    prior = float(w @ rho(q, q) @ w)
+    xc = 30.25                                         # centre of the cell holding x = 30.1
+    ys = np.arange(-5.75, xc * TAN_B, cell)[::-1][::2]  # every 1 m from the top cell down
+    pts = np.column_stack([np.full(ys.size, xc), ys])
+    c_s = w @ rho(q, pts)
+    after = prior - float(c_s @ np.linalg.solve(rho(pts, pts), c_s))
+    r = res[0]["properties"]["clay.su"]
+    # 2 % covers the cell-centre / bilinear representation of the field (θ/cell = 14)
+    assert r["variance_now"] == pytest.approx(prior, rel=0.02)
+    assert r["variance_after"] == pytest.approx(after, rel=0.02)
+    far = res[1]["properties"]["clay.su"]
+    assert far["fraction_removed"] < 0.2 * r["fraction_removed"]   # 9 m beyond the toe: little to learn
