@@ -171,6 +171,17 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                         quiet=quiet, refine=refine)
         out["site_data"] = effect.to_dict()
         arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
+    if "drilling" in case.data:
+        from ..simulate.drilling import profile_value
+
+        d = case.data["drilling"]
+        out["drilling"] = {
+            "candidates": profile_value(arrays["spatial"]["problem"], d["candidates"], spacing=float(d["spacing"]),
+                                        error_var=float(d["error_sd"]) ** 2),
+            "note": "expected (pre-posterior) variance of each property's average along the fixed deterministic "
+                    "critical surface, standard-normal units, now and with a profile at x; exact for that "
+                    "Gaussian average, an indicator for pf (the critical surface moves, marginals are not "
+                    "Gaussian), not the pf interval itself"}
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)

@@ -263,6 +263,8 @@ def test_run_reports_pf_with_and_without_the_data(tmp_path):
 property = "clay.su"
 x = 22.25
 readings = [[-0.75, 30.0], [-1.75, 32.0], [-2.75, 35.0]]
+[drilling]
+candidates = [22.0, 38.0]
 [simulation]
 realisations = 60
 [reliability]
@@ -276,6 +278,17 @@ samples = 100
     assert "changed pf from" in s["statement"]
     assert (tmp_path / "out" / "figures" / "site_data_sd_undrained.png").exists()
     assert "changed pf from" in (tmp_path / "out" / "report.html").read_text()
+    dr = json.loads((tmp_path / "out" / "results.json").read_text())["spatial_simulation"]["undrained"]["drilling"]
+    assert [c["x"] for c in dr["candidates"]] == [22.0, 38.0]
+    assert all(0 <= c["properties"]["clay.su"]["fraction_removed"] <= 1 for c in dr["candidates"])
+
+
+def test_drilling_without_a_field_is_refused(tmp_path):
+    path = _case(tmp_path, "[drilling]\ncandidates = [5.0]\n")
+    text = path.read_text().replace('theta_h = 20.0\ntheta_v = 2.0', 'theta_h = "inf"\ntheta_v = "inf"')
+    path.write_text(text)
+    with pytest.raises(CaseError, match=r"\[drilling\] needs a spatially random property"):
+        load_case(path)
 
 
 def test_profile_value_is_the_conditional_variance_of_the_surface_average():
