@@ -39,7 +39,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import linalg, optimize, stats
+import scipy  # submodules load on first use: the command parser imports this module
 from threadpoolctl import threadpool_limits
 
 from .averaging import variance_function
@@ -235,11 +235,11 @@ class _Reml:
         """(ℓ_R, β̂, σ̂²) at scales (θh, θv)."""
         # LAPACK directly: small matrices, and scipy's wrappers go through
         # multi-threaded BLAS paths that are slow on a busy machine
-        L, info = linalg.lapack.dpotrf(self.corr(th, tv), lower=1, clean=1)
+        L, info = scipy.linalg.lapack.dpotrf(self.corr(th, tv), lower=1, clean=1)
         if info != 0:
             return -np.inf, None, None
         # one triangular solve per column (trsv): few columns, no threading
-        W = np.column_stack([linalg.blas.dtrsv(L, c, lower=1) for c in self.cols])
+        W = np.column_stack([scipy.linalg.blas.dtrsv(L, c, lower=1) for c in self.cols])
         Xw, vw = W[:, :self.p], W[:, self.p]
         A = Xw.T @ Xw
         beta = np.linalg.solve(A, Xw.T @ vw)
@@ -261,7 +261,7 @@ def _maximise_1d(f, lo, hi, n=_GRID):
     vals = np.array([f(t) for t in g])
     k = int(np.nanargmax(vals))
     a, b = g[max(k - 1, 0)], g[min(k + 1, n - 1)]
-    res = optimize.minimize_scalar(lambda t: -f(t), bounds=(a, b), method="bounded",
+    res = scipy.optimize.minimize_scalar(lambda t: -f(t), bounds=(a, b), method="bounded",
                                    options={"xatol": 1e-4})
     if -res.fun >= vals[k]:
         return float(res.x), float(-res.fun), g, vals
@@ -287,7 +287,7 @@ def _interval(f, t_hat, l_hat, g, approx, drop):
                 prev = t
                 continue
             if f(t) < target:
-                found = optimize.brentq(lambda u: f(u) - target, prev, t, xtol=1e-4)
+                found = scipy.optimize.brentq(lambda u: f(u) - target, prev, t, xtol=1e-4)
                 break
             prev = t
         ends.append(math.exp(found if found is not None else (side[-1] if side.size else t_hat)))
@@ -343,7 +343,7 @@ def variance_function_theta(model, depth_list, resid_list, sigma2, *, nu=None):
     lo, hi = math.log(T.min() / 20), math.log(T.max() * 20)
     g = np.linspace(lo, hi, 41)
     k = int(np.argmin([loss(t) for t in g]))
-    res = optimize.minimize_scalar(loss, bounds=(g[max(k - 1, 0)], g[min(k + 1, 40)]),
+    res = scipy.optimize.minimize_scalar(loss, bounds=(g[max(k - 1, 0)], g[min(k + 1, 40)]),
                                    method="bounded")
     return float(math.exp(res.x))
 
@@ -426,7 +426,7 @@ def _fit(profiles, *, model, trend, log, nu, level, theta_range) -> ProfileFit:
             raise InputError(f"theta_range must be (low, high) with 0 < low < high (m), got {theta_range!r}")
         lo, hi = math.log(a), math.log(b)
     xs = np.unique(x)
-    drop = 0.5 * float(stats.chi2.ppf(level, 1))
+    drop = 0.5 * float(scipy.stats.chi2.ppf(level, 1))
 
     if xs.size == 1:
         def f_v(t):
@@ -455,7 +455,7 @@ def _fit(profiles, *, model, trend, log, nu, level, theta_range) -> ProfileFit:
         gh_, gv_ = np.linspace(lo_h, hi_h, 13), np.linspace(lo, hi, 13)
         vals2 = np.array([[f2(a, b) for b in gv_] for a in gh_])
         i, j = np.unravel_index(int(np.nanargmax(vals2)), vals2.shape)
-        res = optimize.minimize(lambda t: -f2(min(max(t[0], lo_h), hi_h), min(max(t[1], lo), hi)),
+        res = scipy.optimize.minimize(lambda t: -f2(min(max(t[0], lo_h), hi_h), min(max(t[1], lo), hi)),
                                 [gh_[i], gv_[j]], method="Nelder-Mead",
                                 options={"xatol": 1e-4, "fatol": 1e-7})
         t_h, t_v = (min(max(res.x[0], lo_h), hi_h), min(max(res.x[1], lo), hi))

@@ -119,7 +119,7 @@ def _surface_y(section, surface, x):
     return np.where(inside, np.minimum(ys, g), g), x1, x2
 
 
-def band_grid(section, path_x, path_y, columns, nodes, half_width, margin):
+def band_grid(section, path_x, path_y, columns, nodes, half_width, margin, keep_x=()):
     """Node grid in a band about a path (section frame).
 
     Parameters
@@ -134,6 +134,10 @@ def band_grid(section, path_x, path_y, columns, nodes, half_width, margin):
         clipped to the ground and the section base.
     margin : float, m
         Columns extend this far beyond the path's ends.
+    keep_x : sequence of float, m
+        Abscissae that must be columns (the path's own vertices: with an odd
+        ``nodes`` the path itself is then a path of the grid, so a pass never
+        loses what the previous one found).
     """
     pad = 1e-6 * max(1.0, float(np.ptp(section.ground[:, 1])))
     xa = max(section.x_min + pad, float(path_x[0]) - margin)
@@ -143,10 +147,15 @@ def band_grid(section, path_x, path_y, columns, nodes, half_width, margin):
     # straight, and a segment between two nodes below it stays below it
     gx = section.ground[:, 0]
     x = np.union1d(x, gx[(gx > xa) & (gx < xb)])
+    kx = np.asarray(keep_x, float)
+    x = np.union1d(x, kx[(kx > xa) & (kx < xb)])
+    x = x[np.r_[True, np.diff(x) > 1e-6 * max(1.0, xb - xa)]]  # no zero-width column intervals
     g = section.ground_y(x)
     inside = (x > path_x[0]) & (x < path_x[-1])
     yc = np.where(inside, np.interp(x, path_x, path_y), g)
     off = np.linspace(half_width, -half_width, int(nodes))
+    if int(nodes) % 2 == 0:  # the path's own elevation is always a node
+        off = np.r_[off[:int(nodes) // 2], 0.0, off[int(nodes) // 2:]]
     y = yc[:, None] + off[None, :]
     gap = 1e-3 * max(half_width, pad)
     y = np.clip(y, section.base_y + pad, (g - gap)[:, None])
@@ -519,7 +528,8 @@ def dp_surface(section, start, *, hypothesis="drained", overrides=None, settings
         if k + 1 < st.passes:
             spacing = float(np.median(np.abs(np.diff(seg.grid.y[:, 1:], axis=1))))
             grid = band_grid(section, best_xy[:, 0], best_xy[:, 1], st.columns, st.nodes,
-                             max(2.0 * spacing, 1e-3 * depth), 2.0 * float(np.median(np.diff(seg.grid.x))))
+                             max(2.0 * spacing, 1e-3 * depth), 2.0 * float(np.median(np.diff(seg.grid.x))),
+                             keep_x=best_xy[:, 0])
             seg = segment_terms(section, grid, seg.bank.direction[0])
             seg.depth = depth
     return paths
@@ -543,7 +553,9 @@ def first_band(section, start, settings: DPSettings | None = None) -> SegmentTer
     if not depth > 0:
         raise InputError("dynamic-programming search: the start surface has no depth below the ground")
     d = 1 if section.ground_y(x1) > section.ground_y(x2) else -1
-    grid = band_grid(section, xy[:, 0], xy[:, 1], st.columns, st.nodes, st.band * depth, st.margin * (x2 - x1))
+    keep = start.points[:, 0] if isinstance(start, Polyline) else (x1, x2)  # the start's vertices are columns
+    grid = band_grid(section, xy[:, 0], xy[:, 1], st.columns, st.nodes, st.band * depth, st.margin * (x2 - x1),
+                     keep_x=np.clip(keep, x1, x2))
     seg = segment_terms(section, grid, d)
     seg.depth = depth
     return seg

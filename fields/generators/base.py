@@ -126,6 +126,49 @@ class FieldGenerator(ABC):
             ks = idx[s:s + bs]
             yield ks, self.sample(seed, ks, stream)
 
+    # ------------------------------------------------------ white noise
+    # The standard-normal noise a generator turns into a field, exposed for
+    # methods that work in that space (subset simulation moves it by Markov
+    # chains, slope.simulate.rare). fields_from_noise(noise(seed, idx)) is
+    # sample(seed, idx) bit for bit.
+    noise_size = None
+    """Length of one realisation's white noise (None: drawn internally, not available)."""
+
+    def noise(self, seed, indices, stream=()):
+        """The white noise of realisations ``indices``: array ``(len(indices), noise_size)``.
+
+        Drawn from ``realisation_rng(seed, k, *stream)`` exactly as
+        :meth:`sample` draws it; i.i.d. standard normal.
+        """
+        if self.noise_size is None:
+            raise InputError(f"the {self.method!r} generator draws its noise internally, so its fields "
+                             "cannot be moved in standard-normal space; use 'fft', 'cholesky' or 'kl'")
+        seed, idx, stream = _check_call(seed, indices, stream)
+        out = np.empty((idx.size, self.noise_size))
+        for i, k in enumerate(idx):
+            realisation_rng(seed, int(k), *stream).standard_normal(out=out[i])
+        return out
+
+    def fields_from_noise(self, noise, keys=None):
+        """Fields ``(b, n_points)`` from white noise ``(b, noise_size)`` (a linear map).
+
+        ``keys``: one non-negative integer per row that fixes where the row
+        sits in the generator's internal block (dense generators: BLAS sums
+        depend on it), so a row gives the same bits in any batch; the
+        realisation number for noise from :meth:`noise` (default
+        ``0 .. b-1``).
+        """
+        if self.noise_size is None:
+            self.noise(0, [0])  # raises the explanation
+        z = np.asarray(noise, dtype=float)
+        if z.ndim != 2 or z.shape[1] != self.noise_size:
+            raise InputError(f"noise must have shape (b, {self.noise_size}), got {z.shape}")
+        ks = np.arange(z.shape[0]) if keys is None else np.asarray(keys, dtype=np.int64)
+        return self._from_noise_rows(z, ks)
+
+    def _from_noise_rows(self, z, ks):
+        raise NotImplementedError
+
     @abstractmethod
     def _sample_block(self, rngs, seed, ks, stream) -> np.ndarray:
         """Realisations for one block; ``rngs[i]`` is realisation ``ks[i]``'s stream."""
@@ -221,4 +264,10 @@ def generator_names():
     """Method names accepted by :func:`make_generator`."""
     from . import cholesky, circulant, kl, spectral  # noqa: F401
     return tuple(sorted(_REGISTRY))
+
+
+def noise_generator_names():
+    """Method names whose generators expose their white noise (:meth:`FieldGenerator.noise`)."""
+    from . import cholesky, circulant, kl, spectral  # noqa: F401
+    return tuple(sorted(n for n, cls in _REGISTRY.items() if cls.noise_size is not None))
 

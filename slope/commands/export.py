@@ -123,7 +123,7 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
         props.append({"key": p.key, "file": files[p.key].name, "array": names[p.key],
                       "unit": "-" if p.multiplier else _UNITS[p.prop],
                       "meaning": ("factor of the material's deterministic value" if p.multiplier
-                                  else "value of the property"), **p.describe()})
+                                  else "value of the property"), **p.manifest()})
         if fmt == "xdmf":
             props[-1]["heavy_data"] = files[p.key].with_suffix(".h5").name
     manifest = {

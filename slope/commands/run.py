@@ -22,7 +22,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case.analyses import deterministic, random_problem, single_variable_reliability, surface_xy
+from ..case.analyses import (deterministic, random_problem, risk_scenarios, single_variable_reliability,
+                              surface_xy)
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import convergence_history, estimate_pf
@@ -111,8 +112,8 @@ def _status(n, n_valid):
     return f"{n - n_valid} of {n} realisations without a converged, admissible surface excluded from pf"
 
 
-def _simulation(case, det, hyp, *, n, n_jobs, quiet):
-    """Spatially variable run (a) and the same with every θ → ∞ (b)."""
+def _simulation(case, det, hyp, *, n, n_jobs, quiet, estimator=("monte-carlo", None)):
+    """Spatially variable run (a) and the same with every θ → ∞ (b); subset simulation of (a) when chosen."""
     from ..simulate import RefineSettings, simulate
 
     seed = int(case.simulation["seed"])
@@ -172,16 +173,12 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
         out["site_data"] = effect.to_dict()
         arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
     if "drilling" in case.data:
-        from ..simulate.drilling import profile_value
+        from ..simulate.drilling import drilling_summary
 
-        d = case.data["drilling"]
-        out["drilling"] = {
-            "candidates": profile_value(arrays["spatial"]["problem"], d["candidates"], spacing=float(d["spacing"]),
-                                        error_var=float(d["error_sd"]) ** 2),
-            "note": "expected (pre-posterior) variance of each property's average along the fixed deterministic "
-                    "critical surface, standard-normal units, now and with a profile at x; exact for that "
-                    "Gaussian average, an indicator for pf (the critical surface moves, marginals are not "
-                    "Gaussian), not the pf interval itself"}
+        out["drilling"] = drilling_summary(case.data["drilling"], arrays["spatial"]["problem"])
+    from .subset_cmd import run_subset
+
+    run_subset(out, arrays, estimator, seed=seed, batch=block, n_jobs=n_jobs, refine=refine, quiet=quiet)
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)
@@ -283,7 +280,9 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
             f = rp.plot_fs_distribution(fs[ok], n_excluded=int((~ok).sum()), pf=s["pf"],
                                         pf_interval=tuple(s["pf_interval_95"]))
             figs.append((f"fs_single_variable_{hyp}", f"FS distribution, single random variables, {hyp}", f))
-        tr = r["arrays"]["tornado"]
+        tr = r["arrays"].get("tornado")
+        if tr is None:  # the tornado could not be evaluated: its status is in its row
+            continue
         f = rp.plot_tornado(tr.names, tr.fs_low, tr.fs_high, tr.fs_mean, k=tr.k, clipped=tr.clipped)
         figs.append((f"tornado_{hyp}", f"Tornado chart (mean ± {tr.k:g}σ), {hyp}", f))
     for hyp, s in sim.items():
@@ -365,23 +364,11 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
         gam[name] = np.array([float(variance_function(m, t)) for t in T])
     f = rp.plot_variance_reduction(T, gam)
     figs.append(("variance_reduction", "Variance function γ(T) of the correlation models (θ = 1)", f))
-    risk = case.data.get("risk")
-    if risk is not None:
-        scen = []
-        for hyp, s in sim.items():
-            if s is None:
-                continue
-            summ = s["summary"]["spatial"]["critical_surface_searched"]
-            sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
-            if "annual_pf" in risk:
-                sc["annual_probability"] = risk["annual_pf"]
-            else:
-                sc.update(pf=summ["pf"], annual_exceedance=risk["annual_exceedance"],
-                          pf_interval=tuple(summ["pf_interval_95"]))
-            scen.append(sc)
-        if scen:
-            f = rp.plot_risk_chart(scen, risk.get("tolerability", []), consequence_label=risk["consequence_label"])
-            figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
+    risk = risk_scenarios(case, {h: s["summary"]["spatial"]["critical_surface_searched"]
+                                 for h, s in sim.items() if s is not None})
+    if risk is not None and risk["scenarios"]:
+        f = rp.plot_risk_chart(risk["scenarios"], risk["tolerability"], consequence_label=risk["consequence_label"])
+        figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
     figs = [f if len(f) == 4 else (*f, "") for f in figs]
     for stem, _, fig, _ in figs:
         rp.save_figure(fig, fig_dir, stem, formats=formats)
@@ -403,7 +390,8 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg"), overwrite=False) -> dict:
+             figure_formats=("png", "svg"), overwrite=False, estimator=None, level_probability=None,
+             samples_per_level=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -443,15 +431,22 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     from ..case.preflight import check_option, preflight
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
+    from .subset_cmd import estimator_settings
+
+    est = estimator_settings(case, estimator, level_probability, samples_per_level)
     preflight(case, realisations=None if realisations is None else n)
     from .folders import OutputFolder
 
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
     stage = out.stage()
+    from ..simulate.driver import start_workers
+
+    start_workers(n_jobs)  # the pool starts while the search runs
     try:
         det = deterministic(case)
-        rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
-        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet) for h in case.analysis["hypotheses"]}
+        rel = {h: single_variable_reliability(case, det, h, n_jobs=1, estimator=est) for h in case.analysis["hypotheses"]}
+        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet, estimator=est)
+               for h in case.analysis["hypotheses"]}
         for r in rel.values():
             _reliability_status(r["summary"] if r else None)
         results = {
@@ -473,7 +468,8 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
                      "figures": [{"figure": stage / "figures" / f"{stem}.png", "caption": cap}], "tables": []}
                     for stem, cap, _, text in figs]
         rp.write_report(stage / "report.html", case.title, summary_rows, sections,
-                        caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n)})
+                        caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n),
+                              **({"note": case.data["case"]["note"]} if case.data["case"].get("note") else {})})
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
         results["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         (stage / "results.json").write_text(json.dumps(_jsonable(results), indent=2, allow_nan=False))
@@ -503,6 +499,10 @@ def _summary_rows(results) -> list:
             c = s[k]["critical_surface_searched"]
             rows.append((f"pf, {h}, {label} (critical surface re-searched)", c["pf"], "-",
                          f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}"))
+        if s["spatial"].get("subset"):
+            from .subset_cmd import subset_row
+
+            rows.append(subset_row(h, s["spatial"]["subset"]))
         c = s["analytic_variance_reduction"]
         if c["pf"] is not None:
             gam = ", ".join(f"γ {t['property']} {t['gamma']:.3g}" for t in c["properties"])

@@ -5,12 +5,13 @@ averaging_report, theta_sweep, SimulationResult.
 """
 from .problem import RandomProblem, RandomProperty
 from .refinement import RefineSettings
-from .driver import (SchedulerLost, SimulationResult, connect_scheduler, load_store, realise_fields, simulate,
+from .driver import (SimulationResult, load_store, realise_fields, simulate,
                      store_header)
+from .executors import SchedulerLost, connect_scheduler, run_tasks
 from .store import BlockStore, StoreRepairWarning
 from .studies import averaging_report, theta_sweep
 
 __all__ = ["RandomProperty", "RandomProblem", "simulate", "SimulationResult", "realise_fields",
            "RefineSettings", "load_store", "store_header", "BlockStore", "StoreRepairWarning",
-           "connect_scheduler", "SchedulerLost",
+           "connect_scheduler", "SchedulerLost", "run_tasks",
            "averaging_report", "theta_sweep"]

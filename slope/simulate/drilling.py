@@ -31,7 +31,7 @@ from slipfield.fields.conditioning import DataCovariance
 
 from .engine import stencil
 
-__all__ = ["surface_average_weights", "profile_value"]
+__all__ = ["surface_average_weights", "profile_value", "drilling_summary"]
 
 
 def surface_average_weights(problem, index=None):
@@ -135,3 +135,21 @@ def _solve(cov, b):
     from scipy import linalg
 
     return linalg.cho_solve(cov.cho, b, check_finite=False)
+
+
+def drilling_summary(settings: dict, problem) -> dict:
+    """The ``[drilling]`` table of a case evaluated on a problem (what ``slipfield run`` reports).
+
+    Parameters
+    ----------
+    settings : dict
+        Checked ``[drilling]`` keys: ``candidates`` (m), ``spacing`` (m),
+        ``error_sd`` (standard-normal units).
+    problem : RandomProblem
+    """
+    return {"candidates": profile_value(problem, settings["candidates"], spacing=float(settings["spacing"]),
+                                        error_var=float(settings["error_sd"]) ** 2),
+            "note": "expected (pre-posterior) variance of each property's average along the fixed deterministic "
+                    "critical surface, standard-normal units, now and with a profile at x; exact for that "
+                    "Gaussian average, an indicator for pf (the critical surface moves, marginals are not "
+                    "Gaussian), not the pf interval itself"}
