@@ -182,7 +182,10 @@ class ProfileFit:
             lo, hi = self.theta_h_ci
             lines.append(f"# theta_h {self.level:.0%} interval [{'≤' if self.theta_h_open[0] else ''}"
                          f"{lo:.3g}, {'≥' if self.theta_h_open[1] else ''}{hi:.3g}] m")
-        if self.trend == "linear":
+        if self.trend == "linear" and self.log:
+            lines.append("# the fitted median grows exponentially with depth while the case's su laws are "
+                         "linear: approximate it in the material's law, or fit without --log")
+        elif self.trend == "linear":
             lines.append("# the COV applies about the trend: put the trend in the material "
                          "(e.g. su = { law = \"depth\", value = ..., gradient = ... })")
         lines += ["[[random]]", f"material = {_toml_str(material)}", f"property = {_toml_str(prop)}",

@@ -175,6 +175,7 @@ DP = add("[search.dynamic_programming]\ncolumns = 6\nnodes = 5\npasses = 1", FAM
 SITE = add('[[site_data]]\nproperty = "clay.su"\nx = 30.0\nreadings = [[-1.0, 55.0]]')
 SITE_POINTS = add('[[site_data]]\nproperty = "clay.su"\npoints = [[30.0, -1.0, 55.0]]')
 SITE_FILE = add('[[site_data]]\nproperty = "clay.su"\nfile = "walk_a.csv"')
+DRILL = add("[drilling]\ncandidates = [20.0]")
 #: files beside every case of the walk (site data read from CSV)
 CSV_FILES = {"walk_a.csv": "x,elevation,value\n30,-1,55\n", "walk_b.csv": "x,elevation,value\n30,-1,28\n"}
 
@@ -262,6 +263,10 @@ WALK = {
     "search.dynamic_programming.columns": (DP, DP.replace("columns = 6", "columns = 8"), "det"),
     "search.dynamic_programming.nodes": (DP, DP.replace("nodes = 5", "nodes = 7"), "det"),
     "search.dynamic_programming.passes": (DP, DP.replace("passes = 1", "passes = 2"), "det"),
+    "drilling.candidates": (DRILL, DRILL.replace("candidates = [20.0]", "candidates = [30.0]"), "drill"),
+    "drilling.spacing": (DRILL, DRILL.replace("candidates = [20.0]", "candidates = [20.0]\nspacing = 3.0"), "drill"),
+    "drilling.error_sd": (DRILL, DRILL.replace("candidates = [20.0]", "candidates = [20.0]\nerror_sd = 0.5"),
+                          "drill"),
     "site_data.property": (SITE, SITE.replace('property = "clay.su"\nx = 30.0\nreadings = [[-1.0, 55.0]]',
                                               'property = "clay.c"\nx = 30.0\nreadings = [[-1.0, 14.0]]'), "sim"),
     "site_data.x": (SITE, SITE.replace("x = 30.0", "x = 14.0"), "sim"),
@@ -439,7 +444,17 @@ def probe_risk(case, tmp_path):
     return {"points": risk_points(r["scenarios"]), "lines": r["tolerability"], "label": r["consequence_label"]}
 
 
-PROBES = {"det": probe_det, "rel": probe_rel, "sim": probe_sim, "risk": probe_risk}
+def probe_drill(case, tmp_path):
+    """What ``slipfield run`` reports for [drilling], on each hypothesis's random problem."""
+    from slipfield.slope.case.analyses import deterministic, random_problem
+    from slipfield.slope.simulate.drilling import drilling_summary
+
+    det = deterministic(case)
+    return {h: drilling_summary(case.data["drilling"], random_problem(case, det, h))
+            for h in case.analysis["hypotheses"]}
+
+
+PROBES = {"det": probe_det, "rel": probe_rel, "sim": probe_sim, "risk": probe_risk, "drill": probe_drill}
 
 
 _SEEN: dict = {}  # (probe, case text) -> probe output: a base shared by many keys is probed once

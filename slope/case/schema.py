@@ -300,6 +300,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
         "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
     },
+    "drilling": {
+        "candidates": Key(_number_list(min_len=1), required=True,
+                          doc="x of candidate vertical profiles (m): how much each would narrow the strength "
+                              "average along the critical surface"),
+        "spacing": Key(_number(lo=0, lo_open=True), default=1.0, doc="vertical spacing of the candidate readings (m)"),
+        "error_sd": Key(_number(lo=0), default=0.0, doc="measurement error of a candidate reading, standard-normal units"),
+    },
     "random": {
         "material": Key(_string(), required=True),
         "property": Key(_string(PROPS), required=True),
@@ -724,7 +731,12 @@ def _check_subset(sim: dict, where, problems: list[str]) -> None:
 
 
 def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
-    """[[site_data]]: a random property, one location form, one error form."""
+    """[[site_data]]: a random property, one location form, one error form; [drilling] needs a field."""
+    if "drilling" in case and not any(not (_is_inf(r.get("theta_h")) and _is_inf(r.get("theta_v")))
+                                      for r in case.get("random", [])):
+        problems.append(f"{where('drilling', None, None)}[drilling] needs a spatially random property (a [[random]] "
+                        "entry with finite theta_h and theta_v): with none, a new profile can teach nothing; "
+                        "remove [drilling] or add the field")
     for i, d in enumerate(case.get("site_data", [])):
         p = d.get("property")
         if p is not None and p not in props:

@@ -172,6 +172,10 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet, estimator=("monte-carlo", N
                                         quiet=quiet, refine=refine)
         out["site_data"] = effect.to_dict()
         arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
+    if "drilling" in case.data:
+        from ..simulate.drilling import drilling_summary
+
+        out["drilling"] = drilling_summary(case.data["drilling"], arrays["spatial"]["problem"])
     from .subset_cmd import run_subset
 
     run_subset(out, arrays, estimator, seed=seed, batch=block, n_jobs=n_jobs, refine=refine, quiet=quiet)
