@@ -55,6 +55,8 @@ class SimulationResult:
         For banks holding other families besides circles: the least clean
         FS over the bank's circles alone (pf with circles only, common
         random numbers with ``fs``).
+    crit_circles : ndarray of int (n,) or None
+        The bank index of that circle (-1 where none qualified).
     refined_xy : ndarray (n, v, 2) or None
         With the dynamic-programming search: vertices (section frame, m) of
         each realisation's accepted surface where the search lowered its FS,
@@ -77,6 +79,7 @@ class SimulationResult:
     store_notices: list = field(default_factory=list)
     fs_circles: np.ndarray | None = None
     refined_xy: np.ndarray | None = None
+    crit_circles: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -268,6 +271,7 @@ def _circles_only(problem, fs, conv, adm, out):
     good = np.where(conv & adm & np.isfinite(fs), fs, np.inf)[:, circ]
     fc = good.min(axis=1)
     out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
+    out["crit_circles"] = np.where(np.isfinite(fc), np.flatnonzero(circ)[good.argmin(axis=1)], -1)
 
 
 _WATCHED = None
@@ -641,7 +645,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
-                            fs_circles=allr.get("fs_circles"),
+                            fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
                             refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
 
 
