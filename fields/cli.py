@@ -243,7 +243,7 @@ def _add_common(p, multi):
 
 
 def _fill(fp):
-    sub = fp.add_subparsers(dest="fields_command", metavar="{vrf,sample}")
+    sub = fp.add_subparsers(dest="fields_command", metavar="{vrf,sample,fit}")
     sub.required = True
     v = sub.add_parser("vrf", help="variance-reduction table γ(T) or γ(X, Y)",
                        description="Print the variance reduction factor γ of local averages "
@@ -283,6 +283,9 @@ def _fill(fp):
     s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf")
     s.add_argument("--quiet", action="store_true", help="no summary line")
     s.set_defaults(func=run_sample)
+    from .fitcommand import add_fit_parser
+
+    add_fit_parser(sub)
     return fp
 
 

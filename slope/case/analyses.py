@@ -31,8 +31,8 @@ from ..search import evaluate_surfaces, search_from_case
 from ..search_families import add_families
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "surface_xy",
-           "properties_for"]
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
+           "surface_xy", "properties_for"]
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -105,6 +105,10 @@ def deterministic(case: Case) -> dict:
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
             res = evaluate_surfaces(case.section, first.surfaces, hypothesis=hyp, method=m,
                                     n_slices=case.analysis["slices"], search=first.search, **opts)
+            for k in ("shallower than search.min_depth",):  # dropped before the bank: counted for every method
+                if k in first.rejected:
+                    res.rejected[k] = first.rejected[k]
+                    res.n_trials = first.n_trials
             per_method[m] = _search_dict(res, case.section)
         out[hyp] = {"bank": first, "methods": per_method}
     return out
@@ -153,6 +157,39 @@ def marginal_of(case: Case, r: dict):
         raise InputError(f"random property {r['material']}.{p}: the mean is {kw['mean']:g}; give a positive "
                          f"mean in the [[random]] entry or in the material")
     return make_marginal(r["distribution"], **kw)
+
+
+def risk_scenarios(case: Case, pf_by_hypothesis: dict) -> dict | None:
+    """The case's ``[risk]`` as scenarios of the risk chart, one per hypothesis; None without ``[risk]``.
+
+    Parameters
+    ----------
+    pf_by_hypothesis : dict
+        ``{hypothesis: {"pf": float, "pf_interval_95": [lo, hi]}}`` (the
+        spatial simulation's estimate; hypotheses without one are skipped).
+
+    Returns
+    -------
+    dict
+        ``scenarios`` (for :func:`slope.report.risk.risk_points`),
+        ``tolerability`` (the case's lines) and ``consequence_label``.
+    """
+    risk = case.data.get("risk")
+    if risk is None:
+        return None
+    scen = []
+    for hyp, est in pf_by_hypothesis.items():
+        if est is None:
+            continue
+        sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
+        if "annual_pf" in risk:
+            sc["annual_probability"] = risk["annual_pf"]
+        else:
+            sc.update(pf=est["pf"], annual_exceedance=risk["annual_exceedance"],
+                      pf_interval=tuple(est["pf_interval_95"]))
+        scen.append(sc)
+    return {"scenarios": scen, "tolerability": risk.get("tolerability", []),
+            "consequence_label": risk["consequence_label"]}
 
 
 def _name(r) -> str:
@@ -286,4 +323,20 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),
                          field_method=sim["field_method"], averaging=sim["averaging"],
-                         interslice=case.analysis["interslice"])
+                         interslice=case.analysis["interslice"],
+                         site_data=_site_data(case, rp, theta_override))
+
+
+def _site_data(case: Case, rp, theta_override=None) -> dict:
+    """Gaussian-space site data of the random properties that have some (see slope.site_data).
+
+    Under a θ override to infinity (the single-random-variable comparison of a
+    run, a sweep's "inf") the properties are no longer fields and the data
+    are left out: that comparison is unconditional.
+    """
+    from ..site_data import gaussian_site_data
+
+    readings = case.extras.get("site_data") or []
+    return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
+            for p in rp if any(r.key == p.key for r in readings)
+            and not (theta_override is not None and p.single)}

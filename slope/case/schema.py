@@ -164,6 +164,19 @@ def _number_or_table(v):
     return _number(lo=0)(v)
 
 
+def _tuples(width, what):
+    """A list of [a, b, ...] rows of ``width`` finite numbers (site data readings)."""
+    def check(v):
+        if not isinstance(v, list) or not v:
+            return f"must be a non-empty list of [{what}] rows"
+        for p in v:
+            if (not isinstance(p, list) or len(p) != width
+                    or any(isinstance(q, bool) or not isinstance(q, (int, float)) or not math.isfinite(q) for q in p)):
+                return f"must be a list of [{what}] rows of numbers; bad row {p!r}"
+        return None
+    return check
+
+
 @dataclass(frozen=True)
 class Key:
     """One key of a table: its checker, whether it is required, its default."""
@@ -277,6 +290,15 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "y": Key(_number(), required=True, doc="y of the centre (m)"),
         "r": Key(_number(lo=0, lo_open=True), required=True, doc="radius (m)"),
     },
+    "site_data": {
+        "property": Key(_string(), required=True, doc="\"material.property\" of a [[random]] entry"),
+        "x": Key(_number(), doc="position of a vertical profile (m); with readings"),
+        "readings": Key(_tuples(2, "elevation (m), value"), doc="profile readings at x"),
+        "points": Key(_tuples(3, "x (m), elevation (m), value"), doc="single measurements"),
+        "file": Key(_string(), doc="CSV beside the case, columns x,elevation,value"),
+        "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
+        "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
+    },
     "random": {
         "material": Key(_string(), required=True),
         "property": Key(_string(PROPS), required=True),
@@ -340,7 +362,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 }
 
 #: Top-level entries that are arrays of tables.
-ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation")
+ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation", "site_data")
 #: Nested array tables (parent table, key).
 NESTED_ARRAYS = {("section", "zone"), ("section", "layer"), ("risk", "tolerability"), ("water", "piezometric"),
                  ("search", "block")}
@@ -661,6 +683,7 @@ def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None
     _check_search_families(case, case.get("search", {}), zone_names, where, problems)
     _check_geometry(case, where, problems)
     _check_conditional_keys(case, raw, where, problems)
+    _check_site_data_refs(case, props, where, problems)
     risk = case.get("risk")
     if risk is not None and "annual_exceedance" not in risk and "annual_pf" not in risk:
         problems.append(f"{where('risk', None, None)}risk needs annual_exceedance (of the analysed loading) or annual_pf")
@@ -669,6 +692,24 @@ def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None
             problems.append(f"{where('surcharge', i, 'x_to')}surcharge[{i}]: x_from must be below x_to")
 
 
+def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
+    """[[site_data]]: a random property, one location form, one error form."""
+    for i, d in enumerate(case.get("site_data", [])):
+        p = d.get("property")
+        if p is not None and p not in props:
+            problems.append(f"{where('site_data', i, 'property')}site_data[{i}].property {p!r} is not a random "
+                            f"property; use \"material.property\" of a [[random]] entry (defined: "
+                            f"{', '.join(sorted(props)) or 'none'})")
+        forms = [k for k in ("readings", "points", "file") if k in d]
+        if len(forms) != 1:
+            problems.append(f"{where('site_data', i, None)}site_data[{i}]: give exactly one of readings (with x), "
+                            f"points or file{'; found ' + ', '.join(forms) if forms else ''}")
+        if ("x" in d) != ("readings" in d):
+            problems.append(f"{where('site_data', i, 'x')}site_data[{i}]: x (m) goes with readings and only with "
+                            "them; a profile is x plus [elevation, value] readings")
+        if "error_sd" in d and "error_cov" in d:
+            problems.append(f"{where('site_data', i, 'error_cov')}site_data[{i}]: give error_sd or error_cov, "
+                            "not both")
 def _check_search(case: dict, raw: dict, where, problems: list[str]) -> None:
     """The [search] table: the keys its kind reads (registry), the fixed surface, the ranges."""
     search = case.get("search", {})

@@ -22,7 +22,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case.analyses import deterministic, random_problem, single_variable_reliability, surface_xy
+from ..case.analyses import (deterministic, random_problem, risk_scenarios, single_variable_reliability,
+                              surface_xy)
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import convergence_history, estimate_pf
@@ -166,6 +167,15 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                           "max_depth": _spread(depth)}
         arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": crit, "problem": prob,
                          "area": area, "depth": depth, "result": res}
+    if arrays["spatial"]["problem"].site_data:
+        from .site_effect import site_data_effect
+
+        sp = arrays["spatial"]
+        est_c = estimate_pf(sp["fs"], valid=np.isfinite(sp["fs"]))
+        effect, fs_u = site_data_effect(sp["problem"], est_c, hyp, n=n, seed=seed, batch=block, n_jobs=n_jobs,
+                                        quiet=quiet, refine=refine)
+        out["site_data"] = effect.to_dict()
+        arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)
@@ -320,6 +330,22 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
         f = rp.plot_pf_comparison(labels, pfs, los, his)
         figs.append((f"pf_comparison_{hyp}", f"What spatial averaging changes: pf with and without it, {hyp}", f))
         prob = s["arrays"]["spatial"]["problem"]
+        if "site_data" in s["arrays"]:
+            from .site_effect import conditional_sd_figure
+
+            eff = s["arrays"]["site_data"]["effect"]
+            if eff.pf_conditional is not None and eff.pf_unconditional is not None:
+                f = rp.plot_pf_comparison(["conditioned on the site data", "without the site data (same seed)"],
+                                          [eff.pf_conditional, eff.pf_unconditional],
+                                          [min(eff.interval_conditional[0], eff.pf_conditional),
+                                           min(eff.interval_unconditional[0], eff.pf_unconditional)],
+                                          [max(eff.interval_conditional[1], eff.pf_conditional),
+                                           max(eff.interval_unconditional[1], eff.pf_unconditional)])
+                figs.append((f"pf_site_data_{hyp}", f"pf with and without the site data, {hyp}", f,
+                             eff.sentence()))
+            figs.append((f"site_data_sd_{hyp}", f"Site data locations and the conditional standard deviation "
+                                                f"relative to the unconditional one, {hyp}",
+                         conditional_sd_figure(prob, sec, hyp), ""))
         bank = prob.bank
         crit = s["arrays"]["spatial"]["crit"]
         figs += _field_figures(case, prob, s["summary"]["spatial"]["realisations_shown"], hyp)
@@ -359,23 +385,11 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
         gam[name] = np.array([float(variance_function(m, t)) for t in T])
     f = rp.plot_variance_reduction(T, gam)
     figs.append(("variance_reduction", "Variance function γ(T) of the correlation models (θ = 1)", f))
-    risk = case.data.get("risk")
-    if risk is not None:
-        scen = []
-        for hyp, s in sim.items():
-            if s is None:
-                continue
-            summ = s["summary"]["spatial"]["critical_surface_searched"]
-            sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
-            if "annual_pf" in risk:
-                sc["annual_probability"] = risk["annual_pf"]
-            else:
-                sc.update(pf=summ["pf"], annual_exceedance=risk["annual_exceedance"],
-                          pf_interval=tuple(summ["pf_interval_95"]))
-            scen.append(sc)
-        if scen:
-            f = rp.plot_risk_chart(scen, risk.get("tolerability", []), consequence_label=risk["consequence_label"])
-            figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
+    risk = risk_scenarios(case, {h: s["summary"]["spatial"]["critical_surface_searched"]
+                                 for h, s in sim.items() if s is not None})
+    if risk is not None and risk["scenarios"]:
+        f = rp.plot_risk_chart(risk["scenarios"], risk["tolerability"], consequence_label=risk["consequence_label"])
+        figs.append(("risk_chart", "Risk chart: annual probability of failure against consequence", f))
     figs = [f if len(f) == 4 else (*f, "") for f in figs]
     for stem, _, fig, _ in figs:
         rp.save_figure(fig, fig_dir, stem, formats=formats)
@@ -442,6 +456,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
 
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
     stage = out.stage()
+    from ..simulate.driver import start_workers
+
+    start_workers(n_jobs)  # the pool starts while the search runs
     try:
         det = deterministic(case)
         rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
@@ -467,7 +484,8 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
                      "figures": [{"figure": stage / "figures" / f"{stem}.png", "caption": cap}], "tables": []}
                     for stem, cap, _, text in figs]
         rp.write_report(stage / "report.html", case.title, summary_rows, sections,
-                        caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n)})
+                        caution=CAUTION, meta={"case file": str(case_path), "realisations": str(n),
+                              **({"note": case.data["case"]["note"]} if case.data["case"].get("note") else {})})
         results["wall_time_s"] = round(time.perf_counter() - t_start, 2)
         results["files"] = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         (stage / "results.json").write_text(json.dumps(_jsonable(results), indent=2, allow_nan=False))

@@ -195,6 +195,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     refine = (RefineSettings.from_case(case.simulation) if refine_below is None else
               RefineSettings(below=refine_below, method=refine_method,
                              search=case.simulation.get("refine_search", "nelder-mead")))
+    if scheduler is None:
+        from ..simulate.driver import start_workers
+
+        start_workers(n_jobs)  # the pool starts while the search runs
     hyp, _, prob = problem_of(case, hypothesis)
     identity = {"case": case_fingerprint(case), "hypothesis": hyp, "results_format": RESULTS_VERSION}
     ident = {"path": str(case_path), "title": case.title, "hypothesis": hyp, "seed": seed,

@@ -16,6 +16,7 @@ functions ``constant``, ``half-sine``, ``clipped-sine``, ``tabulated``).
 """
 from __future__ import annotations
 
+import importlib
 from dataclasses import dataclass
 from typing import Callable
 
@@ -24,14 +25,29 @@ import numpy as np
 from slipfield.slope.errors import InputError
 from slipfield.slope.slices import SliceBank
 
-from .bishop import bishop
-from .gle import morgenstern_price
 from .interslice import INTERSLICE_NAMES, interslice_function
-from .janbu import janbu
-from .ordinary import ordinary
 from .result import FLAG_NAMES, INVALID_SURFACE, FSResult
-from .spencer import spencer
 from .terms import BankTerms, default_moment_point, prepare_bank
+
+
+def _kernel(module, name):
+    """The method ``name`` of ``module``, imported on its first call.
+
+    The compiled kernels import numba (a third of a second or more): reading
+    the registry's names (case schema, command line) must not pay it.
+    """
+    def call(*args, **kwargs):
+        return getattr(importlib.import_module(module, __name__), name)(*args, **kwargs)
+    call.__name__ = call.__qualname__ = name
+    return call
+
+
+# private names: importing a submodule (e.g. .bishop) sets the package attribute of its name
+_bishop = _kernel(".bishop", "bishop")
+_morgenstern_price = _kernel(".gle", "morgenstern_price")
+_janbu = _kernel(".janbu", "janbu")
+_ordinary_kernel = _kernel(".ordinary", "ordinary")
+_spencer = _kernel(".spencer", "spencer")
 
 __all__ = ["factor_of_safety", "prepare_bank", "FSResult", "BankTerms", "METHODS", "METHOD_NAMES",
            "POLYLINE_METHOD_NAMES", "MethodOfSlices", "register_method", "method_spec",
@@ -80,7 +96,7 @@ def register_method(spec: MethodOfSlices) -> MethodOfSlices:
 
 
 def _ordinary(terms, c, tp, *, tol, max_iter, return_forces, interslice):
-    return ordinary(terms, c, tp, return_forces=return_forces)
+    return _ordinary_kernel(terms, c, tp, return_forces=return_forces)
 
 
 def _iterative(fn):
@@ -92,14 +108,14 @@ def _iterative(fn):
 def _gle(terms, c, tp, *, tol, max_iter, return_forces, interslice, f_ends=(0.5, 0.5),
          interslice_table=None, **opts):
     f = interslice_function(terms.x_bound, interslice, f_ends=f_ends, table=interslice_table)
-    return morgenstern_price(terms, c, tp, f, tol=tol, max_iter=max_iter, return_forces=return_forces, **opts)
+    return _morgenstern_price(terms, c, tp, f, tol=tol, max_iter=max_iter, return_forces=return_forces, **opts)
 
 
 register_method(MethodOfSlices("ordinary", _ordinary, aliases=("fellenius",)))
-register_method(MethodOfSlices("bishop", _iterative(bishop), options=("m_alpha_min",)))
-register_method(MethodOfSlices("janbu", _iterative(janbu), options=("m_alpha_min", "correction"),
+register_method(MethodOfSlices("bishop", _iterative(_bishop), options=("m_alpha_min",)))
+register_method(MethodOfSlices("janbu", _iterative(_janbu), options=("m_alpha_min", "correction"),
                                polylines=True))
-register_method(MethodOfSlices("spencer", _iterative(spencer), options=("F_start", "lam_start"),
+register_method(MethodOfSlices("spencer", _iterative(_spencer), options=("F_start", "lam_start"),
                                polylines=True))
 register_method(MethodOfSlices("morgenstern-price", _gle,
                                options=("F_start", "lam_start", "f_ends", "interslice_table"),

@@ -13,7 +13,7 @@ from .engine import batch_fs, prepare
 from .problem import RandomProblem
 from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
-__all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK",
+__all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
            "connect_scheduler", "SchedulerLost"]
 
 
@@ -422,6 +422,7 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
 
     # the problem (stencil, slice terms, generators: ~20 MB for the levee demo) goes to
     # each worker once through a file, not pickled with every task
+    _await_workers()
     path = _ship(problem)
     parent = os.getpid()
     try:
@@ -432,6 +433,50 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
 
 
 _WORKER_PROBLEM = {}  # in a worker process: the path of the problem it holds -> that problem
+_WARMING = None  # the thread starting the worker pool ahead of the first simulation
+
+
+def start_workers(n_jobs):
+    """Start the pool of ``n_jobs`` workers in the background and load the simulator in them.
+
+    A command calls this before its serial work (case, deterministic search)
+    so that the workers' start-up (interpreter, imports, compiled kernels
+    loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
+    run then uses the same pool (joblib's reusable executor). No effect for
+    ``n_jobs`` 1. Results do not depend on it.
+    """
+    global _WARMING
+    if int(n_jobs) < 2 or _WARMING is not None:
+        return
+    import threading
+
+    def warm():
+        try:
+            from joblib import Parallel, delayed
+
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)() for _ in range(int(n_jobs)))
+        except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
+            pass
+
+    _WARMING = threading.Thread(target=warm, name="slipfield-start-workers", daemon=True)
+    _WARMING.start()
+
+
+def _await_workers():
+    """Wait for :func:`start_workers` to finish, so that one pool serves the run."""
+    if _WARMING is not None:
+        _WARMING.join()
+
+
+def _warm_worker():
+    """In a worker: import the simulator and load its compiled kernels (tiny calls)."""
+    from slipfield.fields import marginals  # noqa: F401
+    from slipfield.fields.generators import circulant  # noqa: F401
+
+    from . import fused
+
+    fused.warm_up()
+    return os.getpid()
 
 
 def _ship(problem):

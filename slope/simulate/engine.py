@@ -23,6 +23,7 @@ from ..bank import scale_unit_weights, unit_weight_parts
 from ..methods import factor_of_safety, prepare_bank
 from ..search import _TOLERABLE
 from ..strength import base_strength
+from .conditioning import conditioner
 from .fused import strength_map
 from .problem import AVERAGING
 
@@ -170,8 +171,16 @@ def _mix(problem, raw, members):
 
 
 def _correlated(problem, seed, indices, z, members):
-    """Standard normals of the properties ``members`` in zone z on the whole grid, correlated."""
-    return _mix(problem, {i: standard_normals(problem, seed, indices, i, z) for i in members}, members)
+    """Standard normals of the properties ``members`` in zone z on the whole grid, correlated
+    (and conditioned on the site data of the zone)."""
+    zs = _mix(problem, {i: standard_normals(problem, seed, indices, i, z) for i in members}, members)
+    for i in members:
+        cd = conditioner(problem, i, z)
+        if cd is not None:
+            flat = zs[i].reshape(len(indices), -1)
+            every = np.arange(flat.shape[1])
+            zs[i] = cd.apply(flat, flat[:, cd.cells], every, seed, indices, (i, z)).reshape(zs[i].shape)
+    return zs
 
 
 def zone_members(problem, z):
@@ -191,11 +200,23 @@ def zone_cell_values(problem, seed, indices, z, cells, members):
     """
     s = len(indices)
     raw = {}
+    conds = {i: conditioner(problem, i, z) for i in members}
+    # site data: the fields are also gathered at the data cells, then conditioned after mixing
+    take = np.concatenate([cells] + [c.cells for c in conds.values() if c is not None])
     for i in members:
         zi = standard_normals(problem, seed, indices, i, z)
-        raw[i] = zi[:, 0, 0][:, None] if problem.properties[i].single else zi.reshape(s, -1)[:, cells]
+        raw[i] = zi[:, 0, 0][:, None] if problem.properties[i].single else zi.reshape(s, -1)[:, take]
     # a single variable (θ = inf) mixes as one column broadcast over the cells
     zs = _mix(problem, raw, members)
+    at = cells.size
+    for i in members:
+        zi = zs[i]
+        if zi.shape[1] > 1 and take.size > cells.size:
+            zs[i] = zi[:, :cells.size]
+        if conds[i] is not None:
+            n_d = conds[i].cells.size
+            zs[i] = conds[i].apply(zi[:, :cells.size], zi[:, at:at + n_d], cells, seed, indices, (i, z))
+            at += n_d
     return {i: np.asarray(problem.properties[i].marginal.from_standard_normal(zs[i]), dtype=float)
             for i in members}
 

@@ -185,3 +185,17 @@ def strength_map(problem, st, det_value):
     if sm is None or sm[0] is not st:
         sm = problem._strength_map = (st, StrengthMap(problem, st, det_value))
     return sm[1]
+
+
+def warm_up():
+    """Load the compiled kernels of the simulator (from numba's cache) with tiny inputs of the real types."""
+    from ..methods.bishop import _single_equation_kernel
+
+    z = np.zeros((1, 1))
+    _fill(z.copy(), z.copy(), np.zeros((1, 1)), np.zeros(1, np.int64), np.array([0, 1], np.int64),
+          np.zeros(1, np.int64), np.ones(1), np.ones(1), np.zeros(1, np.int64))
+    one = np.ones((1, 1))
+    geo = [one.copy() for _ in range(13)] + [np.zeros(1, np.bool_), np.ones(1), np.ones(1, np.bool_)]
+    _single_equation_kernel(np.ones((1, 1, 1)), np.zeros((1, 1, 1)), *geo, 1e-6, 50, 0.2, np.empty((1, 1)),
+                            np.zeros((1, 1), np.int64), np.zeros((1, 1), np.bool_), np.zeros((1, 1), np.int64),
+                            np.empty((1, 1, 1)), False)

@@ -134,6 +134,10 @@ class RandomProblem:
         the line average over the base) or the value at its midpoint.
     interslice : str
         Interslice function for Morgenstern-Price.
+    site_data : dict, optional
+        ``"material.property"`` -> (points (n, 2) m, standard-normal values
+        (n,), error variances (n,)): the property's fields are conditioned
+        on them (:mod:`slope.simulate.conditioning`, :mod:`slope.site_data`).
     """
 
     section: object
@@ -148,6 +152,7 @@ class RandomProblem:
     field_method: str = "fft"
     averaging: str = "base-average"
     interslice: str = "half-sine"
+    site_data: dict = field(default_factory=dict)
 
     def __post_init__(self):
         self.properties = list(self.properties)
@@ -251,6 +256,9 @@ class RandomProblem:
                 "surfaces": [repr(s) for s in self.surfaces],
                 # water and loads change every base's pore pressure and driving force
                 "water": _canonical(self.section.water), "loads": _canonical(self.section.loads)}
+        if self.site_data:  # only when present, so stores of runs without data stay valid
+            desc["site_data"] = {k: _canonical([np.asarray(a) for a in v])
+                                 for k, v in sorted(self.site_data.items())}
         return hashlib.sha256(json.dumps(desc, sort_keys=True, default=str).encode()).hexdigest()
 
 
