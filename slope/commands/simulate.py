@@ -24,6 +24,7 @@ import numpy as np
 
 from ..case.preflight import preflight
 from ..errors import InputError
+from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
 from .export import EXPORT_FORMATS, export_realisations
 from .folders import OutputFolder
@@ -253,8 +254,13 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     try:
         rows = [[k, float(res.fs[k]), int(res.critical_index[k]), statuses[k], float(res.fs_fixed[k]),
                  bool(res.fixed_ok[k])] for k in range(n)]
-        write_csv(stage / "fs_realisations.csv", ["realisation", "FS critical (-)", "critical surface index",
-                                                  "status", "FS fixed surface (-)", "fixed surface ok"], rows)
+        header = ["realisation", "FS critical (-)", "critical surface index", "status", "FS fixed surface (-)",
+                  "fixed surface ok"]
+        if mechanism_summary(res) is not None:  # other families or a per-realisation search: the shapes too
+            fams, surfs = res.governing_families(), accepted_surfaces(res)
+            rows = [r + [float(res.fs_circles_only[k]), str(fams[k]), surface_text(surfs[k])] for k, r in enumerate(rows)]
+            header += ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+        write_csv(stage / "fs_realisations.csv", header, rows)
         if exp_folder is not None:
             exp_stage = exp_folder.stage()
             export_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)

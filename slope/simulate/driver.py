@@ -60,6 +60,8 @@ class SimulationResult:
         For banks holding other families besides circles: the least clean
         FS over the bank's circles alone (pf with circles only, common
         random numbers with ``fs``).
+    crit_circles : ndarray of int (n,) or None
+        The bank index of that circle (-1 where none qualified).
     refined_xy : ndarray (n, v, 2) or None
         With the dynamic-programming search: vertices (section frame, m) of
         each realisation's accepted surface where the search lowered its FS,
@@ -83,6 +85,7 @@ class SimulationResult:
     store_notices: list = field(default_factory=list)
     fs_circles: np.ndarray | None = None
     refined_xy: np.ndarray | None = None
+    crit_circles: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -290,6 +293,7 @@ def _circles_only(problem, fs, conv, adm, out):
     good = np.where(conv & adm & np.isfinite(fs), fs, np.inf)[:, circ]
     fc = good.min(axis=1)
     out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
+    out["crit_circles"] = np.where(np.isfinite(fc), np.flatnonzero(circ)[good.argmin(axis=1)], -1)
 
 
 def _concat(parts):
@@ -590,7 +594,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             refine_rejected=_refine_rejected(allr),
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
-                            fs_circles=allr.get("fs_circles"),
+                            fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
                             refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
 
 
