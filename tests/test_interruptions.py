@@ -13,6 +13,7 @@ import signal
 import socket
 import subprocess
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -50,6 +51,10 @@ def _alive(pid: int) -> bool:
     return state not in ("Z", "X")  # a zombie has ended; only its exit status waits to be read
 
 
+def _shipped(pid: int) -> list[str]:
+    return [p for p in os.listdir(tempfile.gettempdir()) if p.startswith(f"slipfield-problem-{pid}-")]
+
+
 def _wait(cond, bound: float) -> bool:
     end = time.monotonic() + bound
     while time.monotonic() < end:
@@ -80,6 +85,12 @@ def test_pool_workers_end_when_their_parent_is_killed(tmp_path):
     proc.wait(timeout=60)
     assert _wait(lambda: not any(_alive(w) for w in workers), 60), \
         [open(f"/proc/{w}/cmdline").read() for w in workers if _alive(w)]
+    # the problem the killed run shipped to its workers is removed by the next run that ships one
+    from slipfield.slope.simulate.driver import _unship_orphans
+
+    assert _shipped(proc.pid)  # kill -9 ran no clean-up
+    _unship_orphans(tempfile.gettempdir())
+    assert _shipped(proc.pid) == []
 
 
 @linux
@@ -93,6 +104,7 @@ def test_ctrl_c_exits_130_says_how_to_continue_and_leaks_nothing(tmp_path):
     for bad in ("Traceback", "leaked", "resource_tracker", "Warning"):
         assert bad not in err, err
     assert _wait(lambda: not any(_alive(w) for w in workers), 60)
+    assert _shipped(proc.pid) == []  # an interrupted run removes what it shipped to its workers
     # the blocks written before the interruption are intact and continue the run
     assert main(["simulate", SMALL, "--out", str(out), "--realisations", "30", "--quiet", "--resume"]) == 0
 

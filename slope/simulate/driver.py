@@ -433,7 +433,8 @@ def _ship(problem):
     import pickle
     import tempfile
 
-    folder = tempfile.mkdtemp(prefix="slipfield-problem-")
+    _unship_orphans(tempfile.gettempdir())
+    folder = tempfile.mkdtemp(prefix=f"slipfield-problem-{os.getpid()}-")
     path = os.path.join(folder, "problem.pickle")
     with open(path, "wb") as fh:
         pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
@@ -447,6 +448,35 @@ def _unship(path):
         os.rmdir(os.path.dirname(path))
     except OSError:
         pass
+
+
+def _unship_orphans(tmp):
+    """Remove the shipped problems of runs that were killed (``kill -9`` skips :func:`_unship`).
+
+    Only folders named by :func:`_ship` (``slipfield-problem-<pid>-*``) whose
+    process is gone, and only the one file ``_ship`` writes in them.
+    """
+    import re
+
+    try:
+        names = os.listdir(tmp)
+    except OSError:
+        return
+    for name in names:
+        m = re.fullmatch(r"slipfield-problem-(\d+)-[A-Za-z0-9_]+", name)
+        if not m or _pid_alive(int(m.group(1))):
+            continue
+        _unship(os.path.join(tmp, name, "problem.pickle"))
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # alive, but another user's
+        return True
+    return True
 
 
 def _run_shipped_block(path, seed, start, stop, refine=None):

@@ -16,8 +16,8 @@ __all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
 # stored); joblib's advice about unused results is not for the user.
-warnings.filterwarnings("ignore", message=r".*tasks have been successfully executed\s+but not used",
-                        category=UserWarning)
+warnings.filterwarnings("ignore", message=r"\d+ tasks (have been successfully executed|which were still being "
+                        r"processed)", category=UserWarning)
 
 
 class SchedulerLost(InputError):
