@@ -112,13 +112,16 @@ class SubsetSettings:
             raise InputError(f"samples_per_level (simulation.samples_per_level, --samples-per-level): {n!r}; "
                              "give a whole number, e.g. 1000")
         nc, ns = float(p0) * int(n), 1.0 / float(p0)
-        if abs(ns - round(ns)) > 1e-9 or abs(nc - round(nc)) > 1e-9 or round(nc) < MIN_SEEDS:
+        if abs(ns - round(ns)) > 1e-9:
+            raise InputError(f"level_probability (simulation.level_probability, --level-probability): {p0!r}; "
+                             "each chain has 1/level_probability states, so give the inverse of a whole number, "
+                             "e.g. 0.1, 0.2, 0.25 or 0.5")
+        if abs(nc - round(nc)) > 1e-9 or round(nc) < MIN_SEEDS:
             raise InputError(
                 f"samples_per_level (simulation.samples_per_level, --samples-per-level): {n} samples at level "
-                f"probability {float(p0):g} give {nc:g} chain seeds of {ns:g} states; 1/level_probability and "
-                f"samples_per_level x level_probability must be whole numbers and the seeds >= {MIN_SEEDS}: "
-                f"e.g. samples_per_level = {int(math.ceil(MIN_SEEDS / float(p0)))} or more, a multiple of "
-                f"{int(round(ns)) if abs(ns - round(ns)) < 1e-9 else 10}")
+                f"probability {float(p0):g} give {nc:g} chain seeds; samples_per_level x level_probability must "
+                f"be a whole number >= {MIN_SEEDS}: e.g. samples_per_level = "
+                f"{int(math.ceil(MIN_SEEDS / float(p0)))} or more, a multiple of {int(round(ns))}")
         if int(self.max_levels) < 1:
             raise InputError(f"max_levels: {self.max_levels!r}; give at least 1")
         t = float(self.threshold)
@@ -146,13 +149,6 @@ class SubsetSettings:
         p0 = simulation.get("level_probability", 0.1) if level_probability is None else level_probability
         n = simulation.get("samples_per_level", 1000) if samples_per_level is None else samples_per_level
         return cls(level_probability=p0, samples_per_level=n)
-
-
-def check_estimator(name, where="simulation.estimator") -> str:
-    """The estimator name, or InputError naming ``where`` and the known names."""
-    if name not in ESTIMATORS:
-        raise InputError(f"{where}: {name!r} is not a known estimator; use one of {', '.join(ESTIMATORS)}")
-    return name
 
 
 # ----------------------------------------------------------- the random input

@@ -247,7 +247,7 @@ def test_constant_fs_stops_with_what_was_reached():
 
 @pytest.mark.parametrize("p0,n,key", [(0.6, 1000, "level_probability"), (0.0, 1000, "level_probability"),
                                       (0.1, 50, "samples_per_level"), (0.1, 1005, "samples_per_level"),
-                                      (0.3, 1000, "samples_per_level")])
+                                      (0.3, 1000, "level_probability")])
 def test_bad_settings_name_the_key(p0, n, key):
     with pytest.raises(InputError, match=key):
         SubsetSettings(p0, n)
