@@ -142,7 +142,7 @@ def _print_subset(r, args) -> None:
 
 
 def _cmd_sweep(args) -> int:
-    from .commands.simulate import sweep_case
+    from .commands.sweep import sweep_case
 
     r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
                    realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
@@ -190,7 +190,7 @@ def _overwrite_option(p):
 
 def _estimator_options(p):
     """--estimator and the subset simulation settings (run, simulate, sweep)."""
-    from .estimators import ESTIMATORS
+    from .simulate.estimators import ESTIMATORS
 
     p.add_argument("--estimator", choices=ESTIMATORS, default=None,
                    help="pf estimator: monte-carlo, subset (subset simulation, for small pf) or auto "
@@ -271,11 +271,23 @@ _CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the s
 
 
 def main(argv=None) -> int:
+    import logging
+
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # a refused option (exit 2, argparse's message printed), --help or --version
         return int(exc.code or 0)
+    if getattr(args, "scheduler", None):
+        # a lost or silent dask scheduler is reported once, in slipfield's words (exit 2), not as
+        # the client's own tracebacks of its reconnection attempts
+        try:
+            import distributed  # noqa: F401 - creates its loggers, whose levels are set below
+        except ImportError:
+            pass
+        for name in list(logging.root.manager.loggerDict):
+            if name.split(".")[0] in ("distributed", "tornado"):
+                logging.getLogger(name).setLevel(logging.CRITICAL)
     try:
         old_term = signal.signal(signal.SIGTERM, _on_sigterm)
     except ValueError:  # not the main thread (embedded use): leave signals alone

@@ -5,8 +5,8 @@
 - :func:`single_variable_reliability` — each random property as one random
   variable (θ → ∞) on the deterministic critical surface: Monte Carlo,
   point estimates, FORM, tornado, rank correlations;
-- :func:`spatial_simulation` — the random limit-equilibrium simulation
-  (:mod:`slope.simulate`) with the averaging report.
+- :func:`random_problem` — the random limit-equilibrium problem of a case
+  (:mod:`slope.simulate`), which ``slipfield run`` simulates.
 
 Each returns JSON-ready dicts (units in the keys or a ``units`` entry) plus
 the arrays the figures need.
@@ -32,7 +32,7 @@ from ..search_families import add_families
 from ..surfaces import Circle
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
-           "surface_xy", "properties_for"]
+           "surface_xy", "properties_for", "marginal_of"]
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -284,7 +284,7 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
         methods.append("subset")  # [simulation] estimator = subset/auto: the single variables' pf by subset too
     for m in methods:  # each through the registry; one that cannot reach an answer says so in its row
         if m == "subset" and "subset" not in cfg["methods"] and est_name == "auto":
-            from ..estimators import AUTO_MIN_FAILURES
+            from ..simulate.estimators import AUTO_MIN_FAILURES
 
             k = out.get("monte-carlo", {}).get("n_failed")
             if k is not None and k >= AUTO_MIN_FAILURES:
@@ -293,10 +293,16 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
             out[m], arr = run_estimator(m, ls, variables, settings)
         except InputError as exc:
             out[m], arr = {"status": f"not computed: {exc}"}, {}
+        except (ArithmeticError, np.linalg.LinAlgError):
+            out[m], arr = {"status": "not computed: a numerical failure in the evaluation"}, {}
         if arr:
             arrays[m] = arr
     k = float(cfg.get("tornado_k", 2.0))
-    tr = tornado(ls, variables, k=k)
+    try:
+        tr = tornado(ls, variables, k=k)
+    except InputError as exc:  # the tornado too reports in its own row and stops nothing
+        out["tornado"] = {"k": k, "status": f"not computed: {exc}"}
+        return {"summary": out, "arrays": arrays}
     out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
                       "fs_mean": float(tr.fs_mean), "names": list(tr.names),
                       "fs_low": [float(v) for v in tr.fs_low], "fs_high": [float(v) for v in tr.fs_high],

@@ -29,8 +29,7 @@ from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
 from ..reliability.registry import ESTIMATOR_NAMES
 from ..search import SEARCHES, case_search_names
 from ..simulate.problem import AVERAGING, PROPS
-from ..estimators import AUTO_MIN_FAILURES, ESTIMATORS
-from ..simulate.rare import SubsetSettings
+from ..simulate.estimators import AUTO_MIN_FAILURES, ESTIMATORS
 from ..simulate.refinement import REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]
@@ -263,7 +262,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "search": {
         "kind": Key(_string(case_search_names()), default="centre-lattice"),
-        "trials": Key(_integer(lo=10), default=1500, doc="number of trial surfaces in the bank"),
+        "trials": Key(_integer(lo=10), default=1500, doc="about how many trial surfaces the bank holds (a lattice of max(3, round(√(trials/10)))² centres or entry × exit points, 10 radii each)"),
         "x_range": Key(_number_list(min_len=2), doc="[x_min, x_max] of circle centres or of the entry/exit region (m)"),
         "y_range": Key(_number_list(min_len=2), doc="[y_min, y_max] of circle centres (m)"),
         "entry": Key(_number_list(min_len=2), doc="window search: [x_from, x_to] where surfaces enter the ground (m)"),
@@ -300,6 +299,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "file": Key(_string(), doc="CSV beside the case, columns x,elevation,value"),
         "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
         "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
+    },
+    "drilling": {
+        "candidates": Key(_number_list(min_len=1), required=True,
+                          doc="x of candidate vertical profiles (m): how much each would narrow the strength "
+                              "average along the critical surface"),
+        "spacing": Key(_number(lo=0, lo_open=True), default=1.0, doc="vertical spacing of the candidate readings (m)"),
+        "error_sd": Key(_number(lo=0), default=0.0, doc="measurement error of a candidate reading, standard-normal units"),
     },
     "random": {
         "material": Key(_string(), required=True),
@@ -717,6 +723,8 @@ def _check_subset(sim: dict, where, problems: list[str]) -> None:
                         f"{sim.get('field_method')!r} cannot be used with estimator {sim['estimator']!r}: subset "
                         "simulation moves the fields' white noise, which this generator draws inside GSTools; use "
                         f"one of {', '.join(noise_generator_names())}")
+    from ..simulate.rare import SubsetSettings  # the simulator is loaded only for a subset case
+
     try:
         SubsetSettings.from_case(sim)
     except InputError as exc:
@@ -725,7 +733,12 @@ def _check_subset(sim: dict, where, problems: list[str]) -> None:
 
 
 def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
-    """[[site_data]]: a random property, one location form, one error form."""
+    """[[site_data]]: a random property, one location form, one error form; [drilling] needs a field."""
+    if "drilling" in case and not any(not (_is_inf(r.get("theta_h")) and _is_inf(r.get("theta_v")))
+                                      for r in case.get("random", [])):
+        problems.append(f"{where('drilling', None, None)}[drilling] needs a spatially random property (a [[random]] "
+                        "entry with finite theta_h and theta_v): with none, a new profile can teach nothing; "
+                        "remove [drilling] or add the field")
     for i, d in enumerate(case.get("site_data", [])):
         p = d.get("property")
         if p is not None and p not in props:

@@ -17,12 +17,14 @@ import hashlib
 import json
 import sys
 import time
+import warnings
 from pathlib import Path
 
 import numpy as np
 
 from ..case.preflight import preflight
 from ..errors import InputError
+from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
 from .export import EXPORT_FORMATS, export_realisations
 from .folders import OutputFolder
@@ -179,7 +181,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     """
     from ..case.build import load_case
     from ..report import write_csv
-    from ..simulate import connect_scheduler, simulate
+    from ..simulate import StoreRepairWarning, connect_scheduler, simulate
     from ..simulate.refinement import RefineSettings
     from .run import CAUTION
 
@@ -189,7 +191,9 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                          f"{', '.join(EXPORT_FORMATS)}")
     case = load_case(case_path)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed)
-    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
+    # the search of the one hypothesis is checked by problem_of
+    preflight(case, realisations=None if realisations is None else n, batch=None if batch is None else block,
+              search=False)
     exp = None if export_fields is None else Path(export_fields)
     if exp is not None:
         a, b = exp.absolute().resolve(), Path(out_dir).absolute().resolve()
@@ -234,8 +238,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         out.claim(folders=[_STORE])
         if fresh:
             _remove_store(store)
-        res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=resumed,
-                       progress=progress, scheduler=client, refine=refine, store_identity=identity)
+        with warnings.catch_warnings():  # repaired blocks are reported below, in the user's words
+            warnings.simplefilter("ignore", StoreRepairWarning)
+            res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=resumed,
+                           progress=progress, scheduler=client, refine=refine, store_identity=identity)
         write_json(store / "case.json", ident)
     finally:
         if client is not None:
@@ -248,8 +254,13 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     try:
         rows = [[k, float(res.fs[k]), int(res.critical_index[k]), statuses[k], float(res.fs_fixed[k]),
                  bool(res.fixed_ok[k])] for k in range(n)]
-        write_csv(stage / "fs_realisations.csv", ["realisation", "FS critical (-)", "critical surface index",
-                                                  "status", "FS fixed surface (-)", "fixed surface ok"], rows)
+        header = ["realisation", "FS critical (-)", "critical surface index", "status", "FS fixed surface (-)",
+                  "fixed surface ok"]
+        if mechanism_summary(res) is not None:  # other families or a per-realisation search: the shapes too
+            fams, surfs = res.governing_families(), accepted_surfaces(res)
+            rows = [r + [float(res.fs_circles_only[k]), str(fams[k]), surface_text(surfs[k])] for k, r in enumerate(rows)]
+            header += ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+        write_csv(stage / "fs_realisations.csv", header, rows)
         if exp_folder is not None:
             exp_stage = exp_folder.stage()
             export_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)
@@ -261,7 +272,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
             "realisations_from_store": int(min(n_before, n)),
             "store_blocks_recomputed": list(res.store_notices),
             "problem_fingerprint": ident["fingerprint"],
-            "properties": [p.describe() for p in prob.properties],
+            "properties": [p.manifest() for p in prob.properties],
             "simulation": summary(res),
             "units": {"fs": "-", "pf": "probability (fraction)", "theta": "m"},
             "fs_csv_status": {"ok": "lowest FS of the bank counted",

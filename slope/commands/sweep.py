@@ -71,12 +71,14 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             given = [str(v) for v in sw[key]]
         grid_vals[key] = parse_theta_list(given, opt)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed, default_n=sw.get("realisations"))
-    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
+    # the search of the one hypothesis is checked by problem_of
+    preflight(case, realisations=None if realisations is None else n, batch=None if batch is None else block,
+              search=False)
     from .subset_cmd import estimator_settings
 
     est, sub = estimator_settings(case, estimator, level_probability, samples_per_level)
+    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)  # checked before any computation
     hyp, _, prob = problem_of(case, hypothesis)
-    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)
     client = None if scheduler is None else connect_scheduler(scheduler, option="--scheduler")
     try:  # every input is checked: from here on the sweep computes, then writes
         if est == "monte-carlo":
