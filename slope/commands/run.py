@@ -27,6 +27,7 @@ from ..case.analyses import (deterministic, random_problem, risk_scenarios, sing
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import convergence_history, estimate_pf
+from ..simulate.mechanism_results import accepted_surfaces, mechanism_maps, mechanism_summary, surface_text
 
 __all__ = ["run_case", "sliding_mass_geometry", "RESULTS_VERSION"]
 
@@ -112,8 +113,8 @@ def _status(n, n_valid):
     return f"{n - n_valid} of {n} realisations without a converged, admissible surface excluded from pf"
 
 
-def _simulation(case, det, hyp, *, n, n_jobs, quiet):
-    """Spatially variable run (a) and the same with every θ → ∞ (b)."""
+def _simulation(case, det, hyp, *, n, n_jobs, quiet, estimator=("monte-carlo", None)):
+    """Spatially variable run (a) and the same with every θ → ∞ (b); subset simulation of (a) when chosen."""
     from ..simulate import RefineSettings, simulate
 
     seed = int(case.simulation["seed"])
@@ -156,13 +157,16 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
             "n_realisations_without_valid_surface": int(res.n_no_valid),
             "refine": res.refine, "n_refined": int(res.n_refined),
         }
+        mech = mechanism_summary(res)
+        if mech is not None:  # families besides circles, or a per-realisation search: pf with circles alone beside
+            out[label]["mechanisms"] = mech.to_json()
         crit = np.asarray(res.critical_index)
         failed = np.flatnonzero(np.isfinite(fs) & (fs < 1.0) & (crit >= 0))
         area, depth = sliding_mass_geometry(prob.bank, crit[failed])
         out[label]["failure_geometry"] = {"n_failed": int(failed.size), "sliding_mass_area": _spread(area),
                                           "max_depth": _spread(depth)}
         arrays[label] = {"fs": fs, "fs_fixed": fixed, "crit": crit, "problem": prob,
-                         "area": area, "depth": depth}
+                         "area": area, "depth": depth, "result": res}
     if arrays["spatial"]["problem"].site_data:
         from .site_effect import site_data_effect
 
@@ -172,6 +176,13 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
                                         quiet=quiet, refine=refine)
         out["site_data"] = effect.to_dict()
         arrays["site_data"] = {"effect": effect, "fs_unconditional": fs_u}
+    if "drilling" in case.data:
+        from ..simulate.drilling import drilling_summary
+
+        out["drilling"] = drilling_summary(case.data["drilling"], arrays["spatial"]["problem"])
+    from .subset_cmd import run_subset
+
+    run_subset(out, arrays, estimator, seed=seed, batch=block, n_jobs=n_jobs, refine=refine, quiet=quiet)
     out["spatial"]["realisations_shown"] = _shown(arrays["spatial"]["fs"], arrays["spatial"]["crit"])
     out["analytic_variance_reduction"] = _analytic_estimate(case, arrays["spatial"]["problem"], n=n, seed=seed,
                                                             block=block, n_jobs=n_jobs, quiet=quiet)
@@ -179,6 +190,30 @@ def _simulation(case, det, hyp, *, n, n_jobs, quiet):
     if b["std_fs"] and b["std_fs"] > 0:
         out["variance_reduction_factor_of_fs"] = (a["std_fs"] / b["std_fs"]) ** 2
     return {"summary": out, "arrays": arrays}
+
+
+_MECHANISM_HEADER = ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+
+
+def _mechanism_columns(res) -> list:
+    """Per realisation: FS with circles alone, the family that governed, the governing surface's vertices."""
+    fams = res.governing_families()
+    surfs = accepted_surfaces(res)
+    fc = res.fs_circles_only
+    return [[float(fc[k]), str(fams[k]), surface_text(surfs[k])] for k in range(res.n)]
+
+
+def _mechanism_figure(res, sec, x_edges, y_edges, hyp):
+    """Failure maps of the same realisations with circles alone and with every family (issue 15)."""
+    from ..report.mechanisms import plot_mechanism_maps
+
+    mech = mechanism_summary(res)
+    free, circ, nf, nc = mechanism_maps(res, x_edges, y_edges)
+    f = plot_mechanism_maps(x_edges, y_edges, free, circ, sec.ground, n_failed_free=nf, n_failed_circles=nc,
+                            n_total=res.n, families=mech.families)
+    text = (f"pf with circles alone {mech.pf_circles:.3g}, with every family and the per-realisation search "
+            f"{mech.pf:.3g}, from the same realisations (common random numbers).")
+    return (f"mechanism_maps_{hyp}", f"Failure mechanisms: circles alone and the free search, {hyp}", f, text)
 
 
 def _analytic_estimate(case, prob, *, n, seed, block, n_jobs, quiet):
@@ -273,7 +308,9 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
             f = rp.plot_fs_distribution(fs[ok], n_excluded=int((~ok).sum()), pf=s["pf"],
                                         pf_interval=tuple(s["pf_interval_95"]))
             figs.append((f"fs_single_variable_{hyp}", f"FS distribution, single random variables, {hyp}", f))
-        tr = r["arrays"]["tornado"]
+        tr = r["arrays"].get("tornado")
+        if tr is None:  # the tornado could not be evaluated: its status is in its row
+            continue
         f = rp.plot_tornado(tr.names, tr.fs_low, tr.fs_high, tr.fs_mean, k=tr.k, clipped=tr.clipped)
         figs.append((f"tornado_{hyp}", f"Tornado chart (mean ± {tr.k:g}σ), {hyp}", f))
     for hyp, s in sim.items():
@@ -341,6 +378,8 @@ def _figures(case, det, rel, sim, fig_dir, formats=("png", "svg")):
                 "95 % interval only.")
         figs.append((f"failure_map_{hyp}", f"Failure map: where the critical surfaces of failed realisations lie, {hyp}",
                      f, text))
+        if "mechanisms" in s["summary"]["spatial"]:
+            figs.append(_mechanism_figure(s["arrays"]["spatial"]["result"], sec, x_edges, y_edges, hyp))
         area, depth = s["arrays"]["spatial"]["area"], s["arrays"]["spatial"]["depth"]
         if failed.size:
             f = rp.plot_failure_geometry(area, depth)
@@ -381,7 +420,8 @@ def _reliability_status(summ):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png", "svg"), overwrite=False) -> dict:
+             figure_formats=("png", "svg"), overwrite=False, estimator=None, level_probability=None,
+             samples_per_level=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -421,6 +461,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     from ..case.preflight import check_option, preflight
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
+    from .subset_cmd import estimator_settings
+
+    est = estimator_settings(case, estimator, level_probability, samples_per_level)
     preflight(case, realisations=None if realisations is None else n)
     from .folders import OutputFolder
 
@@ -431,8 +474,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     start_workers(n_jobs)  # the pool starts while the search runs
     try:
         det = deterministic(case)
-        rel = {h: single_variable_reliability(case, det, h, n_jobs=1) for h in case.analysis["hypotheses"]}
-        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet) for h in case.analysis["hypotheses"]}
+        rel = {h: single_variable_reliability(case, det, h, n_jobs=1, estimator=est) for h in case.analysis["hypotheses"]}
+        sim = {h: _simulation(case, det, h, n=n, n_jobs=n_jobs, quiet=quiet, estimator=est)
+               for h in case.analysis["hypotheses"]}
         for r in rel.values():
             _reliability_status(r["summary"] if r else None)
         results = {
@@ -485,6 +529,10 @@ def _summary_rows(results) -> list:
             c = s[k]["critical_surface_searched"]
             rows.append((f"pf, {h}, {label} (critical surface re-searched)", c["pf"], "-",
                          f"95 % interval {c['pf_interval_95'][0]:.3g} – {c['pf_interval_95'][1]:.3g}"))
+        if s["spatial"].get("subset"):
+            from .subset_cmd import subset_row
+
+            rows.append(subset_row(h, s["spatial"]["subset"]))
         c = s["analytic_variance_reduction"]
         if c["pf"] is not None:
             gam = ", ".join(f"γ {t['property']} {t['gamma']:.3g}" for t in c["properties"])
@@ -548,10 +596,13 @@ def _tables(stage, results, sim):
                                          "pf high (-)", "beta (-)", "mean FS (-)", "std FS (-)",
                                          "pf fixed surface (-)"], rows)
     rows = []
+    mech = any(s and "mechanisms" in s["summary"]["spatial"] for s in sim.values())
     for h, s in sim.items():
         if not s:
             continue
         a = s["arrays"]["spatial"]
-        rows += [[h, k, float(a["fs"][k]), int(a["crit"][k]), float(a["fs_fixed"][k])] for k in range(len(a["fs"]))]
+        extra = _mechanism_columns(a["result"]) if mech else [[] for _ in range(len(a["fs"]))]
+        rows += [[h, k, float(a["fs"][k]), int(a["crit"][k]), float(a["fs_fixed"][k]), *extra[k]]
+                 for k in range(len(a["fs"]))]
     write_csv(stage / "fs_realisations.csv", ["hypothesis", "realisation", "FS critical (-)", "bank index",
-                                               "FS fixed surface (-)"], rows)
+                                               "FS fixed surface (-)"] + (_MECHANISM_HEADER if mech else []), rows)

@@ -46,6 +46,10 @@ class SimulationResult:
         Realisations whose FS the refinement lowered.
     refine : dict or None
         The refinement settings.
+    refine_rejected : dict or None
+        With refinement: trial shapes and candidates the refinement did not
+        accept as a minimum (only clean solutions are), counted by reason
+        over all refined realisations.
     flags : dict key -> ndarray of bool (n,)
         Per realisation: ``nonconv``, ``inadm`` (the lowest-FS surface was
         excluded and why), ``none`` (no surface qualified) and, with
@@ -56,6 +60,8 @@ class SimulationResult:
         For banks holding other families besides circles: the least clean
         FS over the bank's circles alone (pf with circles only, common
         random numbers with ``fs``).
+    crit_circles : ndarray of int (n,) or None
+        The bank index of that circle (-1 where none qualified).
     refined_xy : ndarray (n, v, 2) or None
         With the dynamic-programming search: vertices (section frame, m) of
         each realisation's accepted surface where the search lowered its FS,
@@ -74,10 +80,12 @@ class SimulationResult:
     fs_bank: np.ndarray | None = None
     n_refined: int = 0
     refine: dict | None = None
+    refine_rejected: dict | None = None
     flags: dict | None = None
     store_notices: list = field(default_factory=list)
     fs_circles: np.ndarray | None = None
     refined_xy: np.ndarray | None = None
+    crit_circles: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -162,6 +170,7 @@ class SimulationResult:
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined,
+                "refine_rejected": self.refine_rejected,
                 **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
 
@@ -182,6 +191,7 @@ class SimulationResult:
         Fraction of realisations (over all n) whose critical surface has
         FS < 1 and passes through each cell (a cell counts once per
         realisation when any slice-base midpoint of that surface lies in it).
+        ``x_edges``, ``y_edges`` in the section frame (m).
 
         Returns
         -------
@@ -195,7 +205,9 @@ class SimulationResult:
         failed = np.isfinite(self.fs) & (self.fs < 1.0)
         idx, counts = np.unique(self.critical_index[failed], return_counts=True)
         for j, cnt in zip(idx, counts):
-            h, _, _ = np.histogram2d(bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+            # slice positions are in the sliding frame (x' = direction * x):
+            # back to the section frame, or the map is mirrored for slopes facing -x
+            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
             out += (h > 0) * cnt
         return out / max(self.n, 1)
 
@@ -237,11 +249,16 @@ def _run_block(problem, seed, start, stop, refine=None):
             # one record per realisation (stores hold 1-D arrays): the accepted surface's vertices, NaN-padded
             xy = np.zeros(fs_c.size, dtype=[("xy", float, (max_vertices(refine), 2))])
             xy["xy"] = np.nan
+        from .refinement import REFINE_REASONS
+
+        # one record per realisation (stores hold 1-D arrays): rejections by reason
+        out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
             if dp:
                 f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:
-                f, surf = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+                f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+                out["refine_rejected"]["n"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
@@ -251,6 +268,15 @@ def _run_block(problem, seed, start, stop, refine=None):
             out["refined_xy"] = xy
     _circles_only(problem, fs, conv, adm, out)
     return out
+
+
+def _refine_rejected(allr):
+    if "refine_rejected" not in allr:
+        return None
+    from .refinement import REFINE_REASONS
+
+    tot = np.asarray(allr["refine_rejected"]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
+    return {k: int(v) for k, v in zip(REFINE_REASONS, tot) if v}
 
 
 def _circles_only(problem, fs, conv, adm, out):
@@ -267,6 +293,7 @@ def _circles_only(problem, fs, conv, adm, out):
     good = np.where(conv & adm & np.isfinite(fs), fs, np.inf)[:, circ]
     fc = good.min(axis=1)
     out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
+    out["crit_circles"] = np.where(np.isfinite(fc), np.flatnonzero(circ)[good.argmin(axis=1)], -1)
 
 
 def _concat(parts):
@@ -594,9 +621,10 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             seed=seed, problem=problem,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
+                            refine_rejected=_refine_rejected(allr),
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
-                            fs_circles=allr.get("fs_circles"),
+                            fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
                             refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
 
 
