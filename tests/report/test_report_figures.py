@@ -69,8 +69,18 @@ def test_section_draws_zones_water_and_labelled_surfaces():
     assert len(ax.lines) == 5
     np.testing.assert_allclose(ax.lines[3].get_xydata(), CIRCLE)
     assert ax.lines[4].get_linestyle() == ":"  # non-converged surface drawn dotted
-    assert {t.get_text() for t in ax.texts} == {"FS = 1.234", "FS = 1.310"}
+    labels = [t for t in ax.texts if (t.get_gid() or "").startswith("fs-label")]
+    assert [t.get_text() for t in labels] == ["FS Bishop 1.234", "FS Spencer 1.310"]
     _assert_nonblank(fig)
+    # FS labels never overlap (the cut demo once printed "FS =1.16751.364"), even for surfaces
+    # that nearly coincide: their boxes on the drawn figure are disjoint.
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    boxes = [t.get_window_extent(renderer) for t in labels]
+    assert not boxes[0].overlaps(boxes[1])
 
 
 def test_section_reuses_given_axes_and_rejects_bad_ground():
