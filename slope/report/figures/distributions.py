@@ -202,7 +202,7 @@ def plot_pf_convergence(n, pf, lo, hi, *, level: float = 0.95, ax=None, title: s
 
 
 def plot_pf_comparison(labels: Sequence[str], pf, lo=None, hi=None, *, log_pf: bool = False, ax=None,
-                       title: str | None = None):
+                       title: str | None = None, colour: str | None = None):
     """Several estimates of pf side by side, each with its confidence interval.
 
     For the averaging report (given θ, single random variable, analytic
@@ -220,6 +220,8 @@ def plot_pf_comparison(labels: Sequence[str], pf, lo=None, hi=None, *, log_pf: b
         Logarithmic pf axis; estimates of 0 are then listed in a note.
     ax : Axes, optional
     title : str, optional
+    colour : str, optional
+        Colour of the estimates (e.g. their hypothesis's).
 
     Returns
     -------
@@ -248,11 +250,12 @@ def plot_pf_comparison(labels: Sequence[str], pf, lo=None, hi=None, *, log_pf: b
         if log_pf:
             # Keep the lower whisker on the positive axis.
             xerr[0] = np.where(has & (lo > 0), xerr[0], 0.0)
-        eb = ax.errorbar(pf[drawable], ypos[drawable], xerr=xerr[:, drawable], color=PALETTE["blue"], marker="o",
-                         linestyle="none", capsize=3)
+        eb = ax.errorbar(pf[drawable], ypos[drawable], xerr=xerr[:, drawable], color=colour or PALETTE["blue"],
+                         marker="o", linestyle="none", capsize=3)
         eb.lines[0].set_gid("estimates")
         for y, p in zip(ypos, pf):
-            ax.annotate(f"{p:.3g}", xy=(p, y), xytext=(0, 6), textcoords="offset points", ha="center", fontsize=7)
+            # Above and to the right of the point, so a pf of 0 is not printed on the axis.
+            ax.annotate(f"{p:.3g}", xy=(p, y), xytext=(4, 5), textcoords="offset points", ha="left", fontsize=7)
         ax.set_yticks(ypos, labels)
         ax.set_ylim(-0.7, pf.size - 0.3)
         ax.set_xlabel("probability of failure pf (bars: confidence interval)")

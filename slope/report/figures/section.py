@@ -88,6 +88,7 @@ def plot_section(
     crack: Mapping | None = None,
     search: Mapping | None = None,
     zone_names_on_section: bool = False,
+    water_label: str = "water",
 ):
     """Cross-section with soil zones, water, loads, the search and critical surface(s).
 
@@ -126,6 +127,8 @@ def plot_section(
         "entry", "exit"}`` (windows), m.
     zone_names_on_section : bool
         Also write each zone's name at its centroid.
+    water_label : str
+        Legend entry of ``water_xy``.
 
     Returns
     -------
@@ -151,7 +154,7 @@ def plot_section(
                 ax.text(cx, cy, name, ha="center", va="center", fontsize=7, color="#333333", gid=f"zone-name-{k}")
         ax.plot(ground[:, 0], ground[:, 1], color=PALETTE["black"], linewidth=1.4, label="ground")
         if water_xy is not None:
-            _draw_water(ax, _xy(water_xy, "water_xy"), "water", _WATER, "--")
+            _draw_water(ax, _xy(water_xy, "water_xy"), water_label, _WATER, "--")
         for k, w in enumerate(water_lines):
             colour, dash = WATER_STYLES[(k + (water_xy is not None)) % len(WATER_STYLES)]
             _draw_water(ax, _xy(w["xy"], f"water_lines[{k}].xy"), str(w["label"]), colour, dash)
