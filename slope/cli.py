@@ -18,7 +18,9 @@ __all__ = ["main", "build_parser"]
 def _cmd_run(args) -> int:
     from .commands.run import run_case
 
-    results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet)
+    formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
+    results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
+                       figure_formats=formats)
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -125,6 +127,9 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--jobs", type=int, default=None, help="override simulation.jobs")
     r.add_argument("--json", action="store_true", help="print the summary as JSON")
     r.add_argument("--quiet", action="store_true", help="no progress output")
+    r.add_argument("--figure-formats", default="png", metavar="FORMATS",
+                   help="figure files to write, comma separated: png (always; the report embeds it) and svg "
+                        "(default: png)")
     r.set_defaults(func=_cmd_run)
     c = sub.add_parser("check", help="check a case file and report every problem at once")
     c.add_argument("case")

@@ -38,7 +38,8 @@ from .results import (CAUTION, RESULTS_VERSION, DeterministicResult, PfCount, Qu
 from .risk import risk_points
 from .slice_table import slice_table
 
-__all__ = ["run_case", "sliding_mass_geometry", "RESULTS_VERSION", "CAUTION", "FIGURE_FORMATS"]
+__all__ = ["run_case", "analyse_case", "write_run", "sliding_mass_geometry", "RESULTS_VERSION", "CAUTION",
+           "FIGURE_FORMATS"]
 
 #: Figure file formats ``run`` can write (PNG is always written: the report embeds it).
 FIGURE_FORMATS = ("png", "svg")
@@ -208,6 +209,51 @@ def _version() -> str:
         return "unknown (not installed)"
 
 
+def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True):
+    """Run every analysis of a case; nothing is written.
+
+    Parameters
+    ----------
+    case_path : path-like
+        A ``.toml`` case file.
+    realisations, jobs : int, optional
+        Override ``simulation.realisations`` and ``simulation.jobs``.
+    quiet : bool
+        No stage lines and no progress bars.
+
+    Returns
+    -------
+    case : slope.case.build.Case
+    results : RunResults
+        Typed results (:mod:`slope.commands.results`); ``results_json`` gives their JSON.
+    """
+    t_start = time.perf_counter()
+    progress = _Progress(quiet)
+    progress.say(f"reading {case_path}")
+    case = load_case(case_path)
+    raw = Path(case_path).read_bytes()
+    n = int(realisations or case.simulation["realisations"])
+    n_jobs = int(jobs or case.simulation["jobs"])
+    hyps = case.analysis["hypotheses"]
+    progress.say(f"deterministic search ({', '.join(hyps)})")
+    det = deterministic(case)
+    res = RunResults(
+        case_path=str(case_path), case_sha256=hashlib.sha256(raw).hexdigest(), title=case.title,
+        note=case.data["case"].get("note", ""), version=_version(),
+        started_utc=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC"),
+        seed=int(case.simulation["seed"]), realisations=n, deterministic=_deterministic(case, det),
+        single_variable={}, spatial={})
+    for h in hyps:
+        methods = ", ".join(case.data.get("reliability", {}).get("methods", []))
+        progress.say(f"{h} · single random variables ({methods})")
+        res.single_variable[h] = _single_variable(case, det, h)
+    for h in hyps:
+        res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress)
+    res.risk = risk_points(case, res)
+    res.analysis_time_s = round(time.perf_counter() - t_start, 2)
+    return case, res
+
+
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
              figure_formats=("png",)) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
@@ -234,42 +280,35 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     dict
         The content of ``results.json``.
     """
-    from ..report.build import write_run_report
-
     t_start = time.perf_counter()
-    progress = _Progress(quiet)
-    progress.say(f"reading {case_path}")
     formats = tuple(dict.fromkeys(("png", *figure_formats)))
     if set(formats) - set(FIGURE_FORMATS):
         raise InputError(f"figure formats: {sorted(set(formats) - set(FIGURE_FORMATS))} not supported; "
                          f"choose from {', '.join(FIGURE_FORMATS)} (comma separated, e.g. png,svg)")
-    case = load_case(case_path)
-    raw = Path(case_path).read_bytes()
-    n = int(realisations or case.simulation["realisations"])
-    n_jobs = int(jobs or case.simulation["jobs"])
+    case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet)
+    return write_run(case, res, out_dir, formats=formats, quiet=quiet, t_start=t_start)
+
+
+def write_run(case, res, out_dir, *, formats=("png",), quiet=True, t_start=None) -> dict:
+    """Write the figures, tables, ``report.html`` and ``results.json`` of analysed results into ``out_dir``.
+
+    Everything goes to a staging folder beside ``out_dir`` first and is moved
+    into place only when complete; returns the content of ``results.json``.
+    """
+    from ..report.build import write_run_report
+
+    progress = _Progress(quiet)
+    t_write = time.perf_counter()
     out_dir = Path(out_dir)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
     try:
-        hyps = case.analysis["hypotheses"]
-        progress.say(f"deterministic search ({', '.join(hyps)})")
-        det = deterministic(case)
-        res = RunResults(
-            case_path=str(case_path), case_sha256=hashlib.sha256(raw).hexdigest(), title=case.title,
-            note=case.data["case"].get("note", ""), version=_version(),
-            started_utc=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC"),
-            seed=int(case.simulation["seed"]), realisations=n, deterministic=_deterministic(case, det),
-            single_variable={}, spatial={})
-        for h in hyps:
-            progress.say(f"{h} · single random variables ({', '.join(case.data.get('reliability', {}).get('methods', []))})")
-            res.single_variable[h] = _single_variable(case, det, h)
-        for h in hyps:
-            res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress)
-        res.risk = risk_points(case, res)
-        res.analysis_time_s = round(time.perf_counter() - t_start, 2)
         progress.say("figures, tables and report")
         write_run_report(stage, case, res, formats=formats)
-        res.wall_time_s = round(time.perf_counter() - t_start, 2)
+        if t_start is not None:
+            res.wall_time_s = round(time.perf_counter() - t_start, 2)
+        else:  # analysed earlier: the analyses' time plus the writing
+            res.wall_time_s = round((res.analysis_time_s or 0.0) + time.perf_counter() - t_write, 2)
         res.files = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         doc = results_json(res)
         (stage / "results.json").write_text(json.dumps(doc, indent=2, allow_nan=False))
@@ -283,5 +322,5 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     except BaseException:
         shutil.rmtree(stage, ignore_errors=True)
         raise
-    progress.say(f"done in {res.wall_time_s} s: {out_dir}")
+    progress.say(f"done{'' if res.wall_time_s is None else f' in {res.wall_time_s} s'}: {out_dir}")
     return doc

@@ -83,7 +83,7 @@ def _section(case, res):
     for h, ms in res.deterministic.items():
         for m, d in ms.items():
             if d.surface_xy is not None:
-                surfaces.append({"xy": d.surface_xy, "fs": d.fs, "label": f"{h}, {m}", "short": f"{h} {m}",
+                surfaces.append({"xy": d.surface_xy, "fs": d.fs, "label": f"{h}, {m}", "short": m, "group": h,
                                  "colour": hypothesis_colour(h), "linestyle": METHOD_LINESTYLES.get(m, "-")})
     fig = plot_section(None, sec.ground, zones, phreatic, surfaces, title=case.title, water_lines=lines,
                        surcharges=strips, kh=loads.kh if loads is not None else None, crack=crack,

@@ -5,9 +5,8 @@ every water line (phreatic surface and per-zone piezometric lines, each its
 own legend entry), surcharges (arrows with their pressure), the seismic
 coefficient, the tension crack, where the search looked (circle-centre
 lattice or entry/exit windows) and the critical surfaces. Factor-of-safety
-labels sit in one column at the foot of the axes, one row each, with a
-leader to the deepest point of their surface, so they never overlap however
-close the surfaces lie.
+labels are legend entries, one line each, set in columns under the axes of a
+new figure, so they never overlap however close the surfaces lie.
 """
 from __future__ import annotations
 
@@ -37,6 +36,28 @@ def _draw_water(ax, xy, label, colour, dash):
     xm = xy[0, 0] + 0.25 * (xy[-1, 0] - xy[0, 0])
     ym = np.interp(xm, xy[:, 0], xy[:, 1]) if np.all(np.diff(xy[:, 0]) > 0) else xy[0, 1]
     ax.plot([xm], [ym], marker="v", color=colour, markersize=7, linestyle="none")
+
+
+def _label_point(poly: np.ndarray) -> tuple[float, float]:
+    """A point well inside a polygon for its name: of a grid of inside points, the farthest from every edge.
+
+    The vertex mean can fall outside a thin or bent zone (a dipping layer under a slope face).
+    """
+    from matplotlib.path import Path
+
+    x0, y0 = poly.min(axis=0)
+    x1, y1 = poly.max(axis=0)
+    gx, gy = np.meshgrid(np.linspace(x0, x1, 60), np.linspace(y0, y1, 30))
+    pts = np.c_[gx.ravel(), gy.ravel()]
+    pts = pts[Path(poly).contains_points(pts)]
+    if pts.size == 0:
+        return float(poly[:, 0].mean()), float(poly[:, 1].mean())
+    a, b = poly, np.roll(poly, -1, axis=0)
+    ab = b - a
+    t = np.clip(((pts[:, None, :] - a) * ab).sum(-1) / np.maximum((ab * ab).sum(-1), 1e-12), 0.0, 1.0)
+    d = np.linalg.norm(pts[:, None, :] - (a + t[..., None] * ab), axis=-1).min(axis=1)
+    x, y = pts[int(np.argmax(d))]
+    return float(x), float(y)
 
 
 def _draw_surcharges(ax, ground, surcharges, height):
@@ -105,11 +126,9 @@ def plot_section(
         Phreatic (or piezometric) line, m; drawn dashed blue with the
         customary inverted-triangle symbol, legend "water".
     surfaces : sequence of dict
-        ``{"xy", "fs", "label", "converged", "colour", "linestyle",
-        "short"}``; each surface is drawn and named in the legend with its
-        FS (to 3 decimals). A surface whose FS did not converge is drawn
-        dotted and says so. Surfaces with the same points share one FS
-        label at the foot of the axes (``short`` names them there).
+        ``{"xy", "fs", "label", "converged", "colour", "linestyle"}``; each surface is drawn and named in the legend with its FS (to 3
+        decimals). A surface whose FS did not converge is drawn dotted and
+        says so.
     units : str
         Length unit for the axis labels (default ``"m"``).
     title : str, optional
@@ -138,7 +157,8 @@ def plot_section(
         raise InputError("ground_xy: the ground line is required; pass an (n, 2) array of (x, y) in m.")
     ground = _xy(ground_xy, "ground_xy")
     with report_style():
-        fig, ax = _axes(ax, figsize=(7.0, 4.0))
+        own = ax is None
+        fig, ax = _axes(ax, figsize=(8.0, 5.0))
         for k, zone in enumerate(zones):
             if "polygon_xy" not in zone:
                 raise InputError(f"zones[{k}]: missing 'polygon_xy' (the zone outline, (n, 2) in m).")
@@ -150,7 +170,7 @@ def plot_section(
                 Polygon(poly, closed=True, facecolor=zone_colour(k), edgecolor="#555555", linewidth=0.6, label=label)
             )
             if zone_names_on_section:
-                cx, cy = poly[:, 0].mean(), poly[:, 1].mean()
+                cx, cy = _label_point(poly)
                 ax.text(cx, cy, name, ha="center", va="center", fontsize=7, color="#333333", gid=f"zone-name-{k}")
         ax.plot(ground[:, 0], ground[:, 1], color=PALETTE["black"], linewidth=1.4, label="ground")
         if water_xy is not None:
@@ -168,7 +188,6 @@ def plot_section(
         if crack:
             notes.append(f"tension crack {float(crack['depth']):g} m deep at the upslope end of every surface"
                          + (", water-filled" if crack.get("water_filled") else ""))
-        groups: list[tuple[np.ndarray, list[str], str]] = []
         for k, surf in enumerate(surfaces):
             if "xy" not in surf:
                 raise InputError(f"surfaces[{k}]: missing 'xy' (the slip surface, (n, 2) in m).")
@@ -186,25 +205,11 @@ def plot_section(
                 x0 = sxy[0, 0] if sxy[0, 1] > sxy[-1, 1] else sxy[-1, 0]
                 y0 = float(np.interp(x0, ground[:, 0], ground[:, 1]))
                 ax.plot([x0, x0], [y0, y0 - float(crack["depth"])], color=colour, linewidth=2.5)
-            short = str(surf.get("short", name))
-            for g in groups:
-                if g[0].shape == sxy.shape and np.allclose(g[0], sxy, atol=1e-6) and g[2] == colour:
-                    g[1].append(f"{short} {'n/a' if fs is None else f'{fs:.3f}'}")
-                    break
-            else:
-                groups.append((sxy, [f"{short} {'n/a' if fs is None else f'{fs:.3f}'}"], colour))
         ax.set_aspect("equal", adjustable="box")
         ax.autoscale_view()
-        if surfaces:
-            # FS labels: one row each at the foot of the axes (they cannot overlap), with a leader
-            # to the deepest point of their surface.
-            for k, (sxy, parts, colour) in enumerate(groups):
-                i = int(np.argmin(sxy[:, 1]))
-                ax.annotate("FS " + ", ".join(parts), xy=(sxy[i, 0], sxy[i, 1]),
-                            xytext=(0.01, 0.03 + 0.075 * (len(groups) - 1 - k)), textcoords="axes fraction",
-                            ha="left", va="bottom", fontsize=7.5, color=colour, gid=f"fs-label-{k}",
-                            bbox=dict(boxstyle="round,pad=0.2", facecolor="white", edgecolor=colour, linewidth=0.6),
-                            arrowprops=dict(arrowstyle="-", color=colour, linewidth=0.6, shrinkA=0, shrinkB=2))
+        top = float(ground[:, 1].max()) + (1.7 * height if surcharges else 0.0)
+        if ax.get_ylim()[1] < top:
+            ax.set_ylim(top=top)  # room for the surcharge arrows and their text inside the axes
         if notes:
             ax.text(0.99, 0.98, "\n".join(notes), transform=ax.transAxes, ha="right", va="top", fontsize=7.5,
                     gid="load-notes", bbox=dict(boxstyle="round,pad=0.3", facecolor="white", edgecolor="#999999",
@@ -213,5 +218,11 @@ def plot_section(
         ax.set_ylabel(f"elevation y ({units})")
         if title:
             ax.set_title(title)
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
+        if own:
+            # Below the axes, in columns: every entry (and so every FS) has its own line and never
+            # overlaps another or the section, however many methods and water lines there are.
+            n = len(ax.get_legend_handles_labels()[0])
+            fig.legend(*ax.get_legend_handles_labels(), loc="outside lower center", ncols=2 if n <= 8 else 3)
+        else:
+            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     return fig
