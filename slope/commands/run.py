@@ -182,6 +182,12 @@ def _single_variable(case, det, hyp) -> SingleVariableResult | None:
     _reliability_status(s)
     head = ("variables", "surface", "method", "tornado")
     blocks = {m: b for m, b in s.items() if m not in head}
+    for b in blocks.values():
+        iv = b.get("pf_interval_95")
+        if iv is not None and b.get("pf") is not None and None not in iv:
+            # The Wilson bounds at k = 0 or k = n are exactly pf in closed form; floating point can put
+            # them a rounding error on the wrong side (1.08e-19 > 0 seen on the dam demo).
+            b["pf_interval_95"] = [min(iv[0], b["pf"]), max(iv[1], b["pf"])]
     return SingleVariableResult(hyp, s["variables"], s["surface"], s["method"], blocks, s["tornado"],
                                 arrays.get("tornado"),
                                 {m: a["fs"] for m, a in arrays.items() if isinstance(a, dict) and "fs" in a})

@@ -137,7 +137,8 @@ def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
     for key, heading in SECTIONS.items():
         items = []
         for d in (x for x in drawn if x.group == key):
-            item = {"caption": d.caption, "text": d.text, "stem": d.stem, "number": None, "src": None}
+            item = {"caption": d.caption, "text": d.text, "stem": d.stem, "number": None, "src": None,
+                    "legend": d.legend or []}
             if d.figure is not None:
                 number += 1
                 b64 = base64.b64encode((fig_dir / f"{d.stem}.png").read_bytes()).decode("ascii")

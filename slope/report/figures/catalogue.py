@@ -36,6 +36,7 @@ class Drawn:
     figure: object | None
     text: str = ""
     group: str = ""
+    legend: list = None  # the figure's legend entries as text, for readers who cannot see the image
 
 
 @dataclass(frozen=True)
@@ -91,8 +92,9 @@ def _section(case, res):
     text = ""
     if ru is not None:
         text = f"Pore pressures from the ratio ru = {ru} (no water line is drawn)."
+    legend = [tx.get_text() for lg in fig.legends for tx in lg.get_texts()]
     return [Drawn("section", "Section: zones, water lines, loads, the search region and the critical surface of "
-                  "every method (colour: hypothesis; line style: method)", fig, text)]
+                  "every method (colour: hypothesis; line style: method)", fig, text, legend=legend)]
 
 
 # --------------------------------------------------------------------------- single random variables
