@@ -60,6 +60,22 @@ def _label_point(poly: np.ndarray) -> tuple[float, float]:
     return float(x), float(y)
 
 
+def _drop_overlapping_names(fig, texts) -> None:
+    """Remove zone names that would overlap an earlier one on the drawn figure (the legend names every zone)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = fig.canvas if hasattr(fig.canvas, "get_renderer") else FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    kept = []
+    for tx in texts:
+        box = tx.get_window_extent(renderer).expanded(1.5, 1.3)  # a clear gap, not just no overlap
+        if any(box.overlaps(k) for k in kept):
+            tx.remove()
+        else:
+            kept.append(box)
+
+
 def _draw_surcharges(ax, ground, surcharges, height):
     for k, s in enumerate(surcharges):
         x1, x2 = float(s["x1"]), float(s["x2"])
@@ -218,6 +234,8 @@ def plot_section(
         ax.set_ylabel(f"elevation y ({units})")
         if title:
             ax.set_title(title)
+        if zone_names_on_section:
+            _drop_overlapping_names(fig, [tx for tx in ax.texts if (tx.get_gid() or "").startswith("zone-name-")])
         if own:
             # Below the axes, in columns: every entry (and so every FS) has its own line and never
             # overlaps another or the section, however many methods and water lines there are.
