@@ -1,17 +1,24 @@
 """slipfield random fields: anisotropic Gaussian fields parametrised by the
 scale of fluctuation θ, their generators and local averaging.
 
-Imports nothing from ``slope``.
+Imports nothing from ``slope``. Names are imported on first use (PEP 562
+``__getattr__``): importing the package costs no scipy import, which would
+otherwise be most of a short ``slipfield fields sample`` run.
 """
-from .averaging import (cell_average_covariance, grid_cell_covariance, variance_function,
-                        variance_function_2d)
-from .conditioning import ConditionalGenerator, from_gaussian, to_gaussian
+import importlib
+
 from .errors import InputError
-from .generators import FieldGenerator, make_generator
 from .grid import RegularGrid
-from .models import MODEL_NAMES, CorrelationModel, get_model
-from .properties import DepthTrend, PropertyField, correlated_properties
 from .seeding import realisation_rng, realisation_rngs
+
+_LAZY = {
+    "CorrelationModel": ".models", "get_model": ".models", "MODEL_NAMES": ".models",
+    "FieldGenerator": ".generators", "make_generator": ".generators", "generator_names": ".generators",
+    "variance_function": ".averaging", "variance_function_2d": ".averaging",
+    "grid_cell_covariance": ".averaging", "cell_average_covariance": ".averaging",
+    "PropertyField": ".properties", "DepthTrend": ".properties", "correlated_properties": ".properties",
+    "ConditionalGenerator": ".conditioning", "to_gaussian": ".conditioning", "from_gaussian": ".conditioning",
+}
 
 __all__ = [
     "InputError",
@@ -21,6 +28,7 @@ __all__ = [
     "RegularGrid",
     "FieldGenerator",
     "make_generator",
+    "generator_names",
     "variance_function",
     "variance_function_2d",
     "grid_cell_covariance",
@@ -34,3 +42,16 @@ __all__ = [
     "to_gaussian",
     "from_gaussian",
 ]
+
+
+def __getattr__(name):
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(module, __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

@@ -29,7 +29,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special
 
 from .errors import InputError
 from .models import (CorrelationModel, Exponential, Gaussian, SecondOrderMarkov,
@@ -62,6 +61,8 @@ def _gamma_gaussian(t):
     small = t < 1e-4
     out[small] = 1.0 - math.pi * t[small] ** 2 / 6.0
     tb = t[~small]
+    from scipy import special  # here, not at import: scipy.special is slow to import
+
     out[~small] = (math.pi * tb * special.erf(math.sqrt(math.pi) * tb)
                    + np.expm1(-math.pi * tb ** 2)) / (math.pi * tb ** 2)
     return out

@@ -17,7 +17,6 @@ from pathlib import Path
 
 import numpy as np
 
-from .averaging import variance_function, variance_function_2d
 from .errors import InputError
 from .generators import make_generator
 from .grid import RegularGrid
@@ -99,6 +98,8 @@ def run_vrf(args) -> int:
                 raise InputError(f"--lengths must be >= 0 (m), got {v!r}")
         rows = [f"{v:g}" for v in lengths]
         label = "length (m)"
+    from .averaging import variance_function, variance_function_2d
+
     table = {}
     for name in models:
         model = get_model(name, theta_h=th, theta_v=tv, angle=args.angle, **_model_kwargs(args))
@@ -242,7 +243,7 @@ def _add_common(p, multi):
 
 
 def _fill(fp):
-    sub = fp.add_subparsers(dest="fields_command", metavar="{vrf,sample}")
+    sub = fp.add_subparsers(dest="fields_command", metavar="{vrf,sample,fit}")
     sub.required = True
     v = sub.add_parser("vrf", help="variance-reduction table γ(T) or γ(X, Y)",
                        description="Print the variance reduction factor γ of local averages "
@@ -282,6 +283,9 @@ def _fill(fp):
     s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf")
     s.add_argument("--quiet", action="store_true", help="no summary line")
     s.set_defaults(func=run_sample)
+    from .fitcommand import add_fit_parser
+
+    add_fit_parser(sub)
     return fp
 
 

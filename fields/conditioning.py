@@ -30,6 +30,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from numba import njit
 from scipy import linalg
 
 from .errors import InputError
@@ -39,7 +40,8 @@ from .marginals import Marginal
 from .models import CorrelationModel
 from .seeding import realisation_rng
 
-__all__ = ["ConditionalGenerator", "to_gaussian", "from_gaussian", "NOISE_STREAM"]
+__all__ = ["ConditionalGenerator", "to_gaussian", "from_gaussian", "NOISE_STREAM",
+           "DataCovariance", "add_kriged_residuals"]
 
 #: last sub-stream key of the simulated measurement noise (an arbitrary tag
 #: unlikely to clash with property/zone keys).
@@ -92,6 +94,88 @@ def from_gaussian(marginal, z):
     if not isinstance(marginal, Marginal):
         raise InputError("marginal must be a fields.marginals.Marginal (make_marginal)")
     return marginal.from_standard_normal(z)
+
+
+class DataCovariance:
+    """Factor of the data covariance ``C_dd + diag(σ²_e)`` and kriging weights.
+
+    The piece of simple kriging shared by :class:`ConditionalGenerator` and
+    by callers that generate the unconditional field themselves (the slope
+    simulator conditions only the grid cells its slice bases touch).
+
+    Parameters
+    ----------
+    model : CorrelationModel
+        Unit-variance model of the field.
+    data_points : array_like, shape (n_data, 2)
+        Data locations (m).
+    nugget : float or array_like, shape (n_data,)
+        Measurement-error variance of each datum (standard-normal units, >= 0).
+    """
+
+    def __init__(self, model, data_points, nugget=0.0):
+        d = np.asarray(data_points, dtype=float)
+        nug = np.broadcast_to(np.asarray(nugget, dtype=float), (d.shape[0],)).copy()
+        if not (np.all(np.isfinite(nug)) and np.all(nug >= 0)):
+            raise InputError("nugget must be variance(s) >= 0 (standard-normal units)")
+        self.model, self.data_points, self.nugget = model, d, nug
+        C_dd = model.covariance_matrix(d) + np.diag(nug)
+        try:
+            self.cho = linalg.cho_factor(C_dd, lower=True, check_finite=False)
+            ok = np.all(np.diag(self.cho[0]) > 1e-7)
+        except linalg.LinAlgError:
+            ok = False
+        if not ok:
+            dist = np.hypot(*(d[:, None, :] - d[None, :, :]).transpose(2, 0, 1))
+            np.fill_diagonal(dist, np.inf)
+            i, j = np.unravel_index(np.argmin(dist), dist.shape)
+            raise InputError(f"the data covariance matrix is singular: data points {min(i, j)} "
+                             f"and {max(i, j)} are {dist[i, j]:.3g} m apart; merge them or give "
+                             "nugget > 0 (measurement-error variance)")
+
+    def weights(self, targets):
+        """Simple-kriging weights ``C_td C_dd⁻¹``, shape (n_targets, n_data)."""
+        C_td = self.model.covariance_matrix(np.asarray(targets, dtype=float), self.data_points)
+        return linalg.cho_solve(self.cho, C_td.T, check_finite=False).T
+
+    def noise(self, seed, indices, stream=()):
+        """Simulated measurement errors ``(len(indices), n_data)`` (zero where σ²_e = 0)."""
+        nd = self.data_points.shape[0]
+        if not np.any(self.nugget > 0):
+            return np.zeros((len(indices), nd))
+        e = np.stack([realisation_rng(seed, int(k), *stream, NOISE_STREAM).standard_normal(nd)
+                      for k in indices]) if len(indices) else np.empty((0, nd))
+        return e * np.sqrt(self.nugget)
+
+
+def add_kriged_residuals(out, resid, weights):
+    """``out += resid @ weights.T`` with a fixed order of summation (in place).
+
+    Each value is accumulated datum by datum in a compiled loop instead of a
+    BLAS product, so that a realisation's values do not depend on how many
+    rows are computed together (BLAS kernels change with the number of rows
+    and threads) and stay bit-identical for any batch size or worker count.
+
+    Parameters
+    ----------
+    out : ndarray (s, n_targets), float64, C order
+    resid : ndarray (s, n_data)
+    weights : ndarray (n_targets, n_data)
+    """
+    _accumulate(out, np.ascontiguousarray(resid, dtype=float), np.ascontiguousarray(weights, dtype=float))
+    return out
+
+
+@njit(cache=True)
+def _accumulate(out, resid, weights):  # pragma: no cover - compiled
+    s, nt = out.shape
+    nd = resid.shape[1]
+    for r in range(s):
+        for t in range(nt):
+            acc = out[r, t]
+            for j in range(nd):
+                acc += resid[r, j] * weights[t, j]
+            out[r, t] = acc
 
 
 class ConditionalGenerator:
@@ -252,13 +336,7 @@ class ConditionalGenerator:
                 np.empty((0, nd))
             zu_d = zu_d + math.sqrt(self.nugget) * noise
         resid = self.data_values[None, :] - zu_d
-        # element-wise accumulation over the (few) data instead of a matmul, so
-        # that a realisation is bit-identical whatever the batch size (BLAS
-        # kernels change with the number of rows)
-        out = zu_t.copy()
-        for j in range(resid.shape[1]):
-            out += resid[:, j:j + 1] * self.weights[None, :, j]
-        return out
+        return add_kriged_residuals(np.array(zu_t, dtype=float), resid, self.weights)
 
     def sample_grid(self, seed, indices, stream=()):
         """Like :meth:`sample`, shaped ``(len(indices), nx, ny)`` (grid targets only)."""

@@ -44,6 +44,8 @@ from .errors import InputError, finite_float
 __all__ = [
     "Marginal",
     "MARGINAL_NAMES",
+    "MARGINAL_FORMS",
+    "marginal_form",
     "make_marginal",
     "scaled_spread",
     "nataf_correlation",
@@ -59,6 +61,47 @@ MARGINAL_NAMES = (
     "triangular",
     "deterministic",
 )
+
+#: How each distribution may be stated: the alternative sets of parameters
+#: :func:`make_marginal` takes for it ("spread" is ``cov`` or ``std``).
+MARGINAL_FORMS = {
+    "normal": (frozenset({"mean", "spread"}),),
+    "lognormal": (frozenset({"mean", "spread"}),),
+    "truncated-normal": (frozenset({"mean", "spread", "lower"}), frozenset({"mean", "spread", "upper"}),
+                         frozenset({"mean", "spread", "lower", "upper"})),
+    "beta": (frozenset({"mean", "spread", "lower", "upper"}),),
+    "uniform": (frozenset({"lower", "upper"}), frozenset({"mean", "spread"})),
+    "triangular": (frozenset({"lower", "mode", "upper"}),),
+    "deterministic": (frozenset({"mean"}),),
+}
+assert tuple(MARGINAL_FORMS) == MARGINAL_NAMES
+
+
+def marginal_form(name: str, given, implied=()) -> frozenset | None:
+    """The form of ``name`` that the parameters ``given`` state, or None.
+
+    Parameters
+    ----------
+    name : str
+        A distribution of :data:`MARGINAL_NAMES`.
+    given : set of str
+        Parameters stated (``mean``, ``spread``, ``lower``, ``upper``, ``mode``).
+    implied : set of str
+        Parameters that may be filled in when a form needs them (e.g. a
+        mean taken from elsewhere).
+
+    Returns
+    -------
+    frozenset or None
+        The first form holding every given parameter and needing no other
+        than ``implied`` ones.
+    """
+    given, implied = set(given), set(implied)
+    for form in MARGINAL_FORMS.get(name, ()):
+        if given <= form and form - given <= implied:
+            return form
+    return None
+
 
 _ALIASES = {
     "gaussian": "normal",

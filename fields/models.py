@@ -21,7 +21,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special
 
 from .errors import InputError
 
@@ -342,6 +341,8 @@ class Matern(CorrelationModel):
         out = np.ones_like(x)
         pos = x > 0
         xp = x[pos]
+        from scipy import special  # here, not at import: scipy.special is slow to import
+
         with np.errstate(over="ignore", under="ignore", invalid="ignore"):
             # kve = kv·e^x keeps large-x values finite
             val = np.exp(self._log_c + self.nu * np.log(xp) - xp) * special.kve(self.nu, xp)

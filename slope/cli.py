@@ -1,18 +1,56 @@
 """The ``slipfield`` command line: a thin layer over the Python API.
 
 Exit status: 0 success, 2 bad input (the message names the field and the
-fix), 1 an internal failure.
+fix) or a dask scheduler that stopped answering, 130 interrupted (Ctrl-C),
+143 terminated (SIGTERM), 1 an internal failure.
 """
 from __future__ import annotations
 
 import argparse
 import json
+import signal
 import sys
 import traceback
 
 from slipfield.fields.errors import InputError
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "version"]
+
+
+def version() -> str:
+    """The installed distribution's version (``importlib.metadata``)."""
+    from importlib.metadata import PackageNotFoundError
+    from importlib.metadata import version as dist_version
+
+    try:
+        return dist_version("slipfield")
+    except PackageNotFoundError:
+        return "unknown (not installed)"
+
+
+def _whole(lo):
+    """argparse type: a whole number >= lo (refused at parse time, exit 2)."""
+    def parse(text):
+        try:
+            v = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; give one >= {lo}") from None
+        if v < lo:
+            raise argparse.ArgumentTypeError(f"{v} is too small; give a whole number >= {lo}")
+        return v
+    parse.__name__ = f"whole number >= {lo}"
+    return parse
+
+
+def _positive_number(text):
+    """argparse type: a finite number > 0."""
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give a number > 0") from None
+    if not (v > 0 and v != float("inf")):
+        raise argparse.ArgumentTypeError(f"{text} is not a finite number > 0")
+    return v
 
 
 def _cmd_run(args) -> int:
@@ -20,7 +58,7 @@ def _cmd_run(args) -> int:
 
     formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
     results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
-                       figure_formats=formats)
+                       figure_formats=formats, overwrite=args.overwrite)
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -45,8 +83,9 @@ def _cmd_run(args) -> int:
 
 def _cmd_check(args) -> int:
     from .case.build import load_case
+    from .case.preflight import preflight
 
-    case = load_case(args.case)
+    case = preflight(load_case(args.case))  # every check run makes, so "ok" means the run will start
     print(f"{args.case}: ok ({case.title}; zones {', '.join(case.section.zone_names)}; "
           f"{len(case.randoms)} random properties)")
     return 0
@@ -59,7 +98,7 @@ def _cmd_simulate(args) -> int:
                       seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
                       export_fields=args.export_fields, export_format=args.export_format,
                       progress=not args.quiet, refine_below=args.refine_below,
-                      refine_method=args.refine_method)
+                      refine_method=args.refine_method, overwrite=args.overwrite)
     if args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations", "resumed",
                                              "realisations_from_store", "simulation")}, indent=2))
@@ -83,7 +122,8 @@ def _cmd_sweep(args) -> int:
 
     r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
                    realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
-                   hypothesis=args.hypothesis, scheduler=args.scheduler, progress=not args.quiet)
+                   hypothesis=args.hypothesis, scheduler=args.scheduler, progress=not args.quiet,
+                   overwrite=args.overwrite)
     if args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations_per_point", "rows")},
                          indent=2))
@@ -100,36 +140,48 @@ def _cmd_sweep(args) -> int:
 def _sim_options(p, *, sweep=False):
     p.add_argument("case", help="case file (.toml)")
     p.add_argument("--out", required=True, help="output folder")
-    p.add_argument("--realisations", type=int, default=None,
+    p.add_argument("--realisations", type=_whole(1), default=None,
                    help="realisations" + (" per grid point (default sweep.realisations, then "
                                           "simulation.realisations)" if sweep else
                                           " (default simulation.realisations)"))
-    p.add_argument("--jobs", type=int, default=None, help="local worker processes (default simulation.jobs)")
-    p.add_argument("--batch", type=int, default=None,
+    p.add_argument("--jobs", type=_whole(1), default=None, help="local worker processes (default simulation.jobs)")
+    p.add_argument("--batch", type=_whole(1), default=None,
                    help="realisations evaluated together (memory; default simulation.batch)")
-    p.add_argument("--seed", type=int, default=None, help="run seed (default simulation.seed)")
+    p.add_argument("--seed", type=_whole(0), default=None, help="run seed (default simulation.seed)")
     p.add_argument("--hypothesis", choices=("drained", "undrained"), default=None,
                    help="drainage hypothesis (default: the first of analysis.hypotheses)")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="run on a dask.distributed scheduler, e.g. tcp://host:8786")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _overwrite_option(p)
+
+
+def _overwrite_option(p):
+    p.add_argument("--overwrite", action="store_true",
+                   help="allow an output folder that holds slipfield's own earlier output of another command "
+                        "(or, for simulate without --resume, start its run afresh); only files slipfield wrote "
+                        "there are replaced, never others")
 
 
 def build_parser() -> argparse.ArgumentParser:
+    from .methods import POLYLINE_METHOD_NAMES
+
     p = argparse.ArgumentParser(prog="slipfield", description="Probability of failure of slopes with spatially "
                                 "variable soil strength.")
+    p.add_argument("--version", action="version", version=f"slipfield {version()}")
     sub = p.add_subparsers(dest="command", required=True)
     r = sub.add_parser("run", help="run every analysis of a case and write results, figures and report.html")
     r.add_argument("case", help="case file (.toml)")
     r.add_argument("--out", default="out", help="output folder (default: out)")
-    r.add_argument("--realisations", type=int, default=None, help="override simulation.realisations")
-    r.add_argument("--jobs", type=int, default=None, help="override simulation.jobs")
+    r.add_argument("--realisations", type=_whole(1), default=None, help="override simulation.realisations")
+    r.add_argument("--jobs", type=_whole(1), default=None, help="override simulation.jobs")
     r.add_argument("--json", action="store_true", help="print the summary as JSON")
     r.add_argument("--quiet", action="store_true", help="no progress output")
     r.add_argument("--figure-formats", default="png", metavar="FORMATS",
                    help="figure files to write, comma separated: png (always; the report embeds it) and svg "
                         "(default: png)")
+    _overwrite_option(r)
     r.set_defaults(func=_cmd_run)
     c = sub.add_parser("check", help="check a case file and report every problem at once")
     c.add_argument("case")
@@ -143,10 +195,10 @@ def build_parser() -> argparse.ArgumentParser:
                    help="write each realisation's property fields on the section grid, with its FS, to DIR2")
     s.add_argument("--export-format", choices=("xdmf", "vtu", "npz"), default="xdmf",
                    help="format of --export-fields (default xdmf: one time series per property)")
-    s.add_argument("--refine-below", type=float, default=None, metavar="FS",
+    s.add_argument("--refine-below", type=_positive_number, default=None, metavar="FS",
                    help="refine the critical surface of realisations with a bank FS below FS into a polyline "
                         "with their own fields (slower; off by default)")
-    s.add_argument("--refine-method", default="spencer", choices=("spencer", "morgenstern-price", "janbu"),
+    s.add_argument("--refine-method", default="spencer", choices=POLYLINE_METHOD_NAMES,
                    help="method of slices of the refined polylines (default spencer; with --refine-below)")
     s.set_defaults(func=_cmd_simulate)
     w = sub.add_parser("sweep", help="pf over a grid of scales of fluctuation (common random numbers)")
@@ -161,22 +213,48 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised in the main thread so that staging folders and workers are cleaned up."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+_CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the same command with --resume to "
+                         "continue",
+             "run": "nothing was written to --out; run the command again",
+             "sweep": "nothing was written to --out; run the command again"}
+
+
 def main(argv=None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # a refused option (exit 2, argparse's message printed), --help or --version
+        return int(exc.code or 0)
+    try:
+        old_term = signal.signal(signal.SIGTERM, _on_sigterm)
+    except ValueError:  # not the main thread (embedded use): leave signals alone
+        old_term = None
     try:
         return int(args.func(args) or 0)
     except InputError as exc:
         print(f"slipfield: error: {exc}", file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print("slipfield: interrupted", file=sys.stderr)
-        return 1
+    except KeyboardInterrupt as exc:
+        how = _CONTINUE.get(args.command, "run the command again")
+        what = "terminated" if isinstance(exc, Terminated) else "interrupted"
+        print(f"slipfield: {what}; {how}", file=sys.stderr)
+        return 143 if isinstance(exc, Terminated) else 130
     except Exception as exc:  # noqa: BLE001 - an internal failure: report it, exit 1
         traceback.print_exc(file=sys.stderr)
         print(f"slipfield: internal error: {type(exc).__name__}: {exc} (please report it with the case file)",
               file=sys.stderr)
         return 1
+    finally:
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
 
 
 if __name__ == "__main__":

@@ -26,8 +26,10 @@ Units: m, kPa, degrees at the user level.
 """
 from __future__ import annotations
 
+import math
 from collections import Counter
 from dataclasses import dataclass, field
+from typing import Callable
 
 import numpy as np
 
@@ -38,10 +40,10 @@ from .surfaces import Circle, Circles, Polyline
 
 __all__ = [
     "SearchResult", "evaluate_surfaces", "centre_lattice", "window", "refine", "weak_layer",
-    "critical_surface", "SEARCHES",
+    "critical_surface", "SEARCHES", "SearchKind", "register_search", "case_search_names",
+    "search_from_case", "MIN_DEPTH_REASON",
 ]
 
-SEARCHES = ("centre-lattice", "window", "refine", "weak-layer")
 _TOLERABLE = {"negative-normal": 1, "small-m-alpha": 2, "thrust-outside": 4}
 
 
@@ -125,7 +127,7 @@ def _surface_of(surfaces, i):
 
 def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop", n_slices=40,
                       overrides=None, tolerate=("negative-normal", "thrust-outside"), search="given",
-                      **method_opts) -> SearchResult:
+                      min_depth=None, **method_opts) -> SearchResult:
     """Factor of safety of every trial surface for one set of strengths.
 
     Parameters
@@ -144,6 +146,11 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     tolerate : sequence of {"negative-normal", "thrust-outside"}
         Method flags that do not exclude a trial from the minimum (they stay
         in ``flags`` and in ``rejected`` is nothing for them).
+    min_depth : float, optional, m
+        Surfaces whose greatest vertical depth below the ground line is
+        less than this are dropped from the trials (they are not in
+        ``surfaces`` nor in the bank) and counted in ``rejected`` under
+        :data:`MIN_DEPTH_REASON`; ``n_trials`` still counts them.
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
 
@@ -156,8 +163,12 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     bank = build_bank(section, surfaces, n_slices=n_slices)
     if isinstance(surfaces, (Circle, Polyline)):
         surfaces = [surfaces]
+    n_shallow = 0
+    if min_depth is not None and float(min_depth) > 0:
+        bank, surfaces, n_shallow = _drop_shallow(bank, surfaces, float(min_depth))
     m = bank.n_surfaces
     rejected = Counter(str(r) for r in bank.reason[~bank.valid])
+    rejected[MIN_DEPTH_REASON] += n_shallow
     fs = np.full(m, np.nan)
     flags = np.zeros(m, dtype=int)
     counted = np.zeros(m, bool)
@@ -192,7 +203,40 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         i, crit, fmin, cflags = -1, None, float("nan"), 0
     return SearchResult(search=search, method=str(method), fs_min=fmin, critical=crit, critical_index=i,
                         critical_flags=cflags, surfaces=surfaces, fs=fs, counted=counted, flags=flags,
-                        rejected=rejected, n_trials=m, bank=bank)
+                        rejected=rejected, n_trials=m + n_shallow, bank=bank)
+
+
+#: Reason under which :func:`evaluate_surfaces` counts the surfaces shallower than ``min_depth``.
+MIN_DEPTH_REASON = "shallower than search.min_depth"
+
+
+def surface_depth(bank) -> np.ndarray:
+    """Greatest vertical depth of each surface of a bank below the ground line (m; NaN if invalid).
+
+    Taken over slice sides and midpoints, as the sliding-mass geometry of the report.
+    """
+    with np.errstate(invalid="ignore"):
+        d = np.fmax(np.fmax(bank.y_top_left - bank.y_base_left, bank.y_top_right - bank.y_base_right),
+                    bank.y_top - bank.y_base)
+        return np.where(bank.valid, np.max(d, axis=1), np.nan)
+
+
+def _drop_shallow(bank, surfaces, min_depth):
+    """The bank and surfaces without the valid surfaces shallower than ``min_depth`` (m), and their count."""
+    depth = surface_depth(bank)
+    keep = ~(bank.valid & (depth < min_depth))
+    n_drop = int(np.sum(~keep))
+    if not n_drop:
+        return bank, surfaces, 0
+    idx = np.flatnonzero(keep)
+    if isinstance(surfaces, Circles):
+        kept = Circles(surfaces.xc[idx], surfaces.yc[idx], surfaces.radius[idx]) if idx.size else surfaces
+    else:
+        kept = [surfaces[i] for i in idx]
+    if not idx.size:
+        raise InputError(f"search.min_depth = {min_depth:g} m: every one of the {len(keep)} trial surfaces is "
+                         "shallower; lower min_depth or move the search towards deeper surfaces")
+    return bank.subset(idx), kept, n_drop
 
 
 # ------------------------------------------------------------------ circles
@@ -543,25 +587,133 @@ def weak_layer(section, *, zone, x_from, x_to, n_positions=12, n_lengths=12, min
     return evaluate_surfaces(section, blocks, search="weak-layer", method=method, **evaluate_opts)
 
 
+# ---------------------------------------------------------------- registry
+@dataclass(frozen=True)
+class SearchKind:
+    """One search of the registry.
+
+    Attributes
+    ----------
+    name : str
+        The name users write (``[search] kind`` of a case file, :func:`critical_surface`).
+    search : callable
+        ``search(section, **opts) -> SearchResult``: the library call.
+    from_case : callable or None
+        ``from_case(section, table, **evaluate_opts) -> SearchResult``: the
+        search as a case file's ``[search]`` table states it (``table`` is the
+        checked table with its defaults); None when case files cannot ask for it.
+    keys : tuple of str
+        ``[search]`` keys this search reads besides ``kind`` and ``min_depth``
+        (a key given for another kind is refused, as it would do nothing).
+    doc : str
+        One line for the documentation.
+    """
+
+    name: str
+    search: Callable
+    from_case: Callable | None = None
+    keys: tuple = ()
+    doc: str = ""
+
+
+#: name -> SearchKind; the case schema and :func:`critical_surface` read it.
+SEARCHES: dict[str, SearchKind] = {}
+
+
+def register_search(kind: SearchKind) -> SearchKind:
+    """Add a search to the registry (one line per search)."""
+    SEARCHES[kind.name] = kind
+    return kind
+
+
+def case_search_names() -> tuple:
+    """Searches a case file may name in ``[search] kind``."""
+    return tuple(n for n, k in SEARCHES.items() if k.from_case is not None)
+
+
+def _per_axis(trials, n_radii=10):
+    return max(3, int(round(math.sqrt(int(trials) / n_radii))))
+
+
+def _lattice_from_case(section, table, **opts):
+    n = _per_axis(table["trials"])
+    return centre_lattice(section, x_range=tuple(table["x_range"]) if "x_range" in table else None,
+                          y_range=tuple(table["y_range"]) if "y_range" in table else None,
+                          nx=n, ny=n, n_radii=10, **opts)
+
+
+def _window_from_case(section, table, **opts):
+    n = _per_axis(table["trials"])
+    return window(section, upslope=tuple(table["entry"]), downslope=tuple(table["exit"]),
+                  n_up=n, n_down=n, n_radii=10, **opts)
+
+
+def _given(section, *, surfaces, **opts):
+    return evaluate_surfaces(section, surfaces, search="fixed", **opts)
+
+
+def _fixed_from_case(section, table, **opts):
+    if "circle" in table:
+        c = table["circle"]
+        surf = Circle(float(c["x"]), float(c["y"]), float(c["r"]))
+    else:
+        surf = Polyline(np.asarray(table["polyline"], float))
+    return _given(section, surfaces=[surf], **opts)
+
+
+def _refine_search(section, **opts):
+    if "start" not in opts:
+        keys = ("hypothesis", "n_slices", "overrides", "tolerate")
+        first = centre_lattice(section, **{k: opts[k] for k in keys if k in opts})
+        if first.critical is None:
+            raise InputError("refine: the centre-lattice search found no usable circle to start from")
+        opts["start"] = first.critical
+    return refine(section, opts.pop("start"), **opts)
+
+
+register_search(SearchKind("centre-lattice", centre_lattice, _lattice_from_case, ("trials", "x_range", "y_range"),
+                           "circles over a lattice of centres, each with a sweep of radii"))
+register_search(SearchKind("window", window, _window_from_case, ("trials", "entry", "exit"),
+                           "circles from an upslope entry window to a downslope exit window"))
+register_search(SearchKind("fixed", _given, _fixed_from_case, ("circle", "polyline"),
+                           "one given surface: a circle {x, y, r} or a polyline"))
+register_search(SearchKind("refine", _refine_search, None, (),
+                           "a start surface turned into a polyline and optimised"))
+register_search(SearchKind("weak-layer", weak_layer, None, (),
+                           "block surfaces along the bottom of a weak zone"))
+# issue 15's families: a case adds them to its bank with [[search.block]] and
+# [search.dynamic_programming] (slope.search_families), whatever its kind
+from .search_block import block_search  # noqa: E402 - the registry is complete once this module is
+from .search_dp import dynamic_programming  # noqa: E402
+register_search(SearchKind("block", block_search, None, (),
+                           "sliding blocks on a weak zone: Rankine active and passive wedges from entry and exit ranges"))
+register_search(SearchKind("dynamic-programming", dynamic_programming, None, (),
+                           "non-circular surfaces by dynamic programming over grids of nodes (Baker 1980)"))
+
+
+def _kind(name) -> SearchKind:
+    if name not in SEARCHES:
+        raise InputError(f"search: unknown search {name!r}; choose one of {', '.join(SEARCHES)}")
+    return SEARCHES[name]
+
+
+def search_from_case(section, table: dict, **evaluate_opts) -> SearchResult:
+    """Run the search a case's checked ``[search]`` table asks for (the one dispatcher of case files).
+
+    ``min_depth`` of the table drops shallower surfaces (see :func:`evaluate_surfaces`).
+    """
+    kind = _kind(table.get("kind", "centre-lattice"))
+    if kind.from_case is None:
+        raise InputError(f"search.kind = {kind.name!r} cannot be asked for in a case file; use one of "
+                         f"{', '.join(case_search_names())}")
+    return kind.from_case(section, table, min_depth=table.get("min_depth"), **evaluate_opts)
+
+
 def critical_surface(section, search="centre-lattice", **opts) -> SearchResult:
-    """Run a search by name: ``centre-lattice``, ``window``, ``refine`` or ``weak-layer``.
+    """Run a search of the registry by name (see :data:`SEARCHES`).
 
     ``refine`` without a ``start`` runs a ``centre-lattice`` search first
     (with the same hypothesis and strengths, Bishop) and refines its critical
-    circle.
+    circle; ``fixed`` takes ``surfaces``.
     """
-    if search == "centre-lattice":
-        return centre_lattice(section, **opts)
-    if search == "window":
-        return window(section, **opts)
-    if search == "weak-layer":
-        return weak_layer(section, **opts)
-    if search == "refine":
-        if "start" not in opts:
-            keys = ("hypothesis", "n_slices", "overrides", "tolerate")
-            first = centre_lattice(section, **{k: opts[k] for k in keys if k in opts})
-            if first.critical is None:
-                raise InputError("refine: the centre-lattice search found no usable circle to start from")
-            opts["start"] = first.critical
-        return refine(section, opts.pop("start"), **opts)
-    raise InputError(f"search: unknown search {search!r}; choose one of {SEARCHES}")
+    return _kind(search).search(section, **opts)

@@ -8,14 +8,14 @@ Units: m, section frame (x right, y up).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from .errors import InputError
 
 __all__ = [
-    "Circle", "Circles", "Polyline", "circle_through", "circle_cuts", "polyline_cuts", "cut_ground",
+    "Circle", "Circles", "Polyline", "circle_through", "circle_cuts", "polyline_cuts", "cut_ground", "family_of",
 ]
 
 
@@ -86,10 +86,13 @@ class Polyline:
     """General (non-circular) slip surface through vertices (m), x increasing.
 
     The polyline's ends should lie on or above the ground line; it is cut
-    where it crosses the ground.
+    where it crosses the ground. ``family`` names the search that made it
+    (``block``, ``dynamic-programming``, ...; see :func:`family_of`); it
+    changes nothing in the geometry and is left out of ``repr``.
     """
 
     points: np.ndarray
+    family: str = field(default="polyline", repr=False, compare=False)
 
     def __post_init__(self):
         from .section import _as_points
@@ -103,6 +106,11 @@ class Polyline:
         """Surface elevation at x (m); NaN outside the polyline's x range."""
         p = self.points
         return np.interp(x, p[:, 0], p[:, 1], left=np.nan, right=np.nan)
+
+
+def family_of(surface) -> str:
+    """Family of a trial surface: ``circle`` for circles, else the polyline's ``family``."""
+    return "circle" if isinstance(surface, Circle) else str(getattr(surface, "family", "polyline"))
 
 
 def circle_cuts(section, xc, yc, r):

@@ -29,11 +29,12 @@ from slipfield.slope.commands.run import run_case, sliding_mass_geometry
 from slipfield.slope.section import Section, Zone
 from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle
+from support.demos import DEMO_REALISATIONS
 
 ROOT = Path(__file__).resolve().parents[1]
 DOC = ROOT / "docs" / "results-json.md"
 CASES = ROOT / "cases"
-N_REAL = 30  # realisations of the shared demo runs (tests/conftest.py, DEMO_REALISATIONS)
+
 
 # Wildcards of the document's paths; `None` = any key.
 WILDCARDS = {
@@ -134,7 +135,7 @@ DEMOS = ["levee_soft_clay.toml", "cut_residual_soil.toml", "dam_layered_foundati
 
 @pytest.fixture(scope="module", params=DEMOS)
 def run_output(request, demo_run):
-    return demo_run(request.param)[2]  # one run per demo for the whole session (tests/conftest.py)
+    return demo_run(request.param)  # one run per demo for the whole session (tests/conftest.py)
 
 
 def test_document_is_parsed_and_every_number_has_units():
@@ -170,7 +171,7 @@ def test_pf_inside_interval_and_equal_to_the_per_realisation_table(run_output):
                 assert 0.0 <= lo <= c["pf"] <= hi <= 1.0, (hyp, run, block)
                 checked += 1
             c = r["critical_surface_searched"]
-            assert c["n_valid"] + c["n_without_admissible_surface"] == r["realisations"] == N_REAL
+            assert c["n_valid"] + c["n_without_admissible_surface"] == r["realisations"] == DEMO_REALISATIONS
             assert c["n_failed"] == round(c["pf"] * c["n_valid"])
             assert r["failure_geometry"]["n_failed"] == c["n_failed"]
         fs = np.array([float(x["FS critical (-)"]) for x in rows if x["hypothesis"] == hyp])
@@ -221,6 +222,7 @@ def test_sliding_mass_geometry_of_a_circular_segment():
         sliding_mass_geometry(bank, [-1])
 
 
+@pytest.mark.slow
 def test_refinement_from_the_case_file_is_reported_and_documented(tmp_path):
     # [simulation] refine_below reaches both runs of every hypothesis and the
     # refined results follow the same documented structure
@@ -248,11 +250,11 @@ def _same(a, b):
 
 
 @pytest.mark.parametrize("name", DEMOS)
-def test_every_comparison_number_is_in_results_json_at_its_key_path(demo_run, name):
+def test_every_comparison_number_is_in_results_json_at_its_key_path(demo_analysis, name):
     from slipfield.slope.report.build import comparison_table
     from slipfield.slope.report.tables import format_value
 
-    case, res, out, doc = demo_run(name)
+    case, res, out, doc = demo_analysis(name)
     table = comparison_table(res)
     assert table["hypotheses"] == case.analysis["hypotheses"]
     checked = 0
@@ -289,13 +291,13 @@ def _value_at(doc, keys):
 
 
 @pytest.mark.parametrize("name", ["levee_soft_clay.toml", "dam_layered_foundation.toml"])
-def test_every_plotted_risk_point_equals_results_json(demo_run, name):
+def test_every_plotted_risk_point_equals_results_json(demo_analysis, name):
     # annual pf = P(condition per year) × pf | condition (issue 13); each point on the chart must be
     # the value results.json holds, and that value the product of the condition's probability and the
     # pf found at the key path it names.
     from slipfield.slope.report.figures.catalogue import _risk
 
-    case, res, out, doc = demo_run(name)
+    case, res, out, doc = demo_analysis(name)
     pts = doc["risk"]["points"]
     assert len(pts) >= 2
     for p in pts:

@@ -1,26 +1,26 @@
 """``slipfield run`` on each demo case: every promised file, a valid results.json.
 
 Demo cases are invented scenarios; the checks here are structural and
-statistical (pf inside its own binomial interval, Wilson 1927), plus one
+statistical (pf is the failed fraction, with Wilson's 1927 interval as
+scipy computes it), plus one
 outside reference: the deterministic FS of every method agrees within 5 %
 of Bishop's on the same surface bank, the spread expected between methods
 that satisfy moment equilibrium (Duncan, Wright & Brandon 2014, ch. 6,
 recalled: rigorous methods and Bishop agree within about 5 % on circles).
 """
 import json
-from pathlib import Path
 
 import pytest
+from scipy.stats import binomtest
 
 from slipfield.slope.cli import main
 
-CASES = Path(__file__).resolve().parents[1] / "cases"
+from support.demos import CASES, DEMO_REALISATIONS
 
 
 @pytest.mark.parametrize("name", ["levee_soft_clay.toml", "cut_residual_soil.toml"])
-def test_run_writes_every_output(tmp_path, name):
-    out = tmp_path / "out"
-    assert main(["run", str(CASES / name), "--out", str(out), "--realisations", "60", "--jobs", "1", "--quiet"]) == 0
+def test_run_writes_every_output(demo_run, name):
+    out = demo_run(name)
     for f in ("results.json", "report.html", "deterministic.csv", "reliability.csv", "simulation.csv",
               "fs_realisations.csv"):
         assert (out / f).stat().st_size > 0, f
@@ -38,10 +38,14 @@ def test_run_writes_every_output(tmp_path, name):
             continue
         for k in ("spatial", "single_random_variable"):
             c = sim[k]["critical_surface_searched"]
-            lo, hi = c["pf_interval_95"]
-            assert lo <= c["pf"] <= hi
-            assert c["n_valid"] + c["n_without_admissible_surface"] == 60
-    assert not any(p.name.startswith(".out.partial") for p in tmp_path.iterdir())
+            # pf is the failed fraction and its interval is Wilson's (1927), computed here by scipy
+            assert c["pf"] == c["n_failed"] / c["n_valid"]
+            ci = binomtest(c["n_failed"], c["n_valid"]).proportion_ci(0.95, method="wilson")
+            assert c["pf_interval_95"] == pytest.approx([ci.low, ci.high], abs=1e-12)
+            assert c["n_valid"] + c["n_without_admissible_surface"] == DEMO_REALISATIONS
+    assert not any(p.name.startswith(".out.partial") for p in out.parent.iterdir())
+    svgs = list((out / "figures").glob("*.svg"))
+    assert len(svgs) == len(pngs)
 
 
 def test_broken_case_exit_2_and_nothing_written(tmp_path, capsys):

@@ -21,7 +21,7 @@ from ..grid import RegularGrid
 from ..models import CorrelationModel
 from ..seeding import realisation_rng
 
-__all__ = ["FieldGenerator", "make_generator", "register", "GENERATOR_NAMES"]
+__all__ = ["FieldGenerator", "make_generator", "register", "generator_names", "generator_options"]
 
 _REGISTRY: dict[str, type] = {}
 
@@ -207,10 +207,18 @@ def make_generator(method, model, *, grid=None, points=None, **opts) -> FieldGen
     return cls(model, grid=grid, points=points, **opts)
 
 
+def generator_options(method) -> tuple:
+    """Keyword options of a generator method (e.g. ``max_points`` of the dense ones)."""
+    from . import cholesky, circulant, kl, spectral  # noqa: F401
+
+    key = str(method).strip().lower()
+    if key not in _REGISTRY:
+        raise InputError(f"unknown generator method {method!r}: choose one of " + ", ".join(sorted(_REGISTRY)))
+    return tuple(_options_of(_REGISTRY[key]))
+
+
 def generator_names():
     """Method names accepted by :func:`make_generator`."""
     from . import cholesky, circulant, kl, spectral  # noqa: F401
     return tuple(sorted(_REGISTRY))
 
-
-GENERATOR_NAMES = ("cholesky", "kl", "fft", "circulant", "spectral")

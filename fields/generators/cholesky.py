@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import numpy as np
-from scipy import linalg
 
 from ..errors import InputError
 from ._dense import MAX_POINTS, check_size, dense_covariance, positioned_matmul
@@ -43,6 +42,8 @@ class CholeskyGenerator(FieldGenerator):
         check_size(self.method, self.n_points, int(max_points))
         C = dense_covariance(self, average_cells, cell_quadrature)
         scale = float(np.mean(np.diag(C)))
+        from scipy import linalg  # here, not at import: only dense generators need it
+
         for eps in _JITTERS:
             try:
                 L = linalg.cholesky(C + eps * scale * np.eye(self.n_points), lower=True,

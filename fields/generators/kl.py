@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import numpy as np
-from scipy import linalg
 
 from ..errors import InputError
 from ._dense import MAX_POINTS, check_size, dense_covariance, positioned_matmul
@@ -46,6 +45,8 @@ class KLGenerator(FieldGenerator):
         if not (0.0 < energy <= 1.0):
             raise InputError(f"energy must be in (0, 1] (fraction of variance kept), got {energy}")
         C = dense_covariance(self, average_cells, cell_quadrature)
+        from scipy import linalg  # here, not at import: only dense generators need it
+
         lam, vec = linalg.eigh(C, check_finite=False)
         lam, vec = lam[::-1], vec[:, ::-1]
         trace = float(np.trace(C))

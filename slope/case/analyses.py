@@ -13,31 +13,26 @@ the arrays the figures need.
 """
 from __future__ import annotations
 
-import math
 
 import numpy as np
 
-from slipfield.fields.marginals import make_marginal
+from slipfield.fields.marginals import make_marginal, marginal_form
 
 from ..bank import unit_weight_parts
 from .build import Case, theta_value
+from .schema import acts_under
 from ..errors import InputError
 from ..reliability.limit_state import LimitState
-from ..reliability.pem import hong, rosenblueth
-from ..reliability.form import form
-from ..reliability.sampling import latin_hypercube, monte_carlo
-from ..reliability.sensitivity import rank_correlations, tornado
+from ..reliability.registry import Settings, run_estimator
+from ..reliability.sensitivity import tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
-from ..search import evaluate_surfaces, centre_lattice, window
-from ..surfaces import Circle, Polyline
+from ..search import evaluate_surfaces, search_from_case
+from ..search_families import add_families
+from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "spatial_simulation", "surface_xy",
-           "properties_for"]
-
-# which random properties act under which hypothesis
-_DRAINED_PROPS = ("c", "phi")
-_UNDRAINED_PROPS = ("su", "su_ratio")
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
+           "surface_xy", "properties_for"]
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -55,32 +50,19 @@ def trial_surfaces(case: Case, hypothesis: str, method: str):
     -------
     SearchResult
         Every trial surface with its FS; ``surfaces`` is the bank the
-        simulator re-searches.
+        simulator re-searches: the circles of ``[search] kind`` plus the
+        block and dynamic-programming families the table asks for.
     """
-    s = case.data.get("search", {"kind": "centre-lattice", "trials": 1500, "min_depth": 0.5})
-    sec = case.section
-    n_slices = case.analysis["slices"]
-    opts = dict(hypothesis=hypothesis, method=method, n_slices=n_slices,
-                interslice=case.analysis["interslice"]) if method == "morgenstern-price" else \
-        dict(hypothesis=hypothesis, method=method, n_slices=n_slices)
-    kind = s.get("kind", "centre-lattice")
-    trials = int(s.get("trials", 1500))
-    if kind == "fixed":
-        if "circle" in s:
-            c = s["circle"]
-            surf = Circle(float(c["x"]), float(c["y"]), float(c["r"]))
-        else:
-            surf = Polyline(np.asarray(s["polyline"], float))
-        return evaluate_surfaces(sec, [surf], search="fixed", **opts)
-    n_radii = 10
-    per_axis = max(3, int(round(math.sqrt(trials / n_radii))))
-    if kind == "window":
-        n_ends = max(3, int(round(math.sqrt(trials / n_radii))))
-        return window(sec, upslope=tuple(s["entry"]), downslope=tuple(s["exit"]),
-                      n_up=n_ends, n_down=n_ends, n_radii=n_radii, **opts)
-    return centre_lattice(sec, x_range=tuple(s["x_range"]) if "x_range" in s else None,
-                          y_range=tuple(s["y_range"]) if "y_range" in s else None,
-                          nx=per_axis, ny=per_axis, n_radii=n_radii, **opts)
+    opts = dict(hypothesis=hypothesis, method=method, n_slices=case.analysis["slices"])
+    if method == "morgenstern-price":
+        opts["interslice"] = case.analysis["interslice"]
+    cache = case.extras.setdefault("trial_surfaces", {})  # a preflight's searches, not repeated by the run
+    if (hypothesis, method) not in cache:
+        table = case.data["search"]
+        circles = search_from_case(case.section, table, **opts)
+        cache[(hypothesis, method)] = add_families(case.section, circles, table, min_depth=table.get("min_depth"),
+                                                   **opts)
+    return cache[(hypothesis, method)]
 
 
 def _search_dict(res, section) -> dict:
@@ -123,30 +105,31 @@ def deterministic(case: Case) -> dict:
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
             res = evaluate_surfaces(case.section, first.surfaces, hypothesis=hyp, method=m,
                                     n_slices=case.analysis["slices"], search=first.search, **opts)
+            for k in ("shallower than search.min_depth",):  # dropped before the bank: counted for every method
+                if k in first.rejected:
+                    res.rejected[k] = first.rejected[k]
+                    res.n_trials = first.n_trials
             per_method[m] = _search_dict(res, case.section)
         out[hyp] = {"bank": first, "methods": per_method}
     return out
 
 
 def properties_for(case: Case, hypothesis: str) -> list[dict]:
-    """The case's random properties that act under ``hypothesis``.
-
-    Drained: c', φ' of every material; undrained: su (as a factor on the
-    material's su law), su_ratio, and c', φ' of materials without an undrained
-    strength (they stay drained); a unit weight acts under both.
-    """
+    """The case's random properties that act under ``hypothesis`` (rule: :func:`.schema.acts_under`)."""
     mats = case.section.materials
-    out = []
-    for r in case.randoms:
-        m = mats[r["material"]]
-        p = r["property"]
-        if p == "unit_weight":
-            out.append(r)
-        elif hypothesis == "drained" and p in _DRAINED_PROPS:
-            out.append(r)
-        elif hypothesis == "undrained" and (p in _UNDRAINED_PROPS or (p in _DRAINED_PROPS and not m.has_undrained)):
-            out.append(r)
-    return out
+    return [r for r in case.randoms if acts_under(r["property"], mats[r["material"]].has_undrained, hypothesis)]
+
+
+def _marginal_kwargs(r: dict, default_mean: float, scale: float = 1.0) -> dict:
+    """Parameters of a [[random]] entry for make_marginal, in the form its keys state (values ÷ ``scale``)."""
+    given = {k for k in ("mean", "lower", "upper", "mode") if k in r} | ({"spread"} if "cov" in r else set())
+    form = marginal_form(r["distribution"], given, implied={"mean"})
+    kw = {k: float(r[k]) / scale for k in ("lower", "upper", "mode") if k in r}
+    if "mean" in form:
+        kw["mean"] = float(r.get("mean", default_mean * scale)) / scale
+    if "cov" in r:
+        kw["cov"] = float(r["cov"])
+    return kw
 
 
 def marginal_of(case: Case, r: dict):
@@ -154,28 +137,59 @@ def marginal_of(case: Case, r: dict):
 
     c' (kPa) and φ' (degrees) keep their values (mean: the material's unless
     given); su and su_ratio are factors of mean 1 on the material's
-    undrained law, so a trend with depth keeps its shape; a unit weight is
-    given in kN/m³ (mean: the material's γ unless given) and used as the
-    factor value/γ on γ and γsat.
+    undrained law, so a trend with depth keeps its shape (bounds and mode are
+    factors too); a unit weight is given in kN/m³ (mean: the material's γ
+    unless given) and used as the factor value/γ on γ and γsat.
     """
     mat = case.section.materials[r["material"]]
     p = r["property"]
-    kw = {k: r[k] for k in ("lower", "upper") if k in r}
     if p == "unit_weight":
         g = float(mat.unit_weight)
-        mean = float(r.get("mean", g))
-        if mean <= 0:
-            raise InputError(f"random property {r['material']}.unit_weight: the mean is {mean:g} kN/m³; give a "
-                             "positive mean")
-        return make_marginal(r["distribution"], mean=mean / g, cov=float(r["cov"]),
-                             **{k: v / g for k, v in kw.items()})
+        kw = _marginal_kwargs(r, 1.0, g)
+        if kw.get("mean", 1.0) <= 0:
+            raise InputError(f"random property {r['material']}.unit_weight: the mean is {kw['mean'] * g:g} kN/m³; "
+                             "give a positive mean")
+        return make_marginal(r["distribution"], **kw)
     if p in ("su", "su_ratio"):
-        return make_marginal(r["distribution"], mean=float(r.get("mean", 1.0)), cov=float(r["cov"]), **kw)
-    mean = float(r.get("mean", getattr(mat, p)))
-    if mean <= 0:
-        raise InputError(f"random property {r['material']}.{p}: the mean is {mean:g}; give a positive "
+        return make_marginal(r["distribution"], **_marginal_kwargs(r, 1.0))
+    kw = _marginal_kwargs(r, float(getattr(mat, p)))
+    if kw.get("mean", 1.0) <= 0:
+        raise InputError(f"random property {r['material']}.{p}: the mean is {kw['mean']:g}; give a positive "
                          f"mean in the [[random]] entry or in the material")
-    return make_marginal(r["distribution"], mean=mean, cov=float(r["cov"]), **kw)
+    return make_marginal(r["distribution"], **kw)
+
+
+def risk_scenarios(case: Case, pf_by_hypothesis: dict) -> dict | None:
+    """The case's ``[risk]`` as scenarios of the risk chart, one per hypothesis; None without ``[risk]``.
+
+    Parameters
+    ----------
+    pf_by_hypothesis : dict
+        ``{hypothesis: {"pf": float, "pf_interval_95": [lo, hi]}}`` (the
+        spatial simulation's estimate; hypotheses without one are skipped).
+
+    Returns
+    -------
+    dict
+        ``scenarios`` (for :func:`slope.report.risk.risk_points`),
+        ``tolerability`` (the case's lines) and ``consequence_label``.
+    """
+    risk = case.data.get("risk")
+    if risk is None:
+        return None
+    scen = []
+    for hyp, est in pf_by_hypothesis.items():
+        if est is None:
+            continue
+        sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
+        if "annual_pf" in risk:
+            sc["annual_probability"] = risk["annual_pf"]
+        else:
+            sc.update(pf=est["pf"], annual_exceedance=risk["annual_exceedance"],
+                      pf_interval=tuple(est["pf_interval_95"]))
+        scen.append(sc)
+    return {"scenarios": scen, "tolerability": risk.get("tolerability", []),
+            "consequence_label": risk["consequence_label"]}
 
 
 def _name(r) -> str:
@@ -245,8 +259,7 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
     names = [_name(r) for r in props]
     variables = RandomVector([RandomVariable(n, marginal_of(case, r)) for n, r in zip(names, props)],
                              _correlation(case, props))
-    cfg = case.data.get("reliability", {"methods": ["monte-carlo", "point-estimate", "form"],
-                                        "samples": 5000, "tornado_k": 2.0})
+    cfg = case.data["reliability"]
     research = bool(cfg.get("research_surface", False))
     if research:
         # every sample takes the least FS over the whole trial bank (a per-sample search of those surfaces)
@@ -261,29 +274,14 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                  "surface": ("re-searched over the trial surfaces for each sample" if research else
                              "fixed (deterministic critical surface)"), "method": method}
     arrays: dict = {}
-    for m in cfg["methods"]:
-        if m in ("monte-carlo", "latin-hypercube"):
-            fn = monte_carlo if m == "monte-carlo" else latin_hypercube
-            res = fn(ls, variables, int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
-            est = res.main.estimate
-            out[m] = _pf_dict(est) | {"n_evaluations": int(res.n_evaluations)}
-            arrays[m] = {"fs": res.fs, "history": res.main.history}
-            if res.X is not None:
-                rc = rank_correlations(res.X, res.fs, names)
-                out[m]["spearman"] = {k: float(v) if np.isscalar(v) else v for k, v in rc.items()}
-        elif m == "point-estimate":
-            pe = rosenblueth(ls, variables) if len(names) <= 6 else hong(ls, variables)
-            out[m] = {"scheme": pe.method, "mean_fs": pe.mean_fs, "std_fs": pe.std_fs,
-                      "beta_normal": pe.beta_normal, "pf_normal": pe.pf_normal,
-                      "beta_lognormal": pe.beta_lognormal, "pf_lognormal": pe.pf_lognormal,
-                      "n_evaluations": int(pe.n_evaluations), "n_nonconverged": int(pe.n_nonconverged),
-                      "n_inadmissible": int(pe.n_inadmissible)}
-        elif m == "form":
-            fr = form(ls, variables)
-            out[m] = {"beta": fr.beta, "pf": fr.pf, "converged": bool(fr.converged),
-                      "design_point": dict(zip(names, map(float, fr.design_point_x))),
-                      "importance": {k: float(v) for k, v in fr.importance.items()},
-                      "n_evaluations": int(fr.n_evaluations)}
+    settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
+    for m in cfg["methods"]:  # each through the registry; one that cannot reach an answer says so in its row
+        try:
+            out[m], arr = run_estimator(m, ls, variables, settings)
+        except InputError as exc:
+            out[m], arr = {"status": f"not computed: {exc}"}, {}
+        if arr:
+            arrays[m] = arr
     k = float(cfg.get("tornado_k", 2.0))
     tr = tornado(ls, variables, k=k)
     out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
@@ -292,15 +290,6 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                       "clipped": list(tr.clipped)}
     arrays["tornado"] = tr
     return {"summary": out, "arrays": arrays}
-
-
-def _pf_dict(est) -> dict:
-    return {"pf": float(est.pf), "pf_interval_95": [float(est.ci[0]), float(est.ci[1])],
-            "ci_method": est.ci_method, "n": int(est.n), "n_valid": int(est.n_valid),
-            "n_failed": int(est.n_fail), "n_nonconverged": int(est.n_nonconverged),
-            "n_inadmissible": int(est.n_inadmissible), "mean_fs": float(est.mean_fs),
-            "std_fs": float(est.std_fs), "beta_from_pf": float(est.beta_from_pf),
-            "beta_normal": float(est.beta_normal), "beta_lognormal": float(est.beta_lognormal)}
 
 
 def _surface_list(surfaces):
@@ -334,4 +323,20 @@ def random_problem(case: Case, det: dict, hypothesis: str, *, theta_override=Non
                          int(first.critical_index), cross_correlation=cc,
                          n_slices=case.analysis["slices"], cell=float(sim["cell"]),
                          field_method=sim["field_method"], averaging=sim["averaging"],
-                         interslice=case.analysis["interslice"])
+                         interslice=case.analysis["interslice"],
+                         site_data=_site_data(case, rp, theta_override))
+
+
+def _site_data(case: Case, rp, theta_override=None) -> dict:
+    """Gaussian-space site data of the random properties that have some (see slope.site_data).
+
+    Under a θ override to infinity (the single-random-variable comparison of a
+    run, a sweep's "inf") the properties are no longer fields and the data
+    are left out: that comparison is unconditional.
+    """
+    from ..site_data import gaussian_site_data
+
+    readings = case.extras.get("site_data") or []
+    return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
+            for p in rp if any(r.key == p.key for r in readings)
+            and not (theta_override is not None and p.single)}

@@ -143,8 +143,18 @@ def load_case(path: str | Path) -> Case:
     except InputError as exc:
         if isinstance(exc, CaseError):
             raise
-        raise CaseError(str(path), [f"[section]/[water]/loads: {exc}"]) from None
-    return Case(str(path), data, section)
+        # the library's parameter names become the case file's keys
+        msg = str(exc).replace("lower base_y", "lower section.bottom").replace("base_y", "section.bottom")
+        raise CaseError(str(path), [f"[section]/[water]/loads: {msg}"]) from None
+    case = Case(str(path), data, section)
+    if data.get("site_data"):
+        from ..site_data import read_site_data
+
+        try:
+            case.extras["site_data"] = read_site_data(data, path, section)
+        except InputError as exc:
+            raise CaseError(str(path), str(exc).split("\n")) from None
+    return case
 
 
 def theta_value(v) -> float:

@@ -21,16 +21,37 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
+from slipfield.fields import MODEL_NAMES, generator_names
+from slipfield.fields.marginals import MARGINAL_FORMS, marginal_form
+
 from ..errors import InputError
+from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
+from ..reliability.registry import ESTIMATOR_NAMES
+from ..search import SEARCHES, case_search_names
+from ..simulate.problem import AVERAGING, PROPS
+from ..simulate.refinement import REFINE_SEARCHES
 
-__all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "METHOD_NAMES", "FIELD_MODEL_NAMES"]
+__all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]
 
-METHOD_NAMES = ("ordinary", "bishop", "janbu", "spencer", "morgenstern-price")
-FIELD_MODEL_NAMES = ("exponential", "markov", "gaussian", "squared-exponential",
-                     "second-order-markov", "spherical", "matern")
-DISTRIBUTIONS = ("normal", "lognormal", "truncated-normal", "beta", "uniform", "triangular")
-SEARCH_KINDS = ("centre-lattice", "window", "fixed")
-RANDOM_PROPERTIES = ("c", "phi", "su", "su_ratio", "unit_weight")
+# Every list of names below comes from the registry that runs the names: a
+# name added there is accepted here, and nothing here is retyped.
+#: distributions that can make a property random (every form has a spread or bounds)
+DISTRIBUTIONS = tuple(n for n, forms in MARGINAL_FORMS.items() if all(f - {"mean"} for f in forms))
+#: interslice functions a case can name (a tabulated function needs a table a case file cannot give)
+CASE_INTERSLICE = tuple(n for n in INTERSLICE_NAMES if n != "tabulated")
+
+
+def acts_under(prop: str, has_undrained: bool, hypothesis: str) -> bool:
+    """Whether a random property acts under a drainage hypothesis.
+
+    Drained: c', φ'; undrained: su, su_ratio, and c', φ' of materials without
+    an undrained strength (they stay drained); a unit weight acts under both.
+    """
+    if prop == "unit_weight":
+        return True
+    if hypothesis == "drained":
+        return prop in ("c", "phi")
+    return prop in ("su", "su_ratio") or (prop in ("c", "phi") and not has_undrained)
 
 
 class CaseError(InputError):
@@ -143,6 +164,19 @@ def _number_or_table(v):
     return _number(lo=0)(v)
 
 
+def _tuples(width, what):
+    """A list of [a, b, ...] rows of ``width`` finite numbers (site data readings)."""
+    def check(v):
+        if not isinstance(v, list) or not v:
+            return f"must be a non-empty list of [{what}] rows"
+        for p in v:
+            if (not isinstance(p, list) or len(p) != width
+                    or any(isinstance(q, bool) or not isinstance(q, (int, float)) or not math.isfinite(q) for q in p)):
+                return f"must be a list of [{what}] rows of numbers; bad row {p!r}"
+        return None
+    return check
+
+
 @dataclass(frozen=True)
 class Key:
     """One key of a table: its checker, whether it is required, its default."""
@@ -223,10 +257,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "methods": Key(_string_list(METHOD_NAMES), default=["bishop", "spencer"]),
         "method": Key(_string(METHOD_NAMES), default="bishop", doc="method of the random runs"),
         "slices": Key(_integer(lo=5), default=30),
-        "interslice": Key(_string(("constant", "half-sine", "clipped-sine")), default="half-sine"),
+        "interslice": Key(_string(CASE_INTERSLICE), default="half-sine"),
     },
     "search": {
-        "kind": Key(_string(SEARCH_KINDS), default="centre-lattice"),
+        "kind": Key(_string(case_search_names()), default="centre-lattice"),
         "trials": Key(_integer(lo=10), default=1500, doc="number of trial surfaces in the bank"),
         "x_range": Key(_number_list(min_len=2), doc="[x_min, x_max] of circle centres or of the entry/exit region (m)"),
         "y_range": Key(_number_list(min_len=2), doc="[y_min, y_max] of circle centres (m)"),
@@ -235,18 +269,49 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "min_depth": Key(_number(lo=0), default=0.5, doc="reject surfaces shallower than this (m)"),
         "circle": Key(_table, doc="fixed circle {x, y, r} (m)"),
         "polyline": Key(_points(2), doc="fixed surface, [x, y] points (m)"),
+        "block": Key(lambda v: None if isinstance(v, list) else "must be an array of tables [[search.block]]",
+                     doc="sliding-block surfaces along a weak zone, added to the bank"),
+        "dynamic_programming": Key(_table, doc="non-circular surfaces by dynamic programming (Baker 1980), added to the bank"),
+    },
+    "search.block": {
+        "zone": Key(_string(), required=True, doc="zone or layer whose base the block slides on"),
+        "entry": Key(_number_list(min_len=2), required=True, doc="[x_from, x_to] of the ground where the active wedge enters (m)"),
+        "exit": Key(_number_list(min_len=2), required=True, doc="[x_from, x_to] of the ground where the passive wedge leaves (m)"),
+        "points": Key(_integer(lo=2), default=10, doc="points in each range (points² blocks)"),
+        "lift": Key(_number(lo=0, hi=1, hi_open=True), default=0.25, doc="base height above the zone's bottom, fraction of its thickness"),
+    },
+    "search.dynamic_programming": {
+        "columns": Key(_integer(lo=3), default=25, doc="columns of nodes across each start surface (vertices of the path)"),
+        "nodes": Key(_integer(lo=3), default=21, doc="nodes per column below the ground"),
+        "passes": Key(_integer(lo=1), default=3, doc="grids, each a narrower band about the previous path"),
+    },
+    "search.circle": {
+        "x": Key(_number(), required=True, doc="x of the centre (m)"),
+        "y": Key(_number(), required=True, doc="y of the centre (m)"),
+        "r": Key(_number(lo=0, lo_open=True), required=True, doc="radius (m)"),
+    },
+    "site_data": {
+        "property": Key(_string(), required=True, doc="\"material.property\" of a [[random]] entry"),
+        "x": Key(_number(), doc="position of a vertical profile (m); with readings"),
+        "readings": Key(_tuples(2, "elevation (m), value"), doc="profile readings at x"),
+        "points": Key(_tuples(3, "x (m), elevation (m), value"), doc="single measurements"),
+        "file": Key(_string(), doc="CSV beside the case, columns x,elevation,value"),
+        "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
+        "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
     },
     "random": {
         "material": Key(_string(), required=True),
-        "property": Key(_string(RANDOM_PROPERTIES), required=True),
+        "property": Key(_string(PROPS), required=True),
         "distribution": Key(_string(DISTRIBUTIONS), default="lognormal"),
         "mean": Key(_number(), doc="default: the material's value"),
-        "cov": Key(_number(lo=0, lo_open=True), required=True, doc="coefficient of variation (-)"),
-        "lower": Key(_number(), doc="lower bound (bounded distributions)"),
-        "upper": Key(_number(), doc="upper bound (bounded distributions)"),
+        "cov": Key(_number(lo=0, lo_open=True), doc="coefficient of variation (-); every distribution but "
+                   "triangular and a uniform given by its bounds"),
+        "lower": Key(_number(), doc="lower bound (truncated-normal, beta, uniform, triangular)"),
+        "upper": Key(_number(), doc="upper bound (truncated-normal, beta, uniform, triangular)"),
+        "mode": Key(_number(), doc="most likely value (triangular)"),
         "theta_h": Key(_number(lo=0, lo_open=True, allow_inf=True), required=True, doc="horizontal scale of fluctuation (m) or \"inf\""),
         "theta_v": Key(_number(lo=0, lo_open=True, allow_inf=True), required=True, doc="vertical scale of fluctuation (m) or \"inf\""),
-        "model": Key(_string(FIELD_MODEL_NAMES), default="exponential"),
+        "model": Key(_string(MODEL_NAMES), default="exponential"),
         "nu": Key(_number(lo=0, lo_open=True), default=1.5, doc="Matérn smoothness"),
         "angle": Key(_number(lo=-90, hi=90), default=0.0, doc="rotation of θh from +x, counter-clockwise (degrees)"),
     },
@@ -258,19 +323,22 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "realisations": Key(_integer(lo=1), default=1000),
         "seed": Key(_integer(lo=0), default=1),
         "cell": Key(_number(lo=0, lo_open=True), default=0.5, doc="random-field cell size (m)"),
-        "field_method": Key(_string(("fft", "cholesky", "kl", "spectral")), default="fft"),
-        "averaging": Key(_string(("base-average", "midpoint")), default="base-average"),
+        "field_method": Key(_string(generator_names()), default="fft"),
+        "averaging": Key(_string(tuple(AVERAGING)), default="base-average"),
         "jobs": Key(_integer(lo=1), default=1),
         "batch": Key(_integer(lo=1), default=100),
         "refine_below": Key(_number(lo=0, lo_open=True),
                             doc="refine the critical surface of realisations with a bank FS below this (-)"),
-        "refine_method": Key(_string(("spencer", "morgenstern-price", "janbu")), default="spencer",
+        "refine_method": Key(_string(POLYLINE_METHOD_NAMES), default="spencer",
                              doc="method of slices of the refined polylines"),
+        "refine_search": Key(_string(REFINE_SEARCHES),
+                             doc="per-realisation search below refine_below: the critical surface bent by Nelder-Mead, "
+                                 "or dynamic programming (Baker 1980) from the lowest surfaces of different families"),
     },
     "reliability": {
-        "methods": Key(_string_list(("monte-carlo", "latin-hypercube", "point-estimate", "fosm", "form", "subset")),
-                       default=["monte-carlo", "point-estimate", "form"]),
-        "samples": Key(_integer(lo=10), default=5000),
+        "methods": Key(_string_list(ESTIMATOR_NAMES), default=["monte-carlo", "point-estimate", "form"]),
+        "samples": Key(_integer(lo=10), default=5000,
+                       doc="Monte Carlo and Latin hypercube samples; subset simulation: samples per level"),
         "tornado_k": Key(_number(lo=0, lo_open=True), default=2.0, doc="tornado bars at mean ± k σ (common practice: k = 2)"),
         "research_surface": Key(_bool, default=False, doc="re-search the critical surface for each sample"),
     },
@@ -303,10 +371,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
 }
 
 #: Top-level entries that are arrays of tables.
-ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation")
+ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation", "site_data")
 #: Nested array tables (parent table, key).
 NESTED_ARRAYS = {("section", "zone"), ("section", "layer"), ("risk", "tolerability"), ("water", "piezometric"),
-                 ("risk", "hypothesis")}
+                 ("search", "block"), ("risk", "hypothesis")}
 
 
 # ------------------------------------------------------------- locating
@@ -359,10 +427,17 @@ def _check_table(data: dict, schema_name: str, path: str, table: str, index: int
     """Check one table against SCHEMA[schema_name]; return it with defaults filled."""
     schema = SCHEMA[schema_name]
     out: dict[str, Any] = {}
+    missing = [k for k, spec in schema.items() if spec.required and k not in data]
+    meant: dict[str, str] = {}  # unknown key -> the missing required key it stands for (one message, not two)
     for key, value in data.items():
         if key not in schema:
             close = difflib.get_close_matches(key, list(schema), n=1, cutoff=0.75)
+            if not close:
+                close = [k for k in missing if key.lower() in schema[k].doc.lower().split()]
             hint = f"did you mean {close[0]!r}?" if close else f"known keys: {', '.join(schema)}"
+            if close and close[0] in missing:
+                meant[close[0]] = key
+                hint += f" ({close[0]} is required: {schema[close[0]].doc})" if schema[close[0]].doc else ""
             problems.append(f"{where(table, index, key)}{path}.{key}: unknown key; {hint}")
             continue
         msg = schema[key].check(value)
@@ -374,7 +449,8 @@ def _check_table(data: dict, schema_name: str, path: str, table: str, index: int
         if key in data:
             continue
         if spec.required:
-            problems.append(f"{where(table, index, None)}{path}.{key} is missing" + (f": {spec.doc}" if spec.doc else ""))
+            if key not in meant:
+                problems.append(f"{where(table, index, None)}{path}.{key} is missing" + (f": {spec.doc}" if spec.doc else ""))
         elif spec.default is not None:
             out[key] = spec.default
     return out
@@ -446,24 +522,37 @@ def parse_case(text: str, path: str = "<case>") -> dict:
             if isinstance(item, dict) else item
             for i, item in enumerate(items)
         ]
+    if isinstance(case.get("search", {}).get("circle"), dict):
+        case["search"]["circle"] = _check_table(case["search"]["circle"], "search.circle", "search.circle", "search",
+                                                None, where, problems)
     for i, mat in enumerate(case.get("material", [])):
         if isinstance(mat.get("su"), dict):
             mat["su"] = _check_table(mat["su"], "material.su", f"material[{i}].su", "material", i, where, problems)
-    for name in ("case", "analysis", "simulation", "seismic"):
+    if isinstance(case.get("search", {}).get("dynamic_programming"), dict):
+        case["search"]["dynamic_programming"] = _check_table(
+            case["search"]["dynamic_programming"], "search.dynamic_programming", "search.dynamic_programming",
+            "search.dynamic_programming", None, where, problems)
+    for name in ("case", "analysis", "simulation", "seismic", "search", "reliability"):
         if name not in case:
             case[name] = _check_table({}, name, name, name, None, where, problems)
     if "section" not in raw:
         problems.append("[section] is missing: give at least the ground line and the zones")
     if not case.get("material"):
         problems.append("no [[material]] is defined: every zone needs one")
-    _check_references(case, where, problems)
+    if not problems:  # cross-table checks only on well-formed tables: one problem, one message
+        _check_references(case, raw, where, problems)
     if problems:
         raise CaseError(path, problems)
     return case
 
 
-def _check_references(case: dict, where, problems: list[str]) -> None:
+def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None:
     """Cross-table checks: names, references, combinations."""
+
+    def raw_items(table, i):
+        items = raw.get(table, [])
+        return items[i] if isinstance(items, list) and i < len(items) and isinstance(items[i], dict) else {}
+
     materials: dict[str, dict] = {}
     for i, mat in enumerate(case.get("material", [])):
         name = mat.get("name")
@@ -517,12 +606,21 @@ def _check_references(case: dict, where, problems: list[str]) -> None:
                             f"use one of: {', '.join(sorted(map(str, zone_names)))}")
     if "phreatic" in water and "ru" in water:
         problems.append(f"{where('water', None, 'ru')}water: give either phreatic or ru, not both")
-    props = set()
+    hyps_all = case.get("analysis", {}).get("hypotheses", [])
+    used_materials = {z.get("material") for z in list(zones) + list(layers) if isinstance(z, dict)}
+    props: dict[str, tuple] = {}  # "material.property" -> (property, material has su)
     for i, r in enumerate(case.get("random", [])):
         mat = materials.get(r.get("material"))
         if r.get("material") is not None and mat is None:
             problems.append(f"{where('random', i, 'material')}random[{i}].material {r.get('material')!r} matches no [[material]]; "
                             f"use one of: {', '.join(map(str, materials)) or 'none'}")
+            continue
+        if mat is not None and r.get("material") not in used_materials and used_materials <= set(materials):
+            problems.append(f"{where('random', i, 'material')}random[{i}].material {r.get('material')!r} is used by no "
+                            f"zone of the section, so making it random changes nothing; remove the entry or "
+                            f"give the material to a zone")
+            if r.get("property") is not None:  # still a random property: no follow-on message about references
+                props[f"{r['material']}.{r['property']}"] = (r["property"], mat.get("su") is not None)
             continue
         p = r.get("property")
         if mat is not None and p is not None:
@@ -530,48 +628,71 @@ def _check_references(case: dict, where, problems: list[str]) -> None:
             ok = {
                 "c": "c" in mat, "phi": "phi" in mat, "unit_weight": True,
                 "su": su is not None and (not isinstance(su, dict) or su.get("law") in ("constant", "depth", "elevation")),
-                "su_gradient": isinstance(su, dict) and su.get("law") in ("depth", "elevation"),
                 "su_ratio": isinstance(su, dict) and su.get("law") == "ratio",
             }[p]
             if not ok:
                 problems.append(f"{where('random', i, 'property')}random[{i}].property {p!r}: material {r['material']!r} has no such parameter to vary")
+            elif not any(acts_under(p, su is not None, h) for h in hyps_all):
+                problems.append(f"{where('random', i, 'property')}random[{i}].property {p!r} of {r['material']!r} acts "
+                                f"under none of analysis.hypotheses ({', '.join(hyps_all)}); remove the entry or add "
+                                "the hypothesis it acts under")
             if p == "unit_weight" and not all(_is_inf(r.get(t)) for t in ("theta_h", "theta_v")):
                 problems.append(f"{where('random', i, 'theta_h')}random[{i}]: a unit weight is random only as one "
                                 "variable per zone; give theta_h = \"inf\" and theta_v = \"inf\"")
             key = f"{r['material']}.{p}"
             if key in props:
                 problems.append(f"{where('random', i, None)}random[{i}]: {key} is made random twice")
-            props.add(key)
+            props[key] = (p, su is not None)
         dist = r.get("distribution")
-        if dist in ("beta", "uniform", "triangular"):
-            for b in ("lower", "upper"):
-                if b not in r:
-                    problems.append(f"{where('random', i, None)}random[{i}].{b} is missing: distribution {dist!r} needs lower and upper bounds")
+        given = {k for k in ("mean", "lower", "upper", "mode") if k in r} | ({"spread"} if "cov" in r else set())
+        if dist is not None and marginal_form(dist, given, implied={"mean"}) is None:
+            forms = " or ".join(", ".join(sorted("cov" if k == "spread" else k for k in f)) for f in MARGINAL_FORMS[dist])
+            stated = ", ".join(sorted("cov" if k == "spread" else k for k in given)) or "nothing"
+            problems.append(f"{where('random', i, 'distribution')}random[{i}].distribution {dist!r} is stated by "
+                            f"{forms} (mean defaults to the material's value); got {stated}: add the missing "
+                            "keys and remove the others")
         if "lower" in r and "upper" in r and r["lower"] >= r["upper"]:
             problems.append(f"{where('random', i, 'lower')}random[{i}]: lower ({r['lower']}) must be below upper ({r['upper']})")
+        if "nu" in raw_items("random", i) and r.get("model") != "matern":
+            problems.append(f"{where('random', i, 'nu')}random[{i}].nu is read only by model = \"matern\" "
+                            f"(model here: {r.get('model')!r}); remove nu or choose the matern model")
+        if ("angle" in raw_items("random", i) and r.get("angle") and not _is_inf(r.get("theta_h"))
+                and r.get("theta_h") == r.get("theta_v")):
+            problems.append(f"{where('random', i, 'angle')}random[{i}].angle turns nothing: theta_h = theta_v makes "
+                            "the field isotropic; remove angle or give different theta_h and theta_v")
+    pairs: dict[frozenset, int] = {}
     for i, cc in enumerate(case.get("cross_correlation", [])):
         between = cc.get("between", [])
         if len(between) != 2:
             problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}].between must name exactly two random properties")
             continue
-        for b in between:
-            if b not in props:
-                problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}].between: {b!r} is not a random property; "
-                                f"use \"material.property\" of a [[random]] entry (defined: {', '.join(sorted(props)) or 'none'})")
-    search = case.get("search", {})
-    if search.get("kind") == "fixed" and "circle" not in search and "polyline" not in search:
-        problems.append(f"{where('search', None, 'kind')}search.kind = \"fixed\" needs search.circle {{x, y, r}} or search.polyline")
-    if "circle" in search:
-        c = search["circle"]
-        for k in ("x", "y", "r"):
-            if not isinstance(c.get(k), (int, float)) or isinstance(c.get(k), bool):
-                problems.append(f"{where('search', None, 'circle')}search.circle.{k} must be a number (m)")
-        if isinstance(c.get("r"), (int, float)) and c.get("r", 0) <= 0:
-            problems.append(f"{where('search', None, 'circle')}search.circle.r must be > 0 (m)")
-    for key in ("x_range", "y_range", "entry", "exit"):
-        v = search.get(key)
-        if v is not None and (len(v) != 2 or v[0] >= v[1]):
-            problems.append(f"{where('search', None, key)}search.{key} must be [low, high] with low < high")
+        bad = [b for b in between if b not in props]
+        for b in bad:
+            problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}].between: {b!r} is not a random property; "
+                            f"use \"material.property\" of a [[random]] entry (defined: {', '.join(sorted(props)) or 'none'})")
+        if bad:
+            continue
+        pair = frozenset(between)
+        if len(pair) == 1:
+            problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}].between names "
+                            f"{between[0]!r} twice; name two different random properties")
+            continue
+        if pair in pairs:
+            problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}]: the pair "
+                            f"{' and '.join(between)} is already correlated by cross_correlation[{pairs[pair]}]; "
+                            "give each pair once")
+            continue
+        pairs[pair] = i
+        (pa, sa), (pb, sb) = props[between[0]], props[between[1]]
+        if not any(acts_under(pa, sa, h) and acts_under(pb, sb, h) for h in hyps_all):
+            problems.append(f"{where('cross_correlation', i, 'between')}cross_correlation[{i}]: {between[0]} and "
+                            f"{between[1]} never act under the same hypothesis of analysis.hypotheses "
+                            f"({', '.join(hyps_all)}), so their correlation changes nothing; remove it")
+    _check_search(case, raw, where, problems)
+    _check_search_families(case, case.get("search", {}), zone_names, where, problems)
+    _check_geometry(case, where, problems)
+    _check_conditional_keys(case, raw, where, problems)
+    _check_site_data_refs(case, props, where, problems)
     risk = case.get("risk")
     if risk is not None and not ({"annual_exceedance", "annual_pf", "hypothesis"} & set(risk)):
         problems.append(f"{where('risk', None, None)}risk needs [[risk.hypothesis]] entries (each hypothesis's annual "
@@ -595,6 +716,192 @@ def _check_risk_hypotheses(risk, hyps, where, problems) -> None:
         if name in seen:
             problems.append(f"{where('risk.hypothesis', i, 'name')}risk.hypothesis[{i}].name {name!r} is given twice")
         seen.add(name)
+
+
+def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
+    """[[site_data]]: a random property, one location form, one error form."""
+    for i, d in enumerate(case.get("site_data", [])):
+        p = d.get("property")
+        if p is not None and p not in props:
+            problems.append(f"{where('site_data', i, 'property')}site_data[{i}].property {p!r} is not a random "
+                            f"property; use \"material.property\" of a [[random]] entry (defined: "
+                            f"{', '.join(sorted(props)) or 'none'})")
+        forms = [k for k in ("readings", "points", "file") if k in d]
+        if len(forms) != 1:
+            problems.append(f"{where('site_data', i, None)}site_data[{i}]: give exactly one of readings (with x), "
+                            f"points or file{'; found ' + ', '.join(forms) if forms else ''}")
+        if ("x" in d) != ("readings" in d):
+            problems.append(f"{where('site_data', i, 'x')}site_data[{i}]: x (m) goes with readings and only with "
+                            "them; a profile is x plus [elevation, value] readings")
+        if "error_sd" in d and "error_cov" in d:
+            problems.append(f"{where('site_data', i, 'error_cov')}site_data[{i}]: give error_sd or error_cov, "
+                            "not both")
+def _check_search(case: dict, raw: dict, where, problems: list[str]) -> None:
+    """The [search] table: the keys its kind reads (registry), the fixed surface, the ranges."""
+    search = case.get("search", {})
+    kind = search.get("kind")
+    if kind not in SEARCHES:
+        return
+    # block and dynamic_programming add surface families to the bank of any kind
+    reads = set(SEARCHES[kind].keys) | {"kind", "min_depth", "block", "dynamic_programming"}
+    for key in raw.get("search", {}) if isinstance(raw.get("search"), dict) else ():
+        if key in SCHEMA["search"] and key not in reads:
+            problems.append(f"{where('search', None, key)}search.{key} is not read by search.kind = {kind!r} "
+                            f"(it reads {', '.join(sorted(reads))}); remove it or choose the kind that reads it")
+    if kind == "fixed":
+        if ("circle" in search) == ("polyline" in search):
+            problems.append(f"{where('search', None, 'kind')}search.kind = \"fixed\" needs one surface: "
+                            "search.circle {x, y, r} or search.polyline, not "
+                            + ("both" if "circle" in search else "neither"))
+        if "polyline" in search:
+            xs = [p[0] for p in search["polyline"]]
+            if any(b <= a for a, b in zip(xs, xs[1:])):
+                problems.append(f"{where('search', None, 'polyline')}search.polyline: x must increase strictly "
+                                "from left to right")
+    for key in ("x_range", "y_range", "entry", "exit"):
+        v = search.get(key)
+        if v is not None and (len(v) != 2 or v[0] >= v[1]):
+            problems.append(f"{where('search', None, key)}search.{key} must be [low, high] with low < high")
+    for key in ("entry", "exit"):
+        if kind == "window" and key not in search:
+            problems.append(f"{where('search', None, 'kind')}search.{key} is missing: search.kind = \"window\" "
+                            "needs entry = [x_from, x_to] and exit = [x_from, x_to] (m)")
+    ground = case.get("section", {}).get("ground")
+    if ground and kind == "window":
+        lo, hi = ground[0][0], ground[-1][0]
+        for key in ("entry", "exit"):
+            v = search.get(key)
+            if v is not None and len(v) == 2 and (v[0] < lo or v[1] > hi):
+                problems.append(f"{where('search', None, key)}search.{key} {v} reaches outside the ground line "
+                                f"(x from {lo:g} to {hi:g} m); give a window within it")
+
+
+def _line_y(line, xs):
+    import numpy as np
+
+    p = np.asarray(line, float)
+    return np.interp(xs, p[:, 0], p[:, 1])
+
+
+def _check_geometry(case: dict, where, problems: list[str]) -> None:
+    """Layer bottoms that cross or leave the section; a phreatic line outside the section."""
+    import numpy as np
+
+    section = case.get("section", {})
+    ground = section.get("ground")
+    if not ground or any(b[0] <= a[0] for a, b in zip(ground, ground[1:])):
+        return
+    g = np.asarray(ground, float)
+    base = section.get("bottom")
+    layers = [lay for lay in section.get("layer", []) or [] if isinstance(lay, dict)]
+    xs = np.unique(np.concatenate([g[:, 0]] + [np.asarray(lay["bottom"], float)[:, 0] for lay in layers
+                                                if isinstance(lay.get("bottom"), list)]))
+    xs = xs[(xs >= g[0, 0]) & (xs <= g[-1, 0])]
+    xs = np.unique(np.concatenate([xs, np.linspace(g[0, 0], g[-1, 0], 401)]))
+    gy = _line_y(g, xs)
+    prev = None
+    for i, lay in enumerate(layers):
+        b = lay.get("bottom")
+        if b is None:
+            continue
+        if isinstance(b, list) and any(q[0] <= p[0] for p, q in zip(b, b[1:])):
+            problems.append(f"{where('section.layer', i, 'bottom')}section.layer[{i}].bottom: x must increase "
+                            "strictly from left to right")
+            return
+        y = np.full(xs.shape, float(b)) if not isinstance(b, list) else _line_y(b, xs)
+        if base is not None and np.any(y < float(base) - 1e-9):
+            problems.append(f"{where('section.layer', i, 'bottom')}section.layer[{i}].bottom goes below "
+                            f"section.bottom ({base:g} m), where no layer can be; raise it or lower section.bottom")
+        if prev is not None:
+            below_ground = y < gy - 1e-9
+            up = below_ground & (y > prev[1] + 1e-9)
+            if np.any(up):
+                x0 = float(xs[np.argmax(up)])
+                problems.append(f"{where('section.layer', i, 'bottom')}section.layer[{i}].bottom rises above "
+                                f"section.layer[{prev[0]}].bottom (the layer above it) near x = {x0:g} m: layer "
+                                "bottoms must not cross; give them from the top down")
+        prev = (i, y)
+    ph = case.get("water", {}).get("phreatic")
+    if ph:
+        p = np.asarray(ph, float)
+        if p[-1, 0] < g[0, 0] or p[0, 0] > g[-1, 0]:
+            problems.append(f"{where('water', None, 'phreatic')}water.phreatic lies wholly outside the section "
+                            f"(x from {p[0, 0]:g} to {p[-1, 0]:g} m; the ground runs from {g[0, 0]:g} to "
+                            f"{g[-1, 0]:g} m); give it over the section")
+        elif any(b[0] <= a[0] for a, b in zip(ph, ph[1:])):
+            problems.append(f"{where('water', None, 'phreatic')}water.phreatic: x must increase strictly from "
+                            "left to right")
+        else:
+            lowest = float(base) if base is not None else None
+            if lowest is not None and np.all(_line_y(p, xs) <= lowest):
+                problems.append(f"{where('water', None, 'phreatic')}water.phreatic lies wholly at or below "
+                                f"section.bottom ({lowest:g} m), so it puts no water in the section; raise it or "
+                                "remove it")
+
+
+def _check_conditional_keys(case: dict, raw: dict, where, problems: list[str]) -> None:
+    """Keys given where nothing reads them (they would be silently ignored)."""
+    def given(table, key):
+        t = raw.get(table)
+        return isinstance(t, dict) and key in t
+
+    ana = case.get("analysis", {})
+    if given("analysis", "interslice") and "morgenstern-price" not in [ana.get("method"), *ana.get("methods", [])]:
+        problems.append(f"{where('analysis', None, 'interslice')}analysis.interslice is read only by "
+                        "morgenstern-price, which is not among analysis.method/methods; remove it or add the method")
+    sim = case.get("simulation", {})
+    if given("simulation", "refine_method") and "refine_below" not in sim:
+        problems.append(f"{where('simulation', None, 'refine_method')}simulation.refine_method is read only with "
+                        "simulation.refine_below; give refine_below (e.g. 1.2) or remove refine_method")
+    tc = case.get("tension_crack")
+    if tc is not None and given("tension_crack", "fill") and not tc.get("water_filled"):
+        problems.append(f"{where('tension_crack', None, 'fill')}tension_crack.fill is read only when "
+                        "water_filled = true; set it or remove fill")
+    water = case.get("water", {})
+    if given("water", "inclination_correction") and "phreatic" not in water:
+        problems.append(f"{where('water', None, 'inclination_correction')}water.inclination_correction applies to "
+                        "phreatic pressures only, and there is no water.phreatic; remove it")
+    if given("water", "unit_weight") and "phreatic" not in water and not water.get("piezometric"):
+        problems.append(f"{where('water', None, 'unit_weight')}water.unit_weight is read only with water.phreatic "
+                        "or [[water.piezometric]] lines (ru needs no water unit weight); remove it")
+    risk = case.get("risk")
+    if risk is not None and "annual_pf" in risk and "annual_exceedance" in risk:
+        problems.append(f"{where('risk', None, 'annual_pf')}risk: give annual_pf or annual_exceedance, not both "
+                        "(annual_pf would override the computed pf)")
+
+
+def _check_search_families(case: dict, search: dict, zone_names: set, where, problems: list[str]) -> None:
+    """Block and dynamic-programming searches: zones, ranges on the ground, a method for non-circular surfaces."""
+    from ..search_families import POLYLINE_METHODS
+
+    ground = case.get("section", {}).get("ground") or []
+    x_lo, x_hi = (ground[0][0], ground[-1][0]) if len(ground) >= 2 else (-math.inf, math.inf)
+    blocks = search.get("block", []) or []
+    for i, b in enumerate(blocks):
+        if not isinstance(b, dict):
+            continue
+        key = f"search.block[{i}]"
+        if b.get("zone") is not None and zone_names and b["zone"] not in zone_names:
+            problems.append(f"{where('search.block', i, 'zone')}{key}.zone {b['zone']!r} is not a zone or layer of the "
+                            f"section; use one of: {', '.join(sorted(map(str, zone_names)))}")
+        for r in ("entry", "exit"):
+            v = b.get(r)
+            if v is None:
+                continue
+            if len(v) != 2 or v[0] >= v[1]:
+                problems.append(f"{where('search.block', i, r)}{key}.{r} must be [x_from, x_to] with x_from < x_to (m)")
+            elif v[1] <= x_lo or v[0] >= x_hi:
+                problems.append(f"{where('search.block', i, r)}{key}.{r} {v!r} does not intersect the ground line "
+                                f"(x = {x_lo:g} to {x_hi:g} m); give a range on it")
+    sim = case.get("simulation", {})
+    if "refine_search" in sim and "refine_below" not in sim:
+        problems.append(f"{where('simulation', None, 'refine_search')}simulation.refine_search does nothing without "
+                        "simulation.refine_below (the bank FS below which realisations are searched); give both")
+    method = case.get("analysis", {}).get("method")
+    if (blocks or "dynamic_programming" in search) and method is not None and method not in POLYLINE_METHODS:
+        problems.append(f"{where('analysis', None, 'method')}analysis.method {method!r} takes moments about a point, "
+                        "which does not judge block or non-circular surfaces; with [[search.block]] or "
+                        f"[search.dynamic_programming] use one of {', '.join(POLYLINE_METHODS)}")
 
 
 def read_case(path: str | Path) -> dict:

@@ -379,6 +379,7 @@ class SpatialResult:
     single: SimulationRun
     quick: QuickEstimate
     extra: dict = field(default_factory=dict)
+    site_data: Any = None  # SiteDataEffect when the case has [[site_data]] (pf with and without them)
 
     @property
     def variance_reduction_factor(self) -> float | None:
@@ -402,6 +403,12 @@ class SpatialResult:
                                      "spatial simulation, fixed deterministic surface")
         out += self.single.estimates("θ → ∞ simulation (single variables), re-searched", None)
         out += [e for _, e in self.extra.values() if e is not None]
+        sd = self.site_data
+        if sd is not None and sd.pf_unconditional is not None:
+            path = ("spatial_simulation", self.hypothesis, "site_data")
+            out.append(Estimate("spatial simulation without the site data (same seed)", path,
+                                {"pf": sd.pf_unconditional, "pf_interval": list(sd.interval_unconditional)},
+                                {"pf": "pf_unconditional", "pf_interval": "pf_interval_95_unconditional"}))
         q = self.quick
         if q.estimate is not None:
             out.append(Estimate("quick estimate: σ × √γ on the fixed surface", q.path,

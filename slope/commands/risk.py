@@ -19,7 +19,7 @@ from __future__ import annotations
 
 from .results import RiskPoint, RunResults
 
-__all__ = ["risk_points"]
+__all__ = ["risk_points", "chart_points"]
 
 
 def _condition(risk: dict, hyp: str):
@@ -31,36 +31,56 @@ def _condition(risk: dict, hyp: str):
     return None, ""
 
 
-def risk_points(case, res: RunResults) -> dict | None:
-    """``{"consequence", "consequence_label", "points": [RiskPoint], "tolerability", "given", "notes"}``.
+def chart_points(case, estimates) -> dict | None:
+    """Risk-chart points from pf estimates given condition by condition.
 
-    None when the case has no ``[risk]`` table.
+    Parameters
+    ----------
+    estimates : sequence of (hypothesis, estimate label, key path, pf, (low, high) or None)
+        pf given each hypothesis's condition, with where it is found in results.json.
+
+    Returns
+    -------
+    dict or None
+        ``{"consequence", "consequence_label", "points": [RiskPoint], "tolerability", "given", "notes"}``;
+        None when the case has no ``[risk]`` table.
     """
     risk = case.data.get("risk")
     if risk is None:
         return None
     cons = float(risk["consequence"])
     points, notes = [], []
-    for hyp in res.deterministic:
+    for hyp in dict.fromkeys(e[0] for e in estimates):
         p_cond, condition = _condition(risk, hyp)
         if p_cond is None:
             notes.append(f"{hyp}: no annual probability of its condition given ([[risk.hypothesis]]), not charted")
             continue
-        sp = res.spatial.get(hyp)
-        if sp is not None:
-            c = sp.spatial.searched
-            points.append(RiskPoint(hyp, "spatial simulation", sp.spatial.path + ("critical_surface_searched", "pf"),
-                                    float(c.pf), tuple(map(float, c.interval)), p_cond, condition, cons))
-        sv = res.single_variable.get(hyp)
-        for m in ("monte-carlo", "latin-hypercube"):
-            b = (sv.blocks if sv else {}).get(m)
-            if b is not None and b.get("pf") is not None:
-                label = "single random variables (" + ("Monte Carlo" if m == "monte-carlo" else "Latin hypercube") + ")"
-                points.append(RiskPoint(hyp, label, sv.path + (m, "pf"), float(b["pf"]),
-                                        tuple(map(float, b["pf_interval_95"])), p_cond, condition, cons))
-                break
+        for h, label, path, pf, iv in estimates:
+            if h == hyp and pf is not None:
+                points.append(RiskPoint(hyp, label, tuple(path), float(pf),
+                                        None if iv is None else tuple(map(float, iv)), p_cond, condition, cons))
     lines = [{"label": t["label"], "source": t["source"], "points": [list(map(float, p)) for p in t["points"]]}
              for t in risk.get("tolerability", []) or []]
     given = float(risk["annual_pf"]) if "annual_pf" in risk else None
     return {"consequence": cons, "consequence_label": risk.get("consequence_label", "consequence"),
             "points": points, "tolerability": lines, "given": given, "notes": notes}
+
+
+def risk_points(case, res: RunResults) -> dict | None:
+    """The risk chart of a run: the spatial estimate and the single-variable sampling estimate of every
+    hypothesis (see :func:`chart_points`)."""
+    estimates = []
+    for hyp in res.deterministic:
+        sp = res.spatial.get(hyp)
+        if sp is not None:
+            c = sp.spatial.searched
+            estimates.append((hyp, "spatial simulation", sp.spatial.path + ("critical_surface_searched", "pf"),
+                              c.pf, c.interval))
+        sv = res.single_variable.get(hyp)
+        for m in ("monte-carlo", "latin-hypercube"):
+            b = (sv.blocks if sv else {}).get(m)
+            if b is not None and b.get("pf") is not None:
+                label = "single random variables (" + ("Monte Carlo" if m == "monte-carlo" else "Latin hypercube") + ")"
+                estimates.append((hyp, label, sv.path + (m, "pf"), b["pf"], b["pf_interval_95"]))
+                break
+    return chart_points(case, estimates)

@@ -20,10 +20,7 @@ import datetime as _dt
 import hashlib
 import json
 import math
-import os
-import shutil
 import sys
-import tempfile
 import time
 from pathlib import Path
 
@@ -137,7 +134,7 @@ def _quick(case, hyp, prob, *, n, n_jobs, progress) -> QuickEstimate:
     from ..simulate.studies import reduced_variance_problem
 
     seed, block = int(case.simulation["seed"]), int(case.simulation["batch"])
-    red, table = reduced_variance_problem(prob)
+    red, table = reduced_variance_problem(prob, fixed_only=True)  # only fs_fixed is read
     t0 = time.perf_counter()
     res = simulate(red, n, seed, batch=block, n_jobs=n_jobs, progress=progress.bar(f"{hyp} · quick σ√γ estimate"))
     wall = time.perf_counter() - t0
@@ -155,9 +152,23 @@ def _spatial(case, det, hyp, *, n, n_jobs, progress) -> SpatialResult | None:
         return None
     single = _run_one(case, det, hyp, "θ → ∞ simulation", "single_random_variable", (math.inf, math.inf),
                       n=n, n_jobs=n_jobs, progress=progress)
+    site = None
+    if spatial.problem.site_data:
+        from .site_effect import site_data_effect
+
+        from ..simulate import RefineSettings
+
+        est_c = estimate_pf(spatial.fs, valid=np.isfinite(spatial.fs))
+        site, _ = site_data_effect(spatial.problem, est_c, hyp, n=n, seed=spatial.seed,
+                                   batch=int(case.simulation["batch"]), n_jobs=n_jobs, quiet=progress.quiet,
+                                   refine=RefineSettings.from_case(case.simulation))
     spatial.shown = _shown(spatial.fs, spatial.critical_index)
     quick = _quick(case, hyp, spatial.problem, n=n, n_jobs=n_jobs, progress=progress)
-    return SpatialResult(hyp, spatial, single, quick)
+    out = SpatialResult(hyp, spatial, single, quick)
+    if site is not None:
+        out.site_data = site
+        out.extra["site_data"] = (site.to_dict(), None)
+    return out
 
 
 def _reliability_status(summ):
@@ -215,7 +226,17 @@ def _version() -> str:
         return "unknown (not installed)"
 
 
-def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True):
+def _counts(case, realisations, jobs):
+    """Realisations and jobs of a run (options checked, then the case checked for them)."""
+    from ..case.preflight import check_option, preflight
+
+    n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
+    n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
+    preflight(case, realisations=None if realisations is None else n)
+    return int(n), int(n_jobs)
+
+
+def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_ready=None):
     """Run every analysis of a case; nothing is written.
 
     Parameters
@@ -226,6 +247,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True):
         Override ``simulation.realisations`` and ``simulation.jobs``.
     quiet : bool
         No stage lines and no progress bars.
+    on_ready : callable, optional
+        ``on_ready(case, n_jobs)`` once the case and options are checked, before any computation
+        (``run_case`` checks its output folder and starts the worker pool there).
 
     Returns
     -------
@@ -238,8 +262,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True):
     progress.say(f"reading {case_path}")
     case = load_case(case_path)
     raw = Path(case_path).read_bytes()
-    n = int(realisations or case.simulation["realisations"])
-    n_jobs = int(jobs or case.simulation["jobs"])
+    n, n_jobs = _counts(case, realisations, jobs)
+    if on_ready is not None:
+        on_ready(case, n_jobs)
     hyps = case.analysis["hypotheses"]
     progress.say(f"deterministic search ({', '.join(hyps)})")
     det = deterministic(case)
@@ -261,7 +286,7 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True):
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png",)) -> dict:
+             figure_formats=("png",), overwrite=False) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -280,34 +305,57 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     figure_formats : sequence of str
         Files written per figure under ``figures/``, from :data:`FIGURE_FORMATS`:
         ``"png"`` (always, it is what the report embeds) and optionally ``"svg"``.
+    overwrite : bool
+        Allow an ``out_dir`` holding another slipfield command's output
+        (:class:`slope.commands.folders.OutputFolder`: only slipfield's own
+        files are ever replaced).
 
     Returns
     -------
     dict
         The content of ``results.json``.
     """
+    from .folders import OutputFolder
+
     t_start = time.perf_counter()
     formats = tuple(dict.fromkeys(("png", *figure_formats)))
     if set(formats) - set(FIGURE_FORMATS):
         raise InputError(f"figure formats: {sorted(set(formats) - set(FIGURE_FORMATS))} not supported; "
                          f"choose from {', '.join(FIGURE_FORMATS)} (comma separated, e.g. png,svg)")
-    case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet)
-    return write_run(case, res, out_dir, formats=formats, quiet=quiet, t_start=t_start)
+    folder = {}
+
+    def ready(case, n_jobs):
+        from ..simulate.driver import start_workers
+
+        folder["out"] = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
+        start_workers(n_jobs)  # the pool starts while the search runs
+
+    case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready)
+    return write_run(case, res, folder["out"], formats=formats, quiet=quiet, t_start=t_start)
 
 
-def write_run(case, res, out_dir, *, formats=("png",), quiet=True, t_start=None) -> dict:
-    """Write the figures, tables, ``report.html`` and ``results.json`` of analysed results into ``out_dir``.
+def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> dict:
+    """Write the figures, tables, ``report.html`` and ``results.json`` of analysed results.
 
-    Everything goes to a staging folder beside ``out_dir`` first and is moved
-    into place only when complete; returns the content of ``results.json``.
+    Parameters
+    ----------
+    out : path-like or OutputFolder
+        The output folder (checked here when given as a path). Everything goes
+        to a staging folder first and is moved into place only when complete.
+
+    Returns
+    -------
+    dict
+        The content of ``results.json``.
     """
     from ..report.build import write_run_report
+    from .folders import OutputFolder
 
     progress = _Progress(quiet)
     t_write = time.perf_counter()
-    out_dir = Path(out_dir)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
+    if not isinstance(out, OutputFolder):
+        out = OutputFolder(out, "run")
+    stage = out.stage()
     try:
         progress.say("figures, tables and report")
         write_run_report(stage, case, res, formats=formats)
@@ -318,15 +366,9 @@ def write_run(case, res, out_dir, *, formats=("png",), quiet=True, t_start=None)
         res.files = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
         doc = results_json(res)
         (stage / "results.json").write_text(json.dumps(doc, indent=2, allow_nan=False))
-        if out_dir.exists():
-            old = out_dir.with_name(f".{out_dir.name}.old-{os.getpid()}")
-            out_dir.rename(old)
-            stage.rename(out_dir)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            stage.rename(out_dir)
+        out.commit(stage)
     except BaseException:
-        shutil.rmtree(stage, ignore_errors=True)
+        out.discard(stage)
         raise
-    progress.say(f"done{'' if res.wall_time_s is None else f' in {res.wall_time_s} s'}: {out_dir}")
+    progress.say(f"done{'' if res.wall_time_s is None else f' in {res.wall_time_s} s'}: {out.path}")
     return doc

@@ -16,29 +16,129 @@ functions ``constant``, ``half-sine``, ``clipped-sine``, ``tabulated``).
 """
 from __future__ import annotations
 
+import importlib
+from dataclasses import dataclass
+from typing import Callable
+
 import numpy as np
 
 from slipfield.slope.errors import InputError
 from slipfield.slope.slices import SliceBank
 
-from .bishop import bishop
-from .gle import morgenstern_price
 from .interslice import INTERSLICE_NAMES, interslice_function
-from .janbu import janbu
-from .ordinary import ordinary
 from .result import FLAG_NAMES, INVALID_SURFACE, FSResult
-from .spencer import spencer
 from .terms import BankTerms, default_moment_point, prepare_bank
 
-__all__ = ["factor_of_safety", "prepare_bank", "FSResult", "BankTerms", "METHODS",
+
+def _kernel(module, name):
+    """The method ``name`` of ``module``, imported on its first call.
+
+    The compiled kernels import numba (a third of a second or more): reading
+    the registry's names (case schema, command line) must not pay it.
+    """
+    def call(*args, **kwargs):
+        return getattr(importlib.import_module(module, __name__), name)(*args, **kwargs)
+    call.__name__ = call.__qualname__ = name
+    return call
+
+
+# private names: importing a submodule (e.g. .bishop) sets the package attribute of its name
+_bishop = _kernel(".bishop", "bishop")
+_morgenstern_price = _kernel(".gle", "morgenstern_price")
+_janbu = _kernel(".janbu", "janbu")
+_ordinary_kernel = _kernel(".ordinary", "ordinary")
+_spencer = _kernel(".spencer", "spencer")
+
+__all__ = ["factor_of_safety", "prepare_bank", "FSResult", "BankTerms", "METHODS", "METHOD_NAMES",
+           "POLYLINE_METHOD_NAMES", "MethodOfSlices", "register_method", "method_spec",
            "INTERSLICE_NAMES", "FLAG_NAMES", "interslice_function",
            "default_moment_point"]
 
-METHODS = ("ordinary", "bishop", "janbu", "spencer", "morgenstern-price")
-_ALIASES = {"fellenius": "ordinary", "ordinary": "ordinary", "bishop": "bishop",
-            "janbu": "janbu", "spencer": "spencer", "morgenstern-price": "morgenstern-price",
-            "m-p": "morgenstern-price", "mp": "morgenstern-price", "gle": "morgenstern-price",
-            "morgenstern_price": "morgenstern-price"}
+
+@dataclass(frozen=True)
+class MethodOfSlices:
+    """One method of slices of the registry.
+
+    Attributes
+    ----------
+    name : str
+        The name users write (case files, the command line).
+    run : callable
+        ``run(terms, c, tan_phi, *, tol, max_iter, return_forces, interslice, **options)``
+        returning the kernel's dict (``fs``, ``converged``, ``flags``, ...).
+    options : tuple of str
+        Keyword options the method accepts beyond the common ones.
+    polylines : bool
+        Whether the method is suited to non-circular surfaces (force
+        equilibrium, or moment equilibrium not tied to a circle's centre).
+    aliases : tuple of str
+        Other names accepted by :func:`factor_of_safety`.
+    """
+
+    name: str
+    run: Callable
+    options: tuple = ()
+    polylines: bool = False
+    aliases: tuple = ()
+
+
+#: name -> MethodOfSlices; the case schema, the command line and the refinement read their lists here.
+METHODS: dict[str, MethodOfSlices] = {}
+_ALIASES: dict[str, str] = {}
+
+
+def register_method(spec: MethodOfSlices) -> MethodOfSlices:
+    """Add a method of slices to the registry (one line per method)."""
+    METHODS[spec.name] = spec
+    for a in (spec.name, *spec.aliases):
+        _ALIASES[a] = spec.name
+    return spec
+
+
+def _ordinary(terms, c, tp, *, tol, max_iter, return_forces, interslice):
+    return _ordinary_kernel(terms, c, tp, return_forces=return_forces)
+
+
+def _iterative(fn):
+    def run(terms, c, tp, *, tol, max_iter, return_forces, interslice, **opts):
+        return fn(terms, c, tp, tol=tol, max_iter=max_iter, return_forces=return_forces, **opts)
+    return run
+
+
+def _gle(terms, c, tp, *, tol, max_iter, return_forces, interslice, f_ends=(0.5, 0.5),
+         interslice_table=None, **opts):
+    f = interslice_function(terms.x_bound, interslice, f_ends=f_ends, table=interslice_table)
+    return _morgenstern_price(terms, c, tp, f, tol=tol, max_iter=max_iter, return_forces=return_forces, **opts)
+
+
+register_method(MethodOfSlices("ordinary", _ordinary, aliases=("fellenius",)))
+register_method(MethodOfSlices("bishop", _iterative(_bishop), options=("m_alpha_min",)))
+register_method(MethodOfSlices("janbu", _iterative(_janbu), options=("m_alpha_min", "correction"),
+                               polylines=True))
+register_method(MethodOfSlices("spencer", _iterative(_spencer), options=("F_start", "lam_start"),
+                               polylines=True))
+register_method(MethodOfSlices("morgenstern-price", _gle,
+                               options=("F_start", "lam_start", "f_ends", "interslice_table"),
+                               polylines=True, aliases=("m-p", "mp", "gle", "morgenstern_price")))
+
+#: Every method's name, in registry order.
+METHOD_NAMES = tuple(METHODS)
+#: Methods suited to non-circular (polyline) surfaces.
+POLYLINE_METHOD_NAMES = tuple(n for n, m in METHODS.items() if m.polylines)
+
+
+def method_spec(method) -> MethodOfSlices:
+    """The registry entry of a method name or alias (case-insensitive).
+
+    Raises
+    ------
+    InputError
+        An unknown name; the message lists the known ones.
+    """
+    key = _ALIASES.get(str(method).strip().lower())
+    if key is None:
+        raise InputError(f"method: unknown method {method!r}; choose one of " + ", ".join(METHODS))
+    return METHODS[key]
 
 
 def _strength(name, value, m, n):
@@ -112,10 +212,8 @@ def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant"
         spurious root),
         ``iterations``, ``lam`` (Spencer, M-P), ``f0`` (Janbu).
     """
-    key = _ALIASES.get(str(method).lower())
-    if key is None:
-        raise InputError(f"method: unknown method {method!r}; choose one of "
-                         + ", ".join(METHODS))
+    spec = method_spec(method)
+    key = spec.name
     if isinstance(bank, BankTerms):
         terms = bank
     elif isinstance(bank, SliceBank):
@@ -134,28 +232,12 @@ def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant"
     cc = np.broadcast_to(cc, (s, m, n))
     tp = np.broadcast_to(tp, (s, m, n))
 
-    allowed = {"ordinary": set(), "bishop": {"m_alpha_min"},
-               "janbu": {"m_alpha_min", "correction"},
-               "spencer": {"F_start", "lam_start"},
-               "morgenstern-price": {"F_start", "lam_start", "f_ends", "interslice_table"}}[key]
-    unknown = set(opts) - allowed
+    unknown = set(opts) - set(spec.options)
     if unknown:
         raise InputError(f"{', '.join(sorted(unknown))}: not an option of method {key!r}; "
-                         f"its options are {', '.join(sorted(allowed)) or 'none'}")
-    common = {"return_forces": return_forces}
-    if key == "ordinary":
-        out = ordinary(terms, cc, tp, **common)
-    elif key == "bishop":
-        out = bishop(terms, cc, tp, tol=tol, max_iter=max_iter, **common, **opts)
-    elif key == "janbu":
-        out = janbu(terms, cc, tp, tol=tol, max_iter=max_iter, **common, **opts)
-    elif key == "spencer":
-        out = spencer(terms, cc, tp, tol=tol, max_iter=max_iter, **common, **opts)
-    else:
-        f = interslice_function(terms.x_bound, interslice,
-                                f_ends=opts.pop("f_ends", (0.5, 0.5)),
-                                table=opts.pop("interslice_table", None))
-        out = morgenstern_price(terms, cc, tp, f, tol=tol, max_iter=max_iter, **common, **opts)
+                         f"its options are {', '.join(sorted(spec.options)) or 'none'}")
+    out = spec.run(terms, cc, tp, tol=tol, max_iter=max_iter, return_forces=return_forces,
+                   interslice=interslice, **opts)
 
     flags = out["flags"] | np.where(terms.valid, 0, INVALID_SURFACE)[None, :]
     fs = np.where(terms.valid[None, :], out["fs"], np.nan)

@@ -7,10 +7,14 @@ from pathlib import Path
 
 __all__ = ["atomic_write_bytes", "atomic_write_text"]
 
+
 # mkstemp creates files readable by the owner only; outputs are ordinary
 # files, so give them the permissions the user's umask asks for.
-_UMASK = os.umask(0o022)
-os.umask(_UMASK)
+def _umask() -> int:
+    """The process umask, read when a file is made (it may change after import)."""
+    m = os.umask(0o022)
+    os.umask(m)
+    return m
 
 
 def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
@@ -40,7 +44,7 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
-        os.chmod(tmp, 0o666 & ~_UMASK)
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, path)
     except BaseException:
         try:

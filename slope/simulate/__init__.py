@@ -5,9 +5,12 @@ averaging_report, theta_sweep, SimulationResult.
 """
 from .problem import RandomProblem, RandomProperty
 from .refinement import RefineSettings
-from .driver import SimulationResult, load_store, realise_fields, simulate, store_header
+from .driver import (SchedulerLost, SimulationResult, connect_scheduler, load_store, realise_fields, simulate,
+                     store_header)
+from .store import BlockStore, StoreRepairWarning
 from .studies import averaging_report, theta_sweep
 
 __all__ = ["RandomProperty", "RandomProblem", "simulate", "SimulationResult", "realise_fields",
-           "RefineSettings", "load_store", "store_header",
+           "RefineSettings", "load_store", "store_header", "BlockStore", "StoreRepairWarning",
+           "connect_scheduler", "SchedulerLost",
            "averaging_report", "theta_sweep"]

@@ -1,20 +1,20 @@
 """Monte Carlo over random fields: ``simulate`` and its result."""
 from __future__ import annotations
 
-import json
 import os
-from dataclasses import dataclass
+import warnings
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
-from .engine import batch_fs, stencil
+from .engine import batch_fs, prepare
 from .problem import RandomProblem
+from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
-__all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK"]
-
-BLOCK = 100  # realisations per on-disk block (fixed, independent of `batch`)
+__all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
+           "connect_scheduler", "SchedulerLost"]
 
 
 @dataclass
@@ -45,6 +45,20 @@ class SimulationResult:
         Realisations whose FS the refinement lowered.
     refine : dict or None
         The refinement settings.
+    flags : dict key -> ndarray of bool (n,)
+        Per realisation: ``nonconv``, ``inadm`` (the lowest-FS surface was
+        excluded and why), ``none`` (no surface qualified) and, with
+        refinement, ``refined``.
+    store_notices : list of str
+        Stored blocks that were unusable and recomputed (name and reason).
+    fs_circles : ndarray (n,) or None
+        For banks holding other families besides circles: the least clean
+        FS over the bank's circles alone (pf with circles only, common
+        random numbers with ``fs``).
+    refined_xy : ndarray (n, v, 2) or None
+        With the dynamic-programming search: vertices (section frame, m) of
+        each realisation's accepted surface where the search lowered its FS,
+        NaN-padded (NaN rows elsewhere).
     """
 
     fs: np.ndarray
@@ -59,10 +73,47 @@ class SimulationResult:
     fs_bank: np.ndarray | None = None
     n_refined: int = 0
     refine: dict | None = None
+    flags: dict | None = None
+    store_notices: list = field(default_factory=list)
+    fs_circles: np.ndarray | None = None
+    refined_xy: np.ndarray | None = None
 
     @property
     def n(self) -> int:
         return int(self.fs.size)
+
+    @property
+    def fs_circles_only(self) -> np.ndarray:
+        """Per-realisation FS with circles alone: the bank's circles, before any per-realisation search."""
+        if self.fs_circles is not None:
+            return self.fs_circles
+        return self.fs_bank if self.fs_bank is not None else self.fs
+
+    @property
+    def pf_circles(self) -> float:
+        return self._pf(self.fs_circles_only)[0]
+
+    @property
+    def pf_circles_interval(self):
+        return self._pf(self.fs_circles_only)[1]
+
+    def governing_families(self) -> np.ndarray:
+        """Family that governed each realisation (its critical surface's; the search's where it lowered FS)."""
+        from ..surfaces import family_of
+
+        if self.problem is None:
+            raise InputError("governing_families needs the result of simulate() (problem attached)")
+        fam = np.array([family_of(s) for s in self.problem.surfaces] + ["none"], dtype=object)
+        out = fam[np.where(self.critical_index >= 0, self.critical_index, len(fam) - 1)]
+        if self.refine is not None and self.refine.get("search") == "dynamic-programming":
+            refined = np.isfinite(self.fs) & np.isfinite(self.fs_bank) & (self.fs < self.fs_bank)
+            out = np.where(refined, "dynamic-programming (per realisation)", out)
+        return out
+
+    def family_counts(self) -> dict:
+        """{family: realisations it governed}, in order of first appearance."""
+        fams = self.governing_families()
+        return {str(f): int(np.sum(fams == f)) for f in dict.fromkeys(fams.tolist())}
 
     def _pf(self, fs):
         ok = np.isfinite(fs)
@@ -110,7 +161,19 @@ class SimulationResult:
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined,
+                **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
+
+    def _mechanism_dict(self) -> dict:
+        """pf with circles alone and the governing families: only when the bank or the search has other shapes."""
+        dp = self.refine is not None and self.refine.get("search") == "dynamic-programming"
+        if self.fs_circles is None and not dp:
+            return {}
+        lo, hi = self.pf_circles_interval
+        out = {"pf_circles_only": self.pf_circles, "pf_circles_only_interval_95_wilson": [lo, hi]}
+        if self.problem is not None:
+            out["governing_family"] = self.family_counts()
+        return out
 
     def failure_map(self, x_edges, y_edges):
         """Density of failed critical surfaces.
@@ -157,7 +220,9 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
-def _run_block(problem, seed, start, stop, refine=None):
+def _run_block(problem, seed, start, stop, refine=None, parent=None):
+    if parent is not None:
+        _watch_parent(parent)
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
     out = _reduce(problem, fs, conv, adm)
     if refine is not None:
@@ -166,12 +231,75 @@ def _run_block(problem, seed, start, stop, refine=None):
         fs_c = out["fs"]
         out["fs_bank"] = fs_c.copy()
         out["refined"] = np.zeros(fs_c.size, bool)
+        dp = getattr(refine, "search", "nelder-mead") == "dynamic-programming"
+        if dp:
+            from .mechanisms import max_vertices, mechanism_search
+
+            # one record per realisation (stores hold 1-D arrays): the accepted surface's vertices, NaN-padded
+            xy = np.zeros(fs_c.size, dtype=[("xy", float, (max_vertices(refine), 2))])
+            xy["xy"] = np.nan
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
-            f, _ = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+            if dp:
+                f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+            else:
+                f, surf = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
+                if dp and hasattr(surf, "points") and len(surf.points) <= xy["xy"].shape[1]:
+                    xy["xy"][r, :len(surf.points)] = surf.points
+        if dp:
+            out["refined_xy"] = xy
+    _circles_only(problem, fs, conv, adm, out)
     return out
+
+
+def _circles_only(problem, fs, conv, adm, out):
+    """pf with circles alone beside the free search: the least clean circle FS per realisation.
+
+    Only for banks that hold other families; a circles-only bank's is ``fs_bank``
+    (with a per-realisation search) or ``fs`` itself.
+    """
+    from .mechanisms import surface_families
+
+    circ = np.array([f == "circle" for f in surface_families(problem)])
+    if circ.all() or not circ.any():
+        return
+    good = np.where(conv & adm & np.isfinite(fs), fs, np.inf)[:, circ]
+    fc = good.min(axis=1)
+    out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
+
+
+_WATCHED = None
+
+
+def _watch_parent(parent: int, period: float = 0.5) -> None:
+    """In a pool worker: end this process when the run that started it is gone.
+
+    A killed run (``kill -9``) cannot stop its pool; the worker is then
+    re-parented, so a daemon thread polls ``os.getppid()`` and exits. The
+    worker also leaves Ctrl-C to its parent, which stops the pool in order.
+    """
+    global _WATCHED
+    if _WATCHED is not None or os.getpid() == parent:
+        return
+    import signal
+    import threading
+    import time
+
+    _WATCHED = parent
+    try:
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+    except ValueError:  # not the main thread of the worker: the parent still stops the pool
+        pass
+
+    def watch():
+        while True:
+            if os.getppid() != parent:
+                os._exit(3)
+            time.sleep(period)
+
+    threading.Thread(target=watch, name="slipfield-parent-watch", daemon=True).start()
 
 
 def _concat(parts):
@@ -179,23 +307,20 @@ def _concat(parts):
     return {k: np.concatenate([p[k] for p in parts]) for k in keys}
 
 
-def store_header(problem, seed, refine=None) -> dict:
-    """What a store of ``simulate(problem, …, seed, refine=…)`` records in ``header.json``.
+def store_header(problem, seed, refine=None, extra: dict | None = None) -> dict:
+    """Identity of a store of ``simulate(problem, …, seed, refine=…)``.
 
-    A run resumes only from a store with an equal header (same problem
-    fingerprint, seed, block size and refinement settings).
+    A run resumes only from a store with an equal identity (same problem
+    fingerprint, seed, refinement settings and whatever ``extra`` the
+    caller ties the run to, e.g. the case's fingerprint); see
+    :class:`slope.simulate.store.BlockStore`.
     """
-    head = {"format": "slipfield-rlem-store", "version": 1, "fingerprint": problem.fingerprint(),
-            "seed": int(seed), "block": BLOCK}
+    ident = {"problem": problem.fingerprint(), "seed": int(seed)}
     if refine is not None:
-        head["refine"] = _refine_settings(refine).describe()
-    return head
-
-
-def _block_paths(store):
-    import glob
-
-    return sorted(glob.glob(os.path.join(str(store), "block_*.npz")))
+        ident["refine"] = _refine_settings(refine).describe()
+    if extra:
+        ident.update(extra)
+    return ident
 
 
 def load_store(store) -> dict:
@@ -205,18 +330,12 @@ def load_store(store) -> dict:
     -------
     dict key -> ndarray (n_stored,)
         ``fs``, ``crit``, ``fs_fixed``, ``fixed_ok``, ``nonconv``, ``inadm``,
-        ``none`` (and ``fs_bank``, ``refined`` with refinement); empty dict
-        for an empty or missing store. Unreadable blocks raise InputError.
+        ``none`` (and ``fs_bank``, ``refined`` with refinement), from
+        realisation 0 up to the first missing or rejected block; empty dict
+        for an empty or missing store. Blocks are checked as on resume.
     """
-    parts = []
-    for f in _block_paths(store):
-        try:
-            with np.load(f) as d:
-                parts.append({k: d[k] for k in d.files if k not in ("start", "stop")})
-        except (OSError, ValueError) as exc:
-            raise InputError(f"store {store}: block {os.path.basename(f)} is unreadable ({exc}); "
-                             "start a new run in an empty folder") from None
-    return _concat(parts) if parts else {}
+    st = open_existing(store)
+    return {} if st is None else st.load()
 
 
 def _refine_settings(refine):
@@ -229,12 +348,6 @@ def _refine_settings(refine):
     return RefineSettings(below=refine)
 
 
-def _atomic_write_npz(path, arrays):
-    tmp = path + ".tmp.npz"
-    np.savez(tmp, **arrays)
-    os.replace(tmp, path)
-
-
 def _blocks(lo, hi, size):
     out, a = [], lo
     while a < hi:
@@ -242,6 +355,41 @@ def _blocks(lo, hi, size):
         out.append((a, b))
         a = b
     return out
+
+
+class SchedulerLost(InputError):
+    """The dask scheduler stopped answering during a run (its finished blocks are stored)."""
+
+
+def _scheduler_results(client, futs):
+    """Results of dask futures in order; a lost scheduler raises :class:`SchedulerLost`."""
+    from dask.distributed import TimeoutError as DaskTimeout
+
+    lost = (OSError, *_cancelled_errors())
+    for f in futs:
+        while True:
+            try:
+                yield f.result(timeout=1.0)
+                break
+            except (DaskTimeout, TimeoutError):
+                if client.status not in ("running", "connecting", "newly-created"):
+                    raise SchedulerLost("the dask scheduler stopped answering") from None
+            except lost as exc:
+                raise SchedulerLost(f"the dask scheduler stopped answering ({type(exc).__name__})") from None
+
+
+def _cancelled_errors():
+    import concurrent.futures
+
+    import asyncio
+
+    errs = [concurrent.futures.CancelledError, asyncio.CancelledError]
+    try:
+        from distributed.client import FutureCancelledError
+        errs.append(FutureCancelledError)
+    except ImportError:
+        pass
+    return tuple(e for e in errs if isinstance(e, type) and issubclass(e, BaseException))
 
 
 def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
@@ -255,10 +403,12 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
                              [a for a, _ in ranges], [b for _, b in ranges], [refine] * len(ranges),
                              pure=False)
         try:
-            for f in futs:
-                yield f.result()
+            yield from _scheduler_results(scheduler, futs)
         finally:
-            scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
+            try:
+                scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
+            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
+                pass
         return
     if n_jobs == 1 or len(ranges) == 1:
         for a, b in ranges:
@@ -266,26 +416,153 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
         return
     from joblib import Parallel, delayed
 
-    yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-        delayed(_run_block)(problem, seed, a, b, refine) for a, b in ranges)
+    # the problem (stencil, slice terms, generators: ~20 MB for the levee demo) goes to
+    # each worker once through a file, not pickled with every task
+    _await_workers()
+    path = _ship(problem)
+    parent = os.getpid()
+    try:
+        yield from Parallel(n_jobs=n_jobs, return_as="generator")(
+            delayed(_run_shipped_block)(path, seed, a, b, refine, parent) for a, b in ranges)
+    finally:
+        _unship(path)
 
 
-def _connect(address, timeout):
-    """dask.distributed Client for a scheduler address, failing fast with a clear message."""
+_WORKER_PROBLEM = {}  # in a worker process: the path of the problem it holds -> that problem
+_WARMING = None  # the thread starting the worker pool ahead of the first simulation
+
+
+def start_workers(n_jobs):
+    """Start the pool of ``n_jobs`` workers in the background and load the simulator in them.
+
+    A command calls this before its serial work (case, deterministic search)
+    so that the workers' start-up (interpreter, imports, compiled kernels
+    loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
+    run then uses the same pool (joblib's reusable executor). No effect for
+    ``n_jobs`` 1. Results do not depend on it.
+    """
+    global _WARMING
+    if int(n_jobs) < 2 or _WARMING is not None:
+        return
+    import threading
+
+    def warm():
+        try:
+            from joblib import Parallel, delayed
+
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)() for _ in range(int(n_jobs)))
+        except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
+            pass
+
+    _WARMING = threading.Thread(target=warm, name="slipfield-start-workers", daemon=True)
+    _WARMING.start()
+
+
+def _await_workers():
+    """Wait for :func:`start_workers` to finish, so that one pool serves the run."""
+    if _WARMING is not None:
+        _WARMING.join()
+
+
+def _warm_worker():
+    """In a worker: import the simulator and load its compiled kernels (tiny calls)."""
+    from slipfield.fields import marginals  # noqa: F401
+    from slipfield.fields.generators import circulant  # noqa: F401
+
+    from . import fused
+
+    fused.warm_up()
+    return os.getpid()
+
+
+def _ship(problem):
+    """Write the prepared problem to a private temporary file; its path identifies it."""
+    import pickle
+    import tempfile
+
+    folder = tempfile.mkdtemp(prefix="slipfield-problem-")
+    path = os.path.join(folder, "problem.pickle")
+    with open(path, "wb") as fh:
+        pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
+    return path
+
+
+def _unship(path):
+    """Remove the file :func:`_ship` wrote and its folder (nothing else)."""
+    try:
+        os.remove(path)
+        os.rmdir(os.path.dirname(path))
+    except OSError:
+        pass
+
+
+def _run_shipped_block(path, seed, start, stop, refine=None, parent=None):
+    """:func:`_run_block` in a worker, loading the shipped problem on the worker's first task."""
+    problem = _WORKER_PROBLEM.get(path)
+    if problem is None:
+        import pickle
+
+        with open(path, "rb") as fh:
+            problem = pickle.load(fh)
+        _WORKER_PROBLEM.clear()  # one problem held per worker: memory stays bounded over a run
+        _WORKER_PROBLEM[path] = problem
+        # the workers already use every core: compiled kernels run single-threaded in them
+        # (results do not depend on the thread count)
+        import numba
+
+        numba.set_num_threads(1)
+    return _run_block(problem, seed, start, stop, refine, parent)
+
+
+SCHEDULER_TIMEOUT_S = 5.0
+
+
+def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
+    """A dask.distributed Client for a scheduler address, or a clear InputError within ``timeout``.
+
+    Every step (TCP connect, handshake, registration) is bounded: the client
+    is built in a helper thread and abandoned when it has not answered in
+    time, so an address that accepts connections but never answers cannot
+    hang the run.
+
+    Parameters
+    ----------
+    address : str
+        ``tcp://host:port``.
+    timeout : float, s
+    option : str
+        Name of the option in messages (``--scheduler`` on the command line).
+    """
+    import threading
+
     try:
         from dask.distributed import Client
     except ImportError:
-        raise InputError("simulate: scheduler= needs dask.distributed (pip install distributed)") from None
-    try:
-        return Client(address, timeout=timeout, set_as_default=False)
-    except (OSError, TimeoutError) as exc:
-        raise InputError(f"simulate: scheduler {address!r} did not answer within {timeout:g} s ({exc}); "
-                         "check the address (tcp://host:port) and that the scheduler is running, or "
-                         "omit scheduler to run locally") from None
+        raise InputError(f"{option} needs dask.distributed; install it (pip install distributed) or omit "
+                         f"{option} to run locally") from None
+    box = {}
+
+    def connect():
+        try:
+            box["client"] = Client(address, timeout=timeout, set_as_default=False)
+        except BaseException as exc:  # noqa: BLE001 - reported to the caller below
+            box["error"] = exc
+
+    t = threading.Thread(target=connect, name="slipfield-scheduler-connect", daemon=True)
+    t.start()
+    t.join(timeout + 1.0)
+    if "client" in box:
+        return box["client"]
+    why = " ".join(str(box.get("error", "")).split()) or (type(box["error"]).__name__ if "error" in box
+                                                          else "no answer")
+    raise InputError(f"{option} {address}: no dask scheduler answered within {timeout:g} s ({why}); check the "
+                     f"address (tcp://host:port) and that the scheduler is running, or omit {option} to run "
+                     "locally")
 
 
 def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False, progress=False,
-             scheduler=None, scheduler_timeout=5.0, refine=None) -> SimulationResult:
+             scheduler=None, scheduler_timeout=SCHEDULER_TIMEOUT_S, refine=None,
+             store_identity=None) -> SimulationResult:
     """Random limit-equilibrium Monte Carlo.
 
     Parameters
@@ -300,9 +577,11 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     batch : int
         Realisations evaluated together (memory ~ batch × m × n floats).
     store : str, optional
-        Directory: one NPZ per block of 100 realisations plus ``header.json``.
+        Folder of a :class:`~slope.simulate.store.BlockStore`: one checked
+        NPZ per block of 100 realisations plus ``header.json``. Unusable
+        blocks are reported (:class:`StoreRepairWarning`) and recomputed.
     resume : bool
-        Continue a stored run up to n (the header must match).
+        Continue a stored run up to n (the store identity must match).
     progress : bool or str
         Show a tqdm bar; a text names what it counts (e.g. "undrained · spatial simulation").
     scheduler : dask.distributed.Client or str, optional
@@ -314,6 +593,14 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         Refine the critical surface of every realisation whose bank FS is
         below a threshold into a polyline with that realisation's fields
         (:mod:`slope.simulate.refinement`); a number is the threshold.
+    store_identity : dict, optional
+        More identity for the store (e.g. the case fingerprint): a resume
+        is refused when any of it differs.
+
+    Raises
+    ------
+    SchedulerLost
+        The scheduler stopped answering; finished blocks are in the store.
 
     Returns
     -------
@@ -333,39 +620,22 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     seed = int(seed)
     refine = _refine_settings(refine)
     if isinstance(scheduler, str):
-        client = _connect(scheduler, float(scheduler_timeout))
+        client = connect_scheduler(scheduler, float(scheduler_timeout), option="scheduler")
         try:
             return simulate(problem, n, seed, n_jobs=n_jobs, batch=batch, store=store, resume=resume,
-                            progress=progress, scheduler=client, refine=refine)
+                            progress=progress, scheduler=client, refine=refine, store_identity=store_identity)
         finally:
             client.close()
-    stencil(problem)  # geometry and base mapping built once, before pickling to workers
+    prepare(problem)  # geometry, base mapping and strength map built once, before pickling to workers
     parts = {}
+    st = None
     if store is not None:
-        os.makedirs(store, exist_ok=True)
-        hpath = os.path.join(store, "header.json")
-        head = store_header(problem, seed, refine)
-        if os.path.exists(hpath):
-            if not resume:
-                raise InputError(f"simulate: store {store!r} already holds a run; pass resume=True to "
-                                 "continue it or give an empty directory")
-            with open(hpath) as fh:
-                old = json.load(fh)
-            if old != head:
-                why = ("seed differs" if old.get("seed") != seed else
-                       "the refinement settings differ" if old.get("refine") != head.get("refine") else
-                       "the problem differs (hash mismatch)")
-                raise InputError(f"simulate: cannot resume from {store!r}: {why}; use a new store directory")
-        else:
-            with open(hpath + ".tmp", "w") as fh:
-                json.dump(head, fh)
-            os.replace(hpath + ".tmp", hpath)
-        for b in range(0, n, BLOCK):
-            p = os.path.join(store, f"block_{b // BLOCK:06d}.npz")
-            if os.path.exists(p):
-                with np.load(p) as d:
-                    parts[b] = {k: d[k] for k in d.files if k not in ("start", "stop")}
-                    parts[b]["_stop"] = int(d["stop"])
+        st = BlockStore(store, store_header(problem, seed, refine, store_identity), block=BLOCK)
+        st.open(resume=resume)
+        for b, (stop, arrays) in st.read_blocks(n).items():
+            parts[b] = dict(arrays, _stop=stop)
+        for msg in st.notices:
+            warnings.warn(msg, StoreRepairWarning, stacklevel=2)
     # work units: blocks of BLOCK (store) subdivided into batches
     todo = []
     for b in range(0, n, BLOCK):
@@ -385,6 +655,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                    mininterval=0.5)
     plan = [(b, lo, hi, _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]) for b, lo, hi in todo]
     stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler, refine)
+    done = sum(p["_stop"] - b for b, p in parts.items())
     try:
         for b, lo, hi, ranges in plan:
             res = _concat([next(stream) for _ in ranges])
@@ -393,25 +664,34 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                 res = _concat([{k: v for k, v in old.items() if k != "_stop"}, res])
             res["_stop"] = hi
             parts[b] = res
-            if store is not None:
-                arrays = {k: v for k, v in res.items() if k != "_stop"}
-                _atomic_write_npz(os.path.join(store, f"block_{b // BLOCK:06d}.npz"),
-                                  dict(arrays, start=b, stop=hi))
+            done += hi - lo
+            if st is not None:
+                st.write_block(b, {k: v for k, v in res.items() if k != "_stop"})
             if bar is not None:
                 bar.update(hi - lo)
+    except SchedulerLost as exc:
+        if st is None:
+            raise SchedulerLost(f"{exc} after {done} of {n} realisations; nothing was stored: run again, "
+                                "without --scheduler to run locally") from None
+        raise SchedulerLost(f"{exc} after {done} of {n} realisations; those are kept in {store}: run again "
+                            "with --resume (resume=True) and without --scheduler to continue locally") from None
     finally:
         stream.close()  # an interrupted run stops its workers; written blocks stay
-    if bar is not None:
-        bar.close()
+        if bar is not None:
+            bar.close()
     allr = _concat([{k: v for k, v in parts[b].items() if k != "_stop"} for b in sorted(parts)])
     allr = {k: v[:n] for k, v in allr.items()}
+    flags = {k: allr[k].astype(bool) for k in ("nonconv", "inadm", "none", "refined") if k in allr}
     return SimulationResult(fs=allr["fs"], critical_index=allr["crit"].astype(int), fs_fixed=allr["fs_fixed"],
                             fixed_ok=allr["fixed_ok"].astype(bool), n_nonconverged=int(allr["nonconv"].sum()),
                             n_inadmissible=int(allr["inadm"].sum()), n_no_valid=int(allr["none"].sum()),
                             seed=seed, problem=problem,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
-                            refine=None if refine is None else refine.describe())
+                            refine=None if refine is None else refine.describe(), flags=flags,
+                            store_notices=list(st.notices) if st is not None else [],
+                            fs_circles=allr.get("fs_circles"),
+                            refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
 
 
 def realise_fields(problem, seed, k):

@@ -23,10 +23,12 @@ from ..bank import scale_unit_weights, unit_weight_parts
 from ..methods import factor_of_safety, prepare_bank
 from ..search import _TOLERABLE
 from ..strength import base_strength
+from .conditioning import conditioner
+from .fused import strength_map
 from .problem import AVERAGING
 
 __all__ = ["standard_normals", "base_values", "batch_fs", "bilinear", "bilinear_weights",
-           "BaseStencil", "stencil"]
+           "BaseStencil", "stencil", "prepare", "zone_cell_values"]
 
 
 def bilinear_weights(grid, x, y):
@@ -136,6 +138,16 @@ def stencil(problem) -> BaseStencil:
     return st
 
 
+def prepare(problem):
+    """Build what every realisation reuses (stencil, strength map, field generators), once."""
+    st = stencil(problem)
+    strength_map(problem, st, lambda prop: _det_value(problem, prop))
+    for i, p in enumerate(problem.properties):
+        if not p.single:
+            problem.generator(i)
+    return st
+
+
 def standard_normals(problem, seed, indices, i, z):
     """Standard-normal field of property i in zone z: (s, nx, ny), or (s, 1, 1) for θ = inf."""
     p = problem.properties[i]
@@ -159,8 +171,54 @@ def _mix(problem, raw, members):
 
 
 def _correlated(problem, seed, indices, z, members):
-    """Standard normals of the properties ``members`` in zone z on the whole grid, correlated."""
-    return _mix(problem, {i: standard_normals(problem, seed, indices, i, z) for i in members}, members)
+    """Standard normals of the properties ``members`` in zone z on the whole grid, correlated
+    (and conditioned on the site data of the zone)."""
+    zs = _mix(problem, {i: standard_normals(problem, seed, indices, i, z) for i in members}, members)
+    for i in members:
+        cd = conditioner(problem, i, z)
+        if cd is not None:
+            flat = zs[i].reshape(len(indices), -1)
+            every = np.arange(flat.shape[1])
+            zs[i] = cd.apply(flat, flat[:, cd.cells], every, seed, indices, (i, z)).reshape(zs[i].shape)
+    return zs
+
+
+def zone_members(problem, z):
+    """Indices of the properties whose material fills zone z."""
+    return [i for i in range(len(problem.properties)) if z in problem.zones_of(i)]
+
+
+def zone_cell_values(problem, seed, indices, z, cells, members):
+    """Physical values of the properties ``members`` in zone z on the grid cells ``cells``.
+
+    The one place a zone's fields are generated for the simulator (the hook
+    for steps acting on a zone's Gaussian fields, e.g. conditioning).
+
+    Returns
+    -------
+    dict i -> ndarray (s, len(cells)), or (s, 1) for a single variable (θ = inf)
+    """
+    s = len(indices)
+    raw = {}
+    conds = {i: conditioner(problem, i, z) for i in members}
+    # site data: the fields are also gathered at the data cells, then conditioned after mixing
+    take = np.concatenate([cells] + [c.cells for c in conds.values() if c is not None])
+    for i in members:
+        zi = standard_normals(problem, seed, indices, i, z)
+        raw[i] = zi[:, 0, 0][:, None] if problem.properties[i].single else zi.reshape(s, -1)[:, take]
+    # a single variable (θ = inf) mixes as one column broadcast over the cells
+    zs = _mix(problem, raw, members)
+    at = cells.size
+    for i in members:
+        zi = zs[i]
+        if zi.shape[1] > 1 and take.size > cells.size:
+            zs[i] = zi[:, :cells.size]
+        if conds[i] is not None:
+            n_d = conds[i].cells.size
+            zs[i] = conds[i].apply(zi[:, :cells.size], zi[:, at:at + n_d], cells, seed, indices, (i, z))
+            at += n_d
+    return {i: np.asarray(problem.properties[i].marginal.from_standard_normal(zs[i]), dtype=float)
+            for i in members}
 
 
 def _valid_base_values(problem, seed, indices):
@@ -169,18 +227,13 @@ def _valid_base_values(problem, seed, indices):
     s = len(indices)
     out = {p.key: np.full((s,) + st.shape, np.nan) for p in problem.properties}
     for z, (bases, cells, W) in st.zones.items():
-        members = [i for i, p in enumerate(problem.properties) if z in problem.zones_of(i)]
+        members = zone_members(problem, z)
         if not members:
             continue
-        raw = {}
-        for i in members:
-            zi = standard_normals(problem, seed, indices, i, z)
-            raw[i] = zi[:, 0, 0][:, None] if problem.properties[i].single else zi.reshape(s, -1)[:, cells]
-        # a single variable (θ = inf) mixes as one column broadcast over the cells
-        zs = _mix(problem, raw, members)
+        values = zone_cell_values(problem, seed, indices, z, cells, members)
         for i in members:
             p = problem.properties[i]
-            phys = np.asarray(p.marginal.from_standard_normal(zs[i]), dtype=float)
+            phys = values[i]
             if phys.shape[1] == 1:
                 vals = np.broadcast_to(phys, (s, bases.size))
             else:
@@ -263,6 +316,11 @@ def batch_fs(problem, seed, indices):
         Rejected bank rows: NaN, False, False.
     """
     st = stencil(problem)
+    sm = strength_map(problem, st, lambda prop: _det_value(problem, prop))
+    if sm is not None:
+        res = _fused_fs(problem, st, sm, seed, indices)
+        if res is not None:
+            return res
     vals = _valid_base_values(problem, seed, indices)
     overrides = strength_overrides(problem, vals, lambda prop: _det_value(problem, prop))
     weight_factors = {}
@@ -288,10 +346,43 @@ def batch_fs(problem, seed, indices):
         c, tphi = base_strength(st.bank, mats, problem.hypothesis, overrides=overrides)
         res = factor_of_safety(st.terms, c, tphi, problem.method, interslice=problem.interslice)
         res_fs, res_conv, res_flags = res.fs, res.converged, np.asarray(res.flags)
+    return _scatter(problem, st, len(indices), res_fs, res_conv, res_flags)
+
+
+def _fused_fs(problem, st, sm, seed, indices):
+    """:func:`batch_fs` through the :class:`StrengthMap`, a chunk of realisations per kernel call.
+
+    None when a cell value could give an inadmissible strength (the array
+    path then reports it as before).
+    """
+    s = len(indices)
+    phys = np.empty((s, sm.n_cols))
+    values = {}
+    for z, i, off, ncol in sm.entries:
+        if z not in values:
+            values[z] = zone_cell_values(problem, seed, indices, z, st.zones[z][1], zone_members(problem, z))
+        phys[:, off:off + ncol] = values[z][i]
+    del values
+    if not sm.safe(phys):
+        return None
+    mv = st.rows.size
+    fs = np.empty((s, mv))
+    conv = np.empty((s, mv), bool)
+    flags = np.empty((s, mv), np.int64)
+    step = sm.chunk()
+    for a in range(0, s, step):
+        c, tphi = sm.strengths(phys[a:a + step])
+        res = factor_of_safety(st.terms, c, tphi, problem.method, interslice=problem.interslice)
+        fs[a:a + step], conv[a:a + step], flags[a:a + step] = res.fs, res.converged, res.flags
+    return _scatter(problem, st, s, fs, conv, flags)
+
+
+def _scatter(problem, st, s, res_fs, res_conv, res_flags):
+    """FS, converged, admissible of the valid surfaces onto every bank row (s, m)."""
     # the flags the deterministic search tolerates by default (search.evaluate_surfaces) are
     # tolerated here too, or the critical surface of the search could never be critical here
     tolerated = _TOLERABLE["negative-normal"] | _TOLERABLE["thrust-outside"]
-    s, m = len(indices), len(problem.surfaces)
+    m = len(problem.surfaces)
     fs = np.full((s, m), np.nan)
     conv = np.zeros((s, m), bool)
     adm = np.zeros((s, m), bool)

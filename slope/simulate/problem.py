@@ -134,6 +134,10 @@ class RandomProblem:
         the line average over the base) or the value at its midpoint.
     interslice : str
         Interslice function for Morgenstern-Price.
+    site_data : dict, optional
+        ``"material.property"`` -> (points (n, 2) m, standard-normal values
+        (n,), error variances (n,)): the property's fields are conditioned
+        on them (:mod:`slope.simulate.conditioning`, :mod:`slope.site_data`).
     """
 
     section: object
@@ -148,6 +152,7 @@ class RandomProblem:
     field_method: str = "fft"
     averaging: str = "base-average"
     interslice: str = "half-sine"
+    site_data: dict = field(default_factory=dict)
 
     def __post_init__(self):
         self.properties = list(self.properties)
@@ -248,5 +253,29 @@ class RandomProblem:
                 "interslice": self.interslice, "fixed_index": self.fixed_index,
                 "ground": g.round(9).tolist(), "zones": [repr(z) for z in self.section.zones],
                 "materials": {k: repr(v) for k, v in sorted(self.section.materials.items())},
-                "surfaces": [repr(s) for s in self.surfaces]}
+                "surfaces": [repr(s) for s in self.surfaces],
+                # water and loads change every base's pore pressure and driving force
+                "water": _canonical(self.section.water), "loads": _canonical(self.section.loads)}
+        if self.site_data:  # only when present, so stores of runs without data stay valid
+            desc["site_data"] = {k: _canonical([np.asarray(a) for a in v])
+                                 for k, v in sorted(self.site_data.items())}
         return hashlib.sha256(json.dumps(desc, sort_keys=True, default=str).encode()).hexdigest()
+
+
+def _canonical(obj):
+    """JSON-ready, full-precision description of a dataclass / array / container (for hashing)."""
+    import dataclasses
+
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return {type(obj).__name__: {f.name: _canonical(getattr(obj, f.name)) for f in dataclasses.fields(obj)}}
+    if isinstance(obj, np.ndarray):
+        return [_canonical(v) for v in obj.tolist()]
+    if isinstance(obj, dict):
+        return {str(k): _canonical(v) for k, v in sorted(obj.items(), key=lambda kv: str(kv[0]))}
+    if isinstance(obj, (list, tuple)):
+        return [_canonical(v) for v in obj]
+    if isinstance(obj, (float, np.floating)):
+        return repr(float(obj))
+    if obj is None or isinstance(obj, (bool, int, str)):
+        return obj
+    return repr(obj)

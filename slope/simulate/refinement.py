@@ -20,14 +20,16 @@ import numpy as np
 
 from ..bank import section_with_unit_weights
 from ..errors import InputError
+from ..methods import POLYLINE_METHOD_NAMES
 from ..search import refine
 from ..surfaces import Circle
 from .engine import _correlated, bilinear, deterministic_value, strength_overrides
 from .problem import AVERAGING
 
-__all__ = ["RefineSettings", "realisation_overrides", "refine_realisation"]
+__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation"]
 
-_POLYLINE_METHODS = ("spencer", "morgenstern-price", "janbu")
+#: searches of a realisation after the bank (``RefineSettings.search``)
+REFINE_SEARCHES = ("nelder-mead", "dynamic-programming")
 
 
 @dataclass(frozen=True)
@@ -48,13 +50,28 @@ class RefineSettings:
     n_vertices : int
         Polyline vertices (ends included).
     max_evaluations : int
-        FS evaluations per refined realisation.
+        FS evaluations per refined realisation (``nelder-mead``).
+    search : {"nelder-mead", "dynamic-programming"}
+        ``nelder-mead``: the bank's critical surface bent into a polyline
+        of ``n_vertices`` by the simplex method of Nelder & Mead (1965);
+        ``dynamic-programming``: paths over grids of nodes after Baker
+        (1980) from the lowest surfaces of ``families`` different families
+        of the bank (:mod:`slope.simulate.mechanisms`).
+    families, columns, nodes, passes : int
+        ``dynamic-programming`` only: start surfaces (of different
+        families), columns and nodes per column of the grids, grids per
+        start (each a narrower band about the previous path).
     """
 
     below: float
     method: str = "spencer"
     n_vertices: int = 8
     max_evaluations: int = 300
+    search: str = "nelder-mead"
+    families: int = 2
+    columns: int = 20
+    nodes: int = 13
+    passes: int = 2
 
     def __post_init__(self):
         b = float(self.below)
@@ -62,9 +79,9 @@ class RefineSettings:
             raise InputError(f"refine below (--refine-below): {self.below!r}; give a factor of safety > 0, e.g. 1.2")
         object.__setattr__(self, "below", b)
         m = str(self.method).lower()
-        if m not in _POLYLINE_METHODS:
+        if m not in POLYLINE_METHOD_NAMES:
             raise InputError(f"refine method (--refine-method): {self.method!r}; polylines need one of "
-                             f"{', '.join(_POLYLINE_METHODS)}")
+                             f"{', '.join(POLYLINE_METHOD_NAMES)}")
         object.__setattr__(self, "method", m)
         if int(self.n_vertices) < 3:
             raise InputError(f"refine n_vertices: {self.n_vertices!r}; give at least 3")
@@ -72,15 +89,34 @@ class RefineSettings:
             raise InputError(f"refine max_evaluations: {self.max_evaluations!r}; give at least 10")
         object.__setattr__(self, "n_vertices", int(self.n_vertices))
         object.__setattr__(self, "max_evaluations", int(self.max_evaluations))
+        if self.search not in REFINE_SEARCHES:
+            raise InputError(f"refine search (simulation.refine_search): {self.search!r}; use one of "
+                             f"{', '.join(REFINE_SEARCHES)}")
+        for name, lo in (("families", 1), ("columns", 3), ("nodes", 3), ("passes", 1)):
+            v = getattr(self, name)
+            if isinstance(v, bool) or int(v) != v or int(v) < lo:
+                raise InputError(f"refine {name}: {v!r}; give a whole number >= {lo}")
+            object.__setattr__(self, name, int(v))
 
     def describe(self) -> dict:
-        return asdict(self)
+        d = asdict(self)
+        if self.search == "nelder-mead":  # the grid sizes do nothing then (and older stores lack them)
+            for k in ("search", "families", "columns", "nodes", "passes"):
+                d.pop(k)
+        else:
+            for k in ("n_vertices", "max_evaluations"):
+                d.pop(k)
+        return d
 
     @classmethod
     def from_case(cls, simulation: dict):
-        """Settings of a case's ``[simulation]`` table (``refine_below``, ``refine_method``); None when absent."""
+        """Settings of a case's ``[simulation]`` table (``refine_below``, ``refine_method``,
+        ``refine_search``); None when absent."""
         below = simulation.get("refine_below")
-        return None if below is None else cls(below=below, method=simulation.get("refine_method", "spencer"))
+        if below is None:
+            return None
+        return cls(below=below, method=simulation.get("refine_method", "spencer"),
+                   search=simulation.get("refine_search", "nelder-mead"))
 
 
 def _grid_values(problem, seed, k):
@@ -96,13 +132,14 @@ def _grid_values(problem, seed, k):
     return out
 
 
-def realisation_overrides(problem, seed, k, section=None, values=None):
+def realisation_overrides(problem, seed, k, section=None, values=None, n_per_base=None):
     """Strength overrides of realisation k for any slice bank.
 
     ``section``: the section the banks are built from (default the
     problem's; a copy with the realisation's unit weights has other
     material names). ``values``: the realisation's grid values if already
-    generated (``_grid_values``).
+    generated (``_grid_values``). ``n_per_base``: points averaged along a
+    base (default the problem's averaging; a search grid may take fewer).
 
     Returns
     -------
@@ -113,7 +150,7 @@ def realisation_overrides(problem, seed, k, section=None, values=None):
     """
     values = _grid_values(problem, seed, k) if values is None else values
     grid = problem.grid
-    npb = AVERAGING[problem.averaging]
+    npb = AVERAGING[problem.averaging] if n_per_base is None else int(n_per_base)
     mats = (problem.section if section is None else section).materials
 
     def overrides(bank):

@@ -15,7 +15,8 @@ from ..errors import InputError
 from .problem import RandomProblem
 from .driver import simulate
 
-__all__ = ["averaging_report", "theta_sweep", "surface_variance_factor", "reduced_variance_problem"]
+__all__ = ["averaging_report", "theta_sweep", "surface_variance_factor", "reduced_variance_problem",
+           "fixed_surface_problem"]
 
 
 def _with_properties(problem, props):
@@ -82,7 +83,21 @@ def surface_variance_factor(problem, i, surface=None, *, max_points=3000):
     return T, min(max(g, 0.0), 1.0)
 
 
-def reduced_variance_problem(problem):
+def fixed_surface_problem(problem):
+    """The same problem on its fixed deterministic critical surface alone (``fixed_index`` 0).
+
+    For runs that read only ``fs_fixed``: realisations are the same (noise
+    depends on the seed, realisation, property and zone, never on the bank),
+    and the kernel evaluates one surface instead of the whole bank.
+    """
+    return RandomProblem(problem.section, problem.hypothesis, problem.method, problem.properties,
+                         [problem.surfaces[problem.fixed_index]], 0,
+                         cross_correlation=list(problem.cross_correlation), n_slices=problem.n_slices,
+                         cell=problem.cell, field_method=problem.field_method, averaging=problem.averaging,
+                         interslice=problem.interslice)
+
+
+def reduced_variance_problem(problem, *, fixed_only=False):
     """The quick spatial-averaging estimate as a problem of single random variables.
 
     Every random property becomes one random variable (θ → ∞) with its
@@ -90,6 +105,9 @@ def reduced_variance_problem(problem):
     :func:`surface_variance_factor` along the fixed deterministic critical
     surface (El-Ramly, Morgenstern & Cruden 2002 style: variance reduction
     over the critical surface, then a single-variable simulation).
+
+    With ``fixed_only`` the problem holds that surface alone
+    (:func:`fixed_surface_problem`): ``fs_fixed`` is unchanged, bit for bit.
 
     Returns
     -------
@@ -109,7 +127,8 @@ def reduced_variance_problem(problem):
         table.append({"property": p.key, "length_m": T, "gamma": g, "gamma_1d_theta_h": g1,
                       "std_point": float(p.marginal.std), "std_averaged": float(marg.std),
                       "distribution": marg.name})
-    return _with_properties(problem, props), table
+    red = _with_properties(problem, props)
+    return (fixed_surface_problem(red) if fixed_only else red), table
 
 
 def _summary(res):

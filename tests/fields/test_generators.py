@@ -77,6 +77,7 @@ def test_fft_other_models(name, kw):
     check_moments(gen.sample(7, range(8000)), m.covariance_matrix(grid.points()))
 
 
+@pytest.mark.slow
 def test_spectral_matches_model_at_chosen_lags():
     # GSTools randomisation method at a few points: lag 0, horizontal, vertical,
     # along and across the rotated major axis. Conditional on its random modes

@@ -235,8 +235,9 @@ def test_research_surface_never_above_the_fixed_surface():
     # the single-surface pf; same seed, same samples, compared sample by sample
     from slipfield.slope.case import analyses as analysis
     from slipfield.slope.case.build import load_case
+    from support.demos import CASES
 
-    case = load_case("cases/levee_soft_clay.toml")
+    case = load_case(CASES / "levee_soft_clay.toml")
     case.data["analysis"]["hypotheses"] = ["undrained"]
     case.data["analysis"]["methods"] = ["bishop"]
     case.data["search"]["trials"] = 200

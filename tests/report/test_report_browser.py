@@ -4,9 +4,6 @@ console errors, decodes every embedded figure and shows the summary table.
 Skipped when /usr/bin/chromium is missing (Debian package ``chromium``; the CI
 entry point installs it). Each Chromium run takes about 1-2 s.
 """
-import os
-import re
-import subprocess
 
 import matplotlib.image as mpimg
 import numpy as np
@@ -24,66 +21,13 @@ from slipfield.slope.report import (
     plot_variance_reduction,
     write_report,
 )
+from support.chromium import HAVE_CHROMIUM, console_messages as _console, probe as _probe, run_chromium as _chromium
 
-CHROMIUM = "/usr/bin/chromium"
 pytestmark = pytest.mark.skipif(
-    not os.path.exists(CHROMIUM),
+    not HAVE_CHROMIUM,
     reason="headless Chromium not found at /usr/bin/chromium: install the Debian package 'chromium' "
     "(apt-get install -y chromium) to run the browser check of the HTML report",
 )
-
-# Read-only probe injected into a copy of the page: it records, after the load
-# event, how many figures, images and inline SVGs the browser actually decoded
-# and laid out, and how many rows the summary table shows.
-PROBE = """<script>
-window.addEventListener("load", function () {
-  var imgs = Array.prototype.slice.call(document.images);
-  var svgs = Array.prototype.slice.call(document.querySelectorAll("figure svg"));
-  var d = document.createElement("div");
-  d.id = "probe";
-  d.setAttribute("data-figures", document.querySelectorAll("figure").length);
-  d.setAttribute("data-img", imgs.length);
-  d.setAttribute("data-img-decoded", imgs.filter(function (i) {
-    return i.complete && i.naturalWidth > 0 && i.getBoundingClientRect().width > 0; }).length);
-  d.setAttribute("data-svg", svgs.length);
-  d.setAttribute("data-svg-laid-out", svgs.filter(function (s) {
-    var r = s.getBoundingClientRect(); return r.width > 0 && r.height > 0; }).length);
-  d.setAttribute("data-summary-rows", document.querySelectorAll("#summary-table tbody tr").length);
-  var c = document.querySelector(".caution");
-  d.setAttribute("data-caution-visible", c && c.getBoundingClientRect().height > 0 ? 1 : 0);
-  document.body.appendChild(d);
-});
-</script>"""
-
-FLAGS = [
-    "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-    "--disable-background-networking", "--disable-component-update", "--disable-sync",
-    "--enable-logging=stderr", "--v=0", "--hide-scrollbars",
-    # Lets the load event and image decoding finish before the DOM is dumped.
-    "--virtual-time-budget=5000",
-]
-
-
-def _chromium(tmp_path, page, *extra):
-    profile = tmp_path / f"profile-{page.stem}-{len(extra)}"
-    cmd = [CHROMIUM, *FLAGS, f"--user-data-dir={profile}", *extra, page.resolve().as_uri()]
-    return subprocess.run(cmd, capture_output=True, text=True, timeout=60)
-
-
-def _console(stderr):
-    """Console messages the page produced (our report has no script, so any is a fault)."""
-    return [ln for ln in stderr.splitlines() if re.search(r":CONSOLE[(:\]]", ln) or "Uncaught" in ln]
-
-
-def _probe(tmp_path, page):
-    probed = tmp_path / f"probe-{page.name}"
-    probed.write_text(page.read_text(encoding="utf-8").replace("</body>", PROBE + "</body>"), encoding="utf-8")
-    run = _chromium(tmp_path, probed, "--dump-dom")
-    assert run.returncode == 0, run.stderr[-2000:]
-    m = re.search(r'<div id="probe"([^>]*)>', run.stdout)
-    assert m, "probe did not run: the page did not finish loading\n" + run.stderr[-2000:]
-    attrs = dict(re.findall(r'data-([a-z-]+)="([^"]*)"', m.group(1)))
-    return {k: int(v) for k, v in attrs.items()}, _console(run.stderr)
 
 
 @pytest.fixture(scope="module")

@@ -16,25 +16,21 @@ environment variable ``SLIPFIELD_ARTEFACTS``, else ``tests/artefacts/``
 import json
 import os
 import re
-import subprocess
 from pathlib import Path
 
 import matplotlib.image as mpimg
 import pytest
 
-CHROMIUM = "/usr/bin/chromium"
+from support.chromium import HAVE_CHROMIUM, console_messages as _console, run_chromium as _chromium
+
 pytestmark = pytest.mark.skipif(
-    not os.path.exists(CHROMIUM),
+    not HAVE_CHROMIUM,
     reason="headless Chromium not found at /usr/bin/chromium: install the Debian package 'chromium' "
     "(apt-get install -y chromium) to run the browser check of the run report",
 )
 
 ROOT = Path(__file__).resolve().parents[2]
 ARTEFACTS = Path(os.environ.get("SLIPFIELD_ARTEFACTS") or ROOT / "tests" / "artefacts")
-FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-         "--disable-background-networking", "--disable-component-update", "--disable-sync",
-         "--enable-logging=stderr", "--v=0", "--hide-scrollbars", "--virtual-time-budget=5000"]
-
 # Read-only probe appended to a copy of the page: after the load event it writes what the browser
 # decoded and laid out as JSON into a <pre id="probe">, read back from the dumped DOM.
 PROBE = """<script>
@@ -66,15 +62,6 @@ window.addEventListener("load", function () {
 </script>"""
 
 
-def _chromium(tmp_path, page, *extra):
-    profile = tmp_path / f"profile-{page.stem}-{len(extra)}"
-    cmd = [CHROMIUM, *FLAGS, f"--user-data-dir={profile}", *extra, page.resolve().as_uri()]
-    return subprocess.run(cmd, capture_output=True, text=True, timeout=90)
-
-
-def _console(stderr):
-    """Console messages the page produced (the report has no script, so any is a fault)."""
-    return [ln for ln in stderr.splitlines() if re.search(r":CONSOLE[(:\]]", ln) or "Uncaught" in ln]
 
 
 def _probe(tmp_path, page):
@@ -89,8 +76,8 @@ def _probe(tmp_path, page):
 
 
 @pytest.mark.parametrize("name", ["levee_soft_clay.toml", "cut_residual_soil.toml", "dam_layered_foundation.toml"])
-def test_run_report_in_the_browser(tmp_path, demo_run, name):
-    case, res, out, doc = demo_run(name)
+def test_run_report_in_the_browser(tmp_path, demo_analysis, name):
+    case, res, out, doc = demo_analysis(name)
     page = out / "report.html"
     n_png = len(list((out / "figures").glob("*.png")))
     info, console = _probe(tmp_path, page)

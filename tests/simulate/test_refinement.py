@@ -16,11 +16,11 @@ from slipfield.slope.simulate import RefineSettings, simulate
 from slipfield.slope.simulate.engine import _valid_base_values, stencil
 from slipfield.slope.simulate.refinement import realisation_overrides
 
-from test_studies import _gf_problem
+from support.problems import gf_problem
 
 
 def test_overrides_on_the_bank_equal_the_simulator_mapping():
-    p, _ = _gf_problem(5.0, 0.5)
+    p, _ = gf_problem(5.0, 0.5)
     st = stencil(p)
     for k in (0, 7):
         mine = realisation_overrides(p, 3, k)(st.bank)["su"]
@@ -28,12 +28,13 @@ def test_overrides_on_the_bank_equal_the_simulator_mapping():
         np.testing.assert_allclose(mine, theirs, rtol=1e-10)
 
 
+@pytest.mark.slow
 def test_homogeneous_realisations_reach_the_published_fs():
     # θ → ∞: each realisation is the homogeneous slope with su_k, FS ∝ su_k.
     # Griffiths & Lane 1999 (recalled; /work/shared/REFERENCES.md): 2H:1V,
     # cu/(γH) = 0.25, D = 2 -> FS ≈ 1.47 (Taylor's charts). The coarse 6 × 6
     # lattice bank is ~1.5 % above it; the refined surface must come within 2 %.
-    p, _ = _gf_problem(math.inf, 0.3)
+    p, _ = gf_problem(math.inf, 0.3)
     r = simulate(p, 6, seed=3, refine=5.0)
     assert r.n_refined == 6
     su_mean = p.properties[0].marginal.mean
@@ -47,8 +48,9 @@ def test_homogeneous_realisations_reach_the_published_fs():
     assert np.all(scaled < r.fs_bank * su_mean / su)
 
 
+@pytest.mark.slow
 def test_refinement_lowers_fs_only_below_the_threshold_and_is_reproducible():
-    p, _ = _gf_problem(5.0, 0.5)
+    p, _ = gf_problem(5.0, 0.5)
     a = simulate(p, 10, seed=5)
     b = simulate(p, 10, seed=5, refine=1.3)
     c = simulate(p, 10, seed=5, refine={"below": 1.3}, n_jobs=2, batch=3)
@@ -63,7 +65,7 @@ def test_refinement_lowers_fs_only_below_the_threshold_and_is_reproducible():
 
 
 def test_resume_with_other_refinement_is_refused(tmp_path):
-    p, _ = _gf_problem(5.0, 0.5)
+    p, _ = gf_problem(5.0, 0.5)
     simulate(p, 3, seed=5, store=str(tmp_path), refine=1.1)
     with pytest.raises(InputError, match="refinement settings differ"):
         simulate(p, 6, seed=5, store=str(tmp_path), resume=True, refine=1.2)
@@ -77,6 +79,7 @@ def test_bad_settings_name_the_option(kw, word):
         RefineSettings(**kw)
 
 
+@pytest.mark.slow
 def test_refinement_uses_the_realisations_unit_weight():
     # FS ∝ 1/f for φ = 0 when every weight scales by f: the refined FS of a
     # realisation with unit-weight factor f_k times f_k is the same number
@@ -84,7 +87,7 @@ def test_refinement_uses_the_realisations_unit_weight():
     from slipfield.fields.marginals import make_marginal
     from slipfield.slope.simulate import RandomProblem, RandomProperty
 
-    p0, _ = _gf_problem(math.inf, 0.3)
+    p0, _ = gf_problem(math.inf, 0.3)
     f = make_marginal("lognormal", mean=1.0, cov=0.08)
     p = RandomProblem(p0.section, "undrained", "bishop", [RandomProperty("clay", "unit_weight", f, math.inf,
                                                                          math.inf)],

@@ -21,6 +21,8 @@ from slipfield.slope.simulate.engine import base_values, bilinear
 from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle
 
+from support.problems import build, gf_problem
+
 ALPHA = 1e-3
 Z_CRIT = norm.ppf(1 - ALPHA / 2)
 CASE = "cases/levee_soft_clay.toml"
@@ -103,31 +105,9 @@ def test_theta_inf_agrees_with_single_variable_reliability(report, levee):
 
 
 # ----------------------------------------- a small undrained slope (demo) --
-def _gf_problem(theta, cov, mean_c=0.25, H=10.0, gamma=20.0, nx=6, ny=6, n_radii=4):
-    """Griffiths & Fenton (2004) geometry: 2H:1V, D = 2, su = C·γH, lognormal, isotropic Markov."""
-    su = mean_c * gamma * H
-    mat = Material("clay", unit_weight=gamma, su_model="constant", su=su)
-    sec = simple_slope(height=H, cot_beta=2.0, depth_factor=2.0, material=mat, crest=2 * H, toe=2 * H)
-    c = lattice_circles(sec, nx=nx, ny=ny, n_radii=n_radii)
-    surfaces = [Circle(float(x), float(y), float(r)) for x, y, r in zip(c.xc, c.yc, c.radius)]
-    unit = factor_of_safety(build(sec, surfaces), 1.0, 0.0, method="bishop")
-    ok = np.asarray(unit.converged & ((unit.flags & ~5) == 0))[0]  # tolerated as in the search: negative-normal (1), thrust-outside (4)
-    fs_unit = np.where(ok, unit.fs[0], np.inf)
-    prop = RandomProperty("clay", "su", make_marginal("lognormal", mean=su, cov=cov), theta, theta)
-    p = RandomProblem(sec, "undrained", "bishop", [prop], surfaces, int(np.argmin(fs_unit)), n_slices=20,
-                      cell=1.0)
-    return p, float(fs_unit.min()) * su
-
-
-def build(sec, surfaces):
-    from slipfield.slope.bank import build_bank
-
-    return build_bank(sec, surfaces, 20)
-
-
 @pytest.fixture(scope="module")
 def gf_det():
-    return _gf_problem(math.inf, 0.5)
+    return gf_problem(math.inf, 0.5)
 
 
 def test_gf2004_deterministic_fs(gf_det):
@@ -159,12 +139,12 @@ def test_gf2004_low_cov_spatial_averaging_lowers_pf_and_pf_rises_with_theta(gf_d
     # theta_sweep uses common random numbers, so the rows are comparable.
     _, fs_det = gf_det
     v, n = 0.25, 300
-    p, _ = _gf_problem(5.0, v)
+    p, _ = gf_problem(5.0, v)
     s2 = math.log(1 + v * v)
     pf_single = norm.cdf((math.log(0.25 / fs_det) - (math.log(0.25) - s2 / 2)) / math.sqrt(s2))
     rows = theta_sweep(p, [5.0, 20.0], [5.0, 20.0], n, seed=5, batch=150)
     diag = {r["theta_h"]: r["pf"] for r in rows if r["theta_h"] == r["theta_v"]}
-    diag[math.inf] = simulate(_gf_problem(math.inf, v)[0], n, seed=5, batch=150).pf
+    diag[math.inf] = simulate(gf_problem(math.inf, v)[0], n, seed=5, batch=150).pf
     # Θ = 0.5 against the exact single-variable pf: one-sided z-test
     assert diag[5.0] < pf_single - norm.ppf(1 - ALPHA) * _se(pf_single, n), (diag, pf_single)
     assert diag[5.0] <= diag[20.0] <= diag[math.inf]
@@ -176,9 +156,9 @@ def test_theta_sweep_uses_common_random_numbers(gf_det):
     # of the failure indicators is far less noisy than between two runs on
     # independent streams (another seed), whose paired sd is the independent one
     v, n = 0.5, 300
-    a = simulate(_gf_problem(8.0, v)[0], n, seed=5)
-    b = simulate(_gf_problem(9.0, v)[0], n, seed=5)
-    c = simulate(_gf_problem(9.0, v)[0], n, seed=6)
+    a = simulate(gf_problem(8.0, v)[0], n, seed=5)
+    b = simulate(gf_problem(9.0, v)[0], n, seed=5)
+    c = simulate(gf_problem(9.0, v)[0], n, seed=6)
     ia, ib, ic = ((r.fs < 1).astype(float) for r in (a, b, c))
     crn = np.std(ia - ib, ddof=1)
     indep = np.std(ia - ic, ddof=1)
@@ -186,14 +166,14 @@ def test_theta_sweep_uses_common_random_numbers(gf_det):
     # for independent streams crn/indep would be ~1 (sd of the ratio ~0.05 at n = 300)
     assert crn < 0.6 * indep, (crn, indep)
     # the sweep's rows are these runs: same seed and streams at every θ
-    rows = theta_sweep(_gf_problem(8.0, v)[0], [8.0, 9.0], [8.0, 9.0], n, seed=5)
+    rows = theta_sweep(gf_problem(8.0, v)[0], [8.0, 9.0], [8.0, 9.0], n, seed=5)
     by = {(r["theta_h"], r["theta_v"]): r["pf"] for r in rows}
     assert by[(8.0, 8.0)] == a.pf and by[(9.0, 9.0)] == b.pf
 
 
 # ------------------------------------------------ fields and failure map --
 def test_realise_fields_reproduces_realisation_k():
-    p, _ = _gf_problem(6.0, 0.5)
+    p, _ = gf_problem(6.0, 0.5)
     seed, ks = 4, [0, 1, 2, 3, 4]
     vals = base_values(p, seed, ks)["clay.su"]          # (s, m, n) as the run computes them
     xb, yb = p.bank.base_points_section_frame(4)
@@ -211,7 +191,7 @@ def test_realise_fields_reproduces_realisation_k():
 
 
 def test_failure_map_counts_failures():
-    p, _ = _gf_problem(20.0, 0.5)
+    p, _ = gf_problem(20.0, 0.5)
     r = simulate(p, 200, seed=8)
     n_fail = int(np.sum(np.isfinite(r.fs) & (r.fs < 1)))
     assert n_fail > 10

@@ -172,6 +172,29 @@ def _comparison(case, res):
     return out
 
 
+def _site_data(case, res):
+    """pf with and without the site data, and where the data reduce the uncertainty (issue 16)."""
+    from ...commands.site_effect import conditional_sd_figure
+
+    out = []
+    for h, sp in _hyps(res, "spatial"):
+        eff = sp.site_data
+        if eff is None:
+            continue
+        if eff.pf_conditional is not None and eff.pf_unconditional is not None:
+            lo = [min(eff.interval_conditional[0], eff.pf_conditional),
+                  min(eff.interval_unconditional[0], eff.pf_unconditional)]
+            hi = [max(eff.interval_conditional[1], eff.pf_conditional),
+                  max(eff.interval_unconditional[1], eff.pf_unconditional)]
+            fig = plot_pf_comparison(["conditioned on the site data", "without the site data (same seed)"],
+                                     [eff.pf_conditional, eff.pf_unconditional], lo, hi, colour=hypothesis_colour(h))
+            out.append(Drawn(f"pf_site_data_{h}", f"pf with and without the site data, {h}", fig, eff.sentence()))
+        out.append(Drawn(f"site_data_sd_{h}", "Site data locations and the conditional standard deviation relative "
+                                              f"to the unconditional one, {h}",
+                         conditional_sd_figure(sp.spatial.problem, case.section, h)))
+    return out
+
+
 # --------------------------------------------------------------------------- fields
 def _su_law(mat, x, y, ground_y):
     """The material's undrained law at points (kPa), as :func:`slope.strength.base_strength` applies it."""
@@ -347,6 +370,7 @@ CATALOGUE: tuple[FigureEntry, ...] = (
     FigureEntry("fs_spatial", "spatial", "spatial[h].spatial (FS per realisation, pf count)", _fs_spatial),
     FigureEntry("pf_convergence", "spatial", "spatial[h].spatial (FS per realisation)", _convergence),
     FigureEntry("pf_comparison", "spatial", "spatial[h] (spatial, θ → ∞ and quick estimates)", _comparison),
+    FigureEntry("site_data", "spatial", "spatial[h].site_data (pf with and without [[site_data]])", _site_data),
     FigureEntry("field", "fields", "spatial[h].spatial.shown and its problem (fields regenerated)", _fields),
     FigureEntry("variance_reduction", "averaging", "spatial[h].quick.properties and the case's models", _averaging),
     FigureEntry("failure_map", "failure", "spatial[h].spatial (critical surfaces of failed realisations)",

@@ -1,0 +1,281 @@
+"""Speed targets of issue 17, each printed beside its measured value.
+
+Every comparison is measured side by side in one run of this script (the
+two variants alternate, repeated ``--repeat`` times; min and max are
+printed so that the spread caused by other load on the machine is visible).
+Absolute times depend on the machine and its load; ratios less so.
+
+Parts (``--parts``, default all):
+
+``sim``
+    Levee demo (``cases/levee_soft_clay.toml``, invented), undrained:
+    ``simulate`` wall time per realisation with ``--jobs 2`` (target
+    <= 0.6 ms, i.e. 10^5 realisations a minute on 2 cores), and CPU time per
+    realisation of one process through the compiled base-strength pass
+    against the array path it replaced (``engine.strength_map`` disabled),
+    results compared with ``==``.
+``memory``
+    Peak of numpy allocations (tracemalloc) of one batch of 100 realisations
+    on a bank of >= 5,000 circles, compiled pass against the array path; and
+    peak RSS of ``simulate`` over 1,000 and 4,000 realisations (flat in n).
+``kernel``
+    ``factor_of_safety`` as the simulator calls it (strengths of the levee
+    realisations, chunks from ``fused.StrengthMap.chunk``), Bishop and
+    Morgenstern-Price, in M slice-evaluations/s (samples x surfaces x
+    slices / wall time; targets 200 M and 40 M), beside one call on a whole
+    batch of 100 (the layout before the chunks).
+``jobs``
+    ``slipfield simulate`` of 16,000 realisations, ``--jobs 1`` against
+    ``--jobs 2`` (target ratio >= 1.6).
+``run``
+    ``slipfield run`` of the levee demo: cold (empty numba cache) and warm
+    (targets 15 s and 10 s).
+
+Usage: python scripts/bench_speed.py [--parts sim,memory,kernel,jobs,run] [--repeat 3]
+"""
+import argparse
+import json
+import os
+import pickle
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+CASE = ROOT / "cases" / "levee_soft_clay.toml"
+
+
+def levee_problem(hypothesis="undrained", cache=None):
+    """The levee demo's RandomProblem (deterministic search included); pickled to ``cache``."""
+    if cache and os.path.exists(cache):
+        with open(cache, "rb") as fh:
+            return pickle.load(fh)[hypothesis]
+    from slipfield.slope.case.analyses import deterministic, random_problem
+    from slipfield.slope.case.build import load_case
+
+    case = load_case(CASE)
+    det = deterministic(case)
+    probs = {h: random_problem(case, det, h) for h in ("undrained", "drained")}
+    if cache:
+        with open(cache, "wb") as fh:
+            pickle.dump(probs, fh)
+    return probs[hypothesis]
+
+
+def spread(xs, fmt="{:.3f}"):
+    return f"{fmt.format(min(xs))} .. {fmt.format(max(xs))}"
+
+
+def verdict(ok):
+    return "met" if ok else "NOT met"
+
+
+# --------------------------------------------------------------------- sim
+def part_sim(args):
+    import slipfield.slope.simulate.engine as engine
+    from slipfield.slope.simulate import simulate
+
+    p = levee_problem("undrained", args.cache)
+    engine.prepare(p)
+    array_path = lambda *a: None  # noqa: E731
+    fused_path = engine.strength_map
+    engine.batch_fs(p, 1, range(8))  # compile / load the kernels
+    cpu = {"fused": [], "array": []}
+    same = True
+    n_cpu = args.n_cpu
+    import numba
+
+    numba.set_num_threads(1)  # CPU time of one core's work, not of threads waiting for each other
+    for _ in range(args.repeat):
+        outs = {}
+        for name, fn in (("fused", fused_path), ("array", array_path)):
+            engine.strength_map = fn
+            t = time.process_time()
+            outs[name] = [engine.batch_fs(p, 1, range(a, a + 100)) for a in range(0, n_cpu, 100)]
+            cpu[name].append((time.process_time() - t) / n_cpu * 1e3)
+        engine.strength_map = fused_path
+        same &= all(np.array_equal(x, y, equal_nan=True)
+                    for bf, ba in zip(outs["fused"], outs["array"]) for x, y in zip(bf, ba))
+    numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
+    walls = []
+    n = args.n_sim
+    simulate(p, 200, 1, n_jobs=2, batch=100)  # workers started, kernels loaded
+    for _ in range(args.repeat):
+        t = time.perf_counter()
+        simulate(p, n, 1, n_jobs=2, batch=100)
+        walls.append((time.perf_counter() - t) / n * 1e3)
+    ratio = [a / f for a, f in zip(cpu["array"], cpu["fused"])]
+    print(f"[sim] levee undrained, {len(p.surfaces)} circles ({p._stencil.rows.size} valid) x {p.n_slices} slices, "
+          f"{len(p.properties)} fields on {p.grid.nx}x{p.grid.ny} cells")
+    print(f"  CPU ms/realisation, one process, {n_cpu} realisations: compiled pass {spread(cpu['fused'])}, "
+          f"array path {spread(cpu['array'])}; ratio {spread(ratio, '{:.2f}')}x; results identical: {same}")
+    print(f"  simulate --jobs 2, {n} realisations: {spread(walls)} ms/realisation wall "
+          f"(target <= 0.6 ms: {verdict(min(walls) <= 0.6)} at best, {verdict(max(walls) <= 0.6)} at worst)")
+    print(f"  CPU time / 2 cores (the wall time of two workers on an idle machine): "
+          f"{spread([c / 2 for c in cpu['fused']])} ms/realisation (target <= 0.6 ms: "
+          f"{verdict(min(cpu['fused']) / 2 <= 0.6)} at best)")
+
+
+# ------------------------------------------------------------------ memory
+def _bank_5000(args):
+    """The levee undrained problem on a centre lattice of >= 5,000 circles."""
+    from slipfield.slope.search import lattice_circles
+    from slipfield.slope.simulate import RandomProblem
+    from slipfield.slope.surfaces import Circle
+
+    p = levee_problem("undrained", args.cache)
+    circ = lattice_circles(p.section, nx=24, ny=20, n_radii=12)
+    surfaces = [Circle(float(x), float(y), float(r)) for x, y, r in zip(circ.xc, circ.yc, circ.radius)]
+    surfaces.insert(0, p.surfaces[p.fixed_index])
+    return RandomProblem(p.section, p.hypothesis, p.method, p.properties, surfaces, 0,
+                         cross_correlation=p.cross_correlation, n_slices=p.n_slices, cell=p.cell,
+                         field_method=p.field_method, averaging=p.averaging, interslice=p.interslice)
+
+
+def _child_rss(args, n):
+    code = ("import sys, pickle, resource; sys.path.insert(0, %r); import bench_speed as b; "
+            "from slipfield.slope.simulate import simulate; "
+            "p = b.levee_problem('undrained', %r); simulate(p, %d, 1, n_jobs=1, batch=100); "
+            "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0)"
+            % (str(Path(__file__).parent), args.cache, n))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    return float(out.stdout.strip().splitlines()[-1])
+
+
+def part_memory(args):
+    import tracemalloc
+
+    import slipfield.slope.simulate.engine as engine
+
+    p = _bank_5000(args)
+    engine.prepare(p)
+    engine.batch_fs(p, 1, range(2))
+    fused_path = engine.strength_map
+    peaks = {}
+    for name, fn in (("fused", fused_path), ("array", lambda *a: None)):
+        engine.strength_map = fn
+        tracemalloc.start()
+        engine.batch_fs(p, 1, range(100))
+        peaks[name] = tracemalloc.get_traced_memory()[1] / 1e6
+        tracemalloc.stop()
+    engine.strength_map = fused_path
+    print(f"[memory] bank of {len(p.surfaces)} circles ({p._stencil.rows.size} valid) x {p.n_slices} slices, "
+          f"batch of 100: peak numpy allocations {peaks['fused']:.0f} MB (compiled pass) vs "
+          f"{peaks['array']:.0f} MB (array path), {peaks['array'] / peaks['fused']:.1f}x less")
+    r1, r4 = _child_rss(args, 1000), _child_rss(args, 4000)
+    print(f"  simulate peak RSS, levee undrained: {r1:.0f} MB at 1,000 and {r4:.0f} MB at 4,000 realisations "
+          f"(ratio {r4 / r1:.2f}; flat in n: {verdict(r4 / r1 < 1.1)})")
+
+
+# ------------------------------------------------------------------ kernel
+def part_kernel(args):
+    import slipfield.slope.simulate.engine as engine
+    from slipfield.slope.methods import factor_of_safety
+    from slipfield.slope.strength import base_strength
+
+    for method, hyp, target in (("bishop", "undrained", 200.0), ("morgenstern-price", "drained", 40.0)):
+        p = levee_problem(hyp, args.cache)
+        st = engine.prepare(p)
+        sm = engine.strength_map(p, st, lambda prop: engine._det_value(p, prop))
+        s = 100
+        phys = np.empty((s, sm.n_cols))
+        for z in st.zones:
+            vals = engine.zone_cell_values(p, 3, range(s), z, st.zones[z][1], engine.zone_members(p, z))
+            for zz, i, off, ncol in sm.entries:
+                if zz == z:
+                    phys[:, off:off + ncol] = vals[i]
+        k = sm.chunk()
+        chunks = [sm.strengths(phys[a:a + k]) for a in range(0, s, k)]
+        # the layout before: one call on the whole batch, strengths from the array path
+        over = engine.strength_overrides(p, engine._valid_base_values(p, 3, range(s)),
+                                         lambda prop: engine._det_value(p, prop))
+        c_all, t_all = base_strength(st.bank, p.section.materials, p.hypothesis, overrides=over)
+        kw = {"interslice": p.interslice} if method != "bishop" else {}
+        factor_of_safety(st.terms, *chunks[0], method, **kw)
+        evals = s * st.rows.size * p.n_slices
+        import numba
+
+        rate = {"chunks": [], "one call": [], "chunks, 1 thread, per CPU s": []}
+        for _ in range(args.repeat):
+            t = time.perf_counter()
+            for c, tp in chunks:
+                factor_of_safety(st.terms, c, tp, method, **kw)
+            rate["chunks"].append(evals / (time.perf_counter() - t) / 1e6)
+            t = time.perf_counter()
+            factor_of_safety(st.terms, c_all, t_all, method, **kw)
+            rate["one call"].append(evals / (time.perf_counter() - t) / 1e6)
+            numba.set_num_threads(1)
+            t = time.process_time()
+            for c, tp in chunks:
+                factor_of_safety(st.terms, c, tp, method, **kw)
+            rate["chunks, 1 thread, per CPU s"].append(evals / (time.process_time() - t) / 1e6)
+            numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
+        best = max(rate["chunks"])
+        cpu = rate["chunks, 1 thread, per CPU s"]
+        print(f"[kernel] {method}, levee {hyp}: {st.rows.size} surfaces x {p.n_slices} slices x {s} realisations")
+        print(f"  factor_of_safety on chunks of {k}: {spread(rate['chunks'], '{:.0f}')} M slice-eval/s wall "
+              f"({numba.config.NUMBA_NUM_THREADS} threads); one call on the batch: "
+              f"{spread(rate['one call'], '{:.0f}')} M/s; chunks on one thread: {spread(cpu, '{:.0f}')} M per CPU second")
+        print(f"  target >= {target:.0f} M/s: {verdict(best >= target)} in wall time at best; "
+              f"{'met' if 2 * max(cpu) >= target else 'NOT met'} as 2 cores x the CPU rate (what an idle machine gives)")
+
+
+# -------------------------------------------------------------------- jobs
+def _cli(argv, env=None):
+    t = time.perf_counter()
+    subprocess.run([sys.executable, "-m", "slipfield.slope.cli"] + argv, check=True, env=env,
+                   stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    return time.perf_counter() - t
+
+
+def part_jobs(args):
+    times = {1: [], 2: []}
+    with tempfile.TemporaryDirectory() as tmp:
+        for r in range(args.repeat):
+            for j in (1, 2):
+                out = os.path.join(tmp, f"j{j}_{r}")
+                times[j].append(_cli(["simulate", str(CASE), "--realisations", str(args.n_jobs_run),
+                                      "--jobs", str(j), "--quiet", "--out", out]))
+    ratio = [a / b for a, b in zip(times[1], times[2])]
+    print(f"[jobs] slipfield simulate levee, {args.n_jobs_run} realisations: --jobs 1 {spread(times[1], '{:.1f}')} s, "
+          f"--jobs 2 {spread(times[2], '{:.1f}')} s; ratio {spread(ratio, '{:.2f}')} "
+          f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best)")
+
+
+# --------------------------------------------------------------------- run
+def part_run(args):
+    cold, warm = [], []
+    with tempfile.TemporaryDirectory() as tmp:
+        for r in range(args.repeat):
+            env = dict(os.environ, NUMBA_CACHE_DIR=os.path.join(tmp, f"numba_{r}"))
+            cold.append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"c{r}")], env))
+            warm.append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"w{r}")], env))
+    print(f"[run] slipfield run levee demo: cold (empty numba cache) {spread(cold, '{:.1f}')} s "
+          f"(target <= 15 s: {verdict(min(cold) <= 15)} at best), warm {spread(warm, '{:.1f}')} s "
+          f"(target <= 10 s: {verdict(min(warm) <= 10)} at best)")
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--parts", default="sim,memory,kernel,jobs,run")
+    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--n-sim", type=int, default=4000, help="realisations of the --jobs 2 simulate timing")
+    ap.add_argument("--n-cpu", type=int, default=400, help="realisations of the CPU-time comparison")
+    ap.add_argument("--n-jobs-run", type=int, default=16000)
+    ap.add_argument("--cache", default=os.path.join(tempfile.gettempdir(), "slipfield_bench_levee.pickle"),
+                    help="pickle of the levee problems (built once; delete it after changing the case)")
+    args = ap.parse_args()
+    print(f"{os.cpu_count()} cores, load average {os.getloadavg()[0]:.1f} at start")
+    for part in args.parts.split(","):
+        {"sim": part_sim, "memory": part_memory, "kernel": part_kernel, "jobs": part_jobs, "run": part_run}[part](args)
+        sys.stdout.flush()
+    print(f"load average {os.getloadavg()[0]:.1f} at end")
+
+
+if __name__ == "__main__":
+    main()

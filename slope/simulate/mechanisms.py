@@ -1,0 +1,159 @@
+"""Per-realisation search that follows the realisation's own weak zones.
+
+After the bank (every family re-searched with the realisation's strengths),
+the lowest clean surfaces of *different families* (the best circle, the best
+block, the best non-circular surface of the bank) start a dynamic-programming
+search (:mod:`slope.search_dp`, after Baker 1980) whose segment strengths come
+from the realisation's fields by the same mapping as the bank's
+(:func:`slope.simulate.refinement.realisation_overrides`), so the path moves
+toward the realisation's weak cells. Every path and every start surface is
+then judged by the method of slices (``method``), and only clean solutions
+count: converged, no intolerable flag (the bank's rule: a negative normal
+force at a few slices or a thrust line outside a slice is tolerated, a
+spurious root or a vanishing m_α is not). The realisation's FS is the lower
+of the bank's and the search's.
+
+The first band of each start surface depends on the geometry only, so its
+segment terms are kept per process and reused by every realisation that
+starts from that surface (unless unit weights are random).
+"""
+from __future__ import annotations
+
+from collections import OrderedDict
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..bank import section_with_unit_weights
+from ..errors import InputError
+from ..search import evaluate_surfaces
+from ..search_dp import DP_FAMILY, DPSettings, _spencer, _start_xy, dp_surface, first_band
+from ..surfaces import family_of
+from .refinement import _grid_values, realisation_overrides
+
+__all__ = ["MECHANISM_SEARCH", "mechanism_search", "max_vertices", "surface_families"]
+
+MECHANISM_SEARCH = DP_FAMILY
+_CACHE: OrderedDict = OrderedDict()
+_CACHE_SIZE = 64
+
+
+def surface_families(problem) -> list:
+    """Family of every surface of a problem's bank (kept on the problem)."""
+    fam = getattr(problem, "_families", None)
+    if fam is None or len(fam) != len(problem.surfaces):
+        fam = [family_of(s) for s in problem.surfaces]
+        problem._families = fam
+    return fam
+
+
+def max_vertices(settings) -> int:
+    """Upper bound of the vertices of a path found with ``settings`` (for fixed-size storage)."""
+    return int(settings.columns) + 32  # columns plus the ground's vertices inside a band
+
+
+def _starts(problem, fs_row, ok_row, n_families):
+    """Bank indices of the lowest clean surface of each family, lowest first, at most n_families."""
+    fam = surface_families(problem)
+    good = np.where(ok_row & np.isfinite(fs_row), fs_row, np.inf)
+    best = {}
+    for i in np.argsort(good, kind="stable"):
+        if not np.isfinite(good[i]):
+            break
+        f = fam[int(i)]
+        if f not in best:
+            best[f] = int(i)
+            if len(best) == n_families:
+                break
+    return list(best.values())
+
+
+def _key(problem):
+    k = getattr(problem, "_mechanism_key", None)
+    if k is None:
+        k = problem.fingerprint()
+        problem._mechanism_key = k
+    return k
+
+
+def _start_data(problem, section, index, st, reuse):
+    """First band of a start surface and Spencer's θ on it with the mean strengths (kept per process)."""
+    def build():
+        surf = problem.surfaces[index]
+        _, theta = _spencer(section, _start_xy(section, surf), problem.hypothesis, None, problem.n_slices)
+        return first_band(section, surf, st), (theta if np.isfinite(theta) else 0.0)
+
+    if not reuse:
+        return build()
+    key = (_key(problem), index, st)
+    data = _CACHE.get(key)
+    if data is None:
+        data = _CACHE[key] = build()
+        while len(_CACHE) > _CACHE_SIZE:
+            _CACHE.popitem(last=False)
+    else:
+        _CACHE.move_to_end(key)
+    return data
+
+
+def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
+    """Search realisation k from the lowest surfaces of different families.
+
+    Parameters
+    ----------
+    problem : RandomProblem
+    seed, k : int
+        Run seed and realisation number.
+    fs_row, ok_row : ndarray (n_surfaces,)
+        The realisation's bank FS and which of them are clean.
+    settings : RefineSettings
+        ``families`` start surfaces, ``columns``, ``nodes``, ``passes`` of
+        the grids, ``method`` of the final judgement.
+
+    Returns
+    -------
+    fs : float
+        Lowest clean FS among the paths found (by ``settings.method``);
+        NaN when none was clean. The caller keeps the bank's FS when it is
+        lower.
+    surface : Polyline or Circle or None
+        The surface of that FS.
+    """
+    starts = _starts(problem, np.asarray(fs_row, float), np.asarray(ok_row, bool), settings.families)
+    if not starts:
+        return float("nan"), None
+    section = problem.section
+    values = _grid_values(problem, seed, k)
+    weights = {z: float(v.ravel()[0]) for (i, z), v in values.items()
+               if problem.properties[i].prop == "unit_weight"}
+    if weights:
+        section = section_with_unit_weights(section, weights)
+    overrides = realisation_overrides(problem, seed, k, section, values)
+    # the grid's segments take the value at their midpoint (the search only needs to find the weak
+    # cells); the paths are judged with the problem's own averaging
+    grid_overrides = realisation_overrides(problem, seed, k, section, values, n_per_base=1)
+    st = DPSettings(columns=settings.columns, nodes=settings.nodes, passes=settings.passes, theta_rounds=1)
+    candidates = []
+    thetas = []
+    for i in starts:
+        start = problem.surfaces[i]
+        try:
+            # θ of the start with the mean strengths: Baker's (1980) fixed-θ recursion needs only a
+            # fair value; the paths are judged below by the full method
+            terms, theta = _start_data(problem, section, i, st, reuse=not weights)
+            paths = dp_surface(section, start, hypothesis=problem.hypothesis, overrides=grid_overrides, settings=st,
+                               n_slices=problem.n_slices, first_terms=terms, start_solution=(fs_row[i], theta))
+        except InputError:
+            continue  # a start the grid cannot follow (no depth): the others still run
+        candidates += paths  # the start is the bank's own surface: its FS is already in the bank
+        thetas.append(theta)
+    if not candidates:
+        return float("nan"), None
+    opts = {}
+    if settings.method in ("spencer", "morgenstern-price"):  # start the iteration near the answer
+        opts = dict(F_start=float(np.min(np.asarray(fs_row)[starts])), lam_start=float(np.tan(thetas[0])))
+    res = evaluate_surfaces(section, candidates, hypothesis=problem.hypothesis, method=settings.method,
+                            n_slices=problem.n_slices, overrides=overrides, search=MECHANISM_SEARCH, **opts)
+    if res.critical is None or not np.isfinite(res.fs_min):
+        return float("nan"), None
+    return float(res.fs_min), res.critical

@@ -1,0 +1,136 @@
+"""Per-realisation search by dynamic programming (slope.simulate.mechanisms, issue 15).
+
+Checks: with common random numbers (same seed) the free search never gives
+a realisation a higher FS, nor pf a lower value, than circles alone, and its
+circles-only FS is exactly the circles-only run's; homogeneous realisations
+(θ → ∞) give FS proportional to su on one and the same path, at or below
+the published circle value; the accepted surfaces are stored, drawable and
+judged clean by the method of slices when evaluated again.
+"""
+import math
+
+import numpy as np
+import pytest
+
+from slipfield.fields.marginals import make_marginal
+from slipfield.fields.seeding import realisation_rng
+from slipfield.slope.errors import InputError
+from slipfield.slope.examples import layered_weak_section
+from slipfield.slope.search import evaluate_surfaces, lattice_circles
+from slipfield.slope.search_block import block_polylines
+from slipfield.slope.simulate import RandomProblem, RandomProperty, RefineSettings, simulate
+from slipfield.slope.simulate.refinement import realisation_overrides
+from slipfield.slope.surfaces import Circle, Polyline, family_of
+
+from support.problems import gf_problem
+
+DP = dict(search="dynamic-programming")
+
+
+def _seam_problems():
+    """Invented: 10 m cut over a thin weak seam (slope.examples), seam φ' random; circles alone, circles + blocks."""
+    sec = layered_weak_section()
+    c = lattice_circles(sec, x_range=(30.0, 55.0), y_range=(12.0, 30.0), nx=5, ny=5, n_radii=4)
+    circles = [Circle(float(x), float(y), float(r)) for x, y, r in zip(c.xc, c.yc, c.radius)]
+    blocks = block_polylines(sec, "seam", entry=(15.0, 30.0), exit=(45.0, 60.0), points=4)
+    prop = RandomProperty("seam", "phi", make_marginal("lognormal", mean=9.0, cov=0.25), 10.0, 1.0)
+    kw = dict(n_slices=40, cell=1.0)
+    only = RandomProblem(sec, "drained", "spencer", [prop], circles, 0, **kw)
+    both = RandomProblem(sec, "drained", "spencer", [prop], circles + blocks, 0, **kw)
+    return only, both
+
+
+def test_free_search_never_below_circles_alone_sample_by_sample():
+    # Griffiths & Fenton (2004) undrained slope, θ = 5 m, COV 0.5: a bank of circles, then the
+    # per-realisation search below FS 1.3. Same seed: common random numbers.
+    p, _ = gf_problem(5.0, 0.5)
+    n, seed = 40, 5
+    a = simulate(p, n, seed)
+    b = simulate(p, n, seed, refine=RefineSettings(below=1.3, **DP))
+    np.testing.assert_array_equal(b.fs_circles_only, a.fs)  # circles alone: exactly the plain run
+    assert b.n_refined > 0                                  # the search found lower surfaces ...
+    ok = np.isfinite(a.fs)
+    assert np.all(b.fs[ok] <= a.fs[ok])                     # ... and never a higher FS
+    assert b.pf >= a.pf
+    assert b.pf_circles == a.pf
+    d = b.to_dict()
+    assert d["pf_circles_only"] == a.pf
+    assert d["governing_family"]["dynamic-programming (per realisation)"] == b.n_refined
+    assert sum(d["governing_family"].values()) == n
+
+
+def test_bank_with_blocks_keeps_circles_only_pf_by_common_random_numbers():
+    only, both = _seam_problems()
+    n, seed = 16, 11
+    a = simulate(only, n, seed)
+    b = simulate(both, n, seed)
+    # the same fields on both banks: the circles of the bigger bank give the circles-only run
+    np.testing.assert_allclose(b.fs_circles_only, a.fs, rtol=1e-12)
+    assert np.all(b.fs <= a.fs)
+    # the seam (φ' about 9°) governs: blocks along it, not circles through the stiff clay
+    assert b.family_counts().get("block", 0) == n
+    assert np.all(b.fs < 0.8 * a.fs)
+
+
+def test_homogeneous_realisations_share_one_path_at_or_below_the_circle():
+    # θ → ∞: realisation k is the homogeneous Griffiths & Fenton (2004) slope with su_k, so FS ∝ su_k
+    # on one and the same critical path. Taylor's circle value (FS ≈ 1.47 at cu/(γH) = 0.25, D = 2,
+    # recalled from memory, as in Griffiths & Lane 1999) bounds it from above; Spencer's method finds
+    # a composite path along the firm base below it (measured 1.37-1.42 depending on the grid).
+    p, _ = gf_problem(math.inf, 0.3)
+    r = simulate(p, 6, seed=3, refine=RefineSettings(below=5.0, **DP))
+    assert r.n_refined == 6
+    su_mean = p.properties[0].marginal.mean
+    su = np.array([p.properties[0].marginal.from_standard_normal(realisation_rng(3, k, 0, 0).standard_normal())
+                   for k in range(6)])
+    scaled = r.fs * su_mean / su
+    np.testing.assert_allclose(scaled, scaled[0], rtol=1e-6)
+    assert scaled[0] <= 1.47 * 1.01
+    assert np.all(r.fs < r.fs_bank)
+    np.testing.assert_allclose(r.refined_xy[0], r.refined_xy[5], atol=1e-9)
+
+
+def test_accepted_surfaces_are_stored_and_clean():
+    p, _ = gf_problem(5.0, 0.5)
+    settings = RefineSettings(below=1.3, **DP)
+    b = simulate(p, 12, 5, refine=settings)
+    refined = np.flatnonzero(b.fs < b.fs_bank)
+    assert refined.size
+    assert np.all(np.isnan(b.refined_xy[np.setdiff1d(np.arange(12), refined)]))
+    for k in refined[:3]:
+        xy = b.refined_xy[k]
+        xy = xy[np.isfinite(xy[:, 0])]
+        e = evaluate_surfaces(p.section, Polyline(xy), hypothesis=p.hypothesis, method=settings.method,
+                              n_slices=p.n_slices, overrides=realisation_overrides(p, 5, int(k)))
+        assert e.counted[0]                       # converged, no intolerable flag
+        assert e.fs[0] == pytest.approx(b.fs[k], rel=1e-9)
+
+
+def test_results_reproducible_for_any_batch_and_kept_terms():
+    from slipfield.slope.simulate import mechanisms
+
+    p, _ = gf_problem(5.0, 0.5)
+    s = RefineSettings(below=1.3, **DP)
+    mechanisms._CACHE.clear()
+    a = simulate(p, 8, 5, refine=s)                 # first bands built as the starts come
+    c = simulate(p, 8, 5, refine=s, batch=3)        # other batches, first bands kept from the run above
+    np.testing.assert_array_equal(a.fs, c.fs)
+    np.testing.assert_array_equal(a.refined_xy, c.refined_xy)
+
+
+def test_refine_settings_refuse_unknown_search_and_keep_old_description():
+    with pytest.raises(InputError, match="refine_search"):
+        RefineSettings(below=1.2, search="simulated-annealing")
+    with pytest.raises(InputError, match="columns"):
+        RefineSettings(below=1.2, search="dynamic-programming", columns=2)
+    # stores written before the dynamic-programming search keep their header
+    assert set(RefineSettings(below=1.2).describe()) == {"below", "method", "n_vertices", "max_evaluations"}
+    assert RefineSettings(below=1.2, **DP).describe()["search"] == "dynamic-programming"
+
+
+def test_family_tags_survive_pickling():
+    import pickle
+
+    only, both = _seam_problems()
+    back = pickle.loads(pickle.dumps(both))
+    assert [family_of(s) for s in back.surfaces] == [family_of(s) for s in both.surfaces]

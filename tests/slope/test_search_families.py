@@ -1,0 +1,226 @@
+"""Block and dynamic-programming searches (issue 15): closed forms, Taylor's numbers, bad input."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from slipfield.slope.case.schema import CaseError, parse_case
+from slipfield.slope.cli import main
+from slipfield.slope.errors import InputError
+from slipfield.slope.examples import simple_slope
+from slipfield.slope.search import centre_lattice, evaluate_surfaces, window
+from slipfield.slope.search_block import block_polylines
+from slipfield.slope.search_dp import DP_FAMILY, DPSettings, dp_surface
+from slipfield.slope.section import Section
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle, family_of
+
+PHI0_TOL = ("negative-normal", "thrust-outside", "small-m-alpha")  # m_alpha = cos a is harmless for phi = 0
+
+
+# ------------------------------------------------- long block: infinite slope
+def _long_seam(beta=10.0, length=500.0, cover=1.0, seam=0.2):
+    """A long 10° slope with a thin weak seam parallel to it, `cover` m below (vertically)."""
+    H = length * np.tan(np.radians(beta))
+    ground = np.array([[-30.0, 0.0], [0.0, 0.0], [length, H], [length + 30.0, H]])
+    mats = {m.name: m for m in (Material("cover", unit_weight=20.0, c=0.0, phi=30.0),
+                                Material("weak", unit_weight=20.0, c=2.0, phi=20.0),
+                                Material("firm", unit_weight=20.0, c=50.0, phi=35.0))}
+    layers = [("cover", "cover", ground - [0.0, cover]), ("seam", "weak", ground - [0.0, cover + seam]),
+              ("firm", "firm", None)]
+    return Section.from_layers(ground, layers, mats, base_y=-20.0), H
+
+
+def test_block_on_a_long_seam_matches_the_infinite_slope():
+    beta, length, lift = 10.0, 500.0, 0.5
+    sec, H = _long_seam(beta, length)
+    # Infinite slope, dry (e.g. Duncan, Wright & Brandon 2014, ch. 6): FS = [c' + γ z cos²β tanφ'] /
+    # (γ z sinβ cosβ), z the vertical depth of the sliding plane: the base lies half way through the
+    # 0.2 m seam under 1 m of cover. The block's wedges are end effects of order z / L = 1/500: the
+    # active and passive thrusts (Rankine, c' = 0 cover, about 0.5 γ z² K) change the resistance by
+    # about 0.4 %; tolerance 1 % (issue 15).
+    z = 1.0 + 0.2 * (1 - lift)
+    b = np.radians(beta)
+    exact = (2.0 + 20.0 * z * np.cos(b) ** 2 * np.tan(np.radians(20.0))) / (20.0 * z * np.sin(b) * np.cos(b))
+    blocks = block_polylines(sec, "seam", entry=(length - 20.0, length + 20.0), exit=(-20.0, 20.0), points=7,
+                             lift=lift)
+    assert all(family_of(p) == "block" for p in blocks)
+    r = evaluate_surfaces(sec, blocks, method="spencer", n_slices=100)
+    assert r.fs_min == pytest.approx(exact, rel=0.01)
+    # Circles cannot follow a 500 m long, 1.1 m deep plane: the best of a lattice over the whole
+    # slope is more than 8 % above it (measured 12.6 % with a finer lattice).
+    c = centre_lattice(sec, nx=10, ny=10, n_radii=8, method="spencer", n_slices=40)
+    assert c.fs_min > 1.08 * exact
+
+
+def test_block_wedges_follow_rankine_angles():
+    sec, H = _long_seam()
+    blocks = block_polylines(sec, "seam", entry=(490.0, 510.0), exit=(-10.0, 10.0), points=2, lift=0.5,
+                             hypothesis="drained")
+    p = blocks[0].points
+    # mass moves toward -x: the passive wedge is at the left end, in the c' = 0, φ' = 30° cover:
+    # Rankine (1857) passive plane at 45° - φ/2 = 30°, active at 45° + φ/2 = 60° to the horizontal
+    left = np.degrees(np.arctan2(p[0, 1] - p[1, 1], p[1, 0] - p[0, 0]))
+    right = np.degrees(np.arctan2(p[-1, 1] - p[-2, 1], p[-1, 0] - p[-2, 0]))
+    assert left == pytest.approx(30.0, abs=0.5)
+    assert right == pytest.approx(60.0, abs=0.5)
+
+
+# ------------------------------------------------------ Taylor's numbers --
+def _taylor_section(beta):
+    cot = 1e-3 if beta == 90 else 1.0 / np.tan(np.radians(beta))  # x must increase: a 1 cm wide "vertical" face
+    return simple_slope(10.0, cot, 3.0, material=Material("clay", unit_weight=20.0, su_model="constant", su=50.0)), cot
+
+
+@pytest.mark.parametrize("beta,ns,below", [(90, 0.261, 0.01), (75, 0.219, 0.015)])
+def test_taylor_numbers_with_dynamic_programming(beta, ns, below):
+    # Taylor (1937) stability numbers c/(F γ H), φ = 0, toe circles, recalled from memory: 0.261
+    # (vertical), 0.219 (75°). The non-circular search starts from the best window circle (Spencer)
+    # and may only go below it (Ns up). On φ = 0 Spencer's method gives non-circular surfaces a
+    # little below the circle at 75° (measured 1.2 %: no interslice shear limit stops it), hence
+    # the one-sided 1.5 % there; 1 % for the vertical cut (measured 0.05 %).
+    sec, cot = _taylor_section(beta)
+    L = 10.0 * cot
+    circ = window(sec, upslope=(L + 0.5, L + 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20,
+                  max_angle=89.0, min_angle=5.0, method="spencer", hypothesis="undrained", tolerate=PHI0_TOL)
+    paths = dp_surface(sec, circ.critical, hypothesis="undrained", n_slices=60)
+    assert paths and all(family_of(p) == DP_FAMILY for p in paths)
+    r = evaluate_surfaces(sec, paths, method="spencer", hypothesis="undrained", n_slices=60, tolerate=PHI0_TOL)
+    ns_dp = 50.0 / (20.0 * 10.0 * r.fs_min)
+    ns_circle = 50.0 / (20.0 * 10.0 * circ.fs_min)
+    assert ns_circle == pytest.approx(ns, rel=0.01)
+    assert ns_dp >= ns_circle * (1 - 1e-3)
+    assert ns * (1 - 0.01) <= ns_dp <= ns * (1 + below)
+
+
+# ------------------------------------------------------- homogeneous slope --
+def test_dynamic_programming_never_above_the_best_circle_on_a_homogeneous_slope():
+    # c' = 10 kPa, φ' = 25°, 10 m high 2H:1V slope (invented): the critical surface of a
+    # homogeneous c-φ slope is close to a circle (e.g. Duncan, Wright & Brandon 2014, ch. 7), so
+    # the search from the best circle must end at or below it, and not far below (2 %).
+    sec = simple_slope(10.0, 2.0, 2.0)
+    circ = centre_lattice(sec, nx=10, ny=10, n_radii=8, method="spencer", n_slices=40)
+    paths = dp_surface(sec, circ.critical, n_slices=40, settings=DPSettings(columns=20, nodes=15, passes=2))
+    r = evaluate_surfaces(sec, paths, method="spencer", n_slices=40)
+    assert r.counted.any()
+    assert r.fs_min <= circ.fs_min * (1 + 1e-4)
+    assert r.fs_min >= circ.fs_min * 0.98
+
+
+def test_dynamic_programming_on_phi0_vertical_cut_is_near_circular():
+    # Homogeneous φ = 0 vertical cut: the critical surface is Taylor's toe circle; the path found
+    # from it stays within 0.5 % in FS and within 3 % of the circle's radius everywhere.
+    sec, _ = _taylor_section(90)
+    circ = window(sec, upslope=(0.5, 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20,
+                  max_angle=89.0, min_angle=5.0, method="spencer", hypothesis="undrained", tolerate=PHI0_TOL)
+    paths = dp_surface(sec, circ.critical, hypothesis="undrained", n_slices=60)
+    r = evaluate_surfaces(sec, paths[-1], method="spencer", hypothesis="undrained", n_slices=60, tolerate=PHI0_TOL)
+    assert r.fs[0] == pytest.approx(circ.fs_min, rel=0.005)
+    c = circ.critical
+    p = paths[-1].points[1:-1]
+    off = np.abs(np.hypot(p[:, 0] - c.xc, p[:, 1] - c.yc) - c.radius)
+    assert off.max() < 0.03 * c.radius
+
+
+def test_dp_settings_refuse_fewer_than_three_vertices():
+    with pytest.raises(InputError, match="columns"):
+        DPSettings(columns=2)
+    with pytest.raises(InputError, match="nodes"):
+        DPSettings(nodes=1)
+
+
+# ------------------------------------------------------------- bad input --
+_CASE = """
+[section]
+ground = [[0.0, 10.0], [25.0, 10.0], [45.0, 0.0], [75.0, 0.0]]
+bottom = -12.0
+[[section.layer]]
+name = "upper"
+material = "clay"
+bottom = -0.4
+[[section.layer]]
+name = "seam"
+material = "seam"
+bottom = -1.0
+[[section.layer]]
+name = "lower"
+material = "clay"
+[[material]]
+name = "clay"
+unit_weight = 20.0
+c = 20.0
+phi = 28.0
+[[material]]
+name = "seam"
+unit_weight = 20.0
+c = 0.0
+phi = 12.0
+[analysis]
+hypotheses = ["drained"]
+methods = ["spencer"]
+method = "{method}"
+[search]
+kind = "centre-lattice"
+trials = 100
+[[search.block]]
+zone = "{zone}"
+entry = {entry}
+exit = [45.0, 65.0]
+[search.dynamic_programming]
+columns = {columns}
+"""
+
+
+def _case(method="spencer", zone="seam", entry="[10.0, 30.0]", columns=20):
+    return _CASE.format(method=method, zone=zone, entry=entry, columns=columns)
+
+
+def test_good_block_case_parses():
+    case = parse_case(_case())
+    assert case["search"]["block"][0]["points"] == 10
+    assert case["search"]["dynamic_programming"]["passes"] == 3
+
+
+@pytest.mark.parametrize("kw,key", [
+    (dict(zone="slimes"), "search.block[0].zone"),
+    (dict(entry="[100.0, 120.0]"), "search.block[0].entry"),
+    (dict(entry="[30.0, 10.0]"), "search.block[0].entry"),
+    (dict(columns=2), "search.dynamic_programming.columns"),
+    (dict(method="bishop"), "analysis.method"),
+])
+def test_bad_search_families_name_the_key(kw, key):
+    with pytest.raises(CaseError) as e:
+        parse_case(_case(**kw))
+    assert key in str(e.value)
+
+
+def test_bad_block_exits_2_before_any_output(tmp_path, capsys):
+    case = tmp_path / "bad.toml"
+    case.write_text(_case(zone="slimes"))
+    out = tmp_path / "out"
+    assert main(["run", str(case), "--out", str(out), "--quiet"]) == 2
+    assert "search.block[0].zone" in capsys.readouterr().err
+    assert not out.exists()
+
+
+def test_block_zone_missing_from_library_call_names_the_key():
+    sec = simple_slope()
+    with pytest.raises(InputError, match="search.block.zone"):
+        block_polylines(sec, "slimes", entry=(25.0, 35.0), exit=(-10.0, 0.0))
+
+
+def test_case_bank_holds_every_family():
+    from slipfield.slope.case.analyses import trial_surfaces
+    from slipfield.slope.case.build import build_section, Case
+
+    data = parse_case(_case())
+    case = Case("<test>", data, build_section(data))
+    res = trial_surfaces(case, "drained", "spencer")
+    fams = {family_of(s) for s in res.surfaces}
+    assert fams == {"circle", "block", DP_FAMILY}
+    fam_crit = family_of(res.critical)
+    # the seam (c' = 0, φ' = 12°) governs: a surface along it, not a circle through the stiff clay
+    assert fam_crit in ("block", DP_FAMILY)
+    blocks = [i for i, s in enumerate(res.surfaces) if family_of(s) == "block"]
+    assert res.fs_min <= np.nanmin(np.where(res.counted[blocks], res.fs[blocks], np.inf))
+    assert isinstance(res.surfaces[0], Circle)
