@@ -228,6 +228,10 @@ _CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the s
 
 
 def main(argv=None) -> int:
+    given = sys.argv[1:] if argv is None else list(argv)
+    if given[:1] == ["run"] and not {"--quiet", "-h", "--help", "--json"} & set(given):
+        # Something on the screen within a second: building the parser loads the numerical libraries.
+        print("slipfield run · starting", file=sys.stderr, flush=True)
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
