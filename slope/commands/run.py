@@ -349,7 +349,7 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
         The content of ``results.json``.
     """
     from ..report.build import write_run_report
-    from .folders import OutputFolder
+    from .folders import MARKER, OutputFolder
 
     progress = _Progress(quiet)
     t_write = time.perf_counter()
@@ -363,7 +363,9 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
             res.wall_time_s = round(time.perf_counter() - t_start, 2)
         else:  # analysed earlier: the analyses' time plus the writing
             res.wall_time_s = round((res.analysis_time_s or 0.0) + time.perf_counter() - t_write, 2)
-        res.files = sorted(str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()) + ["results.json"]
+        # every file the folder will hold: the outputs, results.json and the folder's own marker
+        res.files = sorted([str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()]
+                           + ["results.json", MARKER])
         doc = results_json(res)
         (stage / "results.json").write_text(json.dumps(doc, indent=2, allow_nan=False))
         out.commit(stage)
