@@ -18,9 +18,10 @@ from pathlib import Path
 import numpy as np
 
 from .errors import InputError
-from .generators import make_generator
+from .generators import generator_names, make_generator
 from .grid import RegularGrid
-from .models import get_model
+from .marginals import MARGINAL_NAMES
+from .models import MODEL_NAMES, get_model
 
 __all__ = ["add_fields_parser", "build_parser", "main", "run_vrf", "run_sample"]
 
@@ -140,15 +141,15 @@ def run_vrf(args) -> int:
 # sample
 def _marginal(args):
     if args.marginal is None:
-        if any(v is not None for v in (args.mean, args.cov, args.lower, args.upper)):
-            raise InputError("--mean/--cov/--lower/--upper need --marginal (e.g. --marginal lognormal)")
+        if any(v is not None for v in (args.mean, args.cov, args.lower, args.upper, args.mode)):
+            raise InputError("--mean/--cov/--lower/--upper/--mode need --marginal (e.g. --marginal lognormal)")
         return None
     from .marginals import make_marginal
 
     if args.cov is not None and not (args.cov >= 0):
         raise InputError(f"--cov must be >= 0 (coefficient of variation), got {args.cov!r}")
     return make_marginal(args.marginal, mean=args.mean, cov=args.cov,
-                         lower=args.lower, upper=args.upper)
+                         lower=args.lower, upper=args.upper, mode=args.mode)
 
 
 def _write_blocks(out, ext, n, blocks, *, grid=None, mesh=None, seed=0):
@@ -227,8 +228,20 @@ def run_sample(args) -> int:
 
 # ---------------------------------------------------------------------------
 # parsers
-_MODEL_HELP = ("correlation model: exponential (markov), gaussian (squared-exponential), "
-               "second-order-markov, spherical, matern (with --nu)")
+_MODEL_HELP = "correlation model: " + ", ".join(MODEL_NAMES) + " (matern with --nu)"
+
+
+def _whole(lo):
+    """argparse type: a whole number >= lo (refused at parse time, exit 2)."""
+    def parse(text):
+        try:
+            v = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; give one >= {lo}") from None
+        if v < lo:
+            raise argparse.ArgumentTypeError(f"{v} is too small; give a whole number >= {lo}")
+        return v
+    return parse
 
 
 def _add_common(p, multi):
@@ -269,16 +282,16 @@ def _fill(fp):
     s.add_argument("--dy", type=float, help="cell size along y (m)")
     s.add_argument("--x0", type=float, default=0.0, help="grid lower-left x (m), default 0")
     s.add_argument("--y0", type=float, default=0.0, help="grid lower-left y (m), default 0")
-    s.add_argument("--n", type=int, default=1, help="number of realisations (default 1)")
-    s.add_argument("--seed", type=int, default=0, help="run seed (default 0)")
-    s.add_argument("--method", default="fft", choices=["cholesky", "kl", "fft", "spectral"],
-                   help="generator (default fft)")
-    s.add_argument("--marginal", help="normal, lognormal, truncated-normal, beta, uniform, ...")
+    s.add_argument("--n", type=_whole(1), default=1, help="number of realisations (default 1)")
+    s.add_argument("--seed", type=_whole(0), default=0, help="run seed (default 0)")
+    s.add_argument("--method", default="fft", choices=generator_names(), help="generator (default fft)")
+    s.add_argument("--marginal", choices=MARGINAL_NAMES, help="marginal distribution of the values")
     s.add_argument("--mean", type=float, help="marginal mean (property units)")
     s.add_argument("--cov", type=float, help="marginal coefficient of variation (>= 0)")
     s.add_argument("--lower", type=float, help="marginal lower bound (truncated-normal, beta, uniform)")
     s.add_argument("--upper", type=float, help="marginal upper bound (truncated-normal, beta, uniform)")
-    s.add_argument("--batch", type=int, default=50,
+    s.add_argument("--mode", type=float, help="most likely value (triangular)")
+    s.add_argument("--batch", type=_whole(1), default=50,
                    help="realisations generated and written per block (default 50)")
     s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf")
     s.add_argument("--quiet", action="store_true", help="no summary line")

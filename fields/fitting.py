@@ -38,9 +38,24 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import importlib
+
 import numpy as np
-from scipy import linalg, optimize, stats
 from threadpoolctl import threadpool_limits
+
+
+class _OnUse:
+    """A scipy module imported on first attribute use: the command line builds its parser
+    (``TRENDS``) with this module imported, and scipy.stats/linalg/optimize cost seconds."""
+
+    def __init__(self, name):
+        self._name = name
+
+    def __getattr__(self, attr):
+        return getattr(importlib.import_module(self._name), attr)
+
+
+linalg, optimize, stats = _OnUse("scipy.linalg"), _OnUse("scipy.optimize"), _OnUse("scipy.stats")
 
 from .averaging import variance_function
 from .errors import InputError
@@ -167,7 +182,10 @@ class ProfileFit:
             lo, hi = self.theta_h_ci
             lines.append(f"# theta_h {self.level:.0%} interval [{'≤' if self.theta_h_open[0] else ''}"
                          f"{lo:.3g}, {'≥' if self.theta_h_open[1] else ''}{hi:.3g}] m")
-        if self.trend == "linear":
+        if self.trend == "linear" and self.log:
+            lines.append("# the fitted median grows exponentially with depth while the case's su laws are "
+                         "linear: approximate it in the material's law, or fit without --log")
+        elif self.trend == "linear":
             lines.append("# the COV applies about the trend: put the trend in the material "
                          "(e.g. su = { law = \"depth\", value = ..., gradient = ... })")
         lines += ["[[random]]", f"material = {_toml_str(material)}", f"property = {_toml_str(prop)}",

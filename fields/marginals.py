@@ -37,7 +37,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import optimize, special, stats
+import scipy  # submodules load on first use: the command parser reads MARGINAL_NAMES from here
 
 from .errors import InputError, finite_float
 
@@ -160,8 +160,8 @@ class Marginal:
             return np.exp(self.params["mu_ln"] + self.params["sigma_ln"] * z)
         if self.name == "deterministic":
             return np.full_like(z, self.mean)
-        lo = self._dist.ppf(special.ndtr(np.minimum(z, 0.0)))
-        hi = self._dist.isf(special.ndtr(-np.maximum(z, 0.0)))
+        lo = self._dist.ppf(scipy.special.ndtr(np.minimum(z, 0.0)))
+        hi = self._dist.isf(scipy.special.ndtr(-np.maximum(z, 0.0)))
         return np.where(z < 0.0, lo, hi)
 
     def to_standard_normal(self, x):
@@ -179,7 +179,7 @@ class Marginal:
             return np.zeros_like(x)
         p = self._dist.cdf(x)
         q = self._dist.sf(x)
-        return np.where(p < 0.5, special.ndtri(p), -special.ndtri(q))
+        return np.where(p < 0.5, scipy.special.ndtri(p), -scipy.special.ndtri(q))
 
     # -- distribution functions --------------------------------------------
     def ppf(self, p):
@@ -270,7 +270,7 @@ def _solve_truncated_parent(mean, std, lo, hi):
 
     def moments(mu_p, s_p):
         a, b = (lo - mu_p) / s_p, (hi - mu_p) / s_p
-        d = stats.truncnorm(a, b, loc=mu_p, scale=s_p)
+        d = scipy.stats.truncnorm(a, b, loc=mu_p, scale=s_p)
         return d.mean(), d.std()
 
     def resid(u):
@@ -282,7 +282,7 @@ def _solve_truncated_parent(mean, std, lo, hi):
     # nearby bound (strongly truncated cases need σp > σ).
     for u0 in ([0.0, 0.0], [-1.0, 0.7], [1.0, 0.7], [0.0, 1.5]):
         with np.errstate(all="ignore"):
-            sol = optimize.root(resid, u0, method="hybr", options={"xtol": 1e-12})
+            sol = scipy.optimize.root(resid, u0, method="hybr", options={"xtol": 1e-12})
         if np.all(np.isfinite(sol.x)):
             r = np.max(np.abs(resid(sol.x)))
             if best is None or r < best[0]:
@@ -356,7 +356,7 @@ def make_marginal(
         _need(nm, mean=mean)
         s = _spread(nm, mean, cov, std)
         return Marginal("normal", mean, s, {"mu": mean, "sigma": s},
-                        _dist=stats.norm(mean, s))
+                        _dist=scipy.stats.norm(mean, s))
 
     if key == "lognormal":
         _need(nm, mean=mean)
@@ -370,7 +370,7 @@ def make_marginal(
         mu_ln = math.log(mean) - 0.5 * s2
         sig_ln = math.sqrt(s2)
         return Marginal("lognormal", mean, s, {"mu_ln": mu_ln, "sigma_ln": sig_ln},
-                        0.0, math.inf, stats.lognorm(sig_ln, scale=math.exp(mu_ln)))
+                        0.0, math.inf, scipy.stats.lognorm(sig_ln, scale=math.exp(mu_ln)))
 
     if key == "uniform":
         if lower is not None or upper is not None:
@@ -385,7 +385,7 @@ def make_marginal(
             s = _spread(nm, mean, cov, std)
             lo, hi = mean - math.sqrt(3.0) * s, mean + math.sqrt(3.0) * s
         return Marginal("uniform", 0.5 * (lo + hi), (hi - lo) / math.sqrt(12.0),
-                        {"lower": lo, "upper": hi}, lo, hi, stats.uniform(lo, hi - lo))
+                        {"lower": lo, "upper": hi}, lo, hi, scipy.stats.uniform(lo, hi - lo))
 
     if key == "triangular":
         _need(nm, lower=lower, mode=mode, upper=upper)
@@ -397,7 +397,7 @@ def make_marginal(
             raise InputError("triangular: give lower, mode and upper only")
         m = (lo + md + hi) / 3.0
         var = (lo * lo + md * md + hi * hi - lo * md - lo * hi - md * hi) / 18.0
-        d = stats.triang((md - lo) / (hi - lo), loc=lo, scale=hi - lo)
+        d = scipy.stats.triang((md - lo) / (hi - lo), loc=lo, scale=hi - lo)
         return Marginal("triangular", m, math.sqrt(var),
                         {"lower": lo, "mode": md, "upper": hi}, lo, hi, d)
 
@@ -417,7 +417,7 @@ def make_marginal(
         k = m * (1.0 - m) / v - 1.0
         a, b = m * k, (1.0 - m) * k
         return Marginal("beta", mean, s, {"alpha": a, "beta": b, "lower": lo, "upper": hi},
-                        lo, hi, stats.beta(a, b, loc=lo, scale=hi - lo))
+                        lo, hi, scipy.stats.beta(a, b, loc=lo, scale=hi - lo))
 
     # truncated-normal
     _need(nm, mean=mean)
@@ -436,7 +436,7 @@ def make_marginal(
             f"{mean:g} and std {s:g}; reduce cov or move the mean away from the bound"
         )
     mu_p, s_p = parent
-    d = stats.truncnorm((lo - mu_p) / s_p, (hi - mu_p) / s_p, loc=mu_p, scale=s_p)
+    d = scipy.stats.truncnorm((lo - mu_p) / s_p, (hi - mu_p) / s_p, loc=mu_p, scale=s_p)
     return Marginal("truncated-normal", mean, s,
                     {"parent_mean": mu_p, "parent_std": s_p, "lower": lo, "upper": hi},
                     lo, hi, d)
@@ -574,7 +574,7 @@ def nataf_correlation(m1: Marginal, m2: Marginal, rho_target: float) -> float:
             f"nataf_correlation: {n1} and {n2} marginals cannot have correlation {r}; "
             f"the reachable range is [{f_lo:.4f}, {f_hi:.4f}]"
         )
-    return optimize.brentq(lambda q: _physical_correlation(m1, m2, q) - r,
+    return scipy.optimize.brentq(lambda q: _physical_correlation(m1, m2, q) - r,
                            -edge, edge, xtol=1e-12)
 
 

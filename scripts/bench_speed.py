@@ -31,7 +31,11 @@ Parts (``--parts``, default all):
     ``slipfield run`` of the levee demo: cold (empty numba cache) and warm
     (targets 15 s and 10 s).
 
-Usage: python scripts/bench_speed.py [--parts sim,memory,kernel,jobs,run] [--repeat 3]
+Usage: python scripts/bench_speed.py [--parts sim,memory,kernel,jobs,run] [--repeat 3] [--before TREE]
+
+``--before TREE`` times the ``jobs`` and ``run`` commands of another source
+tree (e.g. ``git archive main | tar -x -C TREE`` plus its ``.dev`` import
+shim) alternately with this one, so a before/after table comes from one run.
 """
 import argparse
 import json
@@ -226,38 +230,54 @@ def part_kernel(args):
 
 
 # -------------------------------------------------------------------- jobs
-def _cli(argv, env=None):
+def _cli(argv, env=None, tree=None):
+    """Wall time of one ``slipfield`` command in a fresh process; ``tree``: another source tree
+    (its ``.dev`` import shim, see the brief of the work trees) instead of this one."""
+    env = dict(os.environ if env is None else env)
+    if tree is not None:
+        env["PYTHONPATH"] = str(Path(tree) / ".dev")
     t = time.perf_counter()
     subprocess.run([sys.executable, "-m", "slipfield.slope.cli"] + argv, check=True, env=env,
                    stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     return time.perf_counter() - t
 
 
+def _trees(args):
+    return [("this tree", None)] + ([("before", args.before)] if args.before else [])
+
+
 def part_jobs(args):
-    times = {1: [], 2: []}
+    rows = {}
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(args.repeat):
-            for j in (1, 2):
-                out = os.path.join(tmp, f"j{j}_{r}")
-                times[j].append(_cli(["simulate", str(CASE), "--realisations", str(args.n_jobs_run),
-                                      "--jobs", str(j), "--quiet", "--out", out]))
-    ratio = [a / b for a, b in zip(times[1], times[2])]
-    print(f"[jobs] slipfield simulate levee, {args.n_jobs_run} realisations: --jobs 1 {spread(times[1], '{:.1f}')} s, "
-          f"--jobs 2 {spread(times[2], '{:.1f}')} s; ratio {spread(ratio, '{:.2f}')} "
-          f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best)")
+            for label, tree in _trees(args):  # alternated: both see the same load
+                for j in (1, 2):
+                    out = os.path.join(tmp, f"{label[:4]}_j{j}_{r}")
+                    rows.setdefault(label, {1: [], 2: []})[j].append(
+                        _cli(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
+                              "--quiet", "--out", out], tree=tree))
+    for label, times in rows.items():
+        ratio = [a / b for a, b in zip(times[1], times[2])]
+        print(f"[jobs] {label}: slipfield simulate levee, {args.n_jobs_run} realisations: --jobs 1 "
+              f"{spread(times[1], '{:.1f}')} s, --jobs 2 {spread(times[2], '{:.1f}')} s; ratio {spread(ratio, '{:.2f}')} "
+              f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best)")
 
 
-# --------------------------------------------------------------------- run
 def part_run(args):
-    cold, warm = [], []
+    rows = {}
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(args.repeat):
-            env = dict(os.environ, NUMBA_CACHE_DIR=os.path.join(tmp, f"numba_{r}"))
-            cold.append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"c{r}")], env))
-            warm.append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"w{r}")], env))
-    print(f"[run] slipfield run levee demo: cold (empty numba cache) {spread(cold, '{:.1f}')} s "
-          f"(target <= 15 s: {verdict(min(cold) <= 15)} at best), warm {spread(warm, '{:.1f}')} s "
-          f"(target <= 10 s: {verdict(min(warm) <= 10)} at best)")
+            for label, tree in _trees(args):
+                env = dict(os.environ, NUMBA_CACHE_DIR=os.path.join(tmp, f"numba_{label[:4]}_{r}"))
+                cold = _cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_c{r}")], env, tree)
+                warm = _cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_w{r}")], env, tree)
+                rows.setdefault(label, ([], []))
+                rows[label][0].append(cold)
+                rows[label][1].append(warm)
+    for label, (cold, warm) in rows.items():
+        print(f"[run] {label}: slipfield run levee demo: cold (empty numba cache) {spread(cold, '{:.1f}')} s "
+              f"(target <= 15 s: {verdict(min(cold) <= 15)} at best), warm {spread(warm, '{:.1f}')} s "
+              f"(target <= 10 s: {verdict(min(warm) <= 10)} at best)")
 
 
 def main():
@@ -267,6 +287,8 @@ def main():
     ap.add_argument("--n-sim", type=int, default=4000, help="realisations of the --jobs 2 simulate timing")
     ap.add_argument("--n-cpu", type=int, default=400, help="realisations of the CPU-time comparison")
     ap.add_argument("--n-jobs-run", type=int, default=16000)
+    ap.add_argument("--before", help="another source tree (with its .dev shim) timed beside this one in "
+                                     "the jobs and run parts, e.g. an export of main")
     ap.add_argument("--cache", default=os.path.join(tempfile.gettempdir(), "slipfield_bench_levee.pickle"),
                     help="pickle of the levee problems (built once; delete it after changing the case)")
     args = ap.parse_args()

@@ -27,10 +27,18 @@ from .surfaces import Circle, Circles, Polyline, circle_cuts, polyline_cuts
 from .water import GAMMA_W
 
 __all__ = ["build_bank", "unit_weight_parts", "scale_unit_weights", "section_with_unit_weights",
-           "WEIGHT_DEPENDENT"]
+           "WEIGHT_DEPENDENT", "NO_DRIVING_REASON"]
 
 # slice quantities linear in the unit weights (weight · y_centroid stands for y_centroid)
 WEIGHT_DEPENDENT = ("weight", "weight_moment", "sigma_v_eff", "u_base")
+
+#: a circle is rejected as having no driving moment when the moment of its
+#: loads about its centre is below this fraction of sum(|W| + |horizontal
+#: loads|) x its horizontal extent: round-off level (a symmetric section's
+#: axis gives about 1e-16), so no circle with a real driving moment, however
+#: small, is touched
+NO_DRIVING_MOMENT = 1e-9
+NO_DRIVING_REASON = "no driving moment: the loads balance about the circle centre"
 
 _CRACK_SAMPLES = 256  # points along a surface to locate a tension crack before refining
 
@@ -262,12 +270,36 @@ def _assemble(section, x1, x2, reason, kind, data, n, nq) -> SliceBank:
         reason[rows[outside]] = "a slice base lies outside every zone"
         reason[rows[below]] = f"passes below the section base (y = {section.base_y:g} m)"
 
+    kh = float(loads.kh) if loads is not None else 0.0
+    bank = _finish(out, zone, reason, dirn, kh, crack_force, crack_y, xc, yc, rad, section)
+    if np.isfinite(xc).any() and bank.valid.any():
+        # a circle whose loads have no moment about its centre (one centred on
+        # the axis of a symmetric embankment) has no direction to slide in:
+        # its FS is a ratio over a round-off moment (values like -1e17), so it
+        # is rejected here, once, with its own reason, instead of being counted
+        # as inadmissible in every realisation of a simulation
+        from .methods.terms import prepare_bank
+
+        terms = prepare_bank(bank)
+        scale = terms.force_scale * terms.length_scale
+        still = (np.isfinite(xc) & bank.valid & terms.valid
+                 & (np.abs(terms.m_active) <= NO_DRIVING_MOMENT * scale))
+        if still.any():
+            reason = bank.reason.copy()
+            reason[still] = NO_DRIVING_REASON
+            bank = _finish(out, zone, reason, dirn, kh, crack_force, crack_y, xc, yc, rad, section)
+    return bank
+
+
+def _finish(out, zone, reason, dirn, kh, crack_force, crack_y, xc, yc, rad, section) -> SliceBank:
     valid = np.array([r == "" for r in reason])
+    out = {k: v.copy() for k, v in out.items()}
+    zone = zone.copy()
+    crack_force = crack_force.copy()
     for k in out:
         out[k][~valid] = np.nan
     zone[~valid] = -1
     crack_force[~valid] = np.nan
-    kh = float(loads.kh) if loads is not None else 0.0
     return SliceBank(
         direction=dirn, **out, zone=zone, kh=kh, crack_force=crack_force, crack_y=crack_y,
         centre_x=dirn * xc, centre_y=yc, radius=rad, valid=valid, reason=reason,

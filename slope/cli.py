@@ -58,7 +58,7 @@ def _cmd_run(args) -> int:
 
     formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
     results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
-                       figure_formats=formats, overwrite=args.overwrite)
+                       figure_formats=formats, overwrite=args.overwrite, **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -73,6 +73,13 @@ def _cmd_run(args) -> int:
                 b = s["single_random_variable"]["critical_surface_searched"]
                 print(f"  pf {h}: spatial {a['pf']:.4f} [{a['pf_interval_95'][0]:.4f}, {a['pf_interval_95'][1]:.4f}]"
                       f"  single random variable {b['pf']:.4f} [{b['pf_interval_95'][0]:.4f}, {b['pf_interval_95'][1]:.4f}]")
+                sub = s["spatial"].get("subset") or {}
+                if sub.get("pf") is not None:
+                    lo, hi = sub["pf_interval_95"]
+                    print(f"  pf {h}: spatial, subset simulation {sub['pf']:.3g} [{lo:.3g}, {hi:.3g}], "
+                          f"{sub['n_evaluations']} FS evaluations")
+                elif sub.get("ran"):
+                    print(f"  pf {h}: spatial, subset simulation: {sub['message']}")
                 q = s.get("analytic_variance_reduction") or {}
                 if q.get("pf") is not None:
                     print(f"  pf {h}: quick estimate (σ√γ on the fixed surface) {q['pf']:.4f} "
@@ -98,8 +105,10 @@ def _cmd_simulate(args) -> int:
                       seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
                       export_fields=args.export_fields, export_format=args.export_format,
                       progress=not args.quiet, refine_below=args.refine_below,
-                      refine_method=args.refine_method, overwrite=args.overwrite)
-    if args.json:
+                      refine_method=args.refine_method, overwrite=args.overwrite, **_estimator_kw(args))
+    if r.get("estimator") == "subset":
+        _print_subset(r, args)
+    elif args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations", "resumed",
                                              "realisations_from_store", "simulation")}, indent=2))
     else:
@@ -117,13 +126,29 @@ def _cmd_simulate(args) -> int:
     return 0
 
 
+def _print_subset(r, args) -> None:
+    s = r["simulation"]
+    if args.json:
+        print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "estimator", "resumed", "simulation")},
+                         indent=2))
+        return
+    print(f"{r['case']['title']} ({r['hypothesis']}, seed {r['seed']}): subset simulation, {s['n_evaluations']} "
+          f"FS evaluations in {len(s['levels'])} levels; results in {args.out} (results.json, subset_levels.csv)")
+    if s["pf"] is None:
+        print(f"  {s['message']}")
+    else:
+        lo, hi = s["pf_interval_95"]
+        print(f"  pf {s['pf']:.3g} [95 % {lo:.3g}, {hi:.3g}]  CoV {s['cov']:.2f}  beta {s['beta_from_pf']:.2f}  "
+              f"thresholds {', '.join(f'{t:.3f}' for t in s['thresholds'])}")
+
+
 def _cmd_sweep(args) -> int:
-    from .commands.simulate import sweep_case
+    from .commands.sweep import sweep_case
 
     r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
                    realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
                    hypothesis=args.hypothesis, scheduler=args.scheduler, progress=not args.quiet,
-                   overwrite=args.overwrite)
+                   overwrite=args.overwrite, **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations_per_point", "rows")},
                          indent=2))
@@ -131,7 +156,7 @@ def _cmd_sweep(args) -> int:
         print(f"{r['case']['title']} ({r['hypothesis']}): {len(r['rows'])} grid points x "
               f"{r['realisations_per_point']} realisations; results in {args.out} (sweep.csv, sweep.json, figures/)")
         for row in r["rows"]:
-            pf = "n/a" if row["pf"] is None else f"{row['pf']:.4f}"
+            pf = "n/a" if row["pf"] is None else f"{row['pf']:.4g}"
             th = lambda v: "inf" if v is None or v == float("inf") else f"{v:g}"  # noqa: E731 - JSON has no inf
             print(f"  θh {th(row['theta_h'])} m, θv {th(row['theta_v'])} m: pf {pf}")
     return 0
@@ -164,6 +189,25 @@ def _overwrite_option(p):
                         "there are replaced, never others")
 
 
+def _estimator_options(p):
+    """--estimator and the subset simulation settings (run, simulate, sweep)."""
+    from .simulate.estimators import ESTIMATORS
+
+    p.add_argument("--estimator", choices=ESTIMATORS, default=None,
+                   help="pf estimator: monte-carlo, subset (subset simulation, for small pf) or auto "
+                        "(default simulation.estimator)")
+    p.add_argument("--level-probability", type=float, default=None, metavar="P0",
+                   help="subset: conditional probability of each level, in (0, 0.5] (default "
+                        "simulation.level_probability, then 0.1)")
+    p.add_argument("--samples-per-level", type=_whole(1), default=None, metavar="N",
+                   help="subset: samples per level (default simulation.samples_per_level, then 1000)")
+
+
+def _estimator_kw(args) -> dict:
+    return {"estimator": args.estimator, "level_probability": args.level_probability,
+            "samples_per_level": args.samples_per_level}
+
+
 def build_parser() -> argparse.ArgumentParser:
     from .methods import POLYLINE_METHOD_NAMES
 
@@ -182,6 +226,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="figure files to write, comma separated: png (always; the report embeds it) and svg "
                         "(default: png)")
     _overwrite_option(r)
+    _estimator_options(r)
     r.set_defaults(func=_cmd_run)
     c = sub.add_parser("check", help="check a case file and report every problem at once")
     c.add_argument("case")
@@ -200,6 +245,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "with their own fields (slower; off by default)")
     s.add_argument("--refine-method", default="spencer", choices=POLYLINE_METHOD_NAMES,
                    help="method of slices of the refined polylines (default spencer; with --refine-below)")
+    _estimator_options(s)
     s.set_defaults(func=_cmd_simulate)
     w = sub.add_parser("sweep", help="pf over a grid of scales of fluctuation (common random numbers)")
     _sim_options(w, sweep=True)
@@ -207,6 +253,7 @@ def build_parser() -> argparse.ArgumentParser:
                    "(default sweep.theta_h of the case)")
     w.add_argument("--theta-v", default=None, help="θv values, m, comma separated, inf allowed "
                    "(default sweep.theta_v of the case)")
+    _estimator_options(w)
     w.set_defaults(func=_cmd_sweep)
     from slipfield.fields.cli import add_fields_parser
     add_fields_parser(sub)
@@ -232,11 +279,23 @@ def main(argv=None) -> int:
     if given[:1] == ["run"] and not {"--quiet", "-h", "--help", "--json"} & set(given):
         # Something on the screen within a second: building the parser loads the numerical libraries.
         print("slipfield run · starting", file=sys.stderr, flush=True)
+    import logging
+
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # a refused option (exit 2, argparse's message printed), --help or --version
         return int(exc.code or 0)
+    if getattr(args, "scheduler", None):
+        # a lost or silent dask scheduler is reported once, in slipfield's words (exit 2), not as
+        # the client's own tracebacks of its reconnection attempts
+        try:
+            import distributed  # noqa: F401 - creates its loggers, whose levels are set below
+        except ImportError:
+            pass
+        for name in list(logging.root.manager.loggerDict):
+            if name.split(".")[0] in ("distributed", "tornado"):
+                logging.getLogger(name).setLevel(logging.CRITICAL)
     try:
         old_term = signal.signal(signal.SIGTERM, _on_sigterm)
     except ValueError:  # not the main thread (embedded use): leave signals alone

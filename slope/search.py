@@ -87,6 +87,10 @@ class SearchResult:
         The slice bank of the trials.
     history : list
         ``refine`` only: factor of safety after each accepted improvement.
+    trials_rejected : dict str -> int
+        ``refine`` only: the optimiser's trial shapes that were not accepted
+        as a minimum, by reason (kinematically inadmissible shape, not
+        converged, or a method flag).
     """
 
     search: str
@@ -103,6 +107,7 @@ class SearchResult:
     n_trials: int
     bank: object = None
     history: list = field(default_factory=list)
+    trials_rejected: dict = field(default_factory=dict)
 
     def summary(self) -> str:
         rej = ", ".join(f"{k}: {v}" for k, v in sorted(self.rejected.items())) or "none"
@@ -187,14 +192,18 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         conv = np.asarray(res.converged).reshape(-1, len(idx))[0]
         fs[idx] = f
         flags[idx] = fl
-        bad = fl & ~tol_mask
+        # a negative effective normal force changes nothing where every base
+        # of the surface is frictionless (phi = 0: strength c l alone)
+        frictionless = np.all(np.broadcast_to(tp, res.fs.shape + (sub.n_slices,)).reshape(
+            -1, len(idx), sub.n_slices)[0] == 0, axis=1)
+        bad = fl & ~tol_mask & ~np.where(frictionless, _TOLERABLE["negative-normal"], 0)
         ok = conv & (bad == 0) & np.isfinite(f)
         counted[idx] = ok
         rejected["not converged"] += int(np.sum(~conv))
         for bit, name in methods.FLAG_NAMES.items():
             if bit & tol_mask:
                 continue
-            rejected[name] += int(np.sum(conv & ((fl & bit) != 0)))
+            rejected[name] += int(np.sum(conv & ((bad & bit) != 0)))
     rejected = {k: v for k, v in rejected.items() if v}
     if counted.any():
         i = int(np.nanargmin(np.where(counted, fs, np.inf)))
@@ -250,6 +259,13 @@ def _face_extent(section):
     xs = np.linspace(section.x_min, section.x_max, 2001)
     ys = section.ground_y(xs)
     inner = xs[(ys > lo) & (ys < hi)]
+    if inner.size == 0:
+        # a face narrower than the sampling step (a near-vertical cut written
+        # with a face 0.01 m wide): sample each ground segment itself
+        t = np.linspace(0.0, 1.0, 101)
+        xs = (g[:-1, 0, None] + np.diff(g[:, 0])[:, None] * t).ravel()
+        ys = (g[:-1, 1, None] + np.diff(g[:, 1])[:, None] * t).ravel()
+        inner = xs[(ys > lo) & (ys < hi)]
     return float(inner.min()), float(inner.max()), h
 
 
@@ -392,9 +408,12 @@ def kinematic_reason(section, xs, ys) -> str:
     return ""
 
 
+#: why a trial shape of ``refine`` was not accepted, besides the method flags
+SHAPE_REJECTED = "shape not kinematically admissible or outside the section"
+
+
 def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="drained", n_slices=40,
-           overrides=None, max_evaluations=600, tolerate=("negative-normal", "thrust-outside"),
-           **method_opts) -> SearchResult:
+           overrides=None, max_evaluations=600, tolerate=(), **method_opts) -> SearchResult:
     """``refine`` search: optimise a polyline starting from ``start``.
 
     The ends slide along the ground line and the interior vertices move
@@ -414,6 +433,12 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
         ``morgenstern-price``, ``janbu``; ``bishop`` uses a moment point).
     max_evaluations : int
         Budget of factor-of-safety evaluations.
+    tolerate : sequence of str
+        Method flags that do not exclude a trial (default none: a refined
+        minimum must be a clean solution, converged with no flag; Spencer
+        roots with negative base normals or a line of thrust outside the mass
+        on an optimised polyline are how a spurious low FS would enter).
+        Rejected trials are counted by reason in ``trials_rejected``.
 
     Returns
     -------
@@ -438,6 +463,7 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
                 tolerate=tolerate, **method_opts)
     history = []
     best = {"fs": np.inf, "p": None}
+    trials_rejected = Counter()
 
     def shape(p):
         q = p * scale
@@ -451,9 +477,11 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
     def objective(p):
         xs, ys = shape(p)
         if xs[0] < section.x_min or xs[-1] > section.x_max or kinematic_reason(section, xs, ys):
+            trials_rejected[SHAPE_REJECTED] += 1
             return 10.0 + np.sum(p * p)  # outside the admissible shapes: push back
         r = evaluate_surfaces(section, Polyline(np.c_[xs, ys]), **opts)
         if not r.counted[0]:
+            trials_rejected.update(r.rejected)
             return 10.0 + np.sum(p * p)
         f = float(r.fs[0])
         if f < best["fs"]:
@@ -464,9 +492,10 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
     p0 = np.zeros(len(scale))
     f0 = objective(p0)
     if not np.isfinite(best["fs"]):
+        why = ", ".join(f"{k}" for k in sorted(trials_rejected)) or "no factor of safety"
         raise InputError(
-            f"refine: the start surface is not usable (FS objective {f0:g}); start from a surface with a "
-            "converged, admissible factor of safety"
+            f"refine: the start surface has no clean {method} solution ({why}); start from a surface "
+            "whose factor of safety converged with no flag"
         )
     minimize(objective, p0, method="Nelder-Mead",
              options={"maxfev": int(max_evaluations), "xatol": 1e-3, "fatol": 1e-5, "initial_simplex": None})
@@ -476,6 +505,7 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
     candidates = [start_poly, final] + ([start] if isinstance(start, Circle) else [])
     res = evaluate_surfaces(section, candidates, search="refine", **opts)
     res.history = history
+    res.trials_rejected = dict(trials_rejected)
     return res
 
 

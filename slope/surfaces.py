@@ -16,7 +16,12 @@ from .errors import InputError
 
 __all__ = [
     "Circle", "Circles", "Polyline", "circle_through", "circle_cuts", "polyline_cuts", "cut_ground", "family_of",
+    "SNAP_TOLERANCE",
 ]
+
+#: a polyline end within this fraction of the section width (1e-6: 0.1 mm
+#: on a 100 m section) above or below the ground line is taken as on it
+SNAP_TOLERANCE = 1e-6
 
 
 @dataclass(frozen=True)
@@ -195,6 +200,12 @@ def polyline_cuts(section, surface: Polyline):
     xs = np.union1d(p[:, 0], section.ground[:, 0])
     xs = xs[(xs >= p[0, 0]) & (xs <= p[-1, 0])]
     d = surface.y(xs) - section.ground_y(xs)  # > 0 above ground
+    # an end on the ground line within round-off (coordinates typed to a few
+    # decimals, or computed) is on it
+    snap = SNAP_TOLERANCE * max(1.0, float(np.ptp(section.ground[:, 0])))
+    for k in (0, -1):
+        if abs(d[k]) <= snap:
+            d[k] = 0.0
     cuts = []
     for i in range(len(xs) - 1):
         if d[i] == 0 and (i == 0 or d[i - 1] != 0):

@@ -178,6 +178,12 @@ def test_at_least_forty_mutations():
     (["simulate", "{case}", "--out", "{out}", "--refine-below", "-1"], "--refine-below"),
     (["simulate", "{case}", "--out", "{out}", "--refine-method", "bishop"], "--refine-method"),
     (["sweep", "{case}", "--out", "{out}", "--realisations", "0"], "--realisations"),
+    (["fields", "sample", "--model", "exponential", "--theta", "5", "--grid", "8x8", "--spacing", "1",
+      "--out", "{out}/a.npz", "--n", "0"], "--n"),
+    (["fields", "sample", "--model", "exponential", "--theta", "5", "--grid", "8x8", "--spacing", "1",
+      "--out", "{out}/a.npz", "--seed", "-2"], "--seed"),
+    (["fields", "sample", "--model", "exponential", "--theta", "5", "--grid", "8x8", "--spacing", "1",
+      "--out", "{out}/a.npz", "--method", "dense"], "--method"),
 ])
 def test_options_refused_at_parse_time(argv, option, tmp_path, capsys):
     argv = [a.format(case=CASES / "levee_soft_clay.toml", out=tmp_path / "out") for a in argv]
@@ -195,3 +201,24 @@ def test_run_case_refuses_zero_realisations_from_python(tmp_path):
     with pytest.raises(InputError, match="--realisations"):
         run_case(CASES / "levee_soft_clay.toml", tmp_path / "out", realisations=0)
     assert not (tmp_path / "out").exists()
+
+
+def test_negative_value_threshold_of_a_normal_marginal(tmp_path, capsys):
+    """The refusal states P(X < 0) of the normal marginal (scipy.stats.norm as reference) and the run's count;
+    the demo's normal unit weight (cov 0.05: P = Φ(-20), about 3e-89) is accepted."""
+    from scipy.stats import norm
+
+    text = sub(LEVEE, 'property = "c"\ndistribution = "lognormal"\ncov = 0.4',
+               'property = "c"\ndistribution = "normal"\ncov = 0.4')
+    case = tmp_path / "case.toml"
+    case.write_text(text, encoding="utf-8")
+    code, msg = _call(["check", str(case)], capsys)
+    assert code == 2
+    p = float(re.search(r"probability ([0-9.e-]+);", msg).group(1))
+    assert p == pytest.approx(norm.cdf(-1 / 0.4), rel=0.01)
+    assert "lognormal" in msg and "truncated-normal" in msg
+    # a smaller spread, whose expected count of negative values in the run is below the threshold, runs
+    case.write_text(text.replace('distribution = "normal"\ncov = 0.4', 'distribution = "normal"\ncov = 0.15'),
+                    encoding="utf-8")
+    code, msg = _call(["check", str(case)], capsys)
+    assert code == 0, msg

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import csv
 import json
-import time
 from pathlib import Path
 
 import meshio
@@ -86,11 +85,17 @@ def test_exported_fields_read_back_through_meshio_equal_the_simulated_ones(full_
     from slipfield.slope.simulate import realise_fields
 
     ex = full_run / "fields"
-    manifest = json.loads((ex / "fields.json").read_text())
+    text = (ex / "fields.json").read_text()
+    manifest = json.loads(text)
+    # issue 11: the manifest held Python object reprs; now the marginal's name and parameters
+    assert "Marginal(" not in text and "np.float64" not in text
     case = load_case(CASE)
     hyp = manifest["hypothesis"]
     prob = random_problem(case, {hyp: {"bank": trial_surfaces(case, hyp, case.analysis["method"])}}, hyp)
     for prop in manifest["properties"]:
+        mg = prop["marginal"]
+        assert mg["name"] in ("lognormal", "normal", "truncated-normal", "beta", "uniform", "triangular")
+        assert mg["mean"] > 0 and mg["std"] > 0 and isinstance(mg["parameters"], dict)
         with meshio.xdmf.TimeSeriesReader(str(ex / prop["file"])) as reader:
             reader.read_points_cells()
             got = {}
@@ -119,11 +124,10 @@ def test_bad_sweep_value_exits_2_and_writes_nothing(tmp_path, capsys, bad):
 
 def test_unreachable_scheduler_exits_2_quickly_and_writes_nothing(tmp_path, capsys):
     out = tmp_path / "s"
-    t0 = time.perf_counter()
+    # how long the refusal takes is measured by scripts/bench_scheduler_refusal.py (no timed tests)
     rc = main(["simulate", CASE, "--out", str(out), "--realisations", "5", "--quiet",
                "--scheduler", "tcp://127.0.0.1:1"])
     assert rc == 2
-    assert time.perf_counter() - t0 < 30
     assert "--scheduler" in capsys.readouterr().err
     assert not out.exists()
 
@@ -169,7 +173,10 @@ def test_simulate_with_refinement_reports_refined_realisations(full_run, tmp_pat
 
 def test_bad_refine_threshold_exits_2_and_writes_nothing(tmp_path, capsys):
     out = tmp_path / "bad"
-    rc = main(["simulate", CASE, "--out", str(out), "--realisations", "4", "--quiet", "--refine-below", "-1"])
+    try:  # refused while parsing the options (argparse exits 2) or by the command
+        rc = main(["simulate", CASE, "--out", str(out), "--realisations", "4", "--quiet", "--refine-below", "-1"])
+    except SystemExit as stop:
+        rc = stop.code
     assert rc == 2
     assert "--refine-below" in capsys.readouterr().err
     assert not out.exists()

@@ -23,6 +23,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from scipy.stats import binomtest
 
 from slipfield.slope.bank import build_bank
 from slipfield.slope.commands.run import run_case, sliding_mass_geometry
@@ -167,8 +168,11 @@ def test_pf_inside_interval_and_equal_to_the_per_realisation_table(run_output):
                 c = r[block]
                 if c["pf"] is None:
                     continue
-                lo, hi = c["pf_interval_95"]
-                assert 0.0 <= lo <= c["pf"] <= hi <= 1.0, (hyp, run, block)
+                # the 95 % Wilson interval of (n_failed, n_valid), against scipy's
+                # (lo <= pf <= hi alone holds for any Wilson interval: it checked nothing)
+                ref = binomtest(c["n_failed"], c["n_valid"]).proportion_ci(0.95, method="wilson")
+                assert c["pf_interval_95"] == pytest.approx([ref.low, ref.high], rel=1e-12, abs=1e-15)
+                assert c["pf"] == pytest.approx(c["n_failed"] / c["n_valid"], rel=1e-15)
                 checked += 1
             c = r["critical_surface_searched"]
             assert c["n_valid"] + c["n_without_admissible_surface"] == r["realisations"] == DEMO_REALISATIONS
@@ -182,8 +186,9 @@ def test_pf_inside_interval_and_equal_to_the_per_realisation_table(run_output):
     for hyp, rel in doc["single_variable_reliability"].items():
         for m in ("monte-carlo", "latin-hypercube"):
             if rel and m in rel:
-                lo, hi = rel[m]["pf_interval_95"]
-                assert lo <= rel[m]["pf"] <= hi
+                r = rel[m]
+                ref = binomtest(r["n_failed"], r["n_valid"]).proportion_ci(0.95, method="wilson")
+                assert r["pf_interval_95"] == pytest.approx([ref.low, ref.high], rel=1e-12, abs=1e-15)
                 checked += 1
     assert checked > 0
 

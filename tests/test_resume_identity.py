@@ -83,8 +83,10 @@ def test_every_key_that_can_change_fs_changes_the_fingerprint(path):
         if dotted in STILL_RESUMES or top in ("reliability", "sweep", "risk"):
             assert not changed, f"{dotted} is presentation or run size and must still resume"
         elif dotted in ("simulation.seed", "analysis.hypotheses", "simulation.refine_below",
-                        "simulation.refine_method", "analysis.methods"):
-            continue  # recorded on their own (the seed, hypothesis and refinement actually used)
+                        "simulation.refine_method", "simulation.refine_search", "analysis.methods",
+                        "simulation.estimator"):
+            continue  # recorded on their own (the seed, hypothesis and refinement actually used; the
+            # estimator: subset simulation's store holds its settings in its own identity)
         else:
             assert changed, f"changing {dotted} must refuse a resume"
     # defaults are filled in before hashing, so the walk reaches keys the file does not write
@@ -143,3 +145,18 @@ def test_resume_after_a_title_and_note_change_continues(first_run, tmp_path):
     assert main(["simulate", str(case), "--out", str(out), "--realisations", "8", "--quiet", "--resume"]) == 0
     res = json.loads((out / "results.json").read_text())
     assert res["resumed"] and res["realisations_from_store"] == 6 and res["case"]["title"] == "Another title"
+
+
+def test_a_damaged_block_is_named_and_recomputed_from_the_command_line(first_run, tmp_path, capsys):
+    import shutil
+
+    out = tmp_path / "out"
+    shutil.copytree(first_run, out)
+    block = out / "store" / "block_000000.npz"
+    block.write_bytes(block.read_bytes()[:100])  # what a full disk or a copy cut short leaves
+    assert main(["simulate", str(SMALL), "--out", str(out), "--realisations", "6", "--quiet", "--resume"]) == 0
+    err = capsys.readouterr().err
+    assert "block_000000.npz" in err and "recomputed" in err and "Warning" not in err
+    assert (out / "fs_realisations.csv").read_text() == (first_run / "fs_realisations.csv").read_text()
+    res = json.loads((out / "results.json").read_text())
+    assert len(res["store_blocks_recomputed"]) == 1

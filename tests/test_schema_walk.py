@@ -141,6 +141,48 @@ UNIT_WEIGHT = add('[[random]]\nmaterial = "clay"\nproperty = "unit_weight"\ndist
 NO_SU_RANDOM = sub('[[random]]\nmaterial = "clay"\nproperty = "su"\ncov = 0.3\ntheta_h = 10.0\ntheta_v = 2.0\n', "")
 ANNUAL_PF = sub("annual_exceedance = 0.01", "annual_pf = 1e-4")
 
+FAMILY = """
+[section]
+ground = [[0.0, 10.0], [25.0, 10.0], [45.0, 0.0], [75.0, 0.0]]
+bottom = -12.0
+[[section.layer]]
+name = "upper"
+material = "clay"
+bottom = -0.4
+[[section.layer]]
+name = "seam"
+material = "seam"
+bottom = -1.0
+[[section.layer]]
+name = "lower"
+material = "clay"
+[[material]]
+name = "clay"
+unit_weight = 20.0
+c = 20.0
+phi = 28.0
+[[material]]
+name = "seam"
+unit_weight = 20.0
+c = 0.0
+phi = 12.0
+[analysis]
+hypotheses = ["drained"]
+methods = ["spencer"]
+method = "spencer"
+slices = 12
+[search]
+trials = 40
+"""
+BLOCK = add('[[search.block]]\nzone = "seam"\nentry = [10.0, 30.0]\nexit = [45.0, 65.0]\npoints = 4', FAMILY)
+DP = add("[search.dynamic_programming]\ncolumns = 6\nnodes = 5\npasses = 1", FAMILY)
+SITE = add('[[site_data]]\nproperty = "clay.su"\nx = 30.0\nreadings = [[-1.0, 55.0]]')
+SITE_POINTS = add('[[site_data]]\nproperty = "clay.su"\npoints = [[30.0, -1.0, 55.0]]')
+SITE_FILE = add('[[site_data]]\nproperty = "clay.su"\nfile = "walk_a.csv"')
+DRILL = add("[drilling]\ncandidates = [20.0]")
+#: files beside every case of the walk (site data read from CSV)
+CSV_FILES = {"walk_a.csv": "x,elevation,value\n30,-1,55\n", "walk_b.csv": "x,elevation,value\n30,-1,28\n"}
+
 # key path -> (base text, mutated text, probe)
 WALK = {
     "case.title": (BASE, sub('title = "walk base"', 'title = "walk mutated"'), "written"),
@@ -215,6 +257,33 @@ WALK = {
     "search.polyline": (sub("trials = 40", 'kind = "fixed"\npolyline = [[5.0, 12.0], [18.0, 1.0], [32.0, 3.0]]'),
                         sub("trials = 40", 'kind = "fixed"\npolyline = [[5.0, 12.0], [18.0, 2.0], [32.0, 3.0]]'),
                         "det"),
+    "search.block": (FAMILY, BLOCK, "det"),
+    "search.block.zone": (BLOCK, BLOCK.replace('zone = "seam"', 'zone = "upper"'), "det"),
+    "search.block.entry": (BLOCK, BLOCK.replace("entry = [10.0, 30.0]", "entry = [14.0, 30.0]"), "det"),
+    "search.block.exit": (BLOCK, BLOCK.replace("exit = [45.0, 65.0]", "exit = [47.0, 60.0]"), "det"),
+    "search.block.points": (BLOCK, BLOCK.replace("points = 4", "points = 5"), "det"),
+    "search.block.lift": (BLOCK, BLOCK.replace("points = 4", "points = 4\nlift = 0.6"), "det"),
+    "search.dynamic_programming": (FAMILY, DP, "det"),
+    "search.dynamic_programming.columns": (DP, DP.replace("columns = 6", "columns = 8"), "det"),
+    "search.dynamic_programming.nodes": (DP, DP.replace("nodes = 5", "nodes = 7"), "det"),
+    "search.dynamic_programming.passes": (DP, DP.replace("passes = 1", "passes = 2"), "det"),
+    "drilling.candidates": (DRILL, DRILL.replace("candidates = [20.0]", "candidates = [30.0]"), "drill"),
+    "drilling.spacing": (DRILL, DRILL.replace("candidates = [20.0]", "candidates = [20.0]\nspacing = 3.0"), "drill"),
+    "drilling.error_sd": (DRILL, DRILL.replace("candidates = [20.0]", "candidates = [20.0]\nerror_sd = 0.5"),
+                          "drill"),
+    "site_data.property": (SITE, SITE.replace('property = "clay.su"\nx = 30.0\nreadings = [[-1.0, 55.0]]',
+                                              'property = "clay.c"\nx = 30.0\nreadings = [[-1.0, 14.0]]'), "sim"),
+    "site_data.x": (SITE, SITE.replace("x = 30.0", "x = 14.0"), "sim"),
+    "site_data.readings": (SITE, SITE.replace("[[-1.0, 55.0]]", "[[-1.0, 28.0]]"), "sim"),
+    "site_data.points": (SITE_POINTS, SITE_POINTS.replace("55.0]]", "28.0]]"), "sim"),
+    "site_data.file": (SITE_FILE, SITE_FILE.replace("walk_a.csv", "walk_b.csv"), "sim"),
+    "site_data.error_sd": (SITE, SITE.replace("readings = [[-1.0, 55.0]]", "readings = [[-1.0, 55.0]]\nerror_sd = 8.0"),
+                           "sim"),
+    "site_data.error_cov": (SITE, SITE.replace("readings = [[-1.0, 55.0]]",
+                                               "readings = [[-1.0, 55.0]]\nerror_cov = 0.2"), "sim"),
+    "simulation.refine_search": (REFINE, REFINE.replace("refine_below = 5.0",
+                                                        'refine_below = 5.0\nrefine_search = "dynamic-programming"'),
+                                 "engine"),
     "random.material": (LAYERS, LAYERS.replace('material = "clay"\nproperty = "c"', 'material = "sand"\nproperty = "c"'),
                         "rel"),
     "random.property": (BASE, sub('property = "phi"', 'property = "unit_weight"').replace(
@@ -279,6 +348,8 @@ def test_walk_covers_the_whole_schema():
 
 
 def _case(text, tmp_path, name):
+    for f, content in CSV_FILES.items():
+        (tmp_path / f).write_text(content, encoding="utf-8")
     p = tmp_path / f"{name}.toml"
     p.write_text(text, encoding="utf-8")
     return load_case(p)
@@ -382,7 +453,17 @@ def probe_risk(case, tmp_path):
             "label": r["consequence_label"]}
 
 
-PROBES = {"det": probe_det, "rel": probe_rel, "sim": probe_sim, "risk": probe_risk}
+def probe_drill(case, tmp_path):
+    """What ``slipfield run`` reports for [drilling], on each hypothesis's random problem."""
+    from slipfield.slope.case.analyses import deterministic, random_problem
+    from slipfield.slope.simulate.drilling import drilling_summary
+
+    det = deterministic(case)
+    return {h: drilling_summary(case.data["drilling"], random_problem(case, det, h))
+            for h in case.analysis["hypotheses"]}
+
+
+PROBES = {"det": probe_det, "rel": probe_rel, "sim": probe_sim, "risk": probe_risk, "drill": probe_drill}
 
 
 _SEEN: dict = {}  # (probe, case text) -> probe output: a base shared by many keys is probed once

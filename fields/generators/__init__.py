@@ -5,12 +5,14 @@ them itself): scipy.linalg and gstools are not loaded for an FFT run.
 """
 import importlib
 
-from .base import FieldGenerator, generator_names, generator_options, make_generator, register
+from .base import (FieldGenerator, generator_names, generator_options, make_generator, noise_generator_names,
+                   register)
 
 _LAZY = {"CholeskyGenerator": ".cholesky", "CirculantGenerator": ".circulant", "KLGenerator": ".kl",
          "SpectralGenerator": ".spectral", "gstools_seed": ".spectral"}
 
 __all__ = ["FieldGenerator", "make_generator", "register", "generator_names", "generator_options",
+           "noise_generator_names",
            "CholeskyGenerator", "KLGenerator", "CirculantGenerator", "SpectralGenerator",
            "gstools_seed"]
 

@@ -79,3 +79,26 @@ def positioned_matmul(rngs, ks, n_modes, factor_t, block):
     if pending:
         flush()
     return out
+
+
+def positioned_product(z, ks, factor_t, block):
+    """``z @ factor_t`` for given rows ``z``, row ``i`` placed at ``ks[i] % block`` (see above)."""
+    out = np.empty((z.shape[0], factor_t.shape[1]))
+    buf = np.zeros((block, z.shape[1]))
+    pending = {}
+
+    def flush():
+        res = buf @ factor_t
+        for row, i in pending.items():
+            out[i] = res[row]
+        pending.clear()
+        buf[:] = 0.0
+    for i, k in enumerate(ks):
+        row = int(k) % block
+        if row in pending:
+            flush()
+        buf[row] = z[i]
+        pending[row] = i
+    if pending:
+        flush()
+    return out

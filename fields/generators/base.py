@@ -25,6 +25,23 @@ __all__ = ["FieldGenerator", "make_generator", "register", "generator_names", "g
 
 _REGISTRY: dict[str, type] = {}
 
+#: Where each method's class lives (module of this package that registers it). The
+#: names are known without importing the modules, so a command line can list them in
+#: a fraction of a second; tests check that the modules register exactly these names.
+METHOD_MODULES = {"cholesky": "cholesky", "fft": "circulant", "circulant": "circulant", "kl": "kl",
+                  "spectral": "spectral"}
+
+
+def _generator_class(method) -> tuple[str, type]:
+    """``(name, class)`` of a method, importing only the module that defines it."""
+    import importlib
+
+    key = str(method).strip().lower()
+    if key not in METHOD_MODULES:
+        raise InputError(f"unknown generator method {method!r}: choose one of " + ", ".join(sorted(METHOD_MODULES)))
+    importlib.import_module(f".{METHOD_MODULES[key]}", __package__)
+    return key, _REGISTRY[key]
+
 
 def register(*names):
     """Class decorator adding a generator under one or more method names."""
@@ -126,6 +143,49 @@ class FieldGenerator(ABC):
             ks = idx[s:s + bs]
             yield ks, self.sample(seed, ks, stream)
 
+    # ------------------------------------------------------ white noise
+    # The standard-normal noise a generator turns into a field, exposed for
+    # methods that work in that space (subset simulation moves it by Markov
+    # chains, slope.simulate.rare). fields_from_noise(noise(seed, idx)) is
+    # sample(seed, idx) bit for bit.
+    noise_size = None
+    """Length of one realisation's white noise (None: drawn internally, not available)."""
+
+    def noise(self, seed, indices, stream=()):
+        """The white noise of realisations ``indices``: array ``(len(indices), noise_size)``.
+
+        Drawn from ``realisation_rng(seed, k, *stream)`` exactly as
+        :meth:`sample` draws it; i.i.d. standard normal.
+        """
+        if self.noise_size is None:
+            raise InputError(f"the {self.method!r} generator draws its noise internally, so its fields "
+                             "cannot be moved in standard-normal space; use 'fft', 'cholesky' or 'kl'")
+        seed, idx, stream = _check_call(seed, indices, stream)
+        out = np.empty((idx.size, self.noise_size))
+        for i, k in enumerate(idx):
+            realisation_rng(seed, int(k), *stream).standard_normal(out=out[i])
+        return out
+
+    def fields_from_noise(self, noise, keys=None):
+        """Fields ``(b, n_points)`` from white noise ``(b, noise_size)`` (a linear map).
+
+        ``keys``: one non-negative integer per row that fixes where the row
+        sits in the generator's internal block (dense generators: BLAS sums
+        depend on it), so a row gives the same bits in any batch; the
+        realisation number for noise from :meth:`noise` (default
+        ``0 .. b-1``).
+        """
+        if self.noise_size is None:
+            self.noise(0, [0])  # raises the explanation
+        z = np.asarray(noise, dtype=float)
+        if z.ndim != 2 or z.shape[1] != self.noise_size:
+            raise InputError(f"noise must have shape (b, {self.noise_size}), got {z.shape}")
+        ks = np.arange(z.shape[0]) if keys is None else np.asarray(keys, dtype=np.int64)
+        return self._from_noise_rows(z, ks)
+
+    def _from_noise_rows(self, z, ks):
+        raise NotImplementedError
+
     @abstractmethod
     def _sample_block(self, rngs, seed, ks, stream) -> np.ndarray:
         """Realisations for one block; ``rngs[i]`` is realisation ``ks[i]``'s stream."""
@@ -191,14 +251,7 @@ def make_generator(method, model, *, grid=None, points=None, **opts) -> FieldGen
     -------
     FieldGenerator
     """
-    # the registry fills when the method modules are imported
-    from . import cholesky, circulant, kl, spectral  # noqa: F401
-
-    key = str(method).strip().lower()
-    if key not in _REGISTRY:
-        raise InputError(f"unknown generator method {method!r}: choose one of "
-                         + ", ".join(sorted(_REGISTRY)))
-    cls = _REGISTRY[key]
+    key, cls = _generator_class(method)
     allowed = _options_of(cls)
     unknown = sorted(set(opts) - set(allowed))
     if unknown:
@@ -209,16 +262,15 @@ def make_generator(method, model, *, grid=None, points=None, **opts) -> FieldGen
 
 def generator_options(method) -> tuple:
     """Keyword options of a generator method (e.g. ``max_points`` of the dense ones)."""
-    from . import cholesky, circulant, kl, spectral  # noqa: F401
-
-    key = str(method).strip().lower()
-    if key not in _REGISTRY:
-        raise InputError(f"unknown generator method {method!r}: choose one of " + ", ".join(sorted(_REGISTRY)))
-    return tuple(_options_of(_REGISTRY[key]))
+    return tuple(_options_of(_generator_class(method)[1]))
 
 
 def generator_names():
     """Method names accepted by :func:`make_generator`."""
-    from . import cholesky, circulant, kl, spectral  # noqa: F401
-    return tuple(sorted(_REGISTRY))
+    return tuple(sorted(METHOD_MODULES))
+
+
+def noise_generator_names():
+    """Method names whose generators expose their white noise (:meth:`FieldGenerator.noise`)."""
+    return tuple(sorted(n for n in METHOD_MODULES if _generator_class(n)[1].noise_size is not None))
 

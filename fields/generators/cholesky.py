@@ -4,7 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ._dense import MAX_POINTS, check_size, dense_covariance, positioned_matmul
+from ._dense import MAX_POINTS, check_size, dense_covariance, positioned_matmul, positioned_product
 from .base import FieldGenerator, register
 
 __all__ = ["CholeskyGenerator"]
@@ -59,3 +59,10 @@ class CholeskyGenerator(FieldGenerator):
 
     def _sample_block(self, rngs, seed, ks, stream):
         return positioned_matmul(rngs, ks, self.n_points, self._L.T, self.block)
+
+    @property
+    def noise_size(self):
+        return self.n_points
+
+    def _from_noise_rows(self, z, ks):
+        return positioned_product(z, ks, self._L.T, self.block)

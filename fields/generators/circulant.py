@@ -121,6 +121,16 @@ class CirculantGenerator(FieldGenerator):
             r.standard_normal(out=buf[i])
         return self._from_noise(buf)
 
+    @property
+    def noise_size(self):
+        Nx, Ny = self._shape
+        return Nx * (Ny // 2 + 1) * 2
+
+    def _from_noise_rows(self, z, ks):
+        Nx, Ny = self._shape
+        # _from_noise works in place on its buffer: give it a copy
+        return self._from_noise(np.array(z, dtype=float).reshape(z.shape[0], Nx, Ny // 2 + 1, 2))
+
     def _from_noise(self, buf):
         """Fields from white noise ``buf`` of shape (b, Nx, Ny//2 + 1, 2) (linear map)."""
         Nx, Ny = self._shape

@@ -5,8 +5,8 @@
 - :func:`single_variable_reliability` — each random property as one random
   variable (θ → ∞) on the deterministic critical surface: Monte Carlo,
   point estimates, FORM, tornado, rank correlations;
-- :func:`spatial_simulation` — the random limit-equilibrium simulation
-  (:mod:`slope.simulate`) with the averaging report.
+- :func:`random_problem` — the random limit-equilibrium problem of a case
+  (:mod:`slope.simulate`), which ``slipfield run`` simulates.
 
 Each returns JSON-ready dicts (units in the keys or a ``units`` entry) plus
 the arrays the figures need.
@@ -32,7 +32,7 @@ from ..search_families import add_families
 from ..surfaces import Circle
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
-           "surface_xy", "properties_for"]
+           "surface_xy", "properties_for", "marginal_of"]
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -243,7 +243,8 @@ def _limit_state(case: Case, bank, props, hypothesis, method, surfaces):
     return _ExpandedLimitState(inner, expand)
 
 
-def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_jobs: int = 1) -> dict | None:
+def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_jobs: int = 1,
+                                estimator=None) -> dict | None:
     """Each random property as one random variable, on the critical surface.
 
     Returns None when no random property acts under ``hypothesis``.
@@ -274,16 +275,34 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                  "surface": ("re-searched over the trial surfaces for each sample" if research else
                              "fixed (deterministic critical surface)"), "method": method}
     arrays: dict = {}
-    settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs)
-    for m in cfg["methods"]:  # each through the registry; one that cannot reach an answer says so in its row
+    est_name, sub = estimator if estimator is not None else ("monte-carlo", None)
+    settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs,
+                        **({} if sub is None else {"level_probability": sub.level_probability,
+                                                   "samples_per_level": sub.samples_per_level}))
+    methods = list(cfg["methods"])
+    if est_name != "monte-carlo" and "subset" not in methods:
+        methods.append("subset")  # [simulation] estimator = subset/auto: the single variables' pf by subset too
+    for m in methods:  # each through the registry; one that cannot reach an answer says so in its row
+        if m == "subset" and "subset" not in cfg["methods"] and est_name == "auto":
+            from ..simulate.rare import AUTO_MIN_FAILURES
+
+            k = out.get("monte-carlo", {}).get("n_failed")
+            if k is not None and k >= AUTO_MIN_FAILURES:
+                continue  # auto: Monte Carlo saw enough failures
         try:
             out[m], arr = run_estimator(m, ls, variables, settings)
         except InputError as exc:
             out[m], arr = {"status": f"not computed: {exc}"}, {}
+        except (ArithmeticError, np.linalg.LinAlgError):
+            out[m], arr = {"status": "not computed: a numerical failure in the evaluation"}, {}
         if arr:
             arrays[m] = arr
     k = float(cfg.get("tornado_k", 2.0))
-    tr = tornado(ls, variables, k=k)
+    try:
+        tr = tornado(ls, variables, k=k)
+    except InputError as exc:  # the tornado too reports in its own row and stops nothing
+        out["tornado"] = {"k": k, "status": f"not computed: {exc}"}
+        return {"summary": out, "arrays": arrays}
     out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
                       "fs_mean": float(tr.fs_mean), "names": list(tr.names),
                       "fs_low": [float(v) for v in tr.fs_low], "fs_high": [float(v) for v in tr.fs_high],

@@ -79,7 +79,7 @@ def _grid_cells(case: Case) -> tuple[int, int]:
     return nx, ny
 
 
-def memory_estimate(case: Case, realisations: int | None = None) -> dict:
+def memory_estimate(case: Case, realisations: int | None = None, batch: int | None = None) -> dict:
     """Bytes the run of a case would hold at once, by the key that sets each part.
 
     The estimate is an order of magnitude (it counts the large arrays, not
@@ -100,7 +100,7 @@ def memory_estimate(case: Case, realisations: int | None = None) -> dict:
     slices = int(ana["slices"])
     nx, ny = _grid_cells(case)
     n_props = max(1, len(case.randoms))
-    batch = int(sim["batch"])
+    batch = int(sim["batch"] if batch is None else batch)
     samples = int(case.data["reliability"]["samples"])
     research = bool(case.data["reliability"].get("research_surface"))
     out = {
@@ -123,9 +123,9 @@ def _gib(b: float) -> str:
     return f"{b / 1024 ** 3:.3g} GiB"
 
 
-def _check_memory(case: Case, realisations, problems: list[str]) -> None:
+def _check_memory(case: Case, realisations, batch, problems: list[str]) -> None:
     limit = MEMORY_SHARE * physical_memory()
-    est = memory_estimate(case, realisations)
+    est = memory_estimate(case, realisations, batch)
     fixes = {
         "search.trials × analysis.slices": "give fewer trials or slices",
         "simulation.cell": "give a larger cell (m) or a smaller simulation.batch",
@@ -137,7 +137,11 @@ def _check_memory(case: Case, realisations, problems: list[str]) -> None:
     total = sum(est.values())
     if total > limit:  # one message: the part that dominates, with its key and fix
         key = max(est, key=est.get)
-        where = "--realisations" if key == "simulation.realisations" and realisations is not None else key
+        where = key
+        if realisations is not None:
+            where = where.replace("simulation.realisations", "--realisations")
+        if batch is not None:
+            where = where.replace("simulation.batch", "--batch")
         problems.append(f"{where}: this size needs about {_gib(est[key])} at once ({_gib(total)} for the whole run), "
                         f"more than the {_gib(limit)} a run may use ({MEMORY_SHARE:.0%} of this machine's memory); "
                         f"{fixes[key]}")
@@ -215,15 +219,16 @@ def _check_searches(case: Case, problems: list[str]) -> None:
                         "(search.x_range/y_range, entry/exit, min_depth, or the fixed surface)")
 
 
-def preflight(case: Case, *, realisations: int | None = None, search: bool = True) -> Case:
+def preflight(case: Case, *, realisations: int | None = None, batch: int | None = None,
+              search: bool = True) -> Case:
     """Run every check of a run on a loaded case; raise one CaseError listing the problems.
 
     Parameters
     ----------
     case : Case
         From :func:`~.build.load_case`.
-    realisations : int, optional
-        The run's number of realisations when it overrides the case's.
+    realisations, batch : int, optional
+        The run's number of realisations and batch size when they override the case's.
     search : bool
         Also run the search of every hypothesis (kept in ``case.extras``).
 
@@ -244,7 +249,7 @@ def preflight(case: Case, *, realisations: int | None = None, search: bool = Tru
         RefineSettings.from_case(case.simulation)
     except InputError as exc:
         problems.append(f"[simulation] refine_below/refine_method: {exc}")
-    _check_memory(case, realisations, problems)
+    _check_memory(case, realisations, batch, problems)
     if not problems:
         _check_randoms(case, realisations, problems)
     if not problems and search:

@@ -29,6 +29,7 @@ from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
 from ..reliability.registry import ESTIMATOR_NAMES
 from ..search import SEARCHES, case_search_names
 from ..simulate.problem import AVERAGING, PROPS
+from ..simulate.rare import AUTO_MIN_FAILURES, ESTIMATORS, SubsetSettings
 from ..simulate.refinement import REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]
@@ -261,7 +262,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
     },
     "search": {
         "kind": Key(_string(case_search_names()), default="centre-lattice"),
-        "trials": Key(_integer(lo=10), default=1500, doc="number of trial surfaces in the bank"),
+        "trials": Key(_integer(lo=10), default=1500, doc="about how many trial surfaces the bank holds (a lattice of max(3, round(√(trials/10)))² centres or entry × exit points, 10 radii each)"),
         "x_range": Key(_number_list(min_len=2), doc="[x_min, x_max] of circle centres or of the entry/exit region (m)"),
         "y_range": Key(_number_list(min_len=2), doc="[y_min, y_max] of circle centres (m)"),
         "entry": Key(_number_list(min_len=2), doc="window search: [x_from, x_to] where surfaces enter the ground (m)"),
@@ -299,6 +300,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "error_sd": Key(_number(lo=0), doc="measurement error, standard deviation (property units)"),
         "error_cov": Key(_number(lo=0), doc="measurement error as a COV of the measured value (-)"),
     },
+    "drilling": {
+        "candidates": Key(_number_list(min_len=1), required=True,
+                          doc="x of candidate vertical profiles (m): how much each would narrow the strength "
+                              "average along the critical surface"),
+        "spacing": Key(_number(lo=0, lo_open=True), default=1.0, doc="vertical spacing of the candidate readings (m)"),
+        "error_sd": Key(_number(lo=0), default=0.0, doc="measurement error of a candidate reading, standard-normal units"),
+    },
     "random": {
         "material": Key(_string(), required=True),
         "property": Key(_string(PROPS), required=True),
@@ -331,6 +339,13 @@ SCHEMA: dict[str, dict[str, Key]] = {
                             doc="refine the critical surface of realisations with a bank FS below this (-)"),
         "refine_method": Key(_string(POLYLINE_METHOD_NAMES), default="spencer",
                              doc="method of slices of the refined polylines"),
+        # subset simulation (slope.simulate.rare); names from its registry
+        "estimator": Key(_string(ESTIMATORS), default="monte-carlo",
+                         doc="monte-carlo, subset (small pf), or auto (subset when the first batch of Monte Carlo "
+                             f"sees fewer than {AUTO_MIN_FAILURES} failures)"),
+        "level_probability": Key(_number(lo=0, hi=0.5, lo_open=True),
+                                 doc="subset: conditional probability of each level (-), default 0.1"),
+        "samples_per_level": Key(_integer(lo=1), doc="subset: samples per level, default 1000"),
         "refine_search": Key(_string(REFINE_SEARCHES),
                              doc="per-realisation search below refine_below: the critical surface bent by Nelder-Mead, "
                                  "or dynamic programming (Baker 1980) from the lowest surfaces of different families"),
@@ -692,6 +707,7 @@ def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None
     _check_search_families(case, case.get("search", {}), zone_names, where, problems)
     _check_geometry(case, where, problems)
     _check_conditional_keys(case, raw, where, problems)
+    _check_subset(case.get("simulation", {}), where, problems)
     _check_site_data_refs(case, props, where, problems)
     risk = case.get("risk")
     if risk is not None and not ({"annual_exceedance", "annual_pf", "hypothesis"} & set(risk)):
@@ -718,8 +734,35 @@ def _check_risk_hypotheses(risk, hyps, where, problems) -> None:
         seen.add(name)
 
 
+def _check_subset(sim: dict, where, problems: list[str]) -> None:
+    """Subset simulation settings: used only by its estimators, and a whole number of chains."""
+    given = [k for k in ("level_probability", "samples_per_level") if k in sim]
+    if sim.get("estimator", "monte-carlo") == "monte-carlo":
+        for k in given:
+            problems.append(f"{where('simulation', None, k)}simulation.{k} is used only by subset simulation; set "
+                            "simulation.estimator = \"subset\" or \"auto\", or remove it")
+        return
+    from slipfield.fields.generators import noise_generator_names
+
+    if sim.get("field_method", "fft") not in noise_generator_names():
+        problems.append(f"{where('simulation', None, 'field_method')}simulation.field_method = "
+                        f"{sim.get('field_method')!r} cannot be used with estimator {sim['estimator']!r}: subset "
+                        "simulation moves the fields' white noise, which this generator draws inside GSTools; use "
+                        f"one of {', '.join(noise_generator_names())}")
+    try:
+        SubsetSettings.from_case(sim)
+    except InputError as exc:
+        key = "level_probability" if str(exc).startswith("level_probability") else "samples_per_level"
+        problems.append(f"{where('simulation', None, key)}simulation.{key}: {str(exc).split(': ', 1)[1]}")
+
+
 def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) -> None:
-    """[[site_data]]: a random property, one location form, one error form."""
+    """[[site_data]]: a random property, one location form, one error form; [drilling] needs a field."""
+    if "drilling" in case and not any(not (_is_inf(r.get("theta_h")) and _is_inf(r.get("theta_v")))
+                                      for r in case.get("random", [])):
+        problems.append(f"{where('drilling', None, None)}[drilling] needs a spatially random property (a [[random]] "
+                        "entry with finite theta_h and theta_v): with none, a new profile can teach nothing; "
+                        "remove [drilling] or add the field")
     for i, d in enumerate(case.get("site_data", [])):
         p = d.get("property")
         if p is not None and p not in props:
@@ -736,6 +779,8 @@ def _check_site_data_refs(case: dict, props: set, where, problems: list[str]) ->
         if "error_sd" in d and "error_cov" in d:
             problems.append(f"{where('site_data', i, 'error_cov')}site_data[{i}]: give error_sd or error_cov, "
                             "not both")
+
+
 def _check_search(case: dict, raw: dict, where, problems: list[str]) -> None:
     """The [search] table: the keys its kind reads (registry), the fixed surface, the ranges."""
     search = case.get("search", {})

@@ -67,6 +67,7 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
     from slipfield.fields.io import NpzSeriesWriter, XdmfSeriesWriter, grid_mesh, write_vtu
 
     from ..report import write_csv
+    from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
     from ..simulate import realise_fields
 
     if fmt not in EXPORT_FORMATS:
@@ -116,14 +117,19 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
     crit = np.asarray(result.critical_index, int)
     rows = [[k, float(fs[k]), int(crit[k]), float(result.fs_fixed[k]), bool(result.fixed_ok[k]),
              None if statuses is None else statuses[k]] for k in idx]
-    write_csv(directory / "realisations.csv", ["realisation", "FS critical (-)", "critical surface index",
-                                               "FS fixed surface (-)", "fixed surface ok", "status"], rows)
+    header = ["realisation", "FS critical (-)", "critical surface index", "FS fixed surface (-)",
+              "fixed surface ok", "status"]
+    if mechanism_summary(result) is not None:  # other families or a per-realisation search: the shapes too
+        fams, surfs = result.governing_families(), accepted_surfaces(result)
+        rows = [r + [float(result.fs_circles_only[k]), str(fams[k]), surface_text(surfs[k])] for r, k in zip(rows, idx)]
+        header += ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+    write_csv(directory / "realisations.csv", header, rows)
     props = []
     for p in problem.properties:
         props.append({"key": p.key, "file": files[p.key].name, "array": names[p.key],
                       "unit": "-" if p.multiplier else _UNITS[p.prop],
                       "meaning": ("factor of the material's deterministic value" if p.multiplier
-                                  else "value of the property"), **p.describe()})
+                                  else "value of the property"), **p.manifest()})
         if fmt == "xdmf":
             props[-1]["heavy_data"] = files[p.key].with_suffix(".h5").name
     manifest = {

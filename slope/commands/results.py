@@ -216,8 +216,10 @@ class SingleVariableResult:
         return ("single_variable_reliability", self.hypothesis)
 
     def to_json(self) -> dict:
-        return {"variables": self.variables, "surface": self.surface, "method": self.method, **self.blocks,
-                "tornado": self.tornado_block}
+        out = {"variables": self.variables, "surface": self.surface, "method": self.method, **self.blocks}
+        if self.tornado_block is not None:
+            out["tornado"] = self.tornado_block
+        return out
 
     def estimates(self) -> list[Estimate]:
         out = []
@@ -234,7 +236,7 @@ class SingleVariableResult:
         if imp:
             name = max(imp, key=imp.get)
             return name, f"FORM importance α² = {imp[name]:.2f}"
-        if self.tornado_block.get("names"):
+        if (self.tornado_block or {}).get("names"):
             return self.tornado_block["names"][0], f"widest tornado swing (mean ± {self.tornado_block['k']:g}σ)"
         return None
 
@@ -265,6 +267,9 @@ class SimulationRun:
     failed_area: np.ndarray
     failed_depth: np.ndarray
     shown: list = field(default_factory=list)
+    mechanisms: Any = None  # MechanismSummary when other surface families or a per-realisation search ran
+    result: Any = None      # the simulator's SimulationResult (mechanism maps and columns read it)
+    subset: dict | None = None  # subset-simulation block (spatial run only), when the estimator ran it
 
     @property
     def path(self) -> tuple:
@@ -291,10 +296,14 @@ class SimulationRun:
              "status": "no realisation gave a converged, admissible FS on this surface"})
         out.update({"n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                     "n_realisations_without_valid_surface": self.n_no_valid, "refine": self.refine,
-                    "n_refined": self.n_refined,
-                    "failure_geometry": {"n_failed": self.n_failed_geometry,
+                    "n_refined": self.n_refined})
+        if self.mechanisms is not None:
+            out["mechanisms"] = self.mechanisms.to_json()
+        out.update({"failure_geometry": {"n_failed": self.n_failed_geometry,
                                          "sliding_mass_area": _spread(self.failed_area),
                                          "max_depth": _spread(self.failed_depth)}})
+        if self.subset is not None:
+            out["subset"] = self.subset
         if self.run == "spatial":
             out["realisations_shown"] = [dict(r) for r in self.shown]
         return out
@@ -402,6 +411,21 @@ class SpatialResult:
         out = self.spatial.estimates("spatial simulation, critical surface re-searched",
                                      "spatial simulation, fixed deterministic surface")
         out += self.single.estimates("θ → ∞ simulation (single variables), re-searched", None)
+        sub = self.spatial.subset
+        if sub and sub.get("ran") and sub.get("pf") is not None:
+            e = _estimate("subset simulation (spatial, rare-event pf)", self.spatial.path + ("subset",), sub,
+                          {"pf": "pf", "pf_interval": "pf_interval_95", "beta": ("beta", "beta_from_pf"),
+                           "n": "n_evaluations"}, "ok")
+            if e is not None:
+                out.append(e)
+        mech = self.spatial.mechanisms
+        if mech is not None:
+            d = mech.to_json()
+            if d.get("pf_circles_only") is not None:
+                out.append(Estimate("spatial simulation, circles alone (same realisations)",
+                                    self.spatial.path + ("mechanisms",),
+                                    {"pf": d["pf_circles_only"], "pf_interval": d["pf_circles_only_interval_95"]},
+                                    {"pf": "pf_circles_only", "pf_interval": "pf_circles_only_interval_95"}))
         out += [e for _, e in self.extra.values() if e is not None]
         sd = self.site_data
         if sd is not None and sd.pf_unconditional is not None:

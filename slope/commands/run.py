@@ -106,7 +106,10 @@ def _run_one(case, det, hyp, label, run, override, *, n, n_jobs, progress):
     crit = np.asarray(res.critical_index)
     failed = np.flatnonzero(np.isfinite(fs) & (fs < 1.0) & (crit >= 0))
     area, depth = sliding_mass_geometry(prob.bank, crit[failed])
+    from ..simulate.mechanism_results import mechanism_summary
+
     return SimulationRun(
+        mechanisms=mechanism_summary(res), result=res,
         hypothesis=hyp, run=run, realisations=int(n), seed=seed, wall_time_s=round(wall, 3),
         method=case.analysis["method"], field_method=case.simulation.get("field_method"),
         averaging=case.simulation.get("averaging"),
@@ -144,8 +147,20 @@ def _quick(case, hyp, prob, *, n, n_jobs, progress) -> QuickEstimate:
     return QuickEstimate(hyp, int(n), seed, round(wall, 3), case.analysis["method"], table, est, int(ok.sum()))
 
 
-def _spatial(case, det, hyp, *, n, n_jobs, progress) -> SpatialResult | None:
-    """Spatially variable run, the same with every θ → ∞, and the quick estimate."""
+def _subset(case, spatial, estimator, *, n_jobs, progress):
+    """Subset simulation of the spatial problem when the estimator asks for it (its JSON block, or None)."""
+    from ..simulate import RefineSettings
+    from .subset_cmd import run_subset
+
+    out = {"spatial": {"critical_surface_searched": {"pf_interval_95": list(spatial.searched.interval)}}}
+    arrays = {"spatial": {"fs": spatial.fs, "problem": spatial.problem}}
+    run_subset(out, arrays, estimator, seed=spatial.seed, batch=int(case.simulation["batch"]), n_jobs=n_jobs,
+               refine=RefineSettings.from_case(case.simulation), quiet=progress.quiet)
+    return out["spatial"].get("subset")
+
+
+def _spatial(case, det, hyp, *, n, n_jobs, progress, estimator=("monte-carlo", None)) -> SpatialResult | None:
+    """Spatially variable run, the same with every θ → ∞, subset simulation when chosen, the quick estimate."""
     spatial = _run_one(case, det, hyp, "spatial simulation", "spatial", None, n=n, n_jobs=n_jobs,
                        progress=progress)
     if spatial is None:
@@ -162,9 +177,17 @@ def _spatial(case, det, hyp, *, n, n_jobs, progress) -> SpatialResult | None:
         site, _ = site_data_effect(spatial.problem, est_c, hyp, n=n, seed=spatial.seed,
                                    batch=int(case.simulation["batch"]), n_jobs=n_jobs, quiet=progress.quiet,
                                    refine=RefineSettings.from_case(case.simulation))
+    drilling = None
+    if "drilling" in case.data:
+        from ..simulate.drilling import drilling_summary
+
+        drilling = drilling_summary(case.data["drilling"], spatial.problem)
+    spatial.subset = _subset(case, spatial, estimator, n_jobs=n_jobs, progress=progress)
     spatial.shown = _shown(spatial.fs, spatial.critical_index)
     quick = _quick(case, hyp, spatial.problem, n=n, n_jobs=n_jobs, progress=progress)
     out = SpatialResult(hyp, spatial, single, quick)
+    if drilling is not None:
+        out.extra["drilling"] = (drilling, None)
     if site is not None:
         out.site_data = site
         out.extra["site_data"] = (site.to_dict(), None)
@@ -185,8 +208,8 @@ def _reliability_status(summ):
         r["status"] = "ok" if bad == 0 else f"{bad} evaluations not converged or inadmissible, excluded"
 
 
-def _single_variable(case, det, hyp) -> SingleVariableResult | None:
-    r = single_variable_reliability(case, det, hyp, n_jobs=1)
+def _single_variable(case, det, hyp, estimator=("monte-carlo", None)) -> SingleVariableResult | None:
+    r = single_variable_reliability(case, det, hyp, n_jobs=1, estimator=estimator)
     if r is None:
         return None
     s, arrays = r["summary"], r["arrays"]
@@ -199,7 +222,7 @@ def _single_variable(case, det, hyp) -> SingleVariableResult | None:
             # The Wilson bounds at k = 0 or k = n are exactly pf in closed form; floating point can put
             # them a rounding error on the wrong side (1.08e-19 > 0 seen on the dam demo).
             b["pf_interval_95"] = [min(iv[0], b["pf"]), max(iv[1], b["pf"])]
-    return SingleVariableResult(hyp, s["variables"], s["surface"], s["method"], blocks, s["tornado"],
+    return SingleVariableResult(hyp, s["variables"], s["surface"], s["method"], blocks, s.get("tornado"),
                                 arrays.get("tornado"),
                                 {m: a["fs"] for m, a in arrays.items() if isinstance(a, dict) and "fs" in a})
 
@@ -236,7 +259,8 @@ def _counts(case, realisations, jobs):
     return int(n), int(n_jobs)
 
 
-def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_ready=None):
+def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_ready=None, estimator=None,
+                 level_probability=None, samples_per_level=None):
     """Run every analysis of a case; nothing is written.
 
     Parameters
@@ -247,6 +271,8 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
         Override ``simulation.realisations`` and ``simulation.jobs``.
     quiet : bool
         No stage lines and no progress bars.
+    estimator, level_probability, samples_per_level : optional
+        Override ``simulation.estimator`` and the subset-simulation settings (``--estimator`` …).
     on_ready : callable, optional
         ``on_ready(case, n_jobs)`` once the case and options are checked, before any computation
         (``run_case`` checks its output folder and starts the worker pool there).
@@ -262,6 +288,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     progress.say(f"reading {case_path}")
     case = load_case(case_path)
     raw = Path(case_path).read_bytes()
+    from .subset_cmd import estimator_settings
+
+    est = estimator_settings(case, estimator, level_probability, samples_per_level)
     n, n_jobs = _counts(case, realisations, jobs)
     if on_ready is not None:
         on_ready(case, n_jobs)
@@ -277,16 +306,17 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     for h in hyps:
         methods = ", ".join(case.data.get("reliability", {}).get("methods", []))
         progress.say(f"{h} · single random variables ({methods})")
-        res.single_variable[h] = _single_variable(case, det, h)
+        res.single_variable[h] = _single_variable(case, det, h, est)
     for h in hyps:
-        res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress)
+        res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress, estimator=est)
     res.risk = risk_points(case, res)
     res.analysis_time_s = round(time.perf_counter() - t_start, 2)
     return case, res
 
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
-             figure_formats=("png",), overwrite=False) -> dict:
+             figure_formats=("png",), overwrite=False, estimator=None, level_probability=None,
+             samples_per_level=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -309,6 +339,8 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         Allow an ``out_dir`` holding another slipfield command's output
         (:class:`slope.commands.folders.OutputFolder`: only slipfield's own
         files are ever replaced).
+    estimator, level_probability, samples_per_level : optional
+        Override ``simulation.estimator`` (``monte-carlo``, ``subset``, ``auto``) and its settings.
 
     Returns
     -------
@@ -330,7 +362,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         folder["out"] = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
         start_workers(n_jobs)  # the pool starts while the search runs
 
-    case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready)
+    case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
+                             estimator=estimator, level_probability=level_probability,
+                             samples_per_level=samples_per_level)
     return write_run(case, res, folder["out"], formats=formats, quiet=quiet, t_start=t_start)
 
 

@@ -17,12 +17,14 @@ import hashlib
 import json
 import sys
 import time
+import warnings
 from pathlib import Path
 
 import numpy as np
 
 from ..case.preflight import preflight
 from ..errors import InputError
+from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
 from .export import EXPORT_FORMATS, export_realisations
 from .folders import OutputFolder
@@ -43,6 +45,9 @@ PRESENTATION_KEYS = frozenset({
     "simulation.jobs", "simulation.batch",          # results are identical for any jobs and batch
     "simulation.seed",                              # the seed actually used is recorded on its own (--seed)
     "simulation.refine_below", "simulation.refine_method",  # the refinement used is recorded on its own
+    # the estimator: a Monte Carlo store holds realisations, whichever estimator chose it; a subset
+    # store records its settings in its own identity (slope.simulate.rare_store)
+    "simulation.estimator", "simulation.level_probability", "simulation.samples_per_level",
     "simulation.refine_search",
     "analysis.hypotheses",                          # the hypothesis actually run is recorded on its own
     "analysis.methods",                             # the deterministic table of `run`; simulate uses analysis.method
@@ -128,7 +133,8 @@ def _remove_store(store: Path) -> None:
 # --------------------------------------------------------------- simulate
 def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=None, seed=None, hypothesis=None,
                   resume=False, scheduler=None, export_fields=None, export_format="xdmf",
-                  progress=False, refine_below=None, refine_method="spencer", overwrite=False) -> dict:
+                  progress=False, refine_below=None, refine_method="spencer", overwrite=False, estimator=None,
+                  level_probability=None, samples_per_level=None) -> dict:
     """Spatially variable simulation of a case, streamed to ``out_dir`` (resumable).
 
     Parameters
@@ -163,6 +169,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     overwrite : bool
         Start afresh in an ``out_dir`` (or ``export_fields``) holding
         slipfield's own output: only the files its marker lists are replaced.
+    estimator, level_probability, samples_per_level : optional
+        Override ``simulation.estimator`` etc. (:mod:`slope.commands.subset_cmd`):
+        with subset simulation ``store/`` holds its level checkpoints and
+        ``--resume`` continues from the last finished level.
 
     Returns
     -------
@@ -171,7 +181,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     """
     from ..case.build import load_case
     from ..report import write_csv
-    from ..simulate import connect_scheduler, simulate
+    from ..simulate import StoreRepairWarning, connect_scheduler, simulate
     from ..simulate.refinement import RefineSettings
     from .run import CAUTION
 
@@ -181,7 +191,9 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                          f"{', '.join(EXPORT_FORMATS)}")
     case = load_case(case_path)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed)
-    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
+    # the search of the one hypothesis is checked by problem_of
+    preflight(case, realisations=None if realisations is None else n, batch=None if batch is None else block,
+              search=False)
     exp = None if export_fields is None else Path(export_fields)
     if exp is not None:
         a, b = exp.absolute().resolve(), Path(out_dir).absolute().resolve()
@@ -200,6 +212,17 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         start_workers(n_jobs)  # the pool starts while the search runs
     hyp, _, prob = problem_of(case, hypothesis)
     identity = {"case": case_fingerprint(case), "hypothesis": hyp, "results_format": RESULTS_VERSION}
+    from .subset_cmd import choose_estimator, simulate_subset_case
+
+    chosen, sub = choose_estimator(case, prob, estimator, level_probability, samples_per_level, seed, n_jobs,
+                                   block, refine)
+    if chosen["estimator"] == "subset":
+        if exp is not None:
+            raise InputError("--export-fields: with subset simulation the fields of the most typical failure are "
+                             "written to subset_typical_failure.npz in --out; leave --export-fields out")
+        return simulate_subset_case(case, case_path, prob, hyp, out, sub, seed=seed, n_jobs=n_jobs, batch=block,
+                                    resume=resume, overwrite=overwrite, scheduler=scheduler, refine=refine,
+                                    progress=progress, chosen=chosen, identity=identity)
     ident = {"path": str(case_path), "title": case.title, "hypothesis": hyp, "seed": seed,
              "fingerprint": prob.fingerprint()}
     store = out.path / _STORE
@@ -215,8 +238,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         out.claim(folders=[_STORE])
         if fresh:
             _remove_store(store)
-        res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=resumed,
-                       progress=progress, scheduler=client, refine=refine, store_identity=identity)
+        with warnings.catch_warnings():  # repaired blocks are reported below, in the user's words
+            warnings.simplefilter("ignore", StoreRepairWarning)
+            res = simulate(prob, n, seed, n_jobs=n_jobs, batch=block, store=str(store), resume=resumed,
+                           progress=progress, scheduler=client, refine=refine, store_identity=identity)
         write_json(store / "case.json", ident)
     finally:
         if client is not None:
@@ -229,8 +254,13 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     try:
         rows = [[k, float(res.fs[k]), int(res.critical_index[k]), statuses[k], float(res.fs_fixed[k]),
                  bool(res.fixed_ok[k])] for k in range(n)]
-        write_csv(stage / "fs_realisations.csv", ["realisation", "FS critical (-)", "critical surface index",
-                                                  "status", "FS fixed surface (-)", "fixed surface ok"], rows)
+        header = ["realisation", "FS critical (-)", "critical surface index", "status", "FS fixed surface (-)",
+                  "fixed surface ok"]
+        if mechanism_summary(res) is not None:  # other families or a per-realisation search: the shapes too
+            fams, surfs = res.governing_families(), accepted_surfaces(res)
+            rows = [r + [float(res.fs_circles_only[k]), str(fams[k]), surface_text(surfs[k])] for k, r in enumerate(rows)]
+            header += ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+        write_csv(stage / "fs_realisations.csv", header, rows)
         if exp_folder is not None:
             exp_stage = exp_folder.stage()
             export_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)
@@ -242,7 +272,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
             "realisations_from_store": int(min(n_before, n)),
             "store_blocks_recomputed": list(res.store_notices),
             "problem_fingerprint": ident["fingerprint"],
-            "properties": [p.describe() for p in prob.properties],
+            "properties": [p.manifest() for p in prob.properties],
             "simulation": summary(res),
             "units": {"fs": "-", "pf": "probability (fraction)", "theta": "m"},
             "fs_csv_status": {"ok": "lowest FS of the bank counted",
@@ -256,6 +286,8 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
             "export_fields": None if exp is None else {"folder": str(exp), "format": export_format},
             "caution": CAUTION,
         }
+        if chosen["estimator_setting"] != "monte-carlo":
+            results["estimator"], results["estimator_choice"] = "monte-carlo", chosen
         results["wall_time_s"] = round(time.perf_counter() - t0, 3)
         results["files"] = ["fs_realisations.csv", "results.json", f"{_STORE}/"]
         write_json(stage / "results.json", results)

@@ -22,7 +22,8 @@ __all__ = ["sweep_case"]
 
 
 def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=None, jobs=None, batch=None,
-               seed=None, hypothesis=None, scheduler=None, progress=False, overwrite=False) -> dict:
+               seed=None, hypothesis=None, scheduler=None, progress=False, overwrite=False, estimator=None,
+               level_probability=None, samples_per_level=None) -> dict:
     """pf over a grid of scales of fluctuation, with common random numbers.
 
     Every random property gets the same (θh, θv) at a grid point; the same
@@ -70,13 +71,24 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             given = [str(v) for v in sw[key]]
         grid_vals[key] = parse_theta_list(given, opt)
     n, n_jobs, block, seed = settings(case, realisations, jobs, batch, seed, default_n=sw.get("realisations"))
-    preflight(case, realisations=n, search=False)  # the search of the one hypothesis is checked by problem_of
+    # the search of the one hypothesis is checked by problem_of
+    preflight(case, realisations=None if realisations is None else n, batch=None if batch is None else block,
+              search=False)
+    from .subset_cmd import estimator_settings
+
+    est, sub = estimator_settings(case, estimator, level_probability, samples_per_level)
+    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)  # checked before any computation
     hyp, _, prob = problem_of(case, hypothesis)
-    out = OutputFolder(out_dir, "sweep", overwrite=overwrite)
     client = None if scheduler is None else connect_scheduler(scheduler, option="--scheduler")
     try:  # every input is checked: from here on the sweep computes, then writes
-        rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
-                           batch=block, progress=progress, scheduler=client)
+        if est == "monte-carlo":
+            rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
+                               batch=block, progress=progress, scheduler=client)
+        else:  # subset simulation at every point (auto: where Monte Carlo's first batch sees few failures)
+            from ..simulate.rare import theta_sweep_rare
+
+            rows = theta_sweep_rare(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, sub, est,
+                                    n_jobs=n_jobs, batch=block, scheduler=client)
     finally:
         if client is not None:
             client.close()
@@ -96,7 +108,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             "case": {"path": str(case_path), "title": case.title}, "hypothesis": hyp, "method": prob.method,
             "seed": seed, "realisations_per_point": n, "theta_h": grid_vals["theta_h"],
             "theta_v": grid_vals["theta_v"], "rows": rows,
-            "common_random_numbers": "same seed and streams at every grid point",
+            "common_random_numbers": "same seed and streams at every grid point", "estimator": est,
             "infinite_theta": "a point with theta_h or theta_v = inf is run with both = inf (single random "
                               "variable per property); theta_h_run/theta_v_run give what was run",
             "units": {"theta": "m", "fs": "-", "pf": "probability (fraction)"},

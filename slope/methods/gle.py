@@ -50,7 +50,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-__all__ = ["morgenstern_price"]
+__all__ = ["morgenstern_price", "bracketed_roots", "SCAN_LAMBDAS"]
 
 _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 #: boundaries where E is below this fraction of the largest E on the surface
@@ -160,6 +160,145 @@ def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, m
     return F, lam, n_it, done
 
 
+#: interslice force inclinations (degrees) of the lam scan that brackets the
+#: roots Newton missed: both signs, 2 degree steps to 80 degrees, lam = tan
+#: of the inclination (Spencer's theta; for Morgenstern-Price lam scales f)
+SCAN_LAMBDAS = np.tan(np.radians(np.r_[np.arange(0.0, 80.01, 2.0), -np.arange(2.0, 80.01, 2.0)]))
+#: roots tried from the scan, nearest lam = 0 first
+_MAX_BRACKETS = 6
+
+
+@njit(cache=True, fastmath=_FASTMATH)
+def _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam):
+    """Force residual E_n, moment residual and its F derivative at (F, lam).
+
+    Also returns how many slices have a negative recursion denominator
+    ``Phi - lam f Psi``: E_n has a pole where one changes sign, so a sign
+    change of E_n across such a change is a pole, not a root.
+    """
+    N = ca.shape[1]
+    E = 0.0
+    EF = 0.0
+    g2 = G0m
+    g2F = 0.0
+    neg = 0
+    for i in range(N):
+        t = tp[s, m, i]
+        cai = ca[m, i]
+        sai = sa[m, i]
+        Ai = A[m, i]
+        Bi = B[m, i]
+        R = c[s, m, i] * l[m, i] - ul[m, i] * t + (Ai * cai - Bi * sai) * t
+        T = Bi * cai + Ai * sai
+        Phi = F * cai + t * sai
+        Psi = t * cai - F * sai
+        fi = f[fr, i] if i > 0 else 0.0
+        fj = f[fr, i + 1]
+        D = Phi - lam * fi * Psi
+        G = Phi - lam * fj * Psi
+        if G < 0.0:
+            neg += 1
+        En = (E * D + F * T - R) / G
+        EnF = (EF * D + E * (cai + lam * fi * sai) + T - En * (cai + lam * fj * sai)) / G
+        g2 -= dx[m, i] * lam * (fj * En - fi * E) - dy[m, i] * (E - En)
+        g2F -= dx[m, i] * lam * (fj * EnF - fi * EF) - dy[m, i] * (EF - EnF)
+        E = En
+        EF = EnF
+    return E, g2, g2F, neg
+
+
+@njit(cache=True, fastmath=_FASTMATH)
+def _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, F0, lams):
+    """Starting points (F, lam) bracketed by a scan over lam (both signs).
+
+    For each lam of ``lams`` (ordered outward from 0: the positive half, then
+    the negative half) the moment equation is solved for F by a damped 1-D
+    Newton (warm-started from the previous lam), and the force residual
+    E_n(F_m(lam), lam) is evaluated: the Spencer / Fredlund-Krahn picture of
+    the moment and force factors of safety as functions of lam, whose
+    crossing is the solution. A sign change of E_n between neighbouring lam
+    values, both with every denominator positive, brackets a root; its
+    linear interpolation is returned as a start for the 2-D Newton.
+
+    Returns
+    -------
+    starts_F, starts_lam : ndarray (_MAX_BRACKETS,), count : int
+    """
+    G = lams.size
+    Fm = np.empty(G)
+    r1 = np.empty(G)
+    negs = np.zeros(G, dtype=np.int64)
+    good = np.zeros(G, dtype=np.bool_)
+    F = F0
+    for g in range(G):
+        lam = lams[g]
+        if g > 0 and lams[g] < 0.0 and lams[g - 1] >= 0.0:
+            F = F0    # the negative half starts again from lam = 0's start
+        found = False
+        for it in range(40):
+            E, g2, g2F, neg = _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam)
+            if not (np.isfinite(g2) and np.isfinite(g2F)) or g2F == 0.0:
+                break
+            dF = -g2 / g2F
+            if abs(dF) > 0.5 * F:
+                dF = 0.5 * F * (1.0 if dF > 0 else -1.0)
+            F = F + dF
+            if abs(dF) <= 1e-9 * F:
+                found = True
+                break
+        if found and F > 0.0 and np.isfinite(F):
+            E, g2, g2F, neg = _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam)
+            if np.isfinite(E):
+                Fm[g] = F
+                r1[g] = E / s1
+                negs[g] = neg
+                good[g] = True
+        if not good[g]:
+            F = F0
+    sF = np.empty(_MAX_BRACKETS)
+    sl = np.empty(_MAX_BRACKETS)
+    key = np.empty(_MAX_BRACKETS)
+    k = 0
+    for g in range(G - 1):
+        a = g
+        b = g + 1
+        if lams[b] < 0.0 and lams[a] >= 0.0:
+            a = 0   # the negative half's first interval is [0, -step]
+        # only the branch on which every recursion denominator is positive
+        # (the analogue of Bishop's m_alpha > 0): beyond a pole, roots exist
+        # between every two poles and none is physical
+        if not (good[a] and good[b]) or negs[a] != 0 or negs[b] != 0:
+            continue
+        if r1[a] == 0.0 or (r1[a] > 0.0) != (r1[b] > 0.0):
+            w = r1[a] / (r1[a] - r1[b]) if r1[a] != r1[b] else 0.0
+            lam_s = lams[a] + w * (lams[b] - lams[a])
+            F_s = Fm[a] + w * (Fm[b] - Fm[a])
+            kk = abs(lam_s)
+            if k < _MAX_BRACKETS:
+                sF[k] = F_s
+                sl[k] = lam_s
+                key[k] = kk
+                k += 1
+            else:
+                worst = 0
+                for j in range(1, _MAX_BRACKETS):
+                    if key[j] > key[worst]:
+                        worst = j
+                if kk < key[worst]:
+                    sF[worst] = F_s
+                    sl[worst] = lam_s
+                    key[worst] = kk
+    # nearest lam = 0 first (insertion sort of at most _MAX_BRACKETS)
+    for i in range(1, k):
+        j = i
+        while j > 0 and key[j - 1] > key[j]:
+            key[j - 1], key[j] = key[j], key[j - 1]
+            sF[j - 1], sF[j] = sF[j], sF[j - 1]
+            sl[j - 1], sl[j] = sl[j], sl[j - 1]
+            j -= 1
+    return sF, sl, k
+
+
 @njit(cache=True, fastmath=_FASTMATH, inline="always")
 def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
     """Interslice normal force on the right of slice i from the one on its left (force recursion)."""
@@ -202,6 +341,10 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
         ne = (A[m, i] - dX) * ca[m, i] - (B[m, i] + dE) * sa[m, i] - ul[m, i]
         if ne < -1e-9 * abs(A[m, i]):
             fl |= 1
+        # recursion denominator (the m_alpha of this method): a root reached
+        # across one of its poles is not on the physical branch
+        if F * ca[m, i] + t * sa[m, i] - lam * fj * (t * ca[m, i] - F * sa[m, i]) <= 0.0:
+            fl |= 64
         strength = cl + ne * t
         if strength > 0.0:
             s_pos += strength
@@ -235,9 +378,105 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     return fl
 
 
+@njit(cache=True, fastmath=_FASTMATH)
+def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple,
+            fscale, lscale, tol, max_iter, F0, lams, E_out, X_out, yt_out, neff_out):
+    """Bracket-then-Newton solve for a (sample, surface) that Newton from lam = 0 missed.
+
+    Tries the starts of :func:`_scan_starts`, nearest lam = 0 first, and
+    returns the first converged root without a flag; failing that, the first
+    converged root flagged only by the tolerable flags (negative normal,
+    thrust line outside); failing that, ``found = False``.
+
+    Returns F, lam, iterations (of the scan's Newton runs), found, flags.
+    """
+    s1 = fscale[m]
+    s2 = fscale[m] * lscale[m]
+    sF, sl, k = _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, F0, lams)
+    bF = np.nan
+    bl = np.nan
+    bfl = 8
+    found = False
+    n_it = 0
+    for j in range(k):
+        F, lam, it, done = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, s2, tol,
+                                   max_iter, sF[j], sl[j])
+        n_it += it
+        if not done or not (F > 0.0) or not np.isfinite(F):
+            continue
+        fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                   lscale, F, lam, E_out, X_out, yt_out, neff_out, False)
+        if (fl & 104) != 0:
+            continue
+        if not found or (fl == 0 and bfl != 0):
+            bF = F
+            bl = lam
+            bfl = fl
+            found = True
+        if fl == 0:
+            break
+    return bF, bl, n_it, found, bfl
+
+
+@njit(parallel=True, cache=True, fastmath=_FASTMATH)
+def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb, couple,
+                   fscale, lscale, tol, max_iter, F0, lams, F_out, lam_out, it_out, found_out):
+    """:func:`_rescue` for a list of (sample, surface) pairs (used by Spencer)."""
+    E_out = np.empty((1, 1, 1))
+    for k in prange(ss.size):
+        s = ss[k]
+        m = ms[k]
+        F, lam, n_it, found, fl = _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb, yb_b,
+                                          yt_b, xm, yb, couple, fscale, lscale, tol, max_iter, F0[k],
+                                          lams, E_out, E_out, E_out, E_out)
+        F_out[k] = F
+        lam_out[k] = lam
+        it_out[k] = n_it
+        found_out[k] = found
+
+
+def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=50):
+    """Roots (F, lam) of the GLE equations by a lam scan then Newton, for some cells.
+
+    Parameters
+    ----------
+    terms : BankTerms
+    c, tan_phi : ndarray (s, m, n)
+    f : ndarray (m, n + 1)
+        Interslice function (ones for Spencer).
+    pairs : (ndarray of int, ndarray of int)
+        Sample and surface indices of the cells to solve.
+    F_start : ndarray
+        Starting F of each cell (e.g. Bishop's).
+
+    Returns
+    -------
+    F, lam, iterations, found : ndarray (len(pairs[0]),)
+    """
+    ss = np.ascontiguousarray(pairs[0], dtype=np.int64)
+    ms = np.ascontiguousarray(pairs[1], dtype=np.int64)
+    k = ss.size
+    F = np.full(k, np.nan)
+    lam = np.full(k, np.nan)
+    its = np.zeros(k, dtype=np.int64)
+    found = np.zeros(k, dtype=np.bool_)
+    if k == 0:
+        return F, lam, its, found
+    F0 = np.asarray(F_start, dtype=float).ravel()
+    F0 = np.where(np.isfinite(F0) & (F0 > 0), F0, 1.0)
+    bank = terms.bank
+    _rescue_kernel(ss, ms, c, tan_phi, terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B,
+                   terms.ul, terms.dx, terms.dy, np.ascontiguousarray(f, dtype=float),
+                   terms.couple.sum(axis=1), terms.x_bound, terms.y_bound_base, terms.y_bound_top,
+                   np.asarray(bank.x_mid, dtype=float), np.asarray(bank.y_base, dtype=float),
+                   terms.couple, terms.force_scale, terms.length_scale, float(tol), int(max_iter),
+                   F0, SCAN_LAMBDAS, F, lam, its, found)
+    return F, lam, its, found
+
+
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)
 def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-                couple, fscale, lscale, valid, tol, max_iter, F_start, lam_start,
+                couple, fscale, lscale, valid, tol, max_iter, F_start, lam_start, lams,
                 fs, lam_out, iters, conv, flags, E_out, X_out, yt_out, neff_out, want):
     S = fs.shape[0]
     M = fs.shape[1]
@@ -295,6 +534,19 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
                     lam = lam2
                     done = True
                     fl = fl2
+        if not done or (fl & 104) != 0:
+            # Newton from lam = 0 (and the continuation) missed, or reached a
+            # root across a pole of the recursion: scan lam over both signs
+            # for a root on the physical branch, bracketed before Newton
+            F3, lam3, k3, d3, fl3 = _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb,
+                                            yb_b, yt_b, xm, yb, couple, fscale, lscale, tol,
+                                            max_iter, F0, lams, E_out, X_out, yt_out, neff_out)
+            n_it += k3
+            if d3:
+                F = F3
+                lam = lam3
+                done = True
+                fl = fl3
         fs[s, m] = F
         lam_out[s, m] = lam
         iters[s, m] = n_it
@@ -359,7 +611,8 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
                 np.asarray(bank.x_mid, dtype=float), np.asarray(bank.y_base, dtype=float),
                 terms.couple, terms.force_scale, terms.length_scale,
                 np.ascontiguousarray(terms.valid), float(tol), int(max_iter), F_start,
-                lam_start, fs, lam, iters, conv, flags, E, X, yt, neff, bool(return_forces))
+                lam_start, SCAN_LAMBDAS, fs, lam, iters, conv, flags, E, X, yt, neff,
+                bool(return_forces))
     out = {"fs": fs, "lam": lam, "converged": conv, "flags": flags, "iterations": iters}
     if return_forces:
         out.update(E=E, X=X, thrust_y=yt, normal_eff=neff)

@@ -6,7 +6,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 __all__ = ["FSResult", "FLAG_NAMES", "NEGATIVE_NORMAL", "SMALL_M_ALPHA",
-           "THRUST_OUTSIDE", "NONPOSITIVE", "INVALID_SURFACE", "NEGATIVE_STRENGTH"]
+           "THRUST_OUTSIDE", "NONPOSITIVE", "INVALID_SURFACE", "NEGATIVE_STRENGTH",
+           "BEYOND_POLE"]
 
 #: effective base normal force below zero on at least one slice
 NEGATIVE_NORMAL = 1
@@ -30,6 +31,15 @@ INVALID_SURFACE = 16
 #: physical F is unbounded).
 NEGATIVE_STRENGTH = 32
 
+#: Spencer / Morgenstern-Price: on a slice, F cos(a) + tan(phi) sin(a) - lam
+#: f (tan(phi) cos(a) - F sin(a)) <= 0 (Spencer: F cos(a - theta) + tan(phi)
+#: sin(a - theta) <= 0), the analogue of Bishop's m_alpha <= 0: the slice's
+#: interslice resultant has turned past the normal to its base, so the root
+#: was reached across a pole of the slice forces (infinite Q on that slice).
+#: Such roots exist between every two poles and depend on where Newton
+#: starts; none is on the physical branch of Spencer's (1967) F(theta) curves.
+BEYOND_POLE = 64
+
 FLAG_NAMES = {
     NEGATIVE_NORMAL: "negative effective base normal force",
     SMALL_M_ALPHA: "m_alpha <= 0.2 on a slice",
@@ -37,6 +47,7 @@ FLAG_NAMES = {
     NONPOSITIVE: "factor of safety not positive or not finite",
     INVALID_SURFACE: "surface rejected by the slice bank",
     NEGATIVE_STRENGTH: "negative shear strength on slice bases",
+    BEYOND_POLE: "interslice resultant past the normal to a slice base",
 }
 
 

@@ -23,7 +23,7 @@ from __future__ import annotations
 import numpy as np
 
 from .gle import NEGATIVE_STRENGTH_FRACTION, THRUST_E_FRACTION
-from .result import NEGATIVE_NORMAL, NEGATIVE_STRENGTH, NONPOSITIVE, THRUST_OUTSIDE
+from .result import BEYOND_POLE, NEGATIVE_NORMAL, NEGATIVE_STRENGTH, NONPOSITIVE, THRUST_OUTSIDE
 
 __all__ = ["spencer", "thrust_line"]
 
@@ -108,10 +108,6 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
     s1 = terms.force_scale
     s2 = terms.force_scale * terms.length_scale
     valid = np.broadcast_to(terms.valid, (S, M))
-    done = ~valid
-    conv = np.zeros((S, M), dtype=bool)
-    iters = np.zeros((S, M), dtype=np.int64)
-    failed = np.zeros((S, M), dtype=bool)
 
     def net_forces(F, th):
         cth, sth = np.cos(th)[..., None], np.sin(th)[..., None]
@@ -121,41 +117,82 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
         Q = (R - F[..., None] * T) / Dn
         return Q, cam, sam, Dn, cth, sth
 
+    def newton(F, th, active):
+        done = ~active
+        conv = np.zeros((S, M), dtype=bool)
+        iters = np.zeros((S, M), dtype=np.int64)
+        failed = np.zeros((S, M), dtype=bool)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            for it in range(max_iter):
+                if done.all():
+                    break
+                Q, cam, sam, Dn, cth, sth = net_forces(F, th)
+                L = -terms.dx * sth - terms.dy * cth
+                dL = -terms.dx * cth + terms.dy * sth
+                dQF = (-T - Q * cam) / Dn
+                dQt = -Q * (F[..., None] * sam - t * cam) / Dn
+                r1 = Q.sum(axis=2) / s1
+                r2 = ((Q * L).sum(axis=2) - G0) / s2
+                j11 = dQF.sum(axis=2) / s1
+                j12 = dQt.sum(axis=2) / s1
+                j21 = (dQF * L).sum(axis=2) / s2
+                j22 = (dQt * L + Q * dL).sum(axis=2) / s2
+                det = j11 * j22 - j12 * j21
+                # theta has no influence (no interslice force for any theta, e.g.
+                # an infinite slope) when its Jacobian column is round-off
+                regular = ((np.abs(det) > 1e-10 * (np.abs(j11 * j22) + np.abs(j12 * j21)))
+                           & (np.abs(j12) + np.abs(j22) > 1e-9 * (np.abs(j11) + np.abs(j21))))
+                dF = np.where(regular, (-r1 * j22 + r2 * j12) / det, -r1 / j11)
+                dt = np.where(regular, (-r2 * j11 + r1 * j21) / det, 0.0)
+                bad = ~(np.isfinite(dF) & np.isfinite(dt)) & ~done
+                failed |= bad
+                done |= bad
+                small = (np.abs(dF) <= tol * F) & (np.abs(dt) <= tol * np.maximum(1.0, np.abs(np.tan(th))))
+                dF = np.clip(dF, -0.5 * F, 0.5 * F)
+                dt = np.clip(dt, -0.35, 0.35)
+                live = ~done
+                F = np.where(live, F + dF, F)
+                th = np.where(live, np.clip(th + dt, -_THETA_MAX, _THETA_MAX), th)
+                iters = np.where(live, it + 1, iters)
+                newly = live & small
+                conv |= newly
+                done |= newly
+        return F, th, conv, iters, failed
+
+    F, th, conv, iters, failed = newton(F, th, valid)
+    # Newton from theta = lam_start missed (no root reached, F <= 0, or a root
+    # across a pole of Q: a slice whose base normal the interslice resultant
+    # has turned past, flag BEYOND_POLE), as on steep toe circles. Bracket a
+    # root on the physical branch by a scan of
+    # lam over both signs (shared with Morgenstern-Price, f = 1) and restart
+    # Newton on Spencer's own equations from there.
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for it in range(max_iter):
-            if done.all():
-                break
-            Q, cam, sam, Dn, cth, sth = net_forces(F, th)
-            L = -terms.dx * sth - terms.dy * cth
-            dL = -terms.dx * cth + terms.dy * sth
-            dQF = (-T - Q * cam) / Dn
-            dQt = -Q * (F[..., None] * sam - t * cam) / Dn
-            r1 = Q.sum(axis=2) / s1
-            r2 = ((Q * L).sum(axis=2) - G0) / s2
-            j11 = dQF.sum(axis=2) / s1
-            j12 = dQt.sum(axis=2) / s1
-            j21 = (dQF * L).sum(axis=2) / s2
-            j22 = (dQt * L + Q * dL).sum(axis=2) / s2
-            det = j11 * j22 - j12 * j21
-            # theta has no influence (no interslice force for any theta, e.g.
-            # an infinite slope) when its Jacobian column is round-off
-            regular = ((np.abs(det) > 1e-10 * (np.abs(j11 * j22) + np.abs(j12 * j21)))
-                       & (np.abs(j12) + np.abs(j22) > 1e-9 * (np.abs(j11) + np.abs(j21))))
-            dF = np.where(regular, (-r1 * j22 + r2 * j12) / det, -r1 / j11)
-            dt = np.where(regular, (-r2 * j11 + r1 * j21) / det, 0.0)
-            bad = ~(np.isfinite(dF) & np.isfinite(dt)) & ~done
-            failed |= bad
-            done |= bad
-            small = (np.abs(dF) <= tol * F) & (np.abs(dt) <= tol * np.maximum(1.0, np.abs(np.tan(th))))
-            dF = np.clip(dF, -0.5 * F, 0.5 * F)
-            dt = np.clip(dt, -0.35, 0.35)
-            live = ~done
-            F = np.where(live, F + dF, F)
-            th = np.where(live, np.clip(th + dt, -_THETA_MAX, _THETA_MAX), th)
-            iters = np.where(live, it + 1, iters)
-            newly = live & small
-            conv |= newly
-            done |= newly
+        beyond = (net_forces(np.where(np.isfinite(F), F, 1.0), th)[3] <= 0).any(axis=2)
+    miss = valid & (~conv | failed | ~(F > 0) | beyond)
+    if miss.any():
+        from .gle import bracketed_roots
+
+        si, mi = np.nonzero(miss)
+        F0 = np.broadcast_to(np.asarray(F_start, dtype=float), (S, M))[si, mi]
+        Fb, lb, kb, found = bracketed_roots(terms, np.ascontiguousarray(np.broadcast_to(c, (S, M, N))),
+                                            np.ascontiguousarray(np.broadcast_to(tan_phi, (S, M, N))),
+                                            np.ones((M, N + 1)), (si, mi), F0, tol=tol,
+                                            max_iter=max_iter)
+        if found.any():
+            act = np.zeros((S, M), dtype=bool)
+            act[si[found], mi[found]] = True
+            F2 = F.copy()
+            th2 = th.copy()
+            F2[si[found], mi[found]] = Fb[found]
+            th2[si[found], mi[found]] = np.arctan(lb[found])
+            F2, th2, conv2, it2, failed2 = newton(F2, th2, act)
+            take = act & conv2 & ~failed2 & (F2 > 0)
+            F = np.where(take, F2, F)
+            th = np.where(take, th2, th)
+            conv = conv | take
+            failed = failed & ~take
+            iters = iters + np.where(act, it2, 0)
+            iters[si[found], mi[found]] += kb[found]
 
     F = np.where(valid & ~failed, F, np.nan)
     lam = np.where(valid, np.tan(th), np.nan)
@@ -175,6 +212,7 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
     flags |= np.where(ok & neg, NEGATIVE_NORMAL, 0)
     flags |= np.where(ok & outside, THRUST_OUTSIDE, 0)
     flags |= np.where(ok & spurious, NEGATIVE_STRENGTH, 0)
+    flags |= np.where(ok & (Dn <= 0).any(axis=2), BEYOND_POLE, 0)
     out = {"fs": F, "lam": lam, "converged": conv & np.isfinite(F), "flags": flags,
            "iterations": iters}
     if return_forces:

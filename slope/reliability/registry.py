@@ -54,6 +54,10 @@ class Settings:
     samples: int
     seed: int
     n_jobs: int = 1
+    #: subset simulation's level probability and samples per level when the case sets
+    #: ``[simulation] estimator`` to subset or auto (slope.simulate.rare.SubsetSettings)
+    level_probability: float = 0.1
+    samples_per_level: int | None = None
 
 
 @dataclass(frozen=True)
@@ -136,11 +140,13 @@ def _form(ls, variables, settings):
 
 
 def _subset(ls, variables, settings):
-    n = max(10, int(settings.samples) - int(settings.samples) % 10)
-    res = subset_simulation(ls, variables, seed=int(settings.seed), n_per_level=n, p0=0.1,
+    p0 = float(settings.level_probability)
+    n = (int(settings.samples_per_level) if settings.samples_per_level is not None else
+         max(10, int(settings.samples) - int(settings.samples) % 10))
+    res = subset_simulation(ls, variables, seed=int(settings.seed), n_per_level=n, p0=p0,
                             n_jobs=int(settings.n_jobs))
     return {"pf": float(res.pf), "cov_pf": float(res.cov_pf), "cov_pf_upper": float(res.cov_pf_upper),
-            "beta_from_pf": float(res.beta_from_pf), "n_per_level": n, "p0": 0.1,
+            "beta_from_pf": float(res.beta_from_pf), "n_per_level": n, "p0": p0,
             "n_levels": len(res.level_probabilities),
             "thresholds": [float(t) for t in res.thresholds],
             "level_probabilities": [float(p) for p in res.level_probabilities],

@@ -65,6 +65,19 @@ def comparison_table(res) -> dict:
     return {"hypotheses": hyps, "quantities": QUANTITIES, "rows": out}
 
 
+_MECHANISM_HEADER = ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+
+
+def _mechanism_columns(result) -> list:
+    """Per realisation: FS with circles alone, the family that governed, the governing surface's vertices."""
+    from ..simulate.mechanism_results import accepted_surfaces, surface_text
+
+    fams = result.governing_families()
+    surfs = accepted_surfaces(result)
+    fc = result.fs_circles_only
+    return [[float(fc[k]), str(fams[k]), surface_text(surfs[k])] for k in range(result.n)]
+
+
 def _csv_tables(stage: Path, res) -> list[dict]:
     """The CSV files; returns the slice tables (one per critical surface) for the page."""
     from ..commands.results import comparison_rows
@@ -99,13 +112,16 @@ def _csv_tables(stage: Path, res) -> list[dict]:
                                          "pf high (-)", "beta (-)", "mean FS (-)", "std FS (-)",
                                          "pf fixed surface (-)"], rows)
     rows = []
+    mech = any(sp is not None and sp.spatial.mechanisms is not None for sp in res.spatial.values())
     for h, sp in res.spatial.items():
         if sp is None:
             continue
         a = sp.spatial
-        rows += [[h, k, float(a.fs[k]), int(a.critical_index[k]), float(a.fs_fixed[k])] for k in range(len(a.fs))]
+        extra = _mechanism_columns(a.result) if mech else [[] for _ in range(len(a.fs))]
+        rows += [[h, k, float(a.fs[k]), int(a.critical_index[k]), float(a.fs_fixed[k]), *extra[k]]
+                 for k in range(len(a.fs))]
     write_csv(stage / "fs_realisations.csv", ["hypothesis", "realisation", "FS critical (-)", "bank index",
-                                               "FS fixed surface (-)"], rows)
+                                               "FS fixed surface (-)"] + (_MECHANISM_HEADER if mech else []), rows)
     slices = []
     for h, ms in res.deterministic.items():
         for m, d in ms.items():

@@ -76,7 +76,10 @@ class ZoneConditioner:
         at_data : ndarray (s, n_data_cells)
             The same realisations at :attr:`cells` (the data cells).
         """
-        resid = self.z[None, :] - at_data - self.cov.noise(seed, indices, stream)
+        # a given noise (subset simulation, slope.simulate.rare) carries the measurement errors too
+        err = (seed.measurement_errors(self, indices, stream) if hasattr(seed, "measurement_errors")
+               else self.cov.noise(seed, indices, stream))
+        resid = self.z[None, :] - at_data - err
         return add_kriged_residuals(np.array(values, dtype=float), resid, self.weights(cells))
 
 

@@ -11,6 +11,7 @@ from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
 from .engine import batch_fs, prepare
 from .problem import RandomProblem
+from .executors import SCHEDULER_TIMEOUT_S, SchedulerLost, connect_scheduler, run_tasks
 from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
@@ -45,6 +46,10 @@ class SimulationResult:
         Realisations whose FS the refinement lowered.
     refine : dict or None
         The refinement settings.
+    refine_rejected : dict or None
+        With refinement: trial shapes and candidates the refinement did not
+        accept as a minimum (only clean solutions are), counted by reason
+        over all refined realisations.
     flags : dict key -> ndarray of bool (n,)
         Per realisation: ``nonconv``, ``inadm`` (the lowest-FS surface was
         excluded and why), ``none`` (no surface qualified) and, with
@@ -55,6 +60,8 @@ class SimulationResult:
         For banks holding other families besides circles: the least clean
         FS over the bank's circles alone (pf with circles only, common
         random numbers with ``fs``).
+    crit_circles : ndarray of int (n,) or None
+        The bank index of that circle (-1 where none qualified).
     refined_xy : ndarray (n, v, 2) or None
         With the dynamic-programming search: vertices (section frame, m) of
         each realisation's accepted surface where the search lowered its FS,
@@ -73,10 +80,12 @@ class SimulationResult:
     fs_bank: np.ndarray | None = None
     n_refined: int = 0
     refine: dict | None = None
+    refine_rejected: dict | None = None
     flags: dict | None = None
     store_notices: list = field(default_factory=list)
     fs_circles: np.ndarray | None = None
     refined_xy: np.ndarray | None = None
+    crit_circles: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -161,6 +170,7 @@ class SimulationResult:
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined,
+                "refine_rejected": self.refine_rejected,
                 **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
 
@@ -181,6 +191,7 @@ class SimulationResult:
         Fraction of realisations (over all n) whose critical surface has
         FS < 1 and passes through each cell (a cell counts once per
         realisation when any slice-base midpoint of that surface lies in it).
+        ``x_edges``, ``y_edges`` in the section frame (m).
 
         Returns
         -------
@@ -194,7 +205,9 @@ class SimulationResult:
         failed = np.isfinite(self.fs) & (self.fs < 1.0)
         idx, counts = np.unique(self.critical_index[failed], return_counts=True)
         for j, cnt in zip(idx, counts):
-            h, _, _ = np.histogram2d(bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+            # slice positions are in the sliding frame (x' = direction * x):
+            # back to the section frame, or the map is mirrored for slopes facing -x
+            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
             out += (h > 0) * cnt
         return out / max(self.n, 1)
 
@@ -220,9 +233,7 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
-def _run_block(problem, seed, start, stop, refine=None, parent=None):
-    if parent is not None:
-        _watch_parent(parent)
+def _run_block(problem, seed, start, stop, refine=None):
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
     out = _reduce(problem, fs, conv, adm)
     if refine is not None:
@@ -238,11 +249,16 @@ def _run_block(problem, seed, start, stop, refine=None, parent=None):
             # one record per realisation (stores hold 1-D arrays): the accepted surface's vertices, NaN-padded
             xy = np.zeros(fs_c.size, dtype=[("xy", float, (max_vertices(refine), 2))])
             xy["xy"] = np.nan
+        from .refinement import REFINE_REASONS
+
+        # one record per realisation (stores hold 1-D arrays): rejections by reason
+        out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
             if dp:
                 f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:
-                f, surf = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+                f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
+                out["refine_rejected"]["n"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
@@ -252,6 +268,15 @@ def _run_block(problem, seed, start, stop, refine=None, parent=None):
             out["refined_xy"] = xy
     _circles_only(problem, fs, conv, adm, out)
     return out
+
+
+def _refine_rejected(allr):
+    if "refine_rejected" not in allr:
+        return None
+    from .refinement import REFINE_REASONS
+
+    tot = np.asarray(allr["refine_rejected"]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
+    return {k: int(v) for k, v in zip(REFINE_REASONS, tot) if v}
 
 
 def _circles_only(problem, fs, conv, adm, out):
@@ -268,38 +293,7 @@ def _circles_only(problem, fs, conv, adm, out):
     good = np.where(conv & adm & np.isfinite(fs), fs, np.inf)[:, circ]
     fc = good.min(axis=1)
     out["fs_circles"] = np.where(np.isfinite(fc), fc, np.nan)
-
-
-_WATCHED = None
-
-
-def _watch_parent(parent: int, period: float = 0.5) -> None:
-    """In a pool worker: end this process when the run that started it is gone.
-
-    A killed run (``kill -9``) cannot stop its pool; the worker is then
-    re-parented, so a daemon thread polls ``os.getppid()`` and exits. The
-    worker also leaves Ctrl-C to its parent, which stops the pool in order.
-    """
-    global _WATCHED
-    if _WATCHED is not None or os.getpid() == parent:
-        return
-    import signal
-    import threading
-    import time
-
-    _WATCHED = parent
-    try:
-        signal.signal(signal.SIGINT, signal.SIG_IGN)
-    except ValueError:  # not the main thread of the worker: the parent still stops the pool
-        pass
-
-    def watch():
-        while True:
-            if os.getppid() != parent:
-                os._exit(3)
-            time.sleep(period)
-
-    threading.Thread(target=watch, name="slipfield-parent-watch", daemon=True).start()
+    out["crit_circles"] = np.where(np.isfinite(fc), np.flatnonzero(circ)[good.argmin(axis=1)], -1)
 
 
 def _concat(parts):
@@ -357,73 +351,23 @@ def _blocks(lo, hi, size):
     return out
 
 
-class SchedulerLost(InputError):
-    """The dask scheduler stopped answering during a run (its finished blocks are stored)."""
-
-
-def _scheduler_results(client, futs):
-    """Results of dask futures in order; a lost scheduler raises :class:`SchedulerLost`."""
-    from dask.distributed import TimeoutError as DaskTimeout
-
-    lost = (OSError, *_cancelled_errors())
-    for f in futs:
-        while True:
-            try:
-                yield f.result(timeout=1.0)
-                break
-            except (DaskTimeout, TimeoutError):
-                if client.status not in ("running", "connecting", "newly-created"):
-                    raise SchedulerLost("the dask scheduler stopped answering") from None
-            except lost as exc:
-                raise SchedulerLost(f"the dask scheduler stopped answering ({type(exc).__name__})") from None
-
-
-def _cancelled_errors():
-    import concurrent.futures
-
-    import asyncio
-
-    errs = [concurrent.futures.CancelledError, asyncio.CancelledError]
-    try:
-        from distributed.client import FutureCancelledError
-        errs.append(FutureCancelledError)
-    except ImportError:
-        pass
-    return tuple(e for e in errs if isinstance(e, type) and issubclass(e, BaseException))
-
-
 def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
     """Results of ``_run_block`` for each range, yielded in order as they complete.
 
-    One stream of tasks for the whole run (not one parallel call per stored
-    block), so workers never wait for each other at block boundaries.
+    One stream of tasks for the whole run (:func:`~.executors.run_tasks`, not
+    one parallel call per stored block), so workers never wait for each other
+    at block boundaries.
     """
-    if scheduler is not None:
-        futs = scheduler.map(_run_block, [problem] * len(ranges), [seed] * len(ranges),
-                             [a for a, _ in ranges], [b for _, b in ranges], [refine] * len(ranges),
-                             pure=False)
-        try:
-            yield from _scheduler_results(scheduler, futs)
-        finally:
-            try:
-                scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
-            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
-                pass
+    if scheduler is not None or n_jobs == 1 or len(ranges) == 1:
+        yield from run_tasks(_run_block, [(problem, seed, a, b, refine) for a, b in ranges],
+                             n_jobs=1, scheduler=scheduler)
         return
-    if n_jobs == 1 or len(ranges) == 1:
-        for a, b in ranges:
-            yield _run_block(problem, seed, a, b, refine)
-        return
-    from joblib import Parallel, delayed
-
     # the problem (stencil, slice terms, generators: ~20 MB for the levee demo) goes to
     # each worker once through a file, not pickled with every task
     _await_workers()
     path = _ship(problem)
-    parent = os.getpid()
     try:
-        yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-            delayed(_run_shipped_block)(path, seed, a, b, refine, parent) for a, b in ranges)
+        yield from run_tasks(_run_shipped_block, [(path, seed, a, b, refine) for a, b in ranges], n_jobs=n_jobs)
     finally:
         _unship(path)
 
@@ -450,7 +394,8 @@ def start_workers(n_jobs):
         try:
             from joblib import Parallel, delayed
 
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)() for _ in range(int(n_jobs)))
+            parent = os.getpid()
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent) for _ in range(int(n_jobs)))
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
@@ -464,8 +409,16 @@ def _await_workers():
         _WARMING.join()
 
 
-def _warm_worker():
-    """In a worker: import the simulator and load its compiled kernels (tiny calls)."""
+def _warm_worker(parent=None):
+    """In a worker: import the simulator and load its compiled kernels (tiny calls).
+
+    The worker also starts watching ``parent`` (it ends if the run is killed
+    during the search, before any task reached it).
+    """
+    if parent is not None:
+        from .executors import _watch_parent
+
+        _watch_parent(parent)
     from slipfield.fields import marginals  # noqa: F401
     from slipfield.fields.generators import circulant  # noqa: F401
 
@@ -480,7 +433,8 @@ def _ship(problem):
     import pickle
     import tempfile
 
-    folder = tempfile.mkdtemp(prefix="slipfield-problem-")
+    _unship_orphans(tempfile.gettempdir())
+    folder = tempfile.mkdtemp(prefix=f"slipfield-problem-{os.getpid()}-")
     path = os.path.join(folder, "problem.pickle")
     with open(path, "wb") as fh:
         pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
@@ -496,7 +450,36 @@ def _unship(path):
         pass
 
 
-def _run_shipped_block(path, seed, start, stop, refine=None, parent=None):
+def _unship_orphans(tmp):
+    """Remove the shipped problems of runs that were killed (``kill -9`` skips :func:`_unship`).
+
+    Only folders named by :func:`_ship` (``slipfield-problem-<pid>-*``) whose
+    process is gone, and only the one file ``_ship`` writes in them.
+    """
+    import re
+
+    try:
+        names = os.listdir(tmp)
+    except OSError:
+        return
+    for name in names:
+        m = re.fullmatch(r"slipfield-problem-(\d+)-[A-Za-z0-9_]+", name)
+        if not m or _pid_alive(int(m.group(1))):
+            continue
+        _unship(os.path.join(tmp, name, "problem.pickle"))
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # alive, but another user's
+        return True
+    return True
+
+
+def _run_shipped_block(path, seed, start, stop, refine=None):
     """:func:`_run_block` in a worker, loading the shipped problem on the worker's first task."""
     problem = _WORKER_PROBLEM.get(path)
     if problem is None:
@@ -511,53 +494,7 @@ def _run_shipped_block(path, seed, start, stop, refine=None, parent=None):
         import numba
 
         numba.set_num_threads(1)
-    return _run_block(problem, seed, start, stop, refine, parent)
-
-
-SCHEDULER_TIMEOUT_S = 5.0
-
-
-def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
-    """A dask.distributed Client for a scheduler address, or a clear InputError within ``timeout``.
-
-    Every step (TCP connect, handshake, registration) is bounded: the client
-    is built in a helper thread and abandoned when it has not answered in
-    time, so an address that accepts connections but never answers cannot
-    hang the run.
-
-    Parameters
-    ----------
-    address : str
-        ``tcp://host:port``.
-    timeout : float, s
-    option : str
-        Name of the option in messages (``--scheduler`` on the command line).
-    """
-    import threading
-
-    try:
-        from dask.distributed import Client
-    except ImportError:
-        raise InputError(f"{option} needs dask.distributed; install it (pip install distributed) or omit "
-                         f"{option} to run locally") from None
-    box = {}
-
-    def connect():
-        try:
-            box["client"] = Client(address, timeout=timeout, set_as_default=False)
-        except BaseException as exc:  # noqa: BLE001 - reported to the caller below
-            box["error"] = exc
-
-    t = threading.Thread(target=connect, name="slipfield-scheduler-connect", daemon=True)
-    t.start()
-    t.join(timeout + 1.0)
-    if "client" in box:
-        return box["client"]
-    why = " ".join(str(box.get("error", "")).split()) or (type(box["error"]).__name__ if "error" in box
-                                                          else "no answer")
-    raise InputError(f"{option} {address}: no dask scheduler answered within {timeout:g} s ({why}); check the "
-                     f"address (tcp://host:port) and that the scheduler is running, or omit {option} to run "
-                     "locally")
+    return _run_block(problem, seed, start, stop, refine)
 
 
 def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False, progress=False,
@@ -688,9 +625,10 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             seed=seed, problem=problem,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
+                            refine_rejected=_refine_rejected(allr),
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
-                            fs_circles=allr.get("fs_circles"),
+                            fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
                             refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
 
 

@@ -149,7 +149,14 @@ def prepare(problem):
 
 
 def standard_normals(problem, seed, indices, i, z):
-    """Standard-normal field of property i in zone z: (s, nx, ny), or (s, 1, 1) for θ = inf."""
+    """Standard-normal field of property i in zone z: (s, nx, ny), or (s, 1, 1) for θ = inf.
+
+    ``seed`` is the run seed, or a given white noise (an object with
+    ``standard_normals(problem, indices, i, z)``, :mod:`slope.simulate.rare`)
+    whose rows ``indices`` are used instead of the seeded streams.
+    """
+    if hasattr(seed, "standard_normals"):
+        return seed.standard_normals(problem, indices, i, z)
     p = problem.properties[i]
     if p.single:
         return np.array([realisation_rng(seed, int(k), i, z).standard_normal() for k in indices])[:, None, None]

@@ -54,30 +54,41 @@ def _fill(c, tp, phys_t, row_base, row_ptr, col, w, mult, target):
     loops run along them (the vector axis). Row r sums w * phys_t over its
     CSR entries (from 0, in CSR order, as scipy.sparse does), times mult[r],
     into base row_base[r]: c directly or tan of φ (degrees) into tp. A NaN
-    value leaves the base as it was.
+    value leaves the base as it was. A row equal to the one before (a
+    single random variable: one cell of weight 1 on every base of its zone)
+    reuses its values instead of recomputing them (one tan per zone, not per
+    base).
     """
     k = c.shape[0]
     deg = np.pi / 180.0
     acc = np.empty(k)
+    val = np.empty(k)
+    ok = np.empty(k, np.bool_)
     for r in range(row_base.size):
-        acc[:] = 0.0
-        for j in range(row_ptr[r], row_ptr[r + 1]):
-            wj = w[j]
-            cj = col[j]
+        a, b = row_ptr[r], row_ptr[r + 1]
+        same = (r > 0 and b - a == 1 and a - row_ptr[r - 1] == 1 and col[a] == col[a - 1]
+                and w[a] == w[a - 1] and mult[r] == mult[r - 1] and target[r] == target[r - 1])
+        if not same:
+            acc[:] = 0.0
+            for j in range(a, b):
+                wj = w[j]
+                cj = col[j]
+                for s in range(k):
+                    acc[s] += wj * phys_t[cj, s]
+            mr = mult[r]
             for s in range(k):
-                acc[s] += wj * phys_t[cj, s]
-        b = row_base[r]
-        mr = mult[r]
+                v = acc[s] * mr
+                ok[s] = v == v
+                val[s] = v if target[r] == 0 else math.tan(v * deg)
+        base = row_base[r]
         if target[r] == 0:
             for s in range(k):
-                v = acc[s] * mr
-                if v == v:
-                    c[s, b] = v
+                if ok[s]:
+                    c[s, base] = val[s]
         else:
             for s in range(k):
-                v = acc[s] * mr
-                if v == v:
-                    tp[s, b] = math.tan(v * deg)
+                if ok[s]:
+                    tp[s, base] = val[s]
 
 
 class StrengthMap:

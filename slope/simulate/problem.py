@@ -104,6 +104,20 @@ class RandomProperty:
                 "theta_h": self.theta_h, "theta_v": self.theta_v, "model": self.model,
                 "angle": self.angle, "nu": self.nu, "multiplier": self.multiplier}
 
+    def manifest(self) -> dict:
+        """The property as plain data for users' files: the marginal's name and
+        parameters, never a Python object repr (``describe`` feeds the fingerprint)."""
+        def num(v):
+            v = float(v)
+            return v if math.isfinite(v) else None
+
+        d = {k: v for k, v in self.describe().items() if k not in ("marginal", "marginal_repr")}
+        m = self.marginal
+        d["marginal"] = {"name": m.name, "mean": float(m.mean), "std": float(m.std),
+                         "lower": num(m.lower), "upper": num(m.upper),
+                         "parameters": {k: num(v) for k, v in dict(m.params).items()}}
+        return d
+
 
 @dataclass
 class RandomProblem:

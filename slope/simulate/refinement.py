@@ -26,10 +26,35 @@ from ..surfaces import Circle
 from .engine import _correlated, bilinear, deterministic_value, strength_overrides
 from .problem import AVERAGING
 
-__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation"]
+__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation",
+           "REFINE_REASONS"]
 
 #: searches of a realisation after the bank (``RefineSettings.search``)
 REFINE_SEARCHES = ("nelder-mead", "dynamic-programming")
+
+
+START_UNUSABLE = "start surface has no clean solution by the refinement method"
+
+
+def _reasons():
+    from ..methods import FLAG_NAMES
+    from ..search import SHAPE_REJECTED
+
+    return ((SHAPE_REJECTED, START_UNUSABLE, "not converged") + tuple(FLAG_NAMES.values())
+            + ("other geometry",))
+
+
+#: reasons a refinement trial or candidate is rejected, in the order of the
+#: per-realisation count arrays (``refine_rejected`` of the simulation)
+REFINE_REASONS = _reasons()
+
+
+def rejection_counts(rejected: dict) -> np.ndarray:
+    """A reason -> count dict as a vector over :data:`REFINE_REASONS`."""
+    out = np.zeros(len(REFINE_REASONS), dtype=np.int64)
+    for k, v in rejected.items():
+        out[REFINE_REASONS.index(k) if k in REFINE_REASONS else len(REFINE_REASONS) - 1] += int(v)
+    return out
 
 
 @dataclass(frozen=True)
@@ -188,8 +213,12 @@ def refine_realisation(problem, seed, k, start, settings: RefineSettings):
     -------
     fs : float
         Lowest FS of the refinement's candidates (the start circle included),
-        by ``settings.method``; NaN when none was usable.
+        by ``settings.method``, among clean solutions only (converged, no
+        flag: a Spencer root with negative base normals or a line of thrust
+        outside the mass is not a minimum); NaN when none was usable.
     surface : Polyline or Circle or None
+    rejected : ndarray of int, shape (len(REFINE_REASONS),)
+        Trials and final candidates rejected, by reason.
     """
     surf = problem.surfaces[int(start)]
     section = problem.section
@@ -202,9 +231,11 @@ def refine_realisation(problem, seed, k, start, settings: RefineSettings):
         res = refine(section, surf, n_vertices=settings.n_vertices, method=settings.method,
                      hypothesis=problem.hypothesis, n_slices=problem.n_slices,
                      overrides=realisation_overrides(problem, seed, k, section, values),
-                     max_evaluations=settings.max_evaluations)
+                     max_evaluations=settings.max_evaluations, tolerate=())
     except InputError:
-        return float("nan"), None  # the start surface is not usable by the refinement's method
+        # the start surface has no clean solution by the refinement's method
+        return float("nan"), None, rejection_counts({START_UNUSABLE: 1})
+    rej = rejection_counts(res.trials_rejected) + rejection_counts(res.rejected)
     if res.critical is None or not np.isfinite(res.fs_min):
-        return float("nan"), None
-    return float(res.fs_min), res.critical if not isinstance(res.critical, Circle) else surf
+        return float("nan"), None, rej
+    return float(res.fs_min), (res.critical if not isinstance(res.critical, Circle) else surf), rej

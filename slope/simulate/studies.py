@@ -94,7 +94,7 @@ def fixed_surface_problem(problem):
                          [problem.surfaces[problem.fixed_index]], 0,
                          cross_correlation=list(problem.cross_correlation), n_slices=problem.n_slices,
                          cell=problem.cell, field_method=problem.field_method, averaging=problem.averaging,
-                         interslice=problem.interslice)
+                         interslice=problem.interslice, site_data=dict(problem.site_data))
 
 
 def reduced_variance_problem(problem, *, fixed_only=False):

@@ -144,3 +144,20 @@ def test_conditional_covariance_with_measurement_error_on_a_grid():
     assert np.all(np.abs(z.mean(axis=0) - mean) <= 4 * np.sqrt(np.diag(S) / n))
     se = np.sqrt((S ** 2 + np.outer(np.diag(S), np.diag(S))) / (n - 1))
     assert np.all(np.abs(np.cov(z, rowvar=False) - S) <= 4 * se)
+
+
+def test_data_covariance_with_errors_per_datum_agrees_with_gstools():
+    gs = pytest.importorskip("gstools")
+    # outside reference: GSTools' simple kriging with a measurement-error
+    # variance per datum (cond_err, exact=False) — the simulator's kriging step
+    from slipfield.fields.conditioning import DataCovariance
+
+    err = np.array([0.0, 0.1, 0.3])
+    krig = gs.krige.Simple(MODEL.to_gstools(), cond_pos=[DATA_P[:, 0], DATA_P[:, 1]], cond_val=DATA_V,
+                           mean=0.0, cond_err=list(err), exact=False)
+    field, var = krig((TARGETS[:, 0], TARGETS[:, 1]), mesh_type="unstructured")
+    dc = DataCovariance(MODEL, DATA_P, err)
+    W = dc.weights(TARGETS)
+    np.testing.assert_allclose(W @ DATA_V, field, atol=1e-8)
+    C = MODEL.covariance_matrix(TARGETS, DATA_P)
+    np.testing.assert_allclose(1.0 - np.einsum("td,td->t", W, C), var, atol=1e-8)

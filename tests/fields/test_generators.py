@@ -278,3 +278,12 @@ def test_bad_inputs():
         RegularGrid(0, 0, 0, 4, 1.0, 1.0)
     with pytest.raises(InputError):
         RegularGrid(0, 0, 4, 4, -1.0, 1.0)
+
+
+def test_method_index_matches_what_the_modules_register():
+    # the command line lists methods from the index without importing the modules
+    from slipfield.fields.generators import base, generator_names
+
+    for name in generator_names():
+        base._generator_class(name)
+    assert set(base._REGISTRY) == set(base.METHOD_MODULES)

@@ -134,3 +134,34 @@ def test_family_tags_survive_pickling():
     only, both = _seam_problems()
     back = pickle.loads(pickle.dumps(both))
     assert [family_of(s) for s in back.surfaces] == [family_of(s) for s in both.surfaces]
+
+
+def test_mechanism_results_maps_and_export(tmp_path):
+    import csv
+
+    from slipfield.slope.commands.export import export_realisations
+    from slipfield.slope.simulate.mechanism_results import accepted_surfaces, mechanism_maps, mechanism_summary
+
+    p, _ = gf_problem(5.0, 0.5, mean_c=0.2)   # weaker than the published case: failures in a few realisations
+    plain = simulate(p, 16, 5)
+    assert mechanism_summary(plain) is None    # circles alone, no search: nothing to add to the report
+    r = simulate(p, 16, 5, refine=RefineSettings(below=1.2, **DP))
+    m = mechanism_summary(r)
+    assert m.pf_circles == plain.pf and m.pf == r.pf and m.n_refined == r.n_refined
+    assert sum(m.families.values()) == 16
+    sec = p.section
+    xe = np.linspace(sec.x_min, sec.x_max, 41)
+    ye = np.linspace(sec.base_y, float(sec.ground[:, 1].max()), 21)
+    free, circ, nf, nc = mechanism_maps(r, xe, ye)
+    assert nf == int(np.sum(r.fs < 1.0)) and nc == int(np.sum(plain.fs < 1.0))
+    assert nf > 0 and free.max() <= 1.0 and circ.max() <= 1.0
+    export_realisations(p, r, 5, tmp_path, "npz")
+    with open(tmp_path / "realisations.csv", newline="", encoding="utf-8") as fh:
+        rows = list(csv.DictReader(fh))
+    surfs = accepted_surfaces(r)
+    for k, row in enumerate(rows):
+        assert float(row["FS circles alone (-)"]) == pytest.approx(plain.fs[k])
+        xy = np.array([[float(v) for v in pt.split()] for pt in row["governing surface x y (m)"].split(";")])
+        np.testing.assert_allclose(xy, surfs[k], atol=5e-4)   # 3 decimals in the file
+        want = "dynamic-programming (per realisation)" if r.fs[k] < r.fs_bank[k] else "circle"
+        assert row["governing family"] == want

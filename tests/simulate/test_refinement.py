@@ -98,3 +98,35 @@ def test_refinement_uses_the_realisations_unit_weight():
     fk = np.array([f.from_standard_normal(realisation_rng(9, k, 0, 0).standard_normal()) for k in range(4)])
     np.testing.assert_allclose(r.fs_bank * fk, r.fs_bank[0] * fk[0], rtol=1e-9)
     np.testing.assert_allclose(r.fs * fk, 1.47, rtol=0.02)   # Griffiths & Lane 1999, recalled
+
+
+def test_refined_minimum_is_a_clean_solution_and_rejections_are_counted():
+    # issue 11: refinement took Spencer roots flagged "negative effective base
+    # normal force" / "line of thrust outside" as minima (one realisation went
+    # from 1.032 to 0.521). A c'-phi' slope whose critical circle carries the
+    # negative-normal flag under its cohesive crest: before the fix refine
+    # returned a flagged minimum (flags 1); now it refuses that start, and a
+    # clean start gives a clean minimum with its rejected trials counted.
+    from slipfield.slope.examples import simple_slope
+    from slipfield.slope.search import centre_lattice, refine
+    from slipfield.slope.strength import Material
+
+    sec = simple_slope(material=Material("s", unit_weight=20.0, c=30.0, phi=15.0))
+    lat = centre_lattice(sec, nx=8, ny=8, n_radii=6, method="spencer", n_slices=30)
+    assert lat.critical_flags != 0          # tolerated by the lattice search
+    with pytest.raises(InputError, match="start surface"):
+        refine(sec, lat.critical, method="spencer", n_slices=30, max_evaluations=60)
+    clean = simple_slope()
+    lat = centre_lattice(clean, nx=8, ny=8, n_radii=6, method="spencer", n_slices=30)
+    r = refine(clean, lat.critical, method="spencer", n_slices=30, max_evaluations=120)
+    assert r.critical_flags == 0 and np.all(r.flags[r.counted] == 0)
+    assert r.fs_min <= lat.fs_min
+    assert sum(r.trials_rejected.values()) > 0
+
+
+def test_simulation_reports_refinement_rejections():
+    p, _ = gf_problem(5.0, 0.5)
+    b = simulate(p, 10, seed=5, refine=1.3)
+    d = b.to_dict()
+    assert isinstance(d["refine_rejected"], dict)
+    assert b.n_refined > 0 and sum(d["refine_rejected"].values()) > 0

@@ -6,7 +6,6 @@ for any number of workers, batch size, interruption or scheduler. These are
 exact (bit-for-bit) comparisons, not statistical ones.
 """
 import math
-import time
 
 import numpy as np
 import pytest
@@ -106,11 +105,9 @@ def test_scheduler_that_does_not_answer_fails_fast_and_loses_nothing(problem, re
     s.close()
     store = tmp_path / "run"
     simulate(problem, 30, seed=9, store=store)
-    t0 = time.monotonic()
+    # how long the refusal takes is measured by scripts/bench_scheduler_refusal.py (no timed tests)
     with pytest.raises(InputError, match="answered within 2 s.*omit scheduler"):
         simulate(problem, N, seed=9, store=store, resume=True, scheduler=f"tcp://127.0.0.1:{port}",
                  scheduler_timeout=2.0)
-    # a few seconds, not a hang (the limit is generous for a loaded 2-core machine)
-    assert time.monotonic() - t0 < 15.0
     # the stored realisations are intact: resuming locally completes the run
     _same(reference, simulate(problem, N, seed=9, store=store, resume=True))

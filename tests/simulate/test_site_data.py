@@ -263,6 +263,8 @@ def test_run_reports_pf_with_and_without_the_data(tmp_path):
 property = "clay.su"
 x = 22.25
 readings = [[-0.75, 30.0], [-1.75, 32.0], [-2.75, 35.0]]
+[drilling]
+candidates = [22.0, 38.0]
 [simulation]
 realisations = 60
 [reliability]
@@ -276,3 +278,39 @@ samples = 100
     assert "changed pf from" in s["statement"]
     assert (tmp_path / "out" / "figures" / "site_data_sd_undrained.png").exists()
     assert "changed pf from" in (tmp_path / "out" / "report.html").read_text()
+    dr = json.loads((tmp_path / "out" / "results.json").read_text())["spatial_simulation"]["undrained"]["drilling"]
+    assert [c["x"] for c in dr["candidates"]] == [22.0, 38.0]
+    assert all(0 <= c["properties"]["clay.su"]["fraction_removed"] <= 1 for c in dr["candidates"])
+
+
+def test_drilling_without_a_field_is_refused(tmp_path):
+    path = _case(tmp_path, "[drilling]\ncandidates = [5.0]\n")
+    text = path.read_text().replace('theta_h = 20.0\ntheta_v = 2.0', 'theta_h = "inf"\ntheta_v = "inf"')
+    path.write_text(text)
+    with pytest.raises(CaseError, match=r"\[drilling\] needs a spatially random property"):
+        load_case(path)
+
+
+def test_profile_value_is_the_conditional_variance_of_the_surface_average():
+    # pre-posterior: for a Gaussian field the posterior variance of the line
+    # average does not depend on the values measured, so the closed form
+    # γ(T) − c_sᵀ C_dd⁻¹ c_s (quadrature along the surface) is the expected one
+    from slipfield.slope.simulate.drilling import profile_value
+
+    theta, cell = 7.0, 0.5
+    p = _problem(theta, 50.0, 0.2, cell)
+    res = profile_value(p, [30.1, -9.0], spacing=1.0)
+    q, w = _surface_quadrature()
+    rho = lambda a, b: np.exp(-2.0 * np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1]) / theta)
+    prior = float(w @ rho(q, q) @ w)
+    xc = 30.25                                         # centre of the cell holding x = 30.1
+    ys = np.arange(-5.75, xc * TAN_B, cell)[::-1][::2]  # every 1 m from the top cell down
+    pts = np.column_stack([np.full(ys.size, xc), ys])
+    c_s = w @ rho(q, pts)
+    after = prior - float(c_s @ np.linalg.solve(rho(pts, pts), c_s))
+    r = res[0]["properties"]["clay.su"]
+    # 2 % covers the cell-centre / bilinear representation of the field (θ/cell = 14)
+    assert r["variance_now"] == pytest.approx(prior, rel=0.02)
+    assert r["variance_after"] == pytest.approx(after, rel=0.02)
+    far = res[1]["properties"]["clay.su"]
+    assert far["fraction_removed"] < 0.2 * r["fraction_removed"]   # 9 m beyond the toe: little to learn

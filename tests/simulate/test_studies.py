@@ -200,12 +200,25 @@ def test_failure_map_counts_failures():
     np.testing.assert_allclose(whole.sum() * r.n, n_fail)
     fine = r.failure_map(np.linspace(-20, 40, 31), np.linspace(-10, 10, 11))
     assert fine.max() <= n_fail / r.n + 1e-12
-    # the cells of each failed surface: counts per cell add up independently
-    bank = p.bank
-    expect = np.zeros_like(fine)
-    for k in np.flatnonzero(np.isfinite(r.fs) & (r.fs < 1)):
-        j = r.critical_index[k]
-        h, _, _ = np.histogram2d(bank.x_mid[j], bank.y_base[j], bins=[np.linspace(-20, 40, 31),
-                                                                      np.linspace(-10, 10, 11)])
-        expect += h > 0
-    np.testing.assert_allclose(fine * r.n, expect)
+
+
+def test_failure_map_lies_where_the_failed_surface_is_on_a_slope_facing_minus_x():
+    # issue 11: the map binned slice positions in the sliding frame, so it was
+    # mirrored for slopes facing -x (this one: the face rises to the right).
+    # theta -> inf: each realisation is the homogeneous slope (FS proportional
+    # to su), so every failed realisation has the same critical circle; its
+    # cuts with the ground line come from the circle itself (surfaces.cut_ground),
+    # not from the bank the map reads, and the mass lies between them.
+    from slipfield.slope.surfaces import cut_ground
+
+    p, _ = gf_problem(math.inf, 0.5)
+    assert p.bank.direction[p.fixed_index] == -1
+    r = simulate(p, 60, seed=8)
+    failed = np.isfinite(r.fs) & (r.fs < 1)
+    n_fail = int(failed.sum())
+    assert n_fail >= 5
+    (j,) = set(r.critical_index[failed].tolist())
+    x1, x2 = cut_ground(p.section, p.surfaces[j])
+    sec = p.section
+    m = r.failure_map([sec.x_min - 1.0, x1, x2, sec.x_max + 1.0], [sec.base_y - 1.0, 1e3])
+    np.testing.assert_allclose(m[:, 0] * r.n, [0, n_fail, 0])

@@ -60,13 +60,17 @@ def test_window_cohesionless_slope_and_flat_arcs():
 
 def _refined():
     sec = simple_slope(10.0, 2.0, 1.0, material=Material("soil", unit_weight=20.0, c=10.0, phi=20.0))
-    first = centre_lattice(sec, nx=8, ny=8, n_radii=6, method="spencer")
+    # a clean start circle (refine accepts only clean minima, issue 11)
+    first = centre_lattice(sec, nx=8, ny=8, n_radii=6, method="spencer", tolerate=())
     return sec, first, refine(sec, first.critical, n_vertices=6, method="spencer", max_evaluations=120)
 
 
 def test_refine_never_worse_than_its_start_polyline():
     sec, first, r = _refined()
-    assert len(r.fs) == 3 and r.counted.all()  # start polyline, refined, start circle
+    assert len(r.fs) == 3 and r.counted[:2].all()  # start polyline, refined, start circle
+    # a minimum must be a clean solution: the start circle counts only without a flag
+    assert r.counted[2] == (r.flags[2] == 0)
+    assert r.critical_flags == 0
     assert r.fs[1] <= r.fs[0] + 1e-12
     assert r.history == sorted(r.history, reverse=True)
     xs, ys = r.surfaces[1].points.T
@@ -94,7 +98,7 @@ def test_kinematic_checks_reject_inadmissible_polylines():
     assert kinematic_reason(sec, xs, np.array([0.0, 3.0, 5.5, 10.0])) == "a vertex lies above the ground line"
     assert kinematic_reason(sec, xs[[0, 2, 1, 3]], ok_y) == "vertices out of order"
     # the same kink is refused by refine's objective: a start on it is unusable
-    with pytest.raises(InputError, match="start surface is not usable"):
+    with pytest.raises(InputError, match="start surface has no clean"):
         refine(sec, Polyline(np.c_[xs, kink]), n_vertices=4, max_evaluations=5)
 
 
@@ -150,3 +154,40 @@ def test_weak_layer_block_against_sliding_block_force_balance():
 def test_bad_input_is_named(call, word):
     with pytest.raises(InputError, match=word):
         call(simple_slope(10.0, 2.0, 1.0))
+
+
+def test_centre_lattice_on_a_near_vertical_cut():
+    # issue 11: a vertical cut written with a 0.01 m wide face (x must
+    # increase) crashed the default lattice with an internal error. Taylor's
+    # (1937) chart for a vertical face in phi = 0 soil gives the critical
+    # height H = 3.85 c / gamma (stability number 0.261, recalled from
+    # memory): c = 20 kPa, gamma = 20, H = 3.85 m puts the critical circle's
+    # FS near 1; the default 8 x 8 lattice can only find circles at or above
+    # it (an upper bound), so FS is bounded below by about 1 and above loosely.
+    from slipfield.slope.section import Section, Zone
+
+    mat = Material("clay", unit_weight=20.0, c=20.0, phi=0.0)
+    g = np.array([[0.0, 0.0], [30.0, 0.0], [30.01, 3.85], [60.0, 3.85]])
+    poly = np.vstack([g, [[60.0, -10.0], [0.0, -10.0], [0.0, 0.0]]])
+    sec = Section(g, [Zone("clay", "clay", poly)], {"clay": mat}, base_y=-10.0)
+    r = centre_lattice(sec, nx=8, ny=8, n_radii=6)
+    _check_bookkeeping(r)
+    assert 0.95 < r.fs_min < 1.6
+
+
+@pytest.mark.parametrize("eps", [-1e-9, -1e-12, 1e-9])
+def test_polyline_end_on_the_ground_within_round_off_is_accepted(eps):
+    # issue 11: ends 1e-9 m below the ground line were rejected as "does not
+    # cut the ground line twice" (then simulate failed on an index); ends
+    # within SNAP_TOLERANCE of the section width are on the ground
+    from slipfield.slope.bank import build_bank
+    from slipfield.slope.surfaces import polyline_cuts
+
+    sec = simple_slope(10.0, 2.0, 2.0)
+    gy = sec.ground_y
+    p = Polyline([[2.0, gy(2.0) + eps], [5.0, -2.0], [12.0, 0.5], [24.0, gy(24.0) + eps]])
+    assert polyline_cuts(sec, p) == (2.0, 24.0, "")
+    assert build_bank(sec, [p], 20).valid[0]
+    # well beyond round-off the end is where it is: 1 cm above the ground the cut moves
+    far = Polyline([[2.0, gy(2.0) + 0.01], [5.0, -2.0], [12.0, 0.5], [24.0, gy(24.0)]])
+    assert polyline_cuts(sec, far)[0] > 2.0

@@ -224,3 +224,11 @@ def test_case_bank_holds_every_family():
     blocks = [i for i, s in enumerate(res.surfaces) if family_of(s) == "block"]
     assert res.fs_min <= np.nanmin(np.where(res.counted[blocks], res.fs[blocks], np.inf))
     assert isinstance(res.surfaces[0], Circle)
+
+
+def test_block_whose_wedges_cannot_reach_the_zone_names_the_key():
+    # entry and exit 1.5 m apart over a 1 m deep seam: Rankine wedges (60° and 30° in the
+    # φ' = 30° cover) need about 2.3 m between them to reach it, so no block exists
+    sec, _ = _long_seam()
+    with pytest.raises(InputError, match=r"search\.block"):
+        block_polylines(sec, "seam", entry=(100.0, 101.0), exit=(99.0, 99.5), points=3, key="search.block[0]")

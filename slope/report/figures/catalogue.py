@@ -319,6 +319,28 @@ def _failure_map(case, res):
     return out
 
 
+def _mechanisms(case, res):
+    """Failure maps of the same realisations with circles alone and with every surface family (issue 15)."""
+    from ...simulate.mechanism_results import mechanism_maps
+    from ..mechanisms import plot_mechanism_maps
+
+    sec = case.section
+    out = []
+    for h, sp in _hyps(res, "spatial"):
+        mech, r = sp.spatial.mechanisms, sp.spatial.result
+        if mech is None or r is None:
+            continue
+        x_edges = np.linspace(sec.x_min, sec.x_max, 81)
+        y_edges = np.linspace(sec.base_y, float(sec.ground[:, 1].max()), 41)
+        free, circ, nf, nc = mechanism_maps(r, x_edges, y_edges)
+        fig = plot_mechanism_maps(x_edges, y_edges, free, circ, sec.ground, n_failed_free=nf, n_failed_circles=nc,
+                                  n_total=r.n, families=mech.families)
+        out.append(Drawn(f"mechanism_maps_{h}", f"Failure mechanisms: circles alone and the free search, {h}", fig,
+                         f"pf with circles alone {mech.pf_circles:.3g}, with every family and the per-realisation "
+                         f"search {mech.pf:.3g}, from the same realisations (common random numbers)."))
+    return out
+
+
 def _failure_geometry(case, res):
     out = []
     for h, sp in _hyps(res, "spatial"):
@@ -375,6 +397,7 @@ CATALOGUE: tuple[FigureEntry, ...] = (
     FigureEntry("variance_reduction", "averaging", "spatial[h].quick.properties and the case's models", _averaging),
     FigureEntry("failure_map", "failure", "spatial[h].spatial (critical surfaces of failed realisations)",
                 _failure_map),
+    FigureEntry("mechanism_maps", "failure", "spatial[h].spatial.mechanisms and its simulation result", _mechanisms),
     FigureEntry("failure_geometry", "failure", "spatial[h].spatial.failed_area / failed_depth", _failure_geometry),
     FigureEntry("risk_chart", "risk", "risk points (P(condition) × pf | condition)", _risk),
 )

@@ -1,0 +1,181 @@
+"""Where simulation tasks run: in this process, in a local joblib pool, or on a dask cluster.
+
+:func:`run_tasks` is the one way to run a stream of tasks;
+:func:`connect_scheduler` the one dask connector (every step bounded).
+Pool workers watch their parent and end when it is gone (``kill -9`` of a
+run cannot stop its pool otherwise).
+"""
+from __future__ import annotations
+
+import os
+import warnings
+
+from ..errors import InputError
+
+__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S"]
+
+# An interrupted run closes the pool's result stream on purpose (the finished blocks are
+# stored); joblib's advice about unused results is not for the user.
+warnings.filterwarnings("ignore", message=r"\d+ tasks (have been successfully executed|which were still being "
+                        r"processed)", category=UserWarning)
+
+
+class SchedulerLost(InputError):
+    """The dask scheduler stopped answering during a run (its finished blocks are stored)."""
+
+
+def _scheduler_results(client, futs):
+    """Results of dask futures in order; a lost scheduler raises :class:`SchedulerLost`."""
+    from dask.distributed import TimeoutError as DaskTimeout
+
+    lost = (OSError, *_cancelled_errors())
+    for f in futs:
+        while True:
+            try:
+                yield f.result(timeout=1.0)
+                break
+            except (DaskTimeout, TimeoutError):
+                if client.status not in ("running", "connecting", "newly-created"):
+                    raise SchedulerLost("the dask scheduler stopped answering") from None
+            except lost:
+                raise SchedulerLost("the dask scheduler stopped answering (connection lost)") from None
+
+
+def _cancelled_errors():
+    import concurrent.futures
+
+    import asyncio
+
+    errs = [concurrent.futures.CancelledError, asyncio.CancelledError]
+    try:
+        from distributed.client import FutureCancelledError
+        errs.append(FutureCancelledError)
+    except ImportError:
+        pass
+    return tuple(e for e in errs if isinstance(e, type) and issubclass(e, BaseException))
+
+
+def run_tasks(fn, tasks, *, n_jobs=1, scheduler=None):
+    """``fn(*task)`` for each task, yielded in task order as they complete.
+
+    One stream of tasks for the whole run, so workers never wait for each
+    other at block boundaries. Results must not depend on where a task runs
+    (streams keyed by realisation, see DEVELOPERS.md "Seeds").
+
+    Parameters
+    ----------
+    fn : callable
+        A module-level function (it is pickled to workers).
+    tasks : sequence of tuple
+        Positional arguments of each call.
+    n_jobs : int
+        Local joblib worker processes (1: in this process). Workers end when
+        this process dies and leave Ctrl-C to it.
+    scheduler : dask.distributed.Client, optional
+        Run the tasks on a cluster instead; a scheduler that stops answering
+        raises :class:`SchedulerLost`. After an interruption the outstanding
+        tasks are cancelled.
+    """
+    tasks = list(tasks)
+    if scheduler is not None:
+        futs = scheduler.map(fn, *[list(col) for col in zip(*tasks)], pure=False)
+        try:
+            yield from _scheduler_results(scheduler, futs)
+        finally:
+            try:
+                scheduler.cancel(futs)  # after an interruption, no orphaned work on the cluster
+            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
+                pass
+        return
+    if n_jobs == 1 or len(tasks) == 1:
+        for t in tasks:
+            yield fn(*t)
+        return
+    from joblib import Parallel, delayed
+
+    parent = os.getpid()
+    yield from Parallel(n_jobs=n_jobs, return_as="generator")(
+        delayed(_in_worker)(parent, fn, *t) for t in tasks)
+
+
+def _in_worker(parent, fn, *args):
+    _watch_parent(parent)
+    return fn(*args)
+
+
+SCHEDULER_TIMEOUT_S = 5.0
+
+
+def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
+    """A dask.distributed Client for a scheduler address, or a clear InputError within ``timeout``.
+
+    Every step (TCP connect, handshake, registration) is bounded: the client
+    is built in a helper thread and abandoned when it has not answered in
+    time, so an address that accepts connections but never answers cannot
+    hang the run.
+
+    Parameters
+    ----------
+    address : str
+        ``tcp://host:port``.
+    timeout : float, s
+    option : str
+        Name of the option in messages (``--scheduler`` on the command line).
+    """
+    import threading
+
+    try:
+        from dask.distributed import Client
+    except ImportError:
+        raise InputError(f"{option} needs dask.distributed; install it (pip install distributed) or omit "
+                         f"{option} to run locally") from None
+    box = {}
+
+    def connect():
+        try:
+            box["client"] = Client(address, timeout=timeout, set_as_default=False)
+        except BaseException as exc:  # noqa: BLE001 - reported to the caller below
+            box["error"] = exc
+
+    t = threading.Thread(target=connect, name="slipfield-scheduler-connect", daemon=True)
+    t.start()
+    t.join(timeout + 1.0)
+    if "client" in box:
+        return box["client"]
+    why = " ".join(str(box.get("error", "")).split()) or (type(box["error"]).__name__ if "error" in box
+                                                          else "no answer")
+    raise InputError(f"{option} {address}: no dask scheduler answered within {timeout:g} s ({why}); check the "
+                     f"address (tcp://host:port) and that the scheduler is running, or omit {option} to run "
+                     "locally")
+
+
+_WATCHED = None
+
+
+def _watch_parent(parent: int, period: float = 0.5) -> None:
+    """In a pool worker: end this process when the run that started it is gone.
+
+    A killed run (``kill -9``) cannot stop its pool; the worker is then
+    re-parented, so a daemon thread polls ``os.getppid()`` and exits. The
+    worker also leaves Ctrl-C to its parent, which stops the pool in order.
+    """
+    global _WATCHED
+    if _WATCHED is not None or os.getpid() == parent:
+        return
+    import signal
+    import threading
+    import time
+
+    _WATCHED = parent
+    try:
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+    except ValueError:  # not the main thread of the worker: the parent still stops the pool
+        pass
+
+    def watch():
+        while True:
+            if os.getppid() != parent:
+                os._exit(3)
+            time.sleep(period)
+
+    threading.Thread(target=watch, name="slipfield-parent-watch", daemon=True).start()

@@ -1,0 +1,101 @@
+"""Level checkpoints of a subset simulation, so an interrupted run resumes.
+
+A store folder holds the header of a :class:`~slope.simulate.store.BlockStore`
+(task ``subset-levels``: its identity is the problem fingerprint, seed,
+subset and refinement settings and whatever the caller adds, compared key by
+key on resume with the store's own messages), ``level_0/`` (the Monte Carlo
+block store of the first level, :func:`slope.simulate.simulate`'s own, so an
+interruption inside level 0 loses at most a block) and, after each finished
+level, ``levels.json`` (the levels so far, λ, evaluation counts) with
+``seeds_<level>.npz`` (the next level's chain seeds: noise, FS, critical
+surface). The seeds are a matrix (seeds × noise values), which the block
+store's one-row-per-realisation arrays do not hold, so they have their own
+files. Each file is written to a temporary name and renamed, ``levels.json``
+last, so a run stopped at any moment resumes from its last finished level
+with bit-identical results.
+"""
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from .store import BlockStore
+
+__all__ = ["LevelStore", "subset_store_identity", "TASK"]
+
+TASK = "subset-levels"
+
+
+def subset_store_identity(problem, seed, settings, refine, extra=None) -> dict:
+    """What a subset store is tied to; a resume needs an equal one."""
+    ident = {"problem": problem.fingerprint(), "seed": int(seed), "subset": settings.describe(),
+             "refine": None if refine is None else refine.describe()}
+    if extra:
+        ident.update(extra)
+    return ident
+
+
+def _atomic_json(path: Path, obj) -> None:
+    tmp = path.with_name(f".{path.name}.part")
+    tmp.write_text(json.dumps(obj))
+    os.replace(tmp, path)
+
+
+class LevelStore:
+    """Checkpoints of one subset simulation in ``folder`` (see module doc).
+
+    Parameters
+    ----------
+    folder : path-like
+    identity : dict
+        :func:`subset_store_identity`.
+    """
+
+    def __init__(self, folder, identity: dict):
+        self.folder = Path(folder)
+        self.identity = dict(identity)
+        self._blocks = BlockStore(self.folder, self.identity, task=TASK)
+
+    def check(self, *, resume: bool, **kw) -> bool:
+        """Refuse a store of another run (nothing written); True when one will be resumed."""
+        return self._blocks.check(resume=resume, **kw)
+
+    def open(self, *, resume: bool, **kw) -> bool:
+        """:meth:`check`, then create the folder and header; True when resuming."""
+        return self._blocks.open(resume=resume, **kw)
+
+    def level0_dir(self) -> str:
+        return str(self.folder / "level_0")
+
+    def load(self):
+        """The last checkpoint: dict(levels, lambda, counts, seeds) or None."""
+        path = self.folder / "levels.json"
+        if not path.exists():
+            return None
+        try:
+            state = json.loads(path.read_text())
+            with np.load(self.folder / state["seeds_file"], allow_pickle=False) as d:
+                seeds = {k: d[k] for k in ("u", "fs", "crit")}
+                seeds["threshold"] = float(d["threshold"])
+        except (OSError, ValueError, KeyError) as exc:
+            raise InputError(f"subset store {self.folder}: the last checkpoint is unreadable ({exc}); use a new "
+                             "folder") from None
+        return {"levels": state["levels"], "lambda": float(state["lambda"]), "counts": state["counts"],
+                "seeds": seeds}
+
+    def save(self, levels, lam, counts, seeds):
+        """Checkpoint after a finished level (seeds first, then the index that names them)."""
+        name = f"seeds_{len(levels) - 1:03d}.npz"
+        path = self.folder / name
+        tmp = self.folder / f".{name}.part.npz"
+        np.savez(tmp, u=seeds["u"], fs=seeds["fs"], crit=seeds["crit"], threshold=seeds["threshold"])
+        os.replace(tmp, path)
+        lpath = self.folder / "levels.json"
+        old = json.loads(lpath.read_text()).get("seeds_file") if lpath.exists() else None
+        _atomic_json(lpath, {"levels": levels, "lambda": float(lam), "counts": counts, "seeds_file": name})
+        if old and old != name:  # only the last level's seeds are needed to resume
+            (self.folder / old).unlink(missing_ok=True)
