@@ -291,7 +291,8 @@ class SimulationRun:
         f = self.fixed
         out["fixed_deterministic_surface"] = (
             {"pf": f.pf, "pf_interval_95": list(f.interval), "ci_method": f.ci_method, "n_valid": f.n_valid,
-             "mean_fs": f.mean_fs, "std_fs": f.std_fs, "status": _status(n, int(f.n_valid))} if f is not None else
+             "n_failed": f.n_failed, "mean_fs": f.mean_fs, "std_fs": f.std_fs, "status": _status(n, int(f.n_valid))}
+            if f is not None else
             {"pf": None, "pf_interval_95": [None, None], "n_valid": 0, "mean_fs": None, "std_fs": None,
              "status": "no realisation gave a converged, admissible FS on this surface"})
         out.update({"n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,

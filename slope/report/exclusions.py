@@ -17,6 +17,10 @@ MEANINGS = {
     "cuts the ground line more than twice": "the surface leaves and re-enters the ground: it would bound two masses",
     "a slice base lies outside every zone": "part of the surface runs outside the section's soil zones",
     "never deeper than the tension crack": "the whole surface lies within the tension crack depth",
+    "shallower than search.min_depth": "the sliding mass is thinner than the case's minimum depth: a skin slip "
+                                       "the search was told to leave out",
+    "no driving moment: the loads balance about the circle centre": "nothing drives the mass round this circle, so "
+                                                                    "F is unbounded and it cannot be critical",
     "not converged": "the method's iteration did not reach its tolerance on F; its last iterate is not a solution",
     "negative effective base normal force": "a slice base would be in tension, which soil cannot carry",
     "m_alpha <= 0.2 on a slice": "Bishop/Janbu's m_α became small, so one slice dominates and F is unreliable "
