@@ -29,7 +29,7 @@ from ..methods import INTERSLICE_NAMES, METHOD_NAMES, POLYLINE_METHOD_NAMES
 from ..reliability.registry import ESTIMATOR_NAMES
 from ..search import SEARCHES, case_search_names
 from ..simulate.problem import AVERAGING, PROPS
-from ..simulate.rare import AUTO_MIN_FAILURES, ESTIMATORS, SubsetSettings
+from ..simulate.estimators import AUTO_MIN_FAILURES, ESTIMATORS
 from ..simulate.refinement import REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]
@@ -749,6 +749,8 @@ def _check_subset(sim: dict, where, problems: list[str]) -> None:
                         f"{sim.get('field_method')!r} cannot be used with estimator {sim['estimator']!r}: subset "
                         "simulation moves the fields' white noise, which this generator draws inside GSTools; use "
                         f"one of {', '.join(noise_generator_names())}")
+    from ..simulate.rare import SubsetSettings  # the simulator is loaded only for a subset case
+
     try:
         SubsetSettings.from_case(sim)
     except InputError as exc:

@@ -23,7 +23,8 @@ def estimator_settings(case, estimator=None, level_probability=None, samples_per
 
     CLI options override the case; errors name the option and the key.
     """
-    from ..simulate.rare import ESTIMATORS, SubsetSettings
+    from ..simulate.estimators import ESTIMATORS
+    from ..simulate.rare import SubsetSettings
 
     sim = case.simulation
     name = sim.get("estimator", "monte-carlo") if estimator is None else estimator
@@ -46,7 +47,7 @@ def estimator_settings(case, estimator=None, level_probability=None, samples_per
 
 def resolve_auto(name, first_batch_fs) -> tuple[str, int | None]:
     """``auto`` → ``subset`` or ``monte-carlo`` from the FS of Monte Carlo's first batch."""
-    from ..simulate.rare import AUTO_MIN_FAILURES
+    from ..simulate.estimators import AUTO_MIN_FAILURES
 
     if name != "auto":
         return name, None
