@@ -111,6 +111,10 @@ polygon = [[0.0, 3.0], [20.5, 3.0], [10.0, 10.0], [0.0, 10.0]]
 name = "lower"
 material = "clay"
 polygon = [[0.0, -5.0], [40.0, -5.0], [40.0, 0.0], [25.0, 0.0], [20.5, 3.0], [0.0, 3.0]]'''))
+RISK_HYPOTHESIS = '''[[risk.hypothesis]]
+name = "drained"
+annual_probability = 0.5
+condition = "invented"'''
 TOLERABILITY = '''[[risk.tolerability]]
 label = "line A"
 source = "invented"
@@ -331,6 +335,10 @@ WALK = {
     "risk.consequence_label": (BASE, sub("consequence = 2.0", 'consequence = 2.0\nconsequence_label = "cost"'),
                                "risk"),
     "risk.tolerability": (BASE, add(TOLERABILITY), "risk"),
+    "risk.hypothesis": (BASE, add(RISK_HYPOTHESIS), "risk"),
+    "risk.hypothesis.name": (add(RISK_HYPOTHESIS), add(RISK_HYPOTHESIS.replace('"drained"', '"undrained"')), "risk"),
+    "risk.hypothesis.annual_probability": (add(RISK_HYPOTHESIS), add(RISK_HYPOTHESIS.replace("0.5", "0.2")), "risk"),
+    "risk.hypothesis.condition": (add(RISK_HYPOTHESIS), add(RISK_HYPOTHESIS.replace("invented", "other")), "risk"),
     "risk.tolerability.label": (add(TOLERABILITY), add(TOLERABILITY.replace("line A", "line B")), "risk"),
     "risk.tolerability.source": (add(TOLERABILITY), add(TOLERABILITY.replace("invented", "other")), "risk"),
     "risk.tolerability.points": (add(TOLERABILITY), add(TOLERABILITY.replace("[100.0, 1e-5]", "[100.0, 1e-6]")),
@@ -445,11 +453,12 @@ def probe_check(case, tmp_path, capsys=None):
 
 def probe_risk(case, tmp_path):
     """The points and lines of the risk chart (pf of the run given: the case's [risk] is what varies)."""
-    from slipfield.slope.case.analyses import risk_scenarios
-    from slipfield.slope.report.risk import risk_points
+    from slipfield.slope.commands.risk import chart_points
 
-    r = risk_scenarios(case, {"drained": {"pf": 0.02, "pf_interval_95": [0.01, 0.04]}})
-    return {"points": risk_points(r["scenarios"]), "lines": r["tolerability"], "label": r["consequence_label"]}
+    r = chart_points(case, [("drained", "spatial simulation", ("p",), 0.02, (0.01, 0.04)),
+                            ("undrained", "spatial simulation", ("q",), 0.1, (0.05, 0.2))])
+    return {"points": [p.to_json() for p in r["points"]], "lines": r["tolerability"], "given": r["given"],
+            "label": r["consequence_label"]}
 
 
 def probe_drill(case, tmp_path):
