@@ -45,9 +45,13 @@ and masked, which keeps grid-only generators (``fft``) usable.
 
 Seeds
 -----
-Independent field ``W_j`` of zone number ``z`` (position in the zone dict,
-0 without zones) uses stream ``(z, j)``: realisation ``k`` is the same
-whatever the batch, and zones/properties never share noise.
+Independent field ``W_p`` of property number ``p`` (its position among all
+properties, first-seen order over the zones) in zone number ``z`` (position in
+the zone dict, 0 without zones) uses stream :func:`field_stream` ``(p, z)``:
+realisation ``k`` is the same whatever the batch, and zones/properties never
+share noise. The slope simulator draws its fields with the same streams and
+mixes them with the same :func:`coregionalise` and :func:`intrinsic_groups`,
+so the rules are written once.
 """
 from __future__ import annotations
 
@@ -61,9 +65,108 @@ from .grid import RegularGrid
 from .marginals import Marginal, make_marginal, nataf_matrix
 from .models import CorrelationModel, get_model
 
-__all__ = ["DepthTrend", "PropertyField", "CorrelatedProperties", "correlated_properties"]
+__all__ = ["DepthTrend", "PropertyField", "CorrelatedProperties", "correlated_properties", "field_stream",
+           "coregionalise", "intrinsic_groups"]
 
 _TREND_OK = ("normal", "lognormal", "deterministic")
+
+
+def field_stream(prop: int, zone: int) -> tuple[int, int]:
+    """Seed stream of the independent field of property ``prop`` in zone ``zone``.
+
+    Realisation ``k`` of a run with seed ``s`` draws that field from
+    ``fields.seeding.realisation_rng(s, k, *field_stream(prop, zone))``.
+    """
+    return int(prop), int(zone)
+
+
+def intrinsic_groups(R0, models, names, where="cross-correlation"):
+    """Groups of properties linked by a non-zero correlation, each with one spatial model.
+
+    Parameters
+    ----------
+    R0 : array (n, n)
+        Correlation matrix of the underlying standard normals.
+    models : sequence
+        Spatial model of each property (anything comparable with ``==``;
+        ``None`` for a single random variable, θ → ∞).
+    names : sequence of str
+        Property names, for messages.
+    where : str
+        What the user wrote the correlations in, for messages.
+
+    Returns
+    -------
+    list of list of int
+        Connected components of the non-zero correlations, ascending.
+
+    Raises
+    ------
+    InputError
+        Two correlated properties with different spatial models: mixing their
+        fields would give each a correlation structure that is neither model.
+    """
+    R0 = np.asarray(R0, dtype=float)
+    n = R0.shape[0]
+    parent = list(range(n))
+
+    def find(i):
+        while parent[i] != i:
+            i = parent[i]
+        return i
+    for i in range(n):
+        for j in range(i + 1, n):
+            if R0[i, j] != 0.0:
+                parent[find(j)] = find(i)
+    groups: dict[int, list[int]] = {}
+    for i in range(n):
+        groups.setdefault(find(i), []).append(i)
+    out = []
+    for members in groups.values():
+        for i in members[1:]:
+            if models[i] != models[members[0]]:
+                a, b = names[members[0]], names[i]
+                raise InputError(
+                    f"{where}: correlated properties {a!r} and {b!r} have different correlation models "
+                    f"({_model_words(models[members[0]])} vs {_model_words(models[i])}); cross-correlation "
+                    "uses one common spatial model (intrinsic coregionalisation): give them the same model, "
+                    "scales of fluctuation and angle, or remove their correlation")
+        out.append(sorted(members))
+    return out
+
+
+def _model_words(model):
+    return "a single random variable (θ = inf)" if model is None else repr(model)
+
+
+def coregionalise(L, normals: dict) -> dict:
+    """Cross-correlated standard normals ``Z_i = Σ_{j ≤ i} L_ij W_j``.
+
+    Parameters
+    ----------
+    L : array (n, n)
+        Lower Cholesky factor of the correlation matrix of all properties.
+    normals : dict int -> ndarray
+        Independent standard normals ``W_j`` of the properties present (any
+        broadcastable shapes; a single random variable broadcasts over a field).
+
+    Returns
+    -------
+    dict int -> ndarray
+        ``Z_i`` for every key of ``normals``. Element-wise sums in ascending
+        ``j`` (not a BLAS product) keep realisations bit-identical whatever the
+        batch size.
+    """
+    keys = sorted(normals)
+    out = {}
+    for i in keys:
+        acc = None
+        for j in keys:
+            if j <= i and L[i, j] != 0.0:
+                term = L[i, j] * normals[j]
+                acc = term if acc is None else acc + term
+        out[i] = acc
+    return out
 
 
 @dataclass(frozen=True)
@@ -213,55 +316,26 @@ class _ZoneSampler:
         R = np.eye(n) if correlation is None else np.asarray(correlation, dtype=float)
         R0 = nataf_matrix([s.marginal for s in specs], R, names)
         self.label, self.specs, self.names, self.R0 = label, specs, names, R0
-        # groups = connected components of non-zero correlation
-        parent = list(range(n))
-
-        def find(i):
-            while parent[i] != i:
-                i = parent[i]
-            return i
-        for i in range(n):
-            for j in range(i + 1, n):
-                if R0[i, j] != 0.0:
-                    parent[find(j)] = find(i)
-        groups: dict[int, list[int]] = {}
-        for i in range(n):
-            groups.setdefault(find(i), []).append(i)
-        # generators are shared by equal models across groups and zones (the
-        # zones differ by their seed streams, not by the set-up)
-        gens: dict[CorrelationModel, FieldGenerator] = {}
-        self.groups = []
-        for members in groups.values():
+        # generators are shared by equal models across zones (the zones differ
+        # by their seed streams, not by the set-up)
+        self.groups = intrinsic_groups(R0, [sp.model for sp in specs], names, where=f"zone {label!r}")
+        for members in self.groups:
             model = specs[members[0]].model
-            for i in members[1:]:
-                if specs[i].model != model:
-                    raise InputError(
-                        f"zone {label!r}: correlated properties {specs[members[0]].name!r} and "
-                        f"{specs[i].name!r} have different correlation models ({model!r} vs "
-                        f"{specs[i].model!r}); cross-correlation uses one common spatial model "
-                        "(intrinsic coregionalisation): give them the same model, or set "
-                        "their correlation to 0")
             if model not in cache:
                 cache[model] = make_generator(method, model, grid=grid, points=points, **opts)
-            gens[model] = cache[model]
-            sub = R0[np.ix_(members, members)]
-            L = np.linalg.cholesky(sub)
-            self.groups.append((members, gens[model], L))
-        self.generators = list(gens.values())
+        self.L = np.linalg.cholesky(R0)
+        self.cache = cache
+        self.generators = list({id(cache[sp.model]): cache[sp.model] for sp in specs}.values())
 
-    def sample_gaussian(self, seed, indices, zone_index):
-        """Standard-normal fields, shape (n_props, len(indices), n_points)."""
-        out = [None] * len(self.specs)
-        for members, gen, L in self.groups:
-            W = np.stack([gen.sample(seed, indices, (zone_index, j)) for j in members])
-            # element-wise sums (not a BLAS product) keep realisations
-            # bit-identical whatever the batch size
-            for a, j in enumerate(members):
-                z = L[a, 0] * W[0]
-                for b in range(1, a + 1):
-                    z = z + L[a, b] * W[b]
-                out[j] = z
-        return out
+    def sample_gaussian(self, seed, indices, zone_index, prop_index):
+        """Standard-normal fields, list over the zone's properties of (len(indices), n_points).
+
+        ``prop_index[j]``: position of the zone's property j among all properties (its stream).
+        """
+        W = {j: self.cache[sp.model].sample(seed, indices, field_stream(prop_index[j], zone_index))
+             for j, sp in enumerate(self.specs)}
+        Z = coregionalise(self.L, W)
+        return [Z[j] for j in range(len(self.specs))]
 
 
 class CorrelatedProperties:
@@ -325,7 +399,7 @@ class CorrelatedProperties:
         y = self.points[:, 1]
         out = {name: np.full((n, self.points.shape[0]), np.nan) for name in self.names}
         for z, zs in enumerate(self._zones):
-            Z = zs.sample_gaussian(seed, idx, z)
+            Z = zs.sample_gaussian(seed, idx, z, [self.names.index(name) for name in zs.names])
             mask = None if self.zone_masks is None else self.zone_masks[zs.label]
             for spec, zf in zip(zs.specs, Z):
                 if mask is None:

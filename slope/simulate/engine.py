@@ -20,6 +20,7 @@ import pickle
 import numpy as np
 from scipy import sparse
 
+from slipfield.fields.properties import coregionalise, field_stream
 from slipfield.fields.seeding import realisation_rng
 
 from ..bank import scale_unit_weights, unit_weight_parts
@@ -191,22 +192,14 @@ def standard_normals(problem, seed, indices, i, z):
         return seed.standard_normals(problem, indices, i, z)
     p = problem.properties[i]
     if p.single:
-        return np.array([realisation_rng(seed, int(k), i, z).standard_normal() for k in indices])[:, None, None]
-    return problem.generator(i).sample_grid(seed, list(indices), stream=(i, z))
+        return np.array([realisation_rng(seed, int(k), *field_stream(i, z)).standard_normal() for k in indices])[:, None, None]
+    return problem.generator(i).sample_grid(seed, list(indices), stream=field_stream(i, z))
 
 
 def _mix(problem, raw, members):
-    """Standard normals of ``members`` mixed by the Nataf Cholesky factor (cross-correlation)."""
-    L = problem._chol
-    out = {}
-    for i in members:
-        acc = None
-        for j in members:
-            if j <= i and L[i, j] != 0.0:
-                term = L[i, j] * raw[j]
-                acc = term if acc is None else acc + term
-        out[i] = acc
-    return out
+    """Standard normals of ``members`` mixed by the Nataf Cholesky factor (cross-correlation),
+    by the same rule as :func:`fields.properties.coregionalise`."""
+    return coregionalise(problem._chol, {i: raw[i] for i in members})
 
 
 def _correlated(problem, seed, indices, z, members):

@@ -13,6 +13,7 @@ import numpy as np
 
 from slipfield.fields import RegularGrid, get_model, make_generator
 from slipfield.fields.marginals import nataf_correlation
+from slipfield.fields.properties import intrinsic_groups
 
 from ..bank import build_bank
 from ..errors import InputError
@@ -206,6 +207,8 @@ class RandomProblem:
                                  f"[0, {n}) and -1 < rho < 1")
             r0 = nataf_correlation(self.properties[i].marginal, self.properties[j].marginal, rho)
             R[i, j] = R[j, i] = r0
+        intrinsic_groups(R, [None if p.single else p.correlation_model() for p in self.properties],
+                         [p.key for p in self.properties], where="cross_correlation")
         try:
             self._chol = np.linalg.cholesky(R)
         except np.linalg.LinAlgError:

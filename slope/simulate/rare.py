@@ -54,6 +54,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
+from slipfield.fields.properties import field_stream
 from slipfield.fields.seeding import realisation_rng
 
 from ..errors import InputError
@@ -196,7 +197,7 @@ class NoiseLayout:
             if problem.properties[i].single:
                 out[:, off] = [realisation_rng(seed, k, i, z).standard_normal() for k in idx]
             else:
-                out[:, off:off + size] = problem.generator(i).noise(seed, idx, stream=(i, z))
+                out[:, off:off + size] = problem.generator(i).noise(seed, idx, stream=field_stream(i, z))
         return out
 
 
