@@ -216,7 +216,12 @@ def test_sliding_mass_geometry_of_a_circular_segment():
     r, d = 10.0, 5.0
     ground = np.array([[-50.0, 0.0], [50.0, 0.0]])
     zone = Zone("soil", "soil", [[-50, 0], [50, 0], [50, -20], [-50, -20], [-50, 0]])
-    sec = Section(ground, [zone], {"soil": Material("soil", unit_weight=18.0, c=5.0, phi=30.0)})
+    # A strip load on one side gives the centred circle a driving moment: a bank rejects circles without
+    # one (the load changes no geometry, so the closed form still holds).
+    from slipfield.slope.loads import Loads, StripLoad
+
+    sec = Section(ground, [zone], {"soil": Material("soil", unit_weight=18.0, c=5.0, phi=30.0)},
+                  loads=Loads(strips=[StripLoad(-8.0, -1.0, 20.0)]))
     bank = build_bank(sec, Circle(0.0, d, r), n_slices=40)
     assert bank.valid[0]
     area, depth = sliding_mass_geometry(bank, [0, 0])
