@@ -84,7 +84,9 @@ def _cmd_run(args) -> int:
                 if q.get("pf") is not None:
                     print(f"  pf {h}: quick estimate (σ√γ on the fixed surface) {q['pf']:.4f} "
                           f"[{q['pf_interval_95'][0]:.4f}, {q['pf_interval_95'][1]:.4f}]")
-        print("  Results support, not replace, engineering judgement; defer to local codes and licensed practice.")
+        from .caution import CAUTION
+
+        print(f"  {CAUTION}")
     return 0
 
 

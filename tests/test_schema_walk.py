@@ -127,6 +127,7 @@ TRIANGULAR = sub('property = "c"\ncov = 0.3',
 BETA = sub('property = "c"\ncov = 0.3', 'property = "c"\ndistribution = "beta"\ncov = 0.3\nlower = 2.0\nupper = 20.0')
 MATERN = sub('property = "c"\ncov = 0.3', 'property = "c"\ncov = 0.3\nmodel = "matern"')
 REFINE = sub("batch = 3", "batch = 3\nrefine_below = 5.0")
+SUBSET = sub("batch = 3", 'batch = 3\nestimator = "subset"\nsamples_per_level = 100')
 MP = sub('methods = ["bishop", "spencer"]', 'methods = ["bishop", "morgenstern-price"]')
 CRACK = add("[tension_crack]\ndepth = 2.0\nwater_filled = true")
 PIEZO = add('[[water.piezometric]]\nzone = "all"\nline = [[0.0, 6.0], [40.0, 1.0]]')
@@ -314,6 +315,13 @@ WALK = {
     "simulation.refine_below": (BASE, REFINE, "engine"),
     "simulation.refine_method": (REFINE, REFINE.replace("refine_below = 5.0",
                                                         'refine_below = 5.0\nrefine_method = "janbu"'), "engine"),
+    # subset simulation of the spatial run (Au & Beck 2001): small levels keep the walk quick
+    "simulation.estimator": (BASE, sub("batch = 3", 'batch = 3\nestimator = "subset"\nsamples_per_level = 100'),
+                             "sim"),
+    "simulation.level_probability": (SUBSET, SUBSET.replace("samples_per_level = 100",
+                                                            "samples_per_level = 100\nlevel_probability = 0.2"), "sim"),
+    "simulation.samples_per_level": (SUBSET, SUBSET.replace("samples_per_level = 100", "samples_per_level = 200"),
+                                     "sim"),
     "reliability.methods": (BASE, sub('methods = ["monte-carlo"]', 'methods = ["latin-hypercube"]'), "rel"),
     "reliability.samples": (BASE, sub("samples = 20", "samples = 30"), "rel"),
     "reliability.tornado_k": (BASE, sub("samples = 20", "samples = 20\ntornado_k = 1.0"), "rel"),

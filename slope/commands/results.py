@@ -21,14 +21,13 @@ from typing import Any
 
 import numpy as np
 
+from ..caution import CAUTION
+
 __all__ = ["RESULTS_VERSION", "CAUTION", "PfCount", "DeterministicResult", "SingleVariableResult", "SimulationRun",
            "QuickEstimate", "SpatialResult", "RiskPoint", "RunResults", "Estimate", "SINGLE_VARIABLE_ROWS",
            "comparison_rows", "results_json", "jsonable", "value_at"]
 
 RESULTS_VERSION = 1
-CAUTION = ("slipfield's results support, and do not replace, engineering judgement. Probabilities of "
-           "failure depend strongly on the assumed statistics and models; check every result and defer "
-           "to local codes, standards and licensed professional practice.")
 
 
 def jsonable(v):

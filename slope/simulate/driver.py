@@ -255,10 +255,10 @@ def _run_block(problem, seed, start, stop, refine=None):
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
             if dp:
-                f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:
                 f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
-                out["refine_rejected"]["n"][r] = rej
+            out["refine_rejected"]["n"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True

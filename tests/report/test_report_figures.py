@@ -269,7 +269,7 @@ def test_pf_vs_theta_infinite_theta_is_a_separate_marker_at_right():
 def test_variance_reduction_curves_and_asymptote():
     t = np.logspace(-2, 2, 60)
     a = 2 * t
-    # Markov closed form (Vanmarcke 1983; REFERENCES.md): γ = 2(a + e^-a - 1)/a², a = 2T/θ.
+    # Markov closed form (Vanmarcke 1983): γ = 2(a + e^-a - 1)/a², a = 2T/θ.
     markov = 2 * (a + np.exp(-a) - 1) / a**2
     # Squared exponential closed form (same sources).
     from scipy.special import erf
