@@ -354,18 +354,17 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
     if set(formats) - set(FIGURE_FORMATS):
         raise InputError(f"figure formats: {sorted(set(formats) - set(FIGURE_FORMATS))} not supported; "
                          f"choose from {', '.join(FIGURE_FORMATS)} (comma separated, e.g. png,svg)")
-    folder = {}
+    out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before the case is even read
 
     def ready(case, n_jobs):
         from ..simulate.driver import start_workers
 
-        folder["out"] = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before any computation
         start_workers(n_jobs)  # the pool starts while the search runs
 
     case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
                              estimator=estimator, level_probability=level_probability,
                              samples_per_level=samples_per_level)
-    return write_run(case, res, folder["out"], formats=formats, quiet=quiet, t_start=t_start)
+    return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start)
 
 
 def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> dict:
