@@ -382,7 +382,7 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
         The content of ``results.json``.
     """
     from ..report.build import write_run_report
-    from .folders import MARKER, OutputFolder
+    from .folders import OutputFolder
 
     progress = _Progress(quiet)
     t_write = time.perf_counter()
@@ -396,9 +396,8 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
             res.wall_time_s = round(time.perf_counter() - t_start, 2)
         else:  # analysed earlier: the analyses' time plus the writing
             res.wall_time_s = round((res.analysis_time_s or 0.0) + time.perf_counter() - t_write, 2)
-        # every file the folder will hold: the outputs, results.json and the folder's own marker
-        res.files = sorted([str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()]
-                           + ["results.json", MARKER])
+        # every output file (the folder's own marker, .slipfield-output.json, is not an output)
+        res.files = sorted([str(p.relative_to(stage)) for p in stage.rglob("*") if p.is_file()] + ["results.json"])
         doc = results_json(res)
         (stage / "results.json").write_text(json.dumps(doc, indent=2, allow_nan=False))
         out.commit(stage)
