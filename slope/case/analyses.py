@@ -284,7 +284,7 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
         methods.append("subset")  # [simulation] estimator = subset/auto: the single variables' pf by subset too
     for m in methods:  # each through the registry; one that cannot reach an answer says so in its row
         if m == "subset" and "subset" not in cfg["methods"] and est_name == "auto":
-            from ..simulate.rare import AUTO_MIN_FAILURES
+            from ..simulate.estimators import AUTO_MIN_FAILURES
 
             k = out.get("monte-carlo", {}).get("n_failed")
             if k is not None and k >= AUTO_MIN_FAILURES:

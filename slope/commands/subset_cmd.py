@@ -23,7 +23,8 @@ def estimator_settings(case, estimator=None, level_probability=None, samples_per
 
     CLI options override the case; errors name the option and the key.
     """
-    from ..simulate.rare import ESTIMATORS, SubsetSettings
+    from ..simulate.estimators import ESTIMATORS
+    from ..simulate.rare import SubsetSettings
 
     sim = case.simulation
     name = sim.get("estimator", "monte-carlo") if estimator is None else estimator
@@ -46,7 +47,7 @@ def estimator_settings(case, estimator=None, level_probability=None, samples_per
 
 def resolve_auto(name, first_batch_fs) -> tuple[str, int | None]:
     """``auto`` → ``subset`` or ``monte-carlo`` from the FS of Monte Carlo's first batch."""
-    from ..simulate.rare import AUTO_MIN_FAILURES
+    from ..simulate.estimators import AUTO_MIN_FAILURES
 
     if name != "auto":
         return name, None
@@ -57,7 +58,8 @@ def resolve_auto(name, first_batch_fs) -> tuple[str, int | None]:
 
 def subset_summary(res) -> dict:
     """JSON-ready summary of a SubsetResult with the failure samples' sliding-mass size."""
-    from .run import _spread, sliding_mass_geometry
+    from .results import _spread
+    from .run import sliding_mass_geometry
 
     d = res.to_dict()
     crit = res.failures["crit"]
@@ -156,7 +158,8 @@ def simulate_subset_case(case, case_path, prob, hyp, out, settings, *, seed, n_j
     from ..simulate.rare import subset_simulate
     from ..simulate.rare_store import LevelStore, subset_store_identity
     from ._shared import RESULTS_VERSION, write_json
-    from .run import CAUTION, _jsonable
+    from ..caution import CAUTION
+    from .results import jsonable
 
     t0 = time.perf_counter()
     store = out.path / "store"
@@ -199,7 +202,7 @@ def simulate_subset_case(case, case_path, prob, hyp, out, settings, *, seed, n_j
     except BaseException:
         out.discard(stage)
         raise
-    return _jsonable(results)
+    return jsonable(results)
 
 
 def run_subset(out, arrays, estimator, *, seed, batch, n_jobs, refine, quiet):

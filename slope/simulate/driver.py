@@ -255,10 +255,10 @@ def _run_block(problem, seed, start, stop, refine=None):
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
             if dp:
-                f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:
                 f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
-                out["refine_rejected"]["n"][r] = rej
+            out["refine_rejected"]["n"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
@@ -519,8 +519,8 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         blocks are reported (:class:`StoreRepairWarning`) and recomputed.
     resume : bool
         Continue a stored run up to n (the store identity must match).
-    progress : bool
-        Show a tqdm bar.
+    progress : bool or str
+        Show a tqdm bar; a text names what it counts (e.g. "undrained · spatial simulation").
     scheduler : dask.distributed.Client or str, optional
         Run blocks through ``Client.map``; a string is a scheduler address
         (``tcp://host:port``), connected before any work starts.
@@ -585,7 +585,11 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     if progress:
         from tqdm import tqdm
 
-        bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), unit="real")
+        # A text progress names what is counted: "undrained · spatial simulation · 523/1000 realisations".
+        label = progress if isinstance(progress, str) else "simulation"
+        bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), desc=label, unit="realisations",
+                   bar_format="{desc} · {n_fmt}/{total_fmt} realisations |{bar:20}| {elapsed}<{remaining}",
+                   mininterval=0.5)
     plan = [(b, lo, hi, _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]) for b, lo, hi in todo]
     stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler, refine)
     done = sum(p["_stop"] - b for b, p in parts.items())

@@ -14,6 +14,9 @@ invalid, as the kernel would.
 """
 from __future__ import annotations
 
+import hashlib
+import pickle
+
 import numpy as np
 from scipy import sparse
 
@@ -130,11 +133,40 @@ class BaseStencil:
         return (self.rows.size, self.bank.n_slices)
 
 
+_SHARED = []  # (geometry key, full bank, stencil) of the last two geometries built
+
+
+def _geometry_key(problem):
+    """Everything a :class:`BaseStencil` and the full bank depend on, hashed by content."""
+    uw = sorted({z for i, p in enumerate(problem.properties) if p.prop == "unit_weight"
+                 for z in problem.zones_of(i)})
+    blob = pickle.dumps((problem.section, problem.surfaces, problem.n_slices, problem.cell,
+                         problem.averaging, uw), protocol=pickle.HIGHEST_PROTOCOL)
+    return hashlib.sha256(blob).hexdigest()
+
+
 def stencil(problem) -> BaseStencil:
-    """The problem's :class:`BaseStencil`, built on first use and kept."""
+    """The problem's :class:`BaseStencil`, built on first use and kept.
+
+    Problems of one geometry (a run's spatial and single-variable problems:
+    same section, surfaces, slices, cell and averaging) share one stencil
+    and full bank instead of building them again; the key hashes their
+    content, so a changed section or bank never reuses a stale one.
+    """
     st = getattr(problem, "_stencil", None)
     if st is None:
-        st = problem._stencil = BaseStencil(problem)
+        key = _geometry_key(problem)
+        for k, bank, shared in _SHARED:
+            if k == key:
+                st = shared
+                if problem._bank is None:
+                    problem._bank = bank
+                break
+        else:
+            st = BaseStencil(problem)
+            _SHARED.insert(0, (key, problem._bank, st))
+            del _SHARED[2:]
+        problem._stencil = st
     return st
 
 

@@ -7,5 +7,7 @@ The command line builds its choices from :data:`ESTIMATORS` without importing
 the simulator (a parser must start in a fraction of a second).
 """
 ESTIMATORS = ("monte-carlo", "subset", "auto")
+#: ``auto``: subset simulation when Monte Carlo's first batch (``simulation.batch``) has fewer failures (FS < 1).
+AUTO_MIN_FAILURES = 10
 
-__all__ = ["ESTIMATORS"]
+__all__ = ["ESTIMATORS", "AUTO_MIN_FAILURES"]

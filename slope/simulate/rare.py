@@ -50,15 +50,14 @@ never all held: the next seeds are rebuilt by replaying their chains).
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import asdict, dataclass
 
 import numpy as np
 
 from slipfield.fields.seeding import realisation_rng
 
-from .estimators import ESTIMATORS
 from ..errors import InputError
+from .estimators import AUTO_MIN_FAILURES, ESTIMATORS
 from ..reliability.subset import _gamma
 from .driver import _concat, _run_block, simulate
 from .engine import stencil
@@ -68,9 +67,6 @@ from .rare_store import LevelStore, subset_store_identity
 __all__ = ["SubsetSettings", "NoiseLayout", "GivenNoise", "subset_simulate", "ESTIMATORS",
            "AUTO_MIN_FAILURES", "STREAM"]
 
-#: ``[simulation] estimator`` names: the registry the case schema and the CLI read.
-#: ``auto``: subset simulation when Monte Carlo's first level of samples sees fewer failures.
-AUTO_MIN_FAILURES = 10
 #: Stream tag of subset simulation's own random numbers (never a property index).
 STREAM = 7_340_021
 MIN_SEEDS = 10            # chains per level: σ̂ and γ need several of them
@@ -253,14 +249,12 @@ def _propose(u, rho, sigma, xi):
     return rho * u + sigma * xi
 
 
-def _worker_problem(problem, parent):
+def _worker_problem(problem):
     """The problem in a task: itself, or loaded once per worker from the file the run shipped it in."""
     if not isinstance(problem, str):
         return problem
     from . import driver
 
-    if parent is not None:
-        driver._watch_parent(parent)
     held = driver._WORKER_PROBLEM.get(problem)
     if held is None:
         import pickle
@@ -275,15 +269,14 @@ def _worker_problem(problem, parent):
     return held
 
 
-def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, b, rho, sigma, n_steps, refine, batch,
-                parent=None):
+def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, b, rho, sigma, n_steps, refine, batch):
     """Advance chains ``chains`` (global numbers) from their seeds ``u0`` for ``n_steps`` steps.
 
     ``problem`` is the RandomProblem or the path it was shipped to (local
     processes). Returns dict: ``fs``, ``crit`` (n_steps + 1, k) (row 0: the
     seeds), ``accepted`` (n_steps, k) bool, ``counts`` of the evaluations.
     """
-    problem = _worker_problem(problem, parent)
+    problem = _worker_problem(problem)
     rngs = _rngs(seed, level, chains)
     u, y, c = np.array(u0, float), np.array(y0, float), np.array(c0, int)
     fs, crit, acc = [y.copy()], [c.copy()], []
@@ -319,23 +312,10 @@ def _replay(layout, seed, level, chain, u0, rho, sigma, accepted, step):
 
 
 def _map(fn, calls, n_jobs, scheduler):
-    """``fn(*args)`` for each argument tuple, in order: locally, with joblib, or on a dask cluster."""
-    if scheduler is not None:
-        from .driver import _scheduler_results
+    """``fn(*args)`` for each argument tuple, in order (:func:`~.executors.run_tasks`: here, joblib or dask)."""
+    from .executors import run_tasks
 
-        futs = [scheduler.submit(fn, *a, pure=False) for a in calls]
-        try:
-            return list(_scheduler_results(scheduler, futs))  # a lost scheduler: SchedulerLost, as Monte Carlo
-        finally:
-            try:
-                scheduler.cancel(futs)
-            except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
-                pass
-    if n_jobs == 1 or len(calls) == 1:
-        return [fn(*a) for a in calls]
-    from joblib import Parallel, delayed
-
-    return Parallel(n_jobs=n_jobs)(delayed(fn)(*a) for a in calls)
+    return list(run_tasks(fn, calls, n_jobs=n_jobs, scheduler=scheduler))
 
 
 def _split(items, parts):
@@ -445,17 +425,18 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
         levels, lam, counts = state["levels"], state["lambda"], state["counts"]
     # the problem goes to the workers once (a file for local processes, scattered on a cluster),
     # not pickled with every group of chains
-    shipped, parent = problem, None
+    shipped = problem
     if scheduler is not None:
         shipped = scheduler.scatter(problem, broadcast=True)
     elif n_jobs > 1:
-        from .driver import _ship
+        from .driver import _await_workers, _ship
 
         stencil(problem)
-        shipped, parent = _ship(problem), os.getpid()
+        _await_workers()
+        shipped = _ship(problem)
     try:
         level0_fs = []  # Monte Carlo's FS of level 0 (when computed in this call, not resumed)
-        final, stop = _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs,
+        final, stop = _levels(problem, shipped, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs,
                               batch, scheduler, refine, progress, resume, store_identity, level0_fs)
     finally:
         if isinstance(shipped, str):
@@ -467,7 +448,7 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
                               level0_fs=level0_fs[0] if level0_fs else None)
 
 
-def _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs, batch,
+def _levels(problem, shipped, st, seed, layout, ckpt, state, levels, lam, counts, n_jobs, batch,
             scheduler, refine, progress, resume, store_identity, level0_fs):
     """The level loop of :func:`subset_simulate` (fills ``levels`` and ``counts``): (final samples, stop message)."""
     N, nc, ns = st.samples_per_level, st.n_chains, st.chain_length
@@ -527,8 +508,7 @@ def _levels(problem, shipped, parent, st, seed, layout, ckpt, state, levels, lam
             sigma = np.minimum(1.0, lam * spread)
             rho = np.sqrt(1.0 - sigma * sigma)
             grp = np.arange(a, min(a + n_a, nc))
-            calls = [(shipped, layout, seed, level, g, U0[g], Y0[g], C0[g], b, rho, sigma, ns - 1, refine, batch,
-                      parent)
+            calls = [(shipped, layout, seed, level, g, U0[g], Y0[g], C0[g], b, rho, sigma, ns - 1, refine, batch)
                      for g in _split(grp, n_jobs if scheduler is None else len(grp))]
             for g, out in zip([c[4] for c in calls], _map(_run_chains, calls, n_jobs, scheduler)):
                 res_fs[:, g], res_crit[:, g], res_acc[:, g] = out["fs"], out["crit"], out["accepted"]
