@@ -184,8 +184,6 @@ DRILL = add("[drilling]\ncandidates = [20.0]")
 #: files beside every case of the walk (site data read from CSV)
 CSV_FILES = {"walk_a.csv": "x,elevation,value\n30,-1,55\n", "walk_b.csv": "x,elevation,value\n30,-1,28\n"}
 
-SUBSET = sub("batch = 3", 'batch = 3\nestimator = "subset"')
-
 # key path -> (base text, mutated text, probe)
 WALK = {
     "case.title": (BASE, sub('title = "walk base"', 'title = "walk mutated"'), "written"),
@@ -287,13 +285,6 @@ WALK = {
     "simulation.refine_search": (REFINE, REFINE.replace("refine_below = 5.0",
                                                         'refine_below = 5.0\nrefine_search = "dynamic-programming"'),
                                  "engine"),
-    "simulation.estimator": (BASE, sub("batch = 3", 'batch = 3\nestimator = "subset"'), "estimator"),
-    "simulation.level_probability": (SUBSET, SUBSET.replace('estimator = "subset"',
-                                                            'estimator = "subset"\nlevel_probability = 0.2'),
-                                     "estimator"),
-    "simulation.samples_per_level": (SUBSET, SUBSET.replace('estimator = "subset"',
-                                                            'estimator = "subset"\nsamples_per_level = 200'),
-                                     "estimator"),
     "random.material": (LAYERS, LAYERS.replace('material = "clay"\nproperty = "c"', 'material = "sand"\nproperty = "c"'),
                         "rel"),
     "random.property": (BASE, sub('property = "phi"', 'property = "unit_weight"').replace(
@@ -480,15 +471,7 @@ def probe_drill(case, tmp_path):
             for h in case.analysis["hypotheses"]}
 
 
-def probe_estimator(case, tmp_path):
-    """The spatial estimator and its settings as ``slipfield simulate`` reads them from the case."""
-    from slipfield.slope.commands.subset_cmd import estimator_settings
-
-    name, settings = estimator_settings(case, None, None, None)
-    return {"name": name, "settings": repr(settings)}
-
-
-PROBES = {"estimator": probe_estimator, "det": probe_det, "rel": probe_rel, "sim": probe_sim, "risk": probe_risk, "drill": probe_drill}
+PROBES = {"det": probe_det, "rel": probe_rel, "sim": probe_sim, "risk": probe_risk, "drill": probe_drill}
 
 
 _SEEN: dict = {}  # (probe, case text) -> probe output: a base shared by many keys is probed once
