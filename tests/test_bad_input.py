@@ -120,7 +120,8 @@ MUTATIONS = [
     ("random-on-unused-material", add(LEVEE, '[[material]]\nname = "spare"\nunit_weight = 18.0\nc = 1.0\nphi = 30.0\n'
                                       '[[random]]\nmaterial = "spare"\nproperty = "c"\ncov = 0.2\ntheta_h = 10.0\n'
                                       'theta_v = 1.0'), "random[4].material"),
-    ("su-random-but-drained-only", sub(LEVEE, 'hypotheses = ["undrained", "drained"]', 'hypotheses = ["drained"]'),
+    ("su-random-but-drained-only", re.sub(r'\[\[risk\.hypothesis\]\]\nname = "undrained"\n[^\[]*', "",
+                                          sub(LEVEE, 'hypotheses = ["undrained", "drained"]', 'hypotheses = ["drained"]')),
      "random[0].property"),
     ("window-key-in-lattice", sub(LEVEE, "min_depth = 1.0", "min_depth = 1.0\nentry = [-20.0, -5.0]"), "search.entry"),
     ("lattice-key-in-window", sub(CUT, "min_depth = 1.0", "min_depth = 1.0\nx_range = [20.0, 40.0]"),

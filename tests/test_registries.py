@@ -233,8 +233,9 @@ def test_fosm_and_subset_reach_results_and_tables(tmp_path):
     assert rel["fosm"]["status"] == "ok" and rel["fosm"]["std_fs"] > 0
     assert 0.0 <= rel["subset"]["pf"] <= 1.0 and rel["subset"]["n_levels"] >= 1
     with open(tmp_path / "out" / "reliability.csv", newline="", encoding="utf-8") as f:
-        methods = [row[1] for row in csv.reader(f)][1:]
-    assert methods == ["fosm", "subset"]
+        rows = list(csv.reader(f))[1:]
+    text = " ".join(r[1].lower() for r in rows)
+    assert len(rows) == 2 and "fosm" in text and "subset" in text
 
 
 def test_readme_documents_every_key_and_name():
