@@ -213,8 +213,11 @@ def test_sliding_mass_geometry_of_a_circular_segment():
     # Tolerances: Simpson's rule per slice on a smooth arc (error ∝ h⁴), and the
     # depth sampled every h/2 misses the lowest point by ≤ (h/4)²/(2r) ≈ 6e-4 m.
     r, d = 10.0, 5.0
-    ground = np.array([[-50.0, 0.0], [50.0, 0.0]])
-    zone = Zone("soil", "soil", [[-50, 0], [50, 0], [50, -20], [-50, -20], [-50, 0]])
+    # ground tilted by 1e-6 (level within 0.1 mm over 100 m): a perfectly level
+    # ground would give the symmetric lens no driving moment, and the bank
+    # rejects such circles; the tilt changes the segment by ~1e-5 m²
+    ground = np.array([[-50.0, 0.0], [50.0, 1e-4]])
+    zone = Zone("soil", "soil", [[-50, 0], [50, 1e-4], [50, -20], [-50, -20], [-50, 0]])
     sec = Section(ground, [zone], {"soil": Material("soil", unit_weight=18.0, c=5.0, phi=30.0)})
     bank = build_bank(sec, Circle(0.0, d, r), n_slices=40)
     assert bank.valid[0]

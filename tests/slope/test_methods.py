@@ -563,13 +563,25 @@ def _counted(r):
 def test_mp_half_sine_spurious_root_on_circle_without_driving_moment(hypothesis, centre_y, k_tangent):
     from slipfield.slope.surfaces import Circle
 
+    from slipfield.slope.bank import NO_DRIVING_REASON, build_bank
+    from slipfield.slope.case.build import load_case
+
     r = centre_y - _TANGENTS[k_tangent]
-    pt, c, tp = _levee_bank([Circle(0.0, centre_y, r)], hypothesis)
+    # issue 11: such circles are now rejected once, when the bank is built,
+    # with their own reason; the kernels' handling of them is still checked
+    # below on the same circle nudged 1 um off the axis (a round-off
+    # driving moment no longer, but still no physical one)
+    sec = load_case(str(_LEVEE)).section
+    b0 = build_bank(sec, [Circle(0.0, centre_y, r)], n_slices=30)
+    assert not b0.valid[0] and b0.reason[0] == NO_DRIVING_REASON
+    pt, c, tp = _levee_bank([Circle(1e-6, centre_y, r)], hypothesis)
+    if pt.n_surfaces == 0:
+        return
     # statics: the circle is centred on the axis of the symmetric levee, so
     # the loads have no moment about its centre; moment equilibrium about the
     # centre, F M_active = sum mt (c l + N' tan phi), then admits no finite F
     # unless the base strengths cancel
-    assert abs(pt.m_active[0]) < 1e-9 * pt.force_scale[0] * pt.length_scale[0]
+    assert abs(pt.m_active[0]) < 1e-4 * pt.force_scale[0] * pt.length_scale[0]
     mp = factor_of_safety(pt, c, tp, method="morgenstern-price", interslice="half-sine",
                           return_forces=True)
     sp = factor_of_safety(pt, c, tp, method="spencer")
