@@ -54,7 +54,7 @@ def main(n_bank=200, n_refined=20):
     t_dp, low_dp, f_dp = [], 0, []
     for k in order[1:]:
         t0 = time.process_time()
-        f, _ = mechanism_search(prob, seed, int(k), fs[k], ok[k], dp)
+        f, _, _ = mechanism_search(prob, seed, int(k), fs[k], ok[k], dp)
         t_dp.append(time.process_time() - t0)
         low_dp += bool(np.isfinite(f) and f < fs_c[k])
         f_dp.append(min(f, fs_c[k]) if np.isfinite(f) else fs_c[k])
@@ -62,7 +62,7 @@ def main(n_bank=200, n_refined=20):
     t_nm, f_nm = [], []
     for k in order[1:]:
         t0 = time.process_time()
-        f, _ = refine_realisation(prob, seed, int(k), int(crit[k]), nm)
+        f, _, _ = refine_realisation(prob, seed, int(k), int(crit[k]), nm)
         t_nm.append(time.process_time() - t0)
         f_nm.append(min(f, fs_c[k]) if np.isfinite(f) else fs_c[k])
     ms_dp, ms_nm = 1e3 * np.mean(t_dp), 1e3 * np.mean(t_nm)

@@ -56,8 +56,9 @@ def _positive_number(text):
 def _cmd_run(args) -> int:
     from .commands.run import run_case
 
+    formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
     results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
-                       overwrite=args.overwrite, **_estimator_kw(args))
+                       figure_formats=formats, overwrite=args.overwrite, **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -83,7 +84,9 @@ def _cmd_run(args) -> int:
                 if q.get("pf") is not None:
                     print(f"  pf {h}: quick estimate (σ√γ on the fixed surface) {q['pf']:.4f} "
                           f"[{q['pf_interval_95'][0]:.4f}, {q['pf_interval_95'][1]:.4f}]")
-        print("  Results support, not replace, engineering judgement; defer to local codes and licensed practice.")
+        from .caution import CAUTION
+
+        print(f"  {CAUTION}")
     return 0
 
 
@@ -221,6 +224,9 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--jobs", type=_whole(1), default=None, help="override simulation.jobs")
     r.add_argument("--json", action="store_true", help="print the summary as JSON")
     r.add_argument("--quiet", action="store_true", help="no progress output")
+    r.add_argument("--figure-formats", default="png", metavar="FORMATS",
+                   help="figure files to write, comma separated: png (always; the report embeds it) and svg "
+                        "(default: png)")
     _overwrite_option(r)
     _estimator_options(r)
     r.set_defaults(func=_cmd_run)
@@ -271,6 +277,10 @@ _CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the s
 
 
 def main(argv=None) -> int:
+    given = sys.argv[1:] if argv is None else list(argv)
+    if given[:1] == ["run"] and not {"--quiet", "-h", "--help", "--json"} & set(given):
+        # Something on the screen within a second: building the parser loads the numerical libraries.
+        print("slipfield run · starting", file=sys.stderr, flush=True)
     import logging
 
     parser = build_parser()

@@ -86,7 +86,7 @@ def test_pool_workers_end_when_their_parent_is_killed(tmp_path):
     assert _wait(lambda: not any(_alive(w) for w in workers), 60), \
         [open(f"/proc/{w}/cmdline").read() for w in workers if _alive(w)]
     # the problem the killed run shipped to its workers is removed by the next run that ships one
-    from slipfield.slope.simulate.driver import _unship_orphans
+    from slipfield.slope.simulate.executors import _unship_orphans
 
     assert _shipped(proc.pid)  # kill -9 ran no clean-up
     _unship_orphans(tempfile.gettempdir())

@@ -69,6 +69,13 @@ def test_the_current_folder_is_refused_before_any_computation(kind, tmp_path, mo
     work.mkdir()
     monkeypatch.chdir(work)
     argv, opt = _argv(kind, ".", tmp_path)
+    if argv[0] == "run":  # the folder is checked before the case is analysed at all
+        import slipfield.slope.commands.run as run_module
+
+        def analysed(*a, **k):
+            raise AssertionError("the case was analysed before --out was checked")
+
+        monkeypatch.setattr(run_module, "analyse_case", analysed)
     assert main(argv) == 2
     err = capsys.readouterr().err
     assert f"{opt} ." in err and "current folder" in err

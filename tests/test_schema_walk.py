@@ -111,6 +111,10 @@ polygon = [[0.0, 3.0], [20.5, 3.0], [10.0, 10.0], [0.0, 10.0]]
 name = "lower"
 material = "clay"
 polygon = [[0.0, -5.0], [40.0, -5.0], [40.0, 0.0], [25.0, 0.0], [20.5, 3.0], [0.0, 3.0]]'''))
+RISK_HYPOTHESIS = '''[[risk.hypothesis]]
+name = "drained"
+annual_probability = 0.5
+condition = "invented"'''
 TOLERABILITY = '''[[risk.tolerability]]
 label = "line A"
 source = "invented"
@@ -123,6 +127,7 @@ TRIANGULAR = sub('property = "c"\ncov = 0.3',
 BETA = sub('property = "c"\ncov = 0.3', 'property = "c"\ndistribution = "beta"\ncov = 0.3\nlower = 2.0\nupper = 20.0')
 MATERN = sub('property = "c"\ncov = 0.3', 'property = "c"\ncov = 0.3\nmodel = "matern"')
 REFINE = sub("batch = 3", "batch = 3\nrefine_below = 5.0")
+SUBSET = sub("batch = 3", 'batch = 3\nestimator = "subset"\nsamples_per_level = 100')
 MP = sub('methods = ["bishop", "spencer"]', 'methods = ["bishop", "morgenstern-price"]')
 CRACK = add("[tension_crack]\ndepth = 2.0\nwater_filled = true")
 PIEZO = add('[[water.piezometric]]\nzone = "all"\nline = [[0.0, 6.0], [40.0, 1.0]]')
@@ -310,6 +315,13 @@ WALK = {
     "simulation.refine_below": (BASE, REFINE, "engine"),
     "simulation.refine_method": (REFINE, REFINE.replace("refine_below = 5.0",
                                                         'refine_below = 5.0\nrefine_method = "janbu"'), "engine"),
+    # subset simulation of the spatial run (Au & Beck 2001): small levels keep the walk quick
+    "simulation.estimator": (BASE, sub("batch = 3", 'batch = 3\nestimator = "subset"\nsamples_per_level = 100'),
+                             "sim"),
+    "simulation.level_probability": (SUBSET, SUBSET.replace("samples_per_level = 100",
+                                                            "samples_per_level = 100\nlevel_probability = 0.2"), "sim"),
+    "simulation.samples_per_level": (SUBSET, SUBSET.replace("samples_per_level = 100", "samples_per_level = 200"),
+                                     "sim"),
     "reliability.methods": (BASE, sub('methods = ["monte-carlo"]', 'methods = ["latin-hypercube"]'), "rel"),
     "reliability.samples": (BASE, sub("samples = 20", "samples = 30"), "rel"),
     "reliability.tornado_k": (BASE, sub("samples = 20", "samples = 20\ntornado_k = 1.0"), "rel"),
@@ -323,6 +335,10 @@ WALK = {
     "risk.consequence_label": (BASE, sub("consequence = 2.0", 'consequence = 2.0\nconsequence_label = "cost"'),
                                "risk"),
     "risk.tolerability": (BASE, add(TOLERABILITY), "risk"),
+    "risk.hypothesis": (BASE, add(RISK_HYPOTHESIS), "risk"),
+    "risk.hypothesis.name": (add(RISK_HYPOTHESIS), add(RISK_HYPOTHESIS.replace('"drained"', '"undrained"')), "risk"),
+    "risk.hypothesis.annual_probability": (add(RISK_HYPOTHESIS), add(RISK_HYPOTHESIS.replace("0.5", "0.2")), "risk"),
+    "risk.hypothesis.condition": (add(RISK_HYPOTHESIS), add(RISK_HYPOTHESIS.replace("invented", "other")), "risk"),
     "risk.tolerability.label": (add(TOLERABILITY), add(TOLERABILITY.replace("line A", "line B")), "risk"),
     "risk.tolerability.source": (add(TOLERABILITY), add(TOLERABILITY.replace("invented", "other")), "risk"),
     "risk.tolerability.points": (add(TOLERABILITY), add(TOLERABILITY.replace("[100.0, 1e-5]", "[100.0, 1e-6]")),
@@ -437,11 +453,12 @@ def probe_check(case, tmp_path, capsys=None):
 
 def probe_risk(case, tmp_path):
     """The points and lines of the risk chart (pf of the run given: the case's [risk] is what varies)."""
-    from slipfield.slope.case.analyses import risk_scenarios
-    from slipfield.slope.report.risk import risk_points
+    from slipfield.slope.commands.risk import chart_points
 
-    r = risk_scenarios(case, {"drained": {"pf": 0.02, "pf_interval_95": [0.01, 0.04]}})
-    return {"points": risk_points(r["scenarios"]), "lines": r["tolerability"], "label": r["consequence_label"]}
+    r = chart_points(case, [("drained", "spatial simulation", ("p",), 0.02, (0.01, 0.04)),
+                            ("undrained", "spatial simulation", ("q",), 0.1, (0.05, 0.2))])
+    return {"points": [p.to_json() for p in r["points"]], "lines": r["tolerability"], "given": r["given"],
+            "label": r["consequence_label"]}
 
 
 def probe_drill(case, tmp_path):

@@ -368,6 +368,15 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "consequence": Key(_number(lo=0, lo_open=True), required=True, doc="consequence of failure"),
         "consequence_label": Key(_string(), default="consequence"),
         "tolerability": Key(lambda v: None if isinstance(v, list) else "must be an array of tables [[risk.tolerability]]"),
+        "hypothesis": Key(lambda v: None if isinstance(v, list) else "must be an array of tables [[risk.hypothesis]]",
+                          doc="each hypothesis's own annual probability of the condition it models"),
+    },
+    "risk.hypothesis": {
+        "name": Key(_string(("drained", "undrained")), required=True, doc="a hypothesis of analysis.hypotheses"),
+        "annual_probability": Key(_number(lo=0, hi=1, lo_open=True), required=True,
+                                  doc="annual probability of the condition this hypothesis models (1/yr; 1 for the "
+                                      "normal long-term state)"),
+        "condition": Key(_string(), default="", doc="the condition in words, printed on the risk chart"),
     },
     "risk.tolerability": {
         "label": Key(_string(), required=True),
@@ -380,7 +389,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 ARRAY_TABLES = ("material", "surcharge", "random", "cross_correlation", "site_data")
 #: Nested array tables (parent table, key).
 NESTED_ARRAYS = {("section", "zone"), ("section", "layer"), ("risk", "tolerability"), ("water", "piezometric"),
-                 ("search", "block")}
+                 ("search", "block"), ("risk", "hypothesis")}
 
 
 # ------------------------------------------------------------- locating
@@ -701,11 +710,28 @@ def _check_references(case: dict, raw: dict, where, problems: list[str]) -> None
     _check_subset(case.get("simulation", {}), where, problems)
     _check_site_data_refs(case, props, where, problems)
     risk = case.get("risk")
-    if risk is not None and "annual_exceedance" not in risk and "annual_pf" not in risk:
-        problems.append(f"{where('risk', None, None)}risk needs annual_exceedance (of the analysed loading) or annual_pf")
+    if risk is not None and not ({"annual_exceedance", "annual_pf", "hypothesis"} & set(risk)):
+        problems.append(f"{where('risk', None, None)}risk needs [[risk.hypothesis]] entries (each hypothesis's annual "
+                        "probability of its condition), annual_exceedance (of the analysed loading) or annual_pf")
+    _check_risk_hypotheses(risk, hyps, where, problems)
     for i, s in enumerate(case.get("surcharge", [])):
         if "x_from" in s and "x_to" in s and s["x_from"] >= s["x_to"]:
             problems.append(f"{where('surcharge', i, 'x_to')}surcharge[{i}]: x_from must be below x_to")
+
+
+def _check_risk_hypotheses(risk, hyps, where, problems) -> None:
+    """[[risk.hypothesis]]: each names an analysed hypothesis, at most once."""
+    seen = set()
+    for i, h in enumerate((risk or {}).get("hypothesis", []) or []):
+        name = h.get("name") if isinstance(h, dict) else None
+        if name is None:
+            continue
+        if name not in hyps:
+            problems.append(f"{where('risk.hypothesis', i, 'name')}risk.hypothesis[{i}].name {name!r} is not analysed; "
+                            f"use one of analysis.hypotheses: {', '.join(hyps)}")
+        if name in seen:
+            problems.append(f"{where('risk.hypothesis', i, 'name')}risk.hypothesis[{i}].name {name!r} is given twice")
+        seen.add(name)
 
 
 def _check_subset(sim: dict, where, problems: list[str]) -> None:

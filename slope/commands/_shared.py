@@ -10,17 +10,15 @@ import numpy as np
 
 from ..case.preflight import check_option
 from ..errors import InputError
-from .run import _jsonable
+from .results import RESULTS_VERSION, jsonable
 
 __all__ = ["parse_theta_list", "RESULTS_VERSION"]
-
-RESULTS_VERSION = 1
 
 
 def write_json(path: Path, obj) -> None:
     from ..report import atomic_write_text
 
-    atomic_write_text(path, json.dumps(_jsonable(obj), indent=2, allow_nan=False))
+    atomic_write_text(path, json.dumps(jsonable(obj), indent=2, allow_nan=False))
 
 
 def slug(key: str) -> str:

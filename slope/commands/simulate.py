@@ -28,7 +28,7 @@ from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, s
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
 from .export import EXPORT_FORMATS, export_realisations
 from .folders import OutputFolder
-from .run import _jsonable
+from .results import jsonable
 from .sweep import sweep_case
 
 __all__ = ["simulate_case", "sweep_case", "export_realisations", "parse_theta_list", "EXPORT_FORMATS",
@@ -183,7 +183,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     from ..report import write_csv
     from ..simulate import StoreRepairWarning, connect_scheduler, simulate
     from ..simulate.refinement import RefineSettings
-    from .run import CAUTION
+    from ..caution import CAUTION
 
     t0 = time.perf_counter()
     if export_format not in EXPORT_FORMATS:
@@ -300,4 +300,4 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         if exp_stage is not None:
             exp_folder.discard(exp_stage)
         raise
-    return _jsonable(results)
+    return jsonable(results)

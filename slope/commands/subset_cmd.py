@@ -58,7 +58,8 @@ def resolve_auto(name, first_batch_fs) -> tuple[str, int | None]:
 
 def subset_summary(res) -> dict:
     """JSON-ready summary of a SubsetResult with the failure samples' sliding-mass size."""
-    from .run import _spread, sliding_mass_geometry
+    from .results import _spread
+    from .run import sliding_mass_geometry
 
     d = res.to_dict()
     crit = res.failures["crit"]
@@ -157,7 +158,8 @@ def simulate_subset_case(case, case_path, prob, hyp, out, settings, *, seed, n_j
     from ..simulate.rare import subset_simulate
     from ..simulate.rare_store import LevelStore, subset_store_identity
     from ._shared import RESULTS_VERSION, write_json
-    from .run import CAUTION, _jsonable
+    from ..caution import CAUTION
+    from .results import jsonable
 
     t0 = time.perf_counter()
     store = out.path / "store"
@@ -200,7 +202,7 @@ def simulate_subset_case(case, case_path, prob, hyp, out, settings, *, seed, n_j
     except BaseException:
         out.discard(stage)
         raise
-    return _jsonable(results)
+    return jsonable(results)
 
 
 def run_subset(out, arrays, estimator, *, seed, batch, n_jobs, refine, quiet):

@@ -16,7 +16,7 @@ from ..case.preflight import preflight
 from ..errors import InputError
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, write_json
 from .folders import OutputFolder
-from .run import _jsonable
+from .results import jsonable
 
 __all__ = ["sweep_case"]
 
@@ -58,7 +58,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     from .. import report as rp
     from ..case.build import load_case
     from ..simulate import connect_scheduler, theta_sweep
-    from .run import CAUTION
+    from ..caution import CAUTION
 
     t0 = time.perf_counter()
     case = load_case(case_path)
@@ -120,7 +120,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     except BaseException:
         out.discard(stage)
         raise
-    return _jsonable(results)
+    return jsonable(results)
 
 
 def _sweep_figures(rows, grid_vals, fig_dir, title, hyp) -> list[str]:

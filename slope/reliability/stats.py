@@ -4,7 +4,7 @@ Definitions used throughout (labelled in every output):
 
 - ``beta_normal`` = (μ_FS − 1)/σ_FS: FS taken as normal;
 - ``beta_lognormal`` = ln(μ_FS/√(1+V²))/√ln(1+V²), V = σ_FS/μ_FS: FS taken
-  as lognormal (closed form, e.g. REFERENCES.md: μ = 1.5, V = 0.2 → 1.9483);
+  as lognormal (closed form, e.g. μ = 1.5, V = 0.2 → 1.9483);
 - ``beta_from_pf`` = −Φ⁻¹(pf): the generalised index of an estimated pf.
 
 Binomial intervals for pf from ``k`` failures in ``n`` independent samples:

@@ -38,15 +38,10 @@ from ..errors import InputError
 from ._files import atomic_write_bytes, atomic_write_text
 from .tables import summary_table, table_to_html
 
+from ..caution import CAUTION
+
 __all__ = ["CAUTION", "save_figure", "figure_png_bytes", "figure_svg_text", "write_report", "render_report"]
 
-#: Default caution printed at the top of every report.
-CAUTION = (
-    "These results support, and do not replace, engineering judgement. They depend on the soil model, "
-    "the statistics of the soil properties, the water conditions and the loading that were assumed; check "
-    "them against independent analyses and field evidence. Local codes and standards and licensed "
-    "professional practice take precedence over anything in this report."
-)
 
 _CSS = """
 :root { --ink: #1d1d1d; --muted: #5b5b5b; --rule: #d0d0d0; --accent: #0072B2; --warn: #D55E00; }

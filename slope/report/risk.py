@@ -28,7 +28,8 @@ scenario dict
     (``annual_pf`` is accepted as another name for ``annual_probability``,
     as in the case file's ``[risk]`` table);
     optionally ``"pf_interval": (lo, hi)`` (the pf's confidence bounds,
-    scaled by the same annual exceedance) or ``"annual_interval": (lo, hi)``.
+    scaled by the same annual exceedance) or ``"annual_interval": (lo, hi)``;
+    optionally ``"colour"``, ``"marker"`` and ``"filled"`` (drawing only).
 tolerability line dict
     ``{"label": str, "source": str, "consequence": [..] > 0,
     "annual_probability": [..] in (0, 1]}``, or with ``"points":
@@ -184,7 +185,9 @@ def risk_points(scenarios: Sequence[Mapping]) -> list[dict]:
         if interval is not None and not (interval[0] - 1e-15 <= p <= interval[1] + 1e-15):
             raise InputError(f"{where}: the interval {interval} does not contain the annual probability {p:.3g}.")
         out.append({"label": str(sc.get("label", f"scenario {k + 1}")), "consequence": cons,
-                    "annual_probability": p, "annual_interval": interval, "pf": pf, "annual_exceedance": aep})
+                    "annual_probability": p, "annual_interval": interval, "pf": pf, "annual_exceedance": aep,
+                    "colour": sc.get("colour"), "marker": sc.get("marker", "o"),
+                    "filled": bool(sc.get("filled", True))})
     return out
 
 
@@ -259,12 +262,13 @@ def plot_risk_chart(
                     label=f"[{k + 1}] {ln['label']}", gid=f"tolerability-{k}")
             notes.append(f"[{k + 1}] {ln['label']}: {ln['source']}")
         for k, pt in enumerate(pts):
-            colour = CYCLE[k % len(CYCLE)]
+            colour = pt["colour"] or CYCLE[k % len(CYCLE)]
             p, iv = pt["annual_probability"], pt["annual_interval"]
             if p > 0:
                 yerr = None if iv is None or iv[0] <= 0 else [[p - iv[0]], [iv[1] - p]]
-                eb = ax.errorbar([pt["consequence"]], [p], yerr=yerr, color=colour, marker="o", markersize=7,
-                                 capsize=3, linestyle="none", label=f"{pt['label']}: {p:.2g} /yr")
+                eb = ax.errorbar([pt["consequence"]], [p], yerr=yerr, color=colour, marker=pt["marker"], markersize=7,
+                                 capsize=3, linestyle="none", label=f"{pt['label']}: {p:.2g} /yr",
+                                 markerfacecolor=colour if pt["filled"] else "white")
                 eb.lines[0].set_gid(f"scenario-{k}")
             elif iv is not None and iv[1] > 0:
                 ax.plot([pt["consequence"]], [iv[1]], color=colour, marker="v", markersize=8, linestyle="none",

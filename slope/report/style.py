@@ -40,6 +40,9 @@ __all__ = [
     "report_style",
     "new_figure",
     "zone_colour",
+    "HYPOTHESIS_COLOURS",
+    "METHOD_LINESTYLES",
+    "hypothesis_colour",
 ]
 
 #: Okabe & Ito (2008) palette by name (values recalled from Wong 2011, Fig. 2).
@@ -164,3 +167,17 @@ def new_figure(nrows: int = 1, ncols: int = 1, figsize=None, **kwargs):
     fig = Figure(figsize=figsize or matplotlib.rcParams["figure.figsize"], layout="constrained")
     ax = fig.subplots(nrows, ncols, **kwargs)
     return fig, ax
+
+
+#: One colour per drainage hypothesis, the same in every figure of every report.
+HYPOTHESIS_COLOURS: dict[str, str] = {"undrained": PALETTE["vermillion"], "drained": PALETTE["blue"]}
+#: Line style per method of slices on the section figure (colour says the hypothesis).
+METHOD_LINESTYLES: dict[str, object] = {"bishop": "-", "spencer": "--", "morgenstern-price": (0, (1, 1.5)),
+                                        "janbu": "-.", "ordinary": (0, (6, 2, 1, 2, 1, 2))}
+
+
+def hypothesis_colour(name: str) -> str:
+    """The colour of a drainage hypothesis (:data:`HYPOTHESIS_COLOURS`; others take the cycle's tail)."""
+    if name in HYPOTHESIS_COLOURS:
+        return HYPOTHESIS_COLOURS[name]
+    return CYCLE[2 + sum(map(ord, name)) % (len(CYCLE) - 3)]  # stable across processes

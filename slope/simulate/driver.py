@@ -11,7 +11,8 @@ from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
 from .engine import batch_fs, prepare
 from .problem import RandomProblem
-from .executors import SCHEDULER_TIMEOUT_S, SchedulerLost, connect_scheduler, run_tasks
+from .executors import (SCHEDULER_TIMEOUT_S, SchedulerLost, _await_workers, _ship, _unship,  # noqa: F401
+                        _unship_orphans, connect_scheduler, run_tasks, start_workers)
 from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
@@ -255,10 +256,10 @@ def _run_block(problem, seed, start, stop, refine=None):
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
             if dp:
-                f, surf = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:
                 f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
-                out["refine_rejected"]["n"][r] = rej
+            out["refine_rejected"]["n"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
@@ -373,110 +374,6 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
 
 
 _WORKER_PROBLEM = {}  # in a worker process: the path of the problem it holds -> that problem
-_WARMING = None  # the thread starting the worker pool ahead of the first simulation
-
-
-def start_workers(n_jobs):
-    """Start the pool of ``n_jobs`` workers in the background and load the simulator in them.
-
-    A command calls this before its serial work (case, deterministic search)
-    so that the workers' start-up (interpreter, imports, compiled kernels
-    loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
-    run then uses the same pool (joblib's reusable executor). No effect for
-    ``n_jobs`` 1. Results do not depend on it.
-    """
-    global _WARMING
-    if int(n_jobs) < 2 or _WARMING is not None:
-        return
-    import threading
-
-    def warm():
-        try:
-            from joblib import Parallel, delayed
-
-            parent = os.getpid()
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent) for _ in range(int(n_jobs)))
-        except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
-            pass
-
-    _WARMING = threading.Thread(target=warm, name="slipfield-start-workers", daemon=True)
-    _WARMING.start()
-
-
-def _await_workers():
-    """Wait for :func:`start_workers` to finish, so that one pool serves the run."""
-    if _WARMING is not None:
-        _WARMING.join()
-
-
-def _warm_worker(parent=None):
-    """In a worker: import the simulator and load its compiled kernels (tiny calls).
-
-    The worker also starts watching ``parent`` (it ends if the run is killed
-    during the search, before any task reached it).
-    """
-    if parent is not None:
-        from .executors import _watch_parent
-
-        _watch_parent(parent)
-    from slipfield.fields import marginals  # noqa: F401
-    from slipfield.fields.generators import circulant  # noqa: F401
-
-    from . import fused
-
-    fused.warm_up()
-    return os.getpid()
-
-
-def _ship(problem):
-    """Write the prepared problem to a private temporary file; its path identifies it."""
-    import pickle
-    import tempfile
-
-    _unship_orphans(tempfile.gettempdir())
-    folder = tempfile.mkdtemp(prefix=f"slipfield-problem-{os.getpid()}-")
-    path = os.path.join(folder, "problem.pickle")
-    with open(path, "wb") as fh:
-        pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
-    return path
-
-
-def _unship(path):
-    """Remove the file :func:`_ship` wrote and its folder (nothing else)."""
-    try:
-        os.remove(path)
-        os.rmdir(os.path.dirname(path))
-    except OSError:
-        pass
-
-
-def _unship_orphans(tmp):
-    """Remove the shipped problems of runs that were killed (``kill -9`` skips :func:`_unship`).
-
-    Only folders named by :func:`_ship` (``slipfield-problem-<pid>-*``) whose
-    process is gone, and only the one file ``_ship`` writes in them.
-    """
-    import re
-
-    try:
-        names = os.listdir(tmp)
-    except OSError:
-        return
-    for name in names:
-        m = re.fullmatch(r"slipfield-problem-(\d+)-[A-Za-z0-9_]+", name)
-        if not m or _pid_alive(int(m.group(1))):
-            continue
-        _unship(os.path.join(tmp, name, "problem.pickle"))
-
-
-def _pid_alive(pid: int) -> bool:
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except OSError:  # alive, but another user's
-        return True
-    return True
 
 
 def _run_shipped_block(path, seed, start, stop, refine=None):
@@ -519,8 +416,8 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         blocks are reported (:class:`StoreRepairWarning`) and recomputed.
     resume : bool
         Continue a stored run up to n (the store identity must match).
-    progress : bool
-        Show a tqdm bar.
+    progress : bool or str
+        Show a tqdm bar; a text names what it counts (e.g. "undrained · spatial simulation").
     scheduler : dask.distributed.Client or str, optional
         Run blocks through ``Client.map``; a string is a scheduler address
         (``tcp://host:port``), connected before any work starts.
@@ -585,7 +482,11 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
     if progress:
         from tqdm import tqdm
 
-        bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), unit="real")
+        # A text progress names what is counted: "undrained · spatial simulation · 523/1000 realisations".
+        label = progress if isinstance(progress, str) else "simulation"
+        bar = tqdm(total=n, initial=n - sum(hi - lo for _, lo, hi in todo), desc=label, unit="realisations",
+                   bar_format="{desc} · {n_fmt}/{total_fmt} realisations |{bar:20}| {elapsed}<{remaining}",
+                   mininterval=0.5)
     plan = [(b, lo, hi, _blocks(lo, hi, batch) if batch < hi - lo else [(lo, hi)]) for b, lo, hi in todo]
     stream = _execute(problem, seed, [r for *_, rs in plan for r in rs], n_jobs, scheduler, refine)
     done = sum(p["_stop"] - b for b, p in parts.items())

@@ -12,7 +12,7 @@ import warnings
 
 from ..errors import InputError
 
-__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S"]
+__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers"]
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
 # stored); joblib's advice about unused results is not for the user.
@@ -179,3 +179,108 @@ def _watch_parent(parent: int, period: float = 0.5) -> None:
             time.sleep(period)
 
     threading.Thread(target=watch, name="slipfield-parent-watch", daemon=True).start()
+
+
+# ---------------------------------------------------------------- local pool: start and problem file
+_WARMING = None  # the thread starting the worker pool ahead of the first simulation
+
+
+def start_workers(n_jobs):
+    """Start the pool of ``n_jobs`` workers in the background and load the simulator in them.
+
+    A command calls this before its serial work (case, deterministic search)
+    so that the workers' start-up (interpreter, imports, compiled kernels
+    loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
+    run then uses the same pool (joblib's reusable executor). No effect for
+    ``n_jobs`` 1. Results do not depend on it.
+    """
+    global _WARMING
+    if int(n_jobs) < 2 or _WARMING is not None:
+        return
+    import threading
+
+    def warm():
+        try:
+            from joblib import Parallel, delayed
+
+            parent = os.getpid()
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent) for _ in range(int(n_jobs)))
+        except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
+            pass
+
+    _WARMING = threading.Thread(target=warm, name="slipfield-start-workers", daemon=True)
+    _WARMING.start()
+
+
+def _await_workers():
+    """Wait for :func:`start_workers` to finish, so that one pool serves the run."""
+    if _WARMING is not None:
+        _WARMING.join()
+
+
+def _warm_worker(parent=None):
+    """In a worker: import the simulator and load its compiled kernels (tiny calls).
+
+    The worker also starts watching ``parent`` (it ends if the run is killed
+    during the search, before any task reached it).
+    """
+    if parent is not None:
+        _watch_parent(parent)
+    from slipfield.fields import marginals  # noqa: F401
+    from slipfield.fields.generators import circulant  # noqa: F401
+
+    from . import fused
+
+    fused.warm_up()
+    return os.getpid()
+
+
+def _ship(problem):
+    """Write the prepared problem to a private temporary file; its path identifies it."""
+    import pickle
+    import tempfile
+
+    _unship_orphans(tempfile.gettempdir())
+    folder = tempfile.mkdtemp(prefix=f"slipfield-problem-{os.getpid()}-")
+    path = os.path.join(folder, "problem.pickle")
+    with open(path, "wb") as fh:
+        pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
+    return path
+
+
+def _unship(path):
+    """Remove the file :func:`_ship` wrote and its folder (nothing else)."""
+    try:
+        os.remove(path)
+        os.rmdir(os.path.dirname(path))
+    except OSError:
+        pass
+
+
+def _unship_orphans(tmp):
+    """Remove the shipped problems of runs that were killed (``kill -9`` skips :func:`_unship`).
+
+    Only folders named by :func:`_ship` (``slipfield-problem-<pid>-*``) whose
+    process is gone, and only the one file ``_ship`` writes in them.
+    """
+    import re
+
+    try:
+        names = os.listdir(tmp)
+    except OSError:
+        return
+    for name in names:
+        m = re.fullmatch(r"slipfield-problem-(\d+)-[A-Za-z0-9_]+", name)
+        if not m or _pid_alive(int(m.group(1))):
+            continue
+        _unship(os.path.join(tmp, name, "problem.pickle"))
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # alive, but another user's
+        return True
+    return True

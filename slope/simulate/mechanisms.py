@@ -8,9 +8,8 @@ from the realisation's fields by the same mapping as the bank's
 (:func:`slope.simulate.refinement.realisation_overrides`), so the path moves
 toward the realisation's weak cells. Every path and every start surface is
 then judged by the method of slices (``method``), and only clean solutions
-count: converged, no intolerable flag (the bank's rule: a negative normal
-force at a few slices or a thrust line outside a slice is tolerated, a
-spurious root or a vanishing m_α is not). The realisation's FS is the lower
+count: converged and no flag at all, the rule of the Nelder-Mead refinement
+(:func:`slope.simulate.refinement.refine_realisation`). The realisation's FS is the lower
 of the bank's and the search's.
 
 The first band of each start surface depends on the geometry only, so its
@@ -29,7 +28,7 @@ from ..errors import InputError
 from ..search import evaluate_surfaces
 from ..search_dp import DP_FAMILY, DPSettings, _spencer, _start_xy, dp_surface, first_band
 from ..surfaces import family_of
-from .refinement import _grid_values, realisation_overrides
+from .refinement import START_UNUSABLE, _grid_values, realisation_overrides, rejection_counts
 
 __all__ = ["MECHANISM_SEARCH", "mechanism_search", "max_vertices", "surface_families"]
 
@@ -118,10 +117,12 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
         lower.
     surface : Polyline or Circle or None
         The surface of that FS.
+    rejected : ndarray of int, shape (len(REFINE_REASONS),)
+        Paths not accepted (and starts the grids could not follow), by reason.
     """
     starts = _starts(problem, np.asarray(fs_row, float), np.asarray(ok_row, bool), settings.families)
     if not starts:
-        return float("nan"), None
+        return float("nan"), None, rejection_counts({})
     section = problem.section
     values = _grid_values(problem, seed, k)
     weights = {z: float(v.ravel()[0]) for (i, z), v in values.items()
@@ -134,7 +135,7 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     grid_overrides = realisation_overrides(problem, seed, k, section, values, n_per_base=1)
     st = DPSettings(columns=settings.columns, nodes=settings.nodes, passes=settings.passes, theta_rounds=1)
     candidates = []
-    thetas = []
+    thetas, unusable = [], 0
     for i in starts:
         start = problem.surfaces[i]
         try:
@@ -144,16 +145,21 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
             paths = dp_surface(section, start, hypothesis=problem.hypothesis, overrides=grid_overrides, settings=st,
                                n_slices=problem.n_slices, first_terms=terms, start_solution=(fs_row[i], theta))
         except InputError:
-            continue  # a start the grid cannot follow (no depth): the others still run
+            unusable += 1  # a start the grid cannot follow (no depth): the others still run
+            continue
         candidates += paths  # the start is the bank's own surface: its FS is already in the bank
         thetas.append(theta)
     if not candidates:
-        return float("nan"), None
+        return float("nan"), None, rejection_counts({START_UNUSABLE: max(unusable, 1)})
     opts = {}
     if settings.method in ("spencer", "morgenstern-price"):  # start the iteration near the answer
         opts = dict(F_start=float(np.min(np.asarray(fs_row)[starts])), lam_start=float(np.tan(thetas[0])))
+    # clean solutions only, as the Nelder-Mead refinement: converged and no flag at all (a Spencer root
+    # with negative base normals or a thrust line outside the mass is not a minimum to accept)
     res = evaluate_surfaces(section, candidates, hypothesis=problem.hypothesis, method=settings.method,
-                            n_slices=problem.n_slices, overrides=overrides, search=MECHANISM_SEARCH, **opts)
+                            n_slices=problem.n_slices, overrides=overrides, search=MECHANISM_SEARCH, tolerate=(),
+                            **opts)
+    rej = rejection_counts(res.rejected) + rejection_counts({START_UNUSABLE: unusable} if unusable else {})
     if res.critical is None or not np.isfinite(res.fs_min):
-        return float("nan"), None
-    return float(res.fs_min), res.critical
+        return float("nan"), None, rej
+    return float(res.fs_min), res.critical, rej

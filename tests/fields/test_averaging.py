@@ -13,7 +13,7 @@ CLOSED = ["exponential", "gaussian", "second-order-markov", "spherical"]
 
 
 def test_published_values():
-    # REFERENCES.md, exact values of the closed forms (Vanmarcke 1983):
+    # Exact values of the closed forms (Vanmarcke 1983):
     # Markov / squared exponential at T/θ = 0.5 and 2
     th = 3.0
     mk = get_model("markov", theta_h=th)
@@ -33,7 +33,7 @@ def _gamma_by_quad(rho, T):
 
 @pytest.mark.parametrize("name", CLOSED)
 def test_closed_forms_against_quadrature(name):
-    # closed forms (REFERENCES.md: Vanmarcke 1983) against quad of the definition,
+    # closed forms (Vanmarcke 1983) against quad of the definition,
     # and our own numerical route against both
     th = 2.0
     m = get_model(name, theta_h=th)
@@ -71,7 +71,7 @@ def test_matern_special_cases_match_closed_forms():
 
 
 def test_2d_separable_gaussian_product():
-    # REFERENCES.md: γ(X, Y) = γ(X)γ(Y) holds for the (separable) squared
+    # Vanmarcke (1983): γ(X, Y) = γ(X)γ(Y) holds for the (separable) squared
     # exponential; our 2D quadrature must agree with the product of closed forms
     m = get_model("gaussian", theta_h=5.0, theta_v=1.0)
     X, Y = np.array([1.0, 7.0, 20.0]), np.array([0.5, 2.0, 0.1])
@@ -82,7 +82,7 @@ def test_2d_separable_gaussian_product():
 
 def test_2d_elliptical_exponential_against_dblquad():
     # elliptical Markov model, rotated: the product form is not valid
-    # (REFERENCES.md); scipy's dblquad of the definition is the reference
+    # (Vanmarcke 1983); scipy's dblquad of the definition is the reference
     m = get_model("exponential", theta_h=3.0, theta_v=1.0, angle=30.0)
     X, Y = 3.0, 2.0
     ref = integrate.dblquad(

@@ -15,7 +15,7 @@ def _run(capsys, argv):
 
 
 def test_vrf_json_closed_forms(capsys):
-    # Closed forms, Vanmarcke (1983) Random Fields, via /work/shared/REFERENCES.md:
+    # Closed forms, Vanmarcke (1983) Random Fields:
     # Markov γ(T) at T/θ = 0.5 -> 0.735759, T/θ = 2 -> 0.377289;
     # squared exponential 0.887096, 0.420423.
     code, out, _ = _run(capsys, ["vrf", "--model", "exponential,gaussian", "--theta", "2.0",

@@ -57,7 +57,7 @@ def test_stated_moments_are_those_of_the_distribution(name, kw):
 
 
 def test_lognormal_textbook_parameters_and_reference_pf():
-    # REFERENCES.md (closed form): mean 1.5, V = 0.2 -> beta = 1.9483, pf = 0.02569.
+    # Lognormal closed form: mean 1.5, V = 0.2 -> beta = 1.9483, pf = 0.02569.
     m = make_marginal("lognormal", mean=1.5, cov=0.2)
     s2 = math.log(1 + 0.2**2)
     assert m.params["sigma_ln"] == pytest.approx(math.sqrt(s2), rel=1e-14)

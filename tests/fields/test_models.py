@@ -47,7 +47,7 @@ def test_closed_form_definitions():
     b = th / 4
     assert np.allclose(get_model("second-order-markov", theta_h=th).correlation(tau),
                        (1 + tau / b) * np.exp(-tau / b))
-    a = 4 * th / 3  # spherical range, θ = 3a/4 (REFERENCES.md)
+    a = 4 * th / 3  # spherical range, θ = 3a/4 (Vanmarcke 1983)
     r = np.minimum(tau / a, 1)
     assert np.allclose(get_model("spherical", theta_h=th).correlation(tau),
                        1 - 1.5 * r + 0.5 * r ** 3)
@@ -87,7 +87,7 @@ def test_gstools_conversion(name, kw):
 
 
 def test_gstools_len_scale_convention():
-    # REFERENCES.md (GSTools covmodel/models.py): Exponential ρ = exp(-r/ℓ) and
+    # GSTools (covmodel/models.py): Exponential ρ = exp(-r/ℓ) and
     # Gaussian ρ = exp(-π r²/4ℓ²), so ℓ = θ/2 for both
     assert get_model("exponential", theta_h=10.0).to_gstools().len_scale == pytest.approx(5.0)
     assert get_model("gaussian", theta_h=10.0).to_gstools().len_scale == pytest.approx(5.0)

@@ -92,7 +92,7 @@ def test_correlated_normals_form_exact():
 
 
 def test_lognormal_fs_reference_values():
-    # REFERENCES.md closed form: mu = 1.5, V = 0.2 -> beta = 1.9483, pf = 0.02569.
+    # Lognormal FS closed form (beta = ln(mu/sqrt(1+V^2))/sqrt(ln(1+V^2))): mu = 1.5, V = 0.2 -> beta = 1.9483, pf = 0.02569.
     v = random_vector([dict(name="fs", dist="lognormal", mean=1.5, cov=0.2)])
 
     def g(X):
@@ -118,7 +118,7 @@ def _rs_case(rho=0.0):
     zr, zs = (math.sqrt(math.log1p(c * c)) for c in (0.2, 0.25))
     lr, ls_ = math.log(150.0) - zr**2 / 2, math.log(80.0) - zs**2 / 2
     # Nataf closed form for two lognormals, then beta of ln R - ln S
-    # (closed form, REFERENCES.md: beta = (lR - lS)/sqrt(zR^2 + zS^2) when rho = 0).
+    # (closed form of two lognormal variables: beta = (lR - lS)/sqrt(zR^2 + zS^2) when rho = 0).
     r0 = math.log1p(rho * 0.2 * 0.25) / (zr * zs)
     beta = (lr - ls_) / math.sqrt(zr**2 + zs**2 - 2 * r0 * zr * zs)
     return v, beta
@@ -143,7 +143,7 @@ def test_rs_lognormal_closed_form(rho):
 
 
 def test_infinite_slope_lognormal_c_normal_tanphi_by_1d_integral():
-    # Infinite slope (Duncan, Wright & Brandon 2014; REFERENCES.md): F = a c' + b tan(phi').
+    # Infinite slope (Duncan, Wright & Brandon 2014): F = a c' + b tan(phi').
     # With c' lognormal and tan(phi') normal, independent:
     # pf = integral f_T(t) F_C((1 - b t)/a) dt (scipy.integrate.quad).
     slope = InfiniteSlope(slope_angle=30.0, depth=3.0, unit_weight=19.0, ru=0.1)

@@ -2,9 +2,9 @@
 
 Sources: Rosenblueth (1975, PNAS 72:3812-3814), two points per variable at
 mu +/- sigma, weights (1 +/- rho)/4 for two correlated variables; Hong (1998,
-Reliab. Eng. Syst. Saf. 59:261-267), 2n+1 scheme. REFERENCES.md recalls the
+Reliab. Eng. Syst. Saf. 59:261-267), 2n+1 scheme. Recalled from memory: the
 Hong weights for normal inputs (mu +/- sqrt(3) sigma, 1/6, centre 1 - 2n/6)
-and asks to check them: here they are re-derived from the moment equations
+which is why here they are re-derived from the moment equations
 with a generic root finder and compared with the library's.
 """
 import math

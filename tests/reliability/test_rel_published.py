@@ -8,7 +8,7 @@ charts), so pf = Φ[(ln 0.17 − μ_lnC)/σ_lnC] with σ²_lnC = ln(1 + v²),
 μ_lnC = ln 0.25 − σ²_lnC/2, giving pf = 0.0745 (v = 0.25), 0.2809 (v = 0.5)
 and 0.4813 (v = 1). These four-decimal pf values, the C = 0.17 and the
 FS = 1.47 for C = 0.25 (Taylor 1937/1948 stability charts) are
-**recalled from memory** (REFERENCES.md marks them "recalled"), not read
+**recalled from memory**, not read
 from the paper here; tolerances below are set for that.
 
 What is checked:

@@ -8,7 +8,7 @@ Outside references used here:
   Brandon 2014, *Soil Strength and Slope Stability*, 2nd ed., ch. 6). Hence
   with su = f·su₀: FS = FS₀·f. If f is normal, FS is normal and
   pf = Φ((1/FS₀ − μ_f)/σ_f); if f is lognormal,
-  pf = Φ((ln(1/FS₀) − λ)/ζ) (closed forms; REFERENCES.md "Reliability").
+  pf = Φ((ln(1/FS₀) − λ)/ζ) (lognormal closed forms).
   FORM is exact for both (linear after the monotone map to u-space) and the
   point estimates are exact for the mean and std of a linear function
   (Rosenblueth 1975, PNAS 72:3812-3814; Hong 1998, Reliab. Eng. Syst. Saf.

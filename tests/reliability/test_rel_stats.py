@@ -24,7 +24,7 @@ def test_binomial_intervals_match_scipy(k, n, level):
 
 
 def test_beta_definitions():
-    # REFERENCES.md closed form: lognormal FS mu 1.5, V 0.2 -> beta 1.9483.
+    # Closed form of a lognormal FS: mu 1.5, V 0.2 -> beta 1.9483.
     assert beta_lognormal(1.5, 0.3) == pytest.approx(1.9483, abs=5e-5)
     assert beta_normal(1.5, 0.3) == pytest.approx(0.5 / 0.3)
     # -Phi^-1: USACE (1997) table, value recalled: beta = 3 <-> pf about 0.00135.

@@ -37,8 +37,8 @@ def test_linear_ten_variables_pf_1e4():
 
 
 def test_lognormal_r_over_s_pf_1e4():
-    # R/S with R, S lognormal: beta = (lR - lS)/sqrt(zR^2 + zS^2) (closed form,
-    # REFERENCES.md). Choose mean R so that beta = 3.719.
+    # R/S with R, S lognormal: beta = (lR - lS)/sqrt(zR^2 + zS^2) (a
+    # closed form). Choose mean R so that beta = 3.719.
     zr, zs = math.sqrt(math.log1p(0.15**2)), math.sqrt(math.log1p(0.2**2))
     ls_ = math.log(100.0) - zs**2 / 2
     lr = ls_ + BETA * math.hypot(zr, zs)

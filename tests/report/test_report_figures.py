@@ -61,7 +61,7 @@ def test_section_draws_zones_water_and_labelled_surfaces():
     polys = [p for p in ax.patches if isinstance(p, Polygon)]
     assert len(polys) == 2
     np.testing.assert_allclose(polys[1].get_xy()[:4], zones[1]["polygon_xy"])
-    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
     assert "embankment (sandy fill)" in legend and "foundation (soft clay)" in legend
     assert "Bishop: FS = 1.234" in legend  # 3 decimals, as documented
     assert "Spencer: FS = 1.310 (not converged)" in legend
@@ -69,8 +69,36 @@ def test_section_draws_zones_water_and_labelled_surfaces():
     assert len(ax.lines) == 5
     np.testing.assert_allclose(ax.lines[3].get_xydata(), CIRCLE)
     assert ax.lines[4].get_linestyle() == ":"  # non-converged surface drawn dotted
-    assert {t.get_text() for t in ax.texts} == {"FS = 1.234", "FS = 1.310"}
     _assert_nonblank(fig)
+    # FS labels never overlap (the cut demo once printed "FS =1.16751.364"): each is its own legend
+    # line, and the legend lies outside the axes, so no label sits on the section either.
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    texts = [t for t in fig.legends[0].get_texts() if "FS =" in t.get_text()]
+    boxes = [t.get_window_extent(renderer) for t in texts]
+    assert len(boxes) == 2 and not boxes[0].overlaps(boxes[1])
+    assert not fig.legends[0].get_window_extent(renderer).overlaps(ax.get_window_extent(renderer))
+
+
+def test_section_names_every_water_line_and_shows_loads_and_search():
+    piezo = [{"xy": [[0, 4], [50, 2]], "label": "piezometric line, zone foundation"}]
+    fig = plot_section(None, GROUND, water_xy=[[0, 6], [50, -1]], water_label="phreatic surface", water_lines=piezo,
+                       surcharges=[{"x1": 1.0, "x2": 8.0, "q1": 12.0, "q2": 12.0}], kh=0.1,
+                       crack={"depth": 2.0, "water_filled": True},
+                       search={"kind": "window", "entry": [0.0, 9.0], "exit": [31.0, 45.0]},
+                       surfaces=[{"xy": CIRCLE, "fs": 1.1, "label": "drained, bishop"}])
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    for name in ("phreatic surface", "piezometric line, zone foundation", "surcharge 1: q = 12 kPa",
+                 "entry window searched", "exit window searched", "drained, bishop: FS = 1.100"):
+        assert name in legend
+    notes = [t.get_text() for t in fig.axes[0].texts if t.get_gid() == "load-notes"][0]
+    assert "kh = 0.1" in notes and "tension crack 2 m" in notes
+    # the crack is drawn at the upslope (higher) end of the surface, 2 m deep below the ground
+    crack = [ln for ln in fig.axes[0].lines if len(ln.get_xdata()) == 2 and ln.get_xdata()[0] == ln.get_xdata()[1]]
+    assert crack and np.allclose(crack[0].get_ydata(), [10.0, 8.0])
 
 
 def test_section_reuses_given_axes_and_rejects_bad_ground():
@@ -241,7 +269,7 @@ def test_pf_vs_theta_infinite_theta_is_a_separate_marker_at_right():
 def test_variance_reduction_curves_and_asymptote():
     t = np.logspace(-2, 2, 60)
     a = 2 * t
-    # Markov closed form (Vanmarcke 1983; REFERENCES.md): γ = 2(a + e^-a - 1)/a², a = 2T/θ.
+    # Markov closed form (Vanmarcke 1983): γ = 2(a + e^-a - 1)/a², a = 2T/θ.
     markov = 2 * (a + np.exp(-a) - 1) / a**2
     # Squared exponential closed form (same sources).
     from scipy.special import erf

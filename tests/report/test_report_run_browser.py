@@ -1,15 +1,17 @@
-"""The report written by ``run_case`` in a real browser.
+"""The report written by ``slipfield run`` in a real browser, for each demo case.
 
-Headless Chromium opens ``report.html`` of a demo run (invented scenario, few
-realisations): no console messages, every figure decoded and laid out (one
-``<img>`` per PNG in ``figures/``, natural width > 0), the summary table and
-the caution shown, and the figures the report must carry (field
-realisations with their critical surfaces, failure map, failure geometry).
+Headless Chromium opens ``report.html`` of each demo run (invented scenarios,
+few realisations; one shared run per demo, ``tests/conftest.py``) and a probe
+script reports what the page shows: no console messages; every figure
+decoded and laid out (one ``<img>`` per PNG in ``figures/``); the caution
+shown; the comparison table with a row per analysis run (every method of
+slices asked for, every single-variable method, the spatial estimates) and a
+column per hypothesis; the inputs table listing every ``[[random]]`` entry;
+the section figure's legend naming every water line of the case.
 
-A screenshot of the page is kept as an artefact: ``report_screenshot.png`` in
-the folder named by the environment variable ``SLIPFIELD_ARTEFACTS``, else
-``tests/artefacts/`` (ignored by git through its own ``.gitignore``); the path
-is printed. Skipped when /usr/bin/chromium is missing.
+A screenshot of each page is kept as an artefact in the folder named by the
+environment variable ``SLIPFIELD_ARTEFACTS``, else ``tests/artefacts/``
+(ignored by git). Skipped when /usr/bin/chromium is missing.
 """
 import json
 import os
@@ -19,7 +21,7 @@ from pathlib import Path
 import matplotlib.image as mpimg
 import pytest
 
-from support.chromium import HAVE_CHROMIUM, console_messages as _console, probe as _probe, run_chromium as _chromium
+from support.chromium import HAVE_CHROMIUM, console_messages as _console, run_chromium as _chromium
 
 pytestmark = pytest.mark.skipif(
     not HAVE_CHROMIUM,
@@ -29,45 +31,96 @@ pytestmark = pytest.mark.skipif(
 
 ROOT = Path(__file__).resolve().parents[2]
 ARTEFACTS = Path(os.environ.get("SLIPFIELD_ARTEFACTS") or ROOT / "tests" / "artefacts")
+# Read-only probe appended to a copy of the page: after the load event it writes what the browser
+# decoded and laid out as JSON into a <pre id="probe">, read back from the dumped DOM.
+PROBE = """<script>
+window.addEventListener("load", function () {
+  var imgs = Array.prototype.slice.call(document.images);
+  var text = function (e) { return e.textContent.trim(); };
+  var randomTable = Array.prototype.slice.call(document.querySelectorAll("#inputs table")).filter(
+    function (t) { return t.caption && t.caption.textContent.indexOf("Random properties") >= 0; })[0];
+  var c = document.querySelector(".caution");
+  var out = {
+    img: imgs.length,
+    decoded: imgs.filter(function (i) {
+      return i.complete && i.naturalWidth > 0 && i.getBoundingClientRect().width > 0; }).length,
+    hypotheses: Array.prototype.map.call(document.querySelectorAll("#comparison-table th[data-hypothesis]"),
+      function (e) { return e.getAttribute("data-hypothesis"); }),
+    rows: Array.prototype.map.call(document.querySelectorAll("#comparison-table tbody tr"),
+      function (e) { return e.getAttribute("data-row"); }),
+    cellsPerRow: Array.prototype.map.call(document.querySelectorAll("#comparison-table tbody tr"),
+      function (e) { return e.querySelectorAll("td").length; }),
+    randoms: randomTable ? Array.prototype.map.call(randomTable.querySelectorAll("tbody tr td:first-child"), text) : [],
+    legend: Array.prototype.map.call(document.querySelectorAll("#section .figure-legend li"), text),
+    caution: c && c.getBoundingClientRect().height > 0 ? 1 : 0
+  };
+  var d = document.createElement("pre");
+  d.id = "probe";
+  d.textContent = JSON.stringify(out);
+  document.body.appendChild(d);
+});
+</script>"""
 
 
-@pytest.fixture(scope="module")
-def run_output(demo_run):
-    return demo_run("levee_soft_clay.toml")
 
 
-def test_run_report_renders_every_figure_and_the_summary(tmp_path, run_output):
-    page = run_output / "report.html"
-    html = page.read_text(encoding="utf-8")
-    n_png = len(list((run_output / "figures").glob("*.png")))
-    summary = re.search(r'<table id="summary-table".*?<tbody>(.*?)</tbody>', html, re.S)
-    assert summary, "no summary table in report.html"
-    n_rows = summary.group(1).count("<tr")
+def _probe(tmp_path, page):
+    probed = tmp_path / f"probe-{page.name}"
+    probed.write_text(page.read_text(encoding="utf-8").replace("</body>", PROBE + "</body>"), encoding="utf-8")
+    run = _chromium(tmp_path, probed, "--dump-dom")
+    assert run.returncode == 0, run.stderr[-2000:]
+    m = re.search(r'<pre id="probe">(.*?)</pre>', run.stdout, re.S)
+    assert m, "probe did not run: the page did not finish loading\n" + run.stderr[-2000:]
+    return json.loads(m.group(1).replace("&quot;", '"').replace("&amp;", "&").replace("&lt;", "<")
+                      .replace("&gt;", ">")), _console(run.stderr)
 
+
+@pytest.mark.parametrize("name", ["levee_soft_clay.toml", "cut_residual_soil.toml", "dam_layered_foundation.toml"])
+def test_run_report_in_the_browser(tmp_path, demo_analysis, name):
+    case, res, out, doc = demo_analysis(name)
+    page = out / "report.html"
+    n_png = len(list((out / "figures").glob("*.png")))
     info, console = _probe(tmp_path, page)
     assert console == []
-    assert info["figures"] == n_png and info["img"] == n_png
-    assert info["img-decoded"] == n_png  # complete, naturalWidth > 0 and laid out
-    assert info["summary-rows"] == n_rows > 5
-    assert info["caution-visible"] == 1
+    assert info["img"] == n_png and info["decoded"] == n_png  # complete, naturalWidth > 0 and laid out
+    assert info["caution"] == 1
 
-    res = json.loads((run_output / "results.json").read_text(encoding="utf-8"))
-    for hyp, sim in res["spatial_simulation"].items():
-        if sim is None:
-            continue
-        assert f"Failure map: where the critical surfaces of failed realisations lie, {hyp}" in html
-        assert f"Random field" in html and f", {hyp}</figcaption>" in html
-        if sim["spatial"]["failure_geometry"]["n_failed"]:
-            assert f"Failure geometry: sliding-mass area and greatest depth of the failed critical surfaces, {hyp}" in html
+    # comparison: a column per hypothesis, a row per analysis run, every row one cell per hypothesis × quantity
+    hyps = case.analysis["hypotheses"]
+    assert info["hypotheses"] == hyps
+    rows = info["rows"]
+    for m in dict.fromkeys([case.analysis["method"], *case.analysis["methods"]]):
+        assert f"{m}, deterministic FS" in rows
+    for label in ("spatial simulation, critical surface re-searched", "spatial simulation, fixed deterministic "
+                  "surface", "θ → ∞ simulation (single variables), re-searched"):
+        assert label in rows
+    sv_methods = set(case.data["reliability"]["methods"])
+    if "monte-carlo" in sv_methods:
+        assert "Monte Carlo, single random variables" in rows
+    if "point-estimate" in sv_methods:
+        assert {"point estimates, pf of a normal FS", "point estimates, pf of a lognormal FS"} <= set(rows)
+    if "form" in sv_methods:
+        assert any(r.startswith("FORM") for r in rows)
+    assert len(rows) == len(set(rows))
+    assert set(info["cellsPerRow"]) == {5 * len(hyps)}
+
+    # inputs: every [[random]] entry, in order
+    assert info["randoms"] == [f"{r['material']}.{r['property']}" for r in case.randoms]
+
+    # section legend: every water line of the case
+    water = case.data.get("water", {})
+    expected = (["phreatic surface"] if "phreatic" in water else []) + \
+        [f"piezometric line, zone {p['zone']}" for p in water.get("piezometric", [])]
+    for line in expected:
+        assert line in info["legend"], (line, info["legend"])
 
     ARTEFACTS.mkdir(parents=True, exist_ok=True)
-    shot = ARTEFACTS / "report_screenshot.png"
+    shot = ARTEFACTS / f"report_{Path(name).stem}.png"
     run = _chromium(tmp_path, page, f"--screenshot={shot}", "--window-size=1200,3000")
     assert run.returncode == 0, run.stderr[-2000:]
     assert _console(run.stderr) == []
     print(f"report screenshot: {shot}")
     img = mpimg.imread(shot)
-    assert img.shape[0] >= 2500 and img.shape[1] >= 1000
     # Non-blank: a white page has no spread and no dark pixels; text and figures give both.
     grey = img[..., :3].mean(axis=2)
     assert grey.std() > 0.05 and (grey < 0.5).mean() > 0.005

@@ -7,7 +7,7 @@ the base. With su a normal random field, s̄u is a linear functional of it,
 hence normal with mean μ and variance γ(T)σ² (Vanmarcke 1983, *Random
 Fields*, ch. 5: variance function of the local average over length T), so
 pf = Φ((1 − μ_FS)/(√γ(T) σ_FS)) exactly. The Markov closed form of γ(T) is
-used (Vanmarcke 1983; listed in /work/shared/REFERENCES.md).
+used (Vanmarcke 1983).
 
 The block's ends are two short near-vertical segments (0.2 m wide), so the
 method's FS at unit su (``fs1``) is used in place of 1/(γ z sinβ cosβ): the

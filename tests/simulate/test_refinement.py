@@ -31,7 +31,7 @@ def test_overrides_on_the_bank_equal_the_simulator_mapping():
 @pytest.mark.slow
 def test_homogeneous_realisations_reach_the_published_fs():
     # θ → ∞: each realisation is the homogeneous slope with su_k, FS ∝ su_k.
-    # Griffiths & Lane 1999 (recalled; /work/shared/REFERENCES.md): 2H:1V,
+    # Griffiths & Lane 1999 (recalled from memory): 2H:1V,
     # cu/(γH) = 0.25, D = 2 -> FS ≈ 1.47 (Taylor's charts). The coarse 6 × 6
     # lattice bank is ~1.5 % above it; the refined surface must come within 2 %.
     p, _ = gf_problem(math.inf, 0.3)

@@ -121,7 +121,7 @@ def test_gf2004_deterministic_fs(gf_det):
 def test_gf2004_single_variable_pf(gf_det):
     # θ → ∞: one lognormal C per realisation; pf = Φ[(ln C_f − μlnC)/σlnC]
     # with C_f = 0.25/FS_det (C_f = 0.17 in the paper; v = 0.5 gives
-    # pf ≈ 0.28, recalled from memory, listed in REFERENCES.md)
+    # pf ≈ 0.28, recalled from memory)
     p, fs_det = gf_det
     v = 0.5
     s2 = math.log(1 + v * v)
