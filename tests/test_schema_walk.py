@@ -127,7 +127,7 @@ TRIANGULAR = sub('property = "c"\ncov = 0.3',
 BETA = sub('property = "c"\ncov = 0.3', 'property = "c"\ndistribution = "beta"\ncov = 0.3\nlower = 2.0\nupper = 20.0')
 MATERN = sub('property = "c"\ncov = 0.3', 'property = "c"\ncov = 0.3\nmodel = "matern"')
 REFINE = sub("batch = 3", "batch = 3\nrefine_below = 5.0")
-SUBSET = sub("batch = 3", 'batch = 3\nestimator = "subset"\nsamples_per_level = 100')
+SUBSET = sub("batch = 3", 'batch = 3\nestimator = "subset"')
 MP = sub('methods = ["bishop", "spencer"]', 'methods = ["bishop", "morgenstern-price"]')
 CRACK = add("[tension_crack]\ndepth = 2.0\nwater_filled = true")
 PIEZO = add('[[water.piezometric]]\nzone = "all"\nline = [[0.0, 6.0], [40.0, 1.0]]')
@@ -313,15 +313,13 @@ WALK = {
     "simulation.jobs": (BASE, sub("cell = 2.0", "cell = 2.0\njobs = 2"), "engine"),
     "simulation.batch": (BASE, sub("batch = 3", "batch = 5"), "engine"),
     "simulation.refine_below": (BASE, REFINE, "engine"),
+    "simulation.estimator": (BASE, SUBSET, "engine"),
+    "simulation.level_probability": (SUBSET, SUBSET.replace('estimator = "subset"',
+                                                            'estimator = "subset"\nlevel_probability = 0.2'), "engine"),
+    "simulation.samples_per_level": (SUBSET, SUBSET.replace('estimator = "subset"',
+                                                            'estimator = "subset"\nsamples_per_level = 500'), "engine"),
     "simulation.refine_method": (REFINE, REFINE.replace("refine_below = 5.0",
                                                         'refine_below = 5.0\nrefine_method = "janbu"'), "engine"),
-    # subset simulation of the spatial run (Au & Beck 2001): small levels keep the walk quick
-    "simulation.estimator": (BASE, sub("batch = 3", 'batch = 3\nestimator = "subset"\nsamples_per_level = 100'),
-                             "sim"),
-    "simulation.level_probability": (SUBSET, SUBSET.replace("samples_per_level = 100",
-                                                            "samples_per_level = 100\nlevel_probability = 0.2"), "sim"),
-    "simulation.samples_per_level": (SUBSET, SUBSET.replace("samples_per_level = 100", "samples_per_level = 200"),
-                                     "sim"),
     "reliability.methods": (BASE, sub('methods = ["monte-carlo"]', 'methods = ["latin-hypercube"]'), "rel"),
     "reliability.samples": (BASE, sub("samples = 20", "samples = 30"), "rel"),
     "reliability.tornado_k": (BASE, sub("samples = 20", "samples = 20\ntornado_k = 1.0"), "rel"),
@@ -433,8 +431,15 @@ def probe_engine(case, tmp_path, monkeypatch):
                                 refine=None if refine is None else refine.describe())
         raise _Stop
 
+    def subset_spy(prob, settings, seed, **kw):
+        seen["subset"] = dict(settings=settings.describe(), seed=seed, jobs=kw.get("n_jobs"), batch=kw.get("batch"))
+        raise _Stop
+
+    import slipfield.slope.simulate.rare as rare
+
     monkeypatch.setattr(sim_pkg, "theta_sweep", sweep_spy)
     monkeypatch.setattr(sim_pkg, "simulate", simulate_spy)
+    monkeypatch.setattr(rare, "subset_simulate", subset_spy)
     k = len(list(tmp_path.iterdir()))
     with pytest.raises(_Stop):
         sweep_case(case.path, tmp_path / f"sweep-{k}", progress=False)
