@@ -23,7 +23,7 @@ from slipfield.slope.case.schema import CASE_INTERSLICE, DISTRIBUTIONS, SCHEMA
 from slipfield.slope.methods import METHOD_NAMES
 from slipfield.slope.reliability.registry import ESTIMATOR_NAMES
 from slipfield.slope.search import SEARCHES, case_search_names, critical_surface
-from slipfield.slope.search_dp import DPSettings
+from slipfield.slope.search.dynamic_programming import DPSettings
 from slipfield.slope.simulate import realise_fields, simulate
 from slipfield.slope.simulate.problem import AVERAGING
 

@@ -28,7 +28,7 @@ from ..reliability.sensitivity import tornado
 from ..limit_state import SliceBankLimitState
 from ..reliability.variables import RandomVariable, RandomVector
 from ..search import evaluate_surfaces, search_from_case
-from ..search_families import add_families
+from ..search.families import add_families
 from ..surfaces import Circle
 
 __all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",

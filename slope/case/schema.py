@@ -919,7 +919,7 @@ def _check_conditional_keys(case: dict, raw: dict, where, problems: list[str]) -
 
 def _check_search_families(case: dict, search: dict, zone_names: set, where, problems: list[str]) -> None:
     """Block and dynamic-programming searches: zones, ranges on the ground, a method for non-circular surfaces."""
-    from ..search_families import POLYLINE_METHODS
+    from ..search.families import POLYLINE_METHODS
 
     ground = case.get("section", {}).get("ground") or []
     x_lo, x_hi = (ground[0][0], ground[-1][0]) if len(ground) >= 2 else (-math.inf, math.inf)

@@ -119,7 +119,7 @@ def conditional_mean_fs(problem):
         values, for comparison), ``bank_index`` of the least.
     """
     from slipfield.slope.methods import factor_of_safety
-    from slipfield.slope.search import _TOLERABLE
+    from slipfield.slope.search.evaluate import _TOLERABLE
     from slipfield.slope.strength import base_strength
 
     from .engine import _det_value, stencil, strength_overrides

@@ -25,7 +25,7 @@ from slipfield.fields.seeding import realisation_rng
 
 from ..bank import scale_unit_weights, unit_weight_parts
 from ..methods import factor_of_safety, prepare_bank
-from ..search import _TOLERABLE
+from ..search.evaluate import _TOLERABLE
 from ..strength import base_strength
 from .conditioning import conditioner
 from .fused import strength_map

@@ -3,7 +3,7 @@
 After the bank (every family re-searched with the realisation's strengths),
 the lowest clean surfaces of *different families* (the best circle, the best
 block, the best non-circular surface of the bank) start a dynamic-programming
-search (:mod:`slope.search_dp`, after Baker 1980) whose segment strengths come
+search (:mod:`slope.search.dynamic_programming`, after Baker 1980) whose segment strengths come
 from the realisation's fields by the same mapping as the bank's
 (:func:`slope.simulate.refinement.realisation_overrides`), so the path moves
 toward the realisation's weak cells. Every path and every start surface is
@@ -26,7 +26,7 @@ import numpy as np
 from ..bank import section_with_unit_weights
 from ..errors import InputError
 from ..search import evaluate_surfaces
-from ..search_dp import DP_FAMILY, DPSettings, _spencer, _start_xy, dp_surface, first_band
+from ..search.dynamic_programming import DP_FAMILY, DPSettings, _spencer, _start_xy, dp_surface, first_band
 from ..surfaces import family_of
 from .refinement import START_UNUSABLE, _grid_values, realisation_overrides, rejection_counts
 

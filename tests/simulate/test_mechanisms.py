@@ -17,7 +17,7 @@ from slipfield.fields.seeding import realisation_rng
 from slipfield.slope.errors import InputError
 from slipfield.slope.examples import layered_weak_section
 from slipfield.slope.search import evaluate_surfaces, lattice_circles
-from slipfield.slope.search_block import block_polylines
+from slipfield.slope.search.block import block_polylines
 from slipfield.slope.simulate import RandomProblem, RandomProperty, RefineSettings, simulate
 from slipfield.slope.simulate.refinement import realisation_overrides
 from slipfield.slope.surfaces import Circle, Polyline, family_of

@@ -9,8 +9,8 @@ from slipfield.slope.cli import main
 from slipfield.slope.errors import InputError
 from slipfield.slope.examples import simple_slope
 from slipfield.slope.search import centre_lattice, evaluate_surfaces, window
-from slipfield.slope.search_block import block_polylines
-from slipfield.slope.search_dp import DP_FAMILY, DPSettings, dp_surface
+from slipfield.slope.search.block import block_polylines
+from slipfield.slope.search.dynamic_programming import DP_FAMILY, DPSettings, dp_surface
 from slipfield.slope.section import Section
 from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle, family_of

@@ -4,7 +4,7 @@ A case's ``[search]`` table asks for circles (its ``kind``); ``[[search.block]]`
 tables add sliding-block surfaces along weak zones
 (:mod:`slope.search_block`), and a ``[search.dynamic_programming]`` table adds
 non-circular surfaces found by dynamic programming after Baker (1980)
-(:mod:`slope.search_dp`), started from the best circle and the best block.
+(:mod:`slope.search.dynamic_programming`), started from the best circle and the best block.
 The bank then holds every family; the simulator re-searches all of them in
 each realisation, and :func:`slope.surfaces.family_of` tells them apart.
 
@@ -14,12 +14,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from .errors import InputError
-from .methods import POLYLINE_METHOD_NAMES
-from .search import evaluate_surfaces
-from .search_block import BLOCK_FAMILY, block_polylines
-from .search_dp import DP_FAMILY, DPSettings, dp_surface
-from .surfaces import Circle, family_of
+from ..errors import InputError
+from ..methods import POLYLINE_METHOD_NAMES
+from .evaluate import evaluate_surfaces
+from .block import BLOCK_FAMILY, block_polylines
+from .dynamic_programming import DP_FAMILY, DPSettings, dp_surface
+from ..surfaces import Circle, family_of
 
 __all__ = ["FAMILY_NAMES", "family_tables", "add_families", "family_counts", "best_of_families",
            "POLYLINE_METHODS"]

@@ -26,8 +26,8 @@ import warnings
 
 import numpy as np
 
-from .errors import InputError
-from .surfaces import Polyline
+from ..errors import InputError
+from ..surfaces import Polyline
 
 __all__ = ["BLOCK_FAMILY", "block_base", "block_polylines", "block_search"]
 
@@ -186,7 +186,7 @@ def block_search(section, *, zone, entry, exit, points=10, lift=0.25, method="sp
 
     ``evaluate_opts`` as for :func:`slope.search.evaluate_surfaces`.
     """
-    from .search import evaluate_surfaces
+    from .evaluate import evaluate_surfaces
 
     blocks = block_polylines(section, zone, entry, exit, points=points, lift=lift, hypothesis=hypothesis,
                              key="block search")

@@ -1,4 +1,4 @@
-"""Node grids of the dynamic-programming search (:mod:`slope.search_dp`): bands and segment terms.
+"""Node grids of the dynamic-programming search (:mod:`slope.search.dynamic_programming`): bands and segment terms.
 
 A grid is columns of nodes (section frame); node 0 of each column lies on
 the ground. Every segment between two nodes of consecutive columns is one
@@ -14,9 +14,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bank import _column_weight, _ponded_top
-from .slices import SliceBank
-from .surfaces import Circle, cut_ground
+from ..bank import _column_weight, _ponded_top
+from ..slices import SliceBank
+from ..surfaces import Circle, cut_ground
 
 __all__ = ["NodeGrid", "SegmentTerms", "band_grid", "segment_terms", "start_xy"]
 

@@ -42,10 +42,10 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from .errors import InputError
-from .search_dp_grid import NodeGrid, SegmentTerms, band_grid, segment_terms, start_xy as _start_xy
-from .strength import base_strength
-from .surfaces import Polyline
+from ..errors import InputError
+from .dp_grid import NodeGrid, SegmentTerms, band_grid, segment_terms, start_xy as _start_xy
+from ..strength import base_strength
+from ..surfaces import Polyline
 
 __all__ = ["DP_FAMILY", "NodeGrid", "band_grid", "segment_terms", "first_band", "least_path", "dp_surface", "DPSettings",
            "dynamic_programming"]
@@ -272,8 +272,8 @@ def _strengths(seg: SegmentTerms, section, hypothesis, overrides):
 
 def _spencer(section, xy, hypothesis, overrides, n_slices):
     """Spencer's F and θ (rad) on one polyline; NaN when not converged or the surface is rejected."""
-    from .bank import build_bank
-    from .methods import factor_of_safety
+    from ..bank import build_bank
+    from ..methods import factor_of_safety
 
     bank = build_bank(section, [Polyline(xy)], n_slices)
     if not bank.valid[0]:
@@ -397,7 +397,8 @@ def dynamic_programming(section, *, start=None, settings: DPSettings | None = No
         The path of every pass and the start surface, so the critical
         surface is never above the start.
     """
-    from .search import centre_lattice, evaluate_surfaces
+    from .circles import centre_lattice
+    from .evaluate import evaluate_surfaces
 
     if start is None:
         first = centre_lattice(section, hypothesis=hypothesis, method=method, n_slices=n_slices, **evaluate_opts)

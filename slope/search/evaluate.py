@@ -1,0 +1,226 @@
+"""Evaluating a set of trial surfaces: the one place surfaces are counted, tolerated or excluded.
+
+A trial counts toward the critical surface when its bank geometry is valid,
+the method converged, and no *intolerable* flag is raised; by default a
+negative effective normal force at a few slices or a line of thrust outside a
+slice (common under the crest of cohesive slopes) is tolerated but counted,
+while m_α ≤ 0.2 and non-positive F are not. Surfaces shallower than
+``min_depth`` are excluded with their own reason.
+"""
+from __future__ import annotations
+
+from collections import Counter
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..bank import build_bank
+from ..errors import InputError
+from ..strength import base_strength
+from ..surfaces import Circle, Circles, Polyline
+
+_TOLERABLE = {"negative-normal": 1, "small-m-alpha": 2, "thrust-outside": 4}
+
+
+def _methods():
+    from .. import methods  # late import: the methods package is optional for geometry work
+
+    return methods
+
+
+@dataclass
+class SearchResult:
+    """Outcome of a search over a bank of trial surfaces.
+
+    Attributes
+    ----------
+    search : str
+        Name of the search.
+    method : str
+        Method of slices used.
+    fs_min : float
+        Factor of safety of the critical surface (NaN if no trial counted).
+    critical : Circle or Polyline or None
+        The critical surface.
+    critical_index : int
+        Its index among the trials (-1 if none).
+    critical_flags : int
+        Flags of the method at the critical surface (0 = admissible).
+    surfaces : Circles or list
+        All trial surfaces, in bank order.
+    fs : ndarray (n_trials,)
+        Factor of safety of every trial (NaN where the geometry was rejected);
+        use ``counted`` to see which entered the minimum.
+    counted : ndarray of bool (n_trials,)
+        Trials eligible for the minimum.
+    flags : ndarray of int (n_trials,)
+        Method flags of every trial (see :data:`slope.methods.FLAG_NAMES`).
+    rejected : dict str -> int
+        Count of trials not counted, by reason.
+    n_trials : int
+    bank : SliceBank
+        The slice bank of the trials.
+    history : list
+        ``refine`` only: factor of safety after each accepted improvement.
+    trials_rejected : dict str -> int
+        ``refine`` only: the optimiser's trial shapes that were not accepted
+        as a minimum, by reason (kinematically inadmissible shape, not
+        converged, or a method flag).
+    """
+
+    search: str
+    method: str
+    fs_min: float
+    critical: object
+    critical_index: int
+    critical_flags: int
+    surfaces: object
+    fs: np.ndarray
+    counted: np.ndarray
+    flags: np.ndarray
+    rejected: dict
+    n_trials: int
+    bank: object = None
+    history: list = field(default_factory=list)
+    trials_rejected: dict = field(default_factory=dict)
+
+    def summary(self) -> str:
+        rej = ", ".join(f"{k}: {v}" for k, v in sorted(self.rejected.items())) or "none"
+        return (f"{self.search} search, {self.method}: {self.n_trials} trials, "
+                f"{int(self.counted.sum())} counted, FS min = {self.fs_min:.4f}; not counted: {rej}")
+
+
+def _tolerated_mask(tolerate) -> int:
+    mask = 0
+    for t in tolerate:
+        if t not in _TOLERABLE:
+            raise InputError(f"tolerate: unknown flag {t!r}; use any of {sorted(_TOLERABLE)}")
+        mask |= _TOLERABLE[t]
+    return mask
+
+
+def _surface_of(surfaces, i):
+    if isinstance(surfaces, Circles):
+        return Circle(float(surfaces.xc[i]), float(surfaces.yc[i]), float(surfaces.radius[i]))
+    return surfaces[i]
+
+
+def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop", n_slices=40,
+                      overrides=None, tolerate=("negative-normal", "thrust-outside"), search="given",
+                      min_depth=None, **method_opts) -> SearchResult:
+    """Factor of safety of every trial surface for one set of strengths.
+
+    Parameters
+    ----------
+    section : Section
+    surfaces : Circles, Circle, Polyline or sequence
+    hypothesis : {"drained", "undrained"}
+    method : str
+        Method of slices (see :func:`slope.methods.factor_of_safety`).
+    n_slices : int
+    overrides : dict or callable, optional
+        Per-slice strength overrides for :func:`slope.strength.base_strength`
+        (a single sample: shapes broadcastable to (n_surfaces, n_slices)), or
+        a function of the slice bank of the usable surfaces returning them
+        (strengths from a random field, for surfaces built on the fly).
+    tolerate : sequence of {"negative-normal", "thrust-outside"}
+        Method flags that do not exclude a trial from the minimum (they stay
+        in ``flags`` and in ``rejected`` is nothing for them).
+    min_depth : float, optional, m
+        Surfaces whose greatest vertical depth below the ground line is
+        less than this are dropped from the trials (they are not in
+        ``surfaces`` nor in the bank) and counted in ``rejected`` under
+        :data:`MIN_DEPTH_REASON`; ``n_trials`` still counts them.
+    **method_opts
+        Passed to :func:`slope.methods.factor_of_safety`.
+
+    Returns
+    -------
+    SearchResult
+    """
+    methods = _methods()
+    tol_mask = _tolerated_mask(tolerate)
+    bank = build_bank(section, surfaces, n_slices=n_slices)
+    if isinstance(surfaces, (Circle, Polyline)):
+        surfaces = [surfaces]
+    n_shallow = 0
+    if min_depth is not None and float(min_depth) > 0:
+        bank, surfaces, n_shallow = _drop_shallow(bank, surfaces, float(min_depth))
+    m = bank.n_surfaces
+    rejected = Counter(str(r) for r in bank.reason[~bank.valid])
+    rejected[MIN_DEPTH_REASON] += n_shallow
+    fs = np.full(m, np.nan)
+    flags = np.zeros(m, dtype=int)
+    counted = np.zeros(m, bool)
+    idx = np.nonzero(bank.valid)[0]
+    if len(idx):
+        sub = bank.subset(idx)
+        ov = None
+        if callable(overrides):
+            ov = overrides(sub)  # strengths that depend on where the bases lie (random fields)
+        elif overrides is not None:
+            ov = {k: np.broadcast_to(np.asarray(v, float), (m, bank.n_slices))[idx] for k, v in overrides.items()}
+        c, tp = base_strength(sub, section.materials, hypothesis, ov)
+        res = methods.factor_of_safety(sub, c, tp, method=method, **method_opts)
+        f = res.fs.reshape(-1, len(idx))[0]
+        fl = np.asarray(res.flags).reshape(-1, len(idx))[0]
+        conv = np.asarray(res.converged).reshape(-1, len(idx))[0]
+        fs[idx] = f
+        flags[idx] = fl
+        # a negative effective normal force changes nothing where every base
+        # of the surface is frictionless (phi = 0: strength c l alone)
+        frictionless = np.all(np.broadcast_to(tp, res.fs.shape + (sub.n_slices,)).reshape(
+            -1, len(idx), sub.n_slices)[0] == 0, axis=1)
+        bad = fl & ~tol_mask & ~np.where(frictionless, _TOLERABLE["negative-normal"], 0)
+        ok = conv & (bad == 0) & np.isfinite(f)
+        counted[idx] = ok
+        rejected["not converged"] += int(np.sum(~conv))
+        for bit, name in methods.FLAG_NAMES.items():
+            if bit & tol_mask:
+                continue
+            rejected[name] += int(np.sum(conv & ((bad & bit) != 0)))
+    rejected = {k: v for k, v in rejected.items() if v}
+    if counted.any():
+        i = int(np.nanargmin(np.where(counted, fs, np.inf)))
+        crit, fmin, cflags = _surface_of(surfaces, i), float(fs[i]), int(flags[i])
+    else:
+        i, crit, fmin, cflags = -1, None, float("nan"), 0
+    return SearchResult(search=search, method=str(method), fs_min=fmin, critical=crit, critical_index=i,
+                        critical_flags=cflags, surfaces=surfaces, fs=fs, counted=counted, flags=flags,
+                        rejected=rejected, n_trials=m + n_shallow, bank=bank)
+
+
+#: Reason under which :func:`evaluate_surfaces` counts the surfaces shallower than ``min_depth``.
+MIN_DEPTH_REASON = "shallower than search.min_depth"
+
+
+def surface_depth(bank) -> np.ndarray:
+    """Greatest vertical depth of each surface of a bank below the ground line (m; NaN if invalid).
+
+    Taken over slice sides and midpoints, as the sliding-mass geometry of the report.
+    """
+    with np.errstate(invalid="ignore"):
+        d = np.fmax(np.fmax(bank.y_top_left - bank.y_base_left, bank.y_top_right - bank.y_base_right),
+                    bank.y_top - bank.y_base)
+        return np.where(bank.valid, np.max(d, axis=1), np.nan)
+
+
+def _drop_shallow(bank, surfaces, min_depth):
+    """The bank and surfaces without the valid surfaces shallower than ``min_depth`` (m), and their count."""
+    depth = surface_depth(bank)
+    keep = ~(bank.valid & (depth < min_depth))
+    n_drop = int(np.sum(~keep))
+    if not n_drop:
+        return bank, surfaces, 0
+    idx = np.flatnonzero(keep)
+    if isinstance(surfaces, Circles):
+        kept = Circles(surfaces.xc[idx], surfaces.yc[idx], surfaces.radius[idx]) if idx.size else surfaces
+    else:
+        kept = [surfaces[i] for i in idx]
+    if not idx.size:
+        raise InputError(f"search.min_depth = {min_depth:g} m: every one of the {len(keep)} trial surfaces is "
+                         "shallower; lower min_depth or move the search towards deeper surfaces")
+    return bank.subset(idx), kept, n_drop
+
+
+# ------------------------------------------------------------------ circles
