@@ -231,8 +231,9 @@ def run_sample(args) -> int:
 _MODEL_HELP = "correlation model: " + ", ".join(MODEL_NAMES) + " (matern with --nu)"
 
 
-def _whole(lo):
-    """argparse type: a whole number >= lo (refused at parse time, exit 2)."""
+def whole_number(lo):
+    """argparse type: a whole number >= lo (refused at parse time, exit 2); the slipfield
+    command line uses it too."""
     def parse(text):
         try:
             v = int(text)
@@ -241,6 +242,7 @@ def _whole(lo):
         if v < lo:
             raise argparse.ArgumentTypeError(f"{v} is too small; give a whole number >= {lo}")
         return v
+    parse.__name__ = f"whole number >= {lo}"
     return parse
 
 
@@ -282,8 +284,8 @@ def _fill(fp):
     s.add_argument("--dy", type=float, help="cell size along y (m)")
     s.add_argument("--x0", type=float, default=0.0, help="grid lower-left x (m), default 0")
     s.add_argument("--y0", type=float, default=0.0, help="grid lower-left y (m), default 0")
-    s.add_argument("--n", type=_whole(1), default=1, help="number of realisations (default 1)")
-    s.add_argument("--seed", type=_whole(0), default=0, help="run seed (default 0)")
+    s.add_argument("--n", type=whole_number(1), default=1, help="number of realisations (default 1)")
+    s.add_argument("--seed", type=whole_number(0), default=0, help="run seed (default 0)")
     s.add_argument("--method", default="fft", choices=generator_names(), help="generator (default fft)")
     s.add_argument("--marginal", choices=MARGINAL_NAMES, help="marginal distribution of the values")
     s.add_argument("--mean", type=float, help="marginal mean (property units)")
@@ -291,7 +293,7 @@ def _fill(fp):
     s.add_argument("--lower", type=float, help="marginal lower bound (truncated-normal, beta, uniform)")
     s.add_argument("--upper", type=float, help="marginal upper bound (truncated-normal, beta, uniform)")
     s.add_argument("--mode", type=float, help="most likely value (triangular)")
-    s.add_argument("--batch", type=_whole(1), default=50,
+    s.add_argument("--batch", type=whole_number(1), default=50,
                    help="realisations generated and written per block (default 50)")
     s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf")
     s.add_argument("--quiet", action="store_true", help="no summary line")

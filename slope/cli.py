@@ -12,6 +12,7 @@ import signal
 import sys
 import traceback
 
+from slipfield.fields.cli import whole_number as _whole
 from slipfield.fields.errors import InputError
 
 __all__ = ["main", "build_parser", "version"]
@@ -26,20 +27,6 @@ def version() -> str:
         return dist_version("slipfield")
     except PackageNotFoundError:
         return "unknown (not installed)"
-
-
-def _whole(lo):
-    """argparse type: a whole number >= lo (refused at parse time, exit 2)."""
-    def parse(text):
-        try:
-            v = int(text)
-        except ValueError:
-            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; give one >= {lo}") from None
-        if v < lo:
-            raise argparse.ArgumentTypeError(f"{v} is too small; give a whole number >= {lo}")
-        return v
-    parse.__name__ = f"whole number >= {lo}"
-    return parse
 
 
 def _positive_number(text):

@@ -32,18 +32,12 @@ import tempfile
 from pathlib import Path
 
 from ..errors import InputError
+from ..files import umask
 
 __all__ = ["OutputFolder", "MARKER"]
 
 MARKER = ".slipfield-output.json"
 _STAGE_PREFIX = ".slipfield-partial-"
-
-
-def _umask() -> int:
-    """The process umask, read when a file is made (it may change after import)."""
-    m = os.umask(0o022)
-    os.umask(m)
-    return m
 
 
 def _read_marker(folder: Path) -> dict | None:
@@ -167,7 +161,7 @@ class OutputFolder:
         _set_modes(stage)
         if not self.path.exists():
             (stage / MARKER).write_text(json.dumps(self._marker(files), indent=1))
-            os.chmod(stage / MARKER, 0o666 & ~_umask())
+            os.chmod(stage / MARKER, 0o666 & ~umask())
             try:
                 stage.rename(self.path)
                 return files
@@ -209,7 +203,7 @@ class OutputFolder:
 def _makedirs(d: Path) -> None:
     if not d.is_dir():
         _makedirs(d.parent)
-        d.mkdir(mode=0o777 & ~_umask())
+        d.mkdir(mode=0o777 & ~umask())
 
 
 def _prune(root: Path, rel: Path) -> None:
@@ -224,7 +218,7 @@ def _prune(root: Path, rel: Path) -> None:
 
 def _set_modes(stage: Path) -> None:
     # mkdtemp/mkstemp make 0700/0600; outputs are ordinary files for colleagues too
-    os.chmod(stage, 0o777 & ~_umask())
+    os.chmod(stage, 0o777 & ~umask())
     for p in stage.rglob("*"):
         if not p.is_symlink():
-            os.chmod(p, 0o777 & ~_umask() if p.is_dir() else 0o666 & ~_umask())
+            os.chmod(p, 0o777 & ~umask() if p.is_dir() else 0o666 & ~umask())

@@ -18,7 +18,7 @@ from .figures import (
     plot_tornado,
     plot_variance_reduction,
 )
-from ._files import atomic_write_bytes, atomic_write_text
+from ..files import atomic_write_bytes, atomic_write_text
 from .html import CAUTION, figure_png_bytes, figure_svg_text, render_report, save_figure, write_report
 from .risk import annual_probability, plot_risk_chart, risk_points, tolerability_line
 from .style import CYCLE, PALETTE, report_style

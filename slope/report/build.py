@@ -15,7 +15,7 @@ from pathlib import Path
 
 import jinja2
 
-from ._files import atomic_write_text
+from ..files import atomic_write_text
 from .exclusions import exclusion_table
 from .figures.catalogue import SECTIONS, draw_all
 from .findings import findings

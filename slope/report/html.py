@@ -35,7 +35,7 @@ from pathlib import Path
 from matplotlib.figure import Figure
 
 from ..errors import InputError
-from ._files import atomic_write_bytes, atomic_write_text
+from ..files import atomic_write_bytes, atomic_write_text
 from .tables import summary_table, table_to_html
 
 from ..caution import CAUTION

@@ -23,7 +23,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from ..errors import InputError
-from ._files import atomic_write_text
+from ..files import atomic_write_text
 
 __all__ = ["format_value", "normalise_table", "normalise_summary", "table_to_html", "write_csv", "summary_table"]
 

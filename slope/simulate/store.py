@@ -37,15 +37,14 @@ from __future__ import annotations
 import hashlib
 import io
 import json
-import os
 import re
-import tempfile
 import zipfile
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
+from ..files import atomic_write_bytes
 
 __all__ = ["BlockStore", "StoreRepairWarning", "FORMAT", "VERSION", "BLOCK", "identity_digest",
            "read_header"]
@@ -56,13 +55,6 @@ BLOCK = 100  # realisations per on-disk block (fixed, independent of jobs and ba
 HEADER = "header.json"
 _NAME = re.compile(r"^block_(\d{6})\.npz$")
 _META = ("_start", "_stop", "_store", "_checksum")
-
-
-def _umask() -> int:
-    """The process umask, read when a file is made (it may change after import)."""
-    m = os.umask(0o022)
-    os.umask(m)
-    return m
 
 
 class StoreRepairWarning(UserWarning):
@@ -279,18 +271,8 @@ class BlockStore:
         return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
 
     def _write(self, path: Path, data: bytes) -> None:
-        # a temporary name that never matches a block name; os.replace is atomic
-        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".part")
-        try:
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(data)
-                fh.flush()
-                os.fsync(fh.fileno())
-            os.chmod(tmp, 0o666 & ~_umask())
-            os.replace(tmp, path)
-        except BaseException:
-            Path(tmp).unlink(missing_ok=True)
-            raise
+        # a temporary name (".NAME.*.part") that never matches a block name
+        atomic_write_bytes(path, data)
 
 
 def open_existing(folder) -> BlockStore | None:

@@ -1,16 +1,17 @@
-"""Atomic file writes: a reader never sees a half-written output."""
+"""Atomic file writes (a reader never sees a half-written output) and the umask every
+output follows: one place for the report, the commands and the result store."""
 from __future__ import annotations
 
 import os
 import tempfile
 from pathlib import Path
 
-__all__ = ["atomic_write_bytes", "atomic_write_text"]
+__all__ = ["atomic_write_bytes", "atomic_write_text", "umask"]
 
 
 # mkstemp creates files readable by the owner only; outputs are ordinary
 # files, so give them the permissions the user's umask asks for.
-def _umask() -> int:
+def umask() -> int:
     """The process umask, read when a file is made (it may change after import)."""
     m = os.umask(0o022)
     os.umask(m)
@@ -44,7 +45,7 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
-        os.chmod(tmp, 0o666 & ~_umask())
+        os.chmod(tmp, 0o666 & ~umask())
         os.replace(tmp, path)
     except BaseException:
         try:
