@@ -23,6 +23,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from ..files import atomic_write_text
 from .store import BlockStore
 
 __all__ = ["LevelStore", "subset_store_identity", "TASK"]
@@ -40,9 +41,7 @@ def subset_store_identity(problem, seed, settings, refine, extra=None) -> dict:
 
 
 def _atomic_json(path: Path, obj) -> None:
-    tmp = path.with_name(f".{path.name}.part")
-    tmp.write_text(json.dumps(obj))
-    os.replace(tmp, path)
+    atomic_write_text(path, json.dumps(obj))
 
 
 class LevelStore:
