@@ -96,6 +96,23 @@ def from_gaussian(marginal, z):
     return marginal.from_standard_normal(z)
 
 
+
+def _factor_data_covariance(C_dd, d):
+    """Cholesky factor of the data covariance; a singular one names the two closest data."""
+    try:
+        cho = linalg.cho_factor(C_dd, lower=True, check_finite=False)
+        ok = np.all(np.diag(cho[0]) > 1e-7)
+    except linalg.LinAlgError:
+        ok = False
+    if not ok:
+        dist = np.hypot(*(d[:, None, :] - d[None, :, :]).transpose(2, 0, 1))
+        np.fill_diagonal(dist, np.inf)
+        i, j = np.unravel_index(np.argmin(dist), dist.shape)
+        raise InputError(f"the data covariance matrix is singular: data points {min(i, j)} "
+                         f"and {max(i, j)} are {dist[i, j]:.3g} m apart; merge them or give "
+                         "nugget > 0 (measurement-error variance)")
+    return cho
+
 class DataCovariance:
     """Factor of the data covariance ``C_dd + diag(σ²_e)`` and kriging weights.
 
@@ -119,19 +136,7 @@ class DataCovariance:
         if not (np.all(np.isfinite(nug)) and np.all(nug >= 0)):
             raise InputError("nugget must be variance(s) >= 0 (standard-normal units)")
         self.model, self.data_points, self.nugget = model, d, nug
-        C_dd = model.covariance_matrix(d) + np.diag(nug)
-        try:
-            self.cho = linalg.cho_factor(C_dd, lower=True, check_finite=False)
-            ok = np.all(np.diag(self.cho[0]) > 1e-7)
-        except linalg.LinAlgError:
-            ok = False
-        if not ok:
-            dist = np.hypot(*(d[:, None, :] - d[None, :, :]).transpose(2, 0, 1))
-            np.fill_diagonal(dist, np.inf)
-            i, j = np.unravel_index(np.argmin(dist), dist.shape)
-            raise InputError(f"the data covariance matrix is singular: data points {min(i, j)} "
-                             f"and {max(i, j)} are {dist[i, j]:.3g} m apart; merge them or give "
-                             "nugget > 0 (measurement-error variance)")
+        self.cho = _factor_data_covariance(model.covariance_matrix(d) + np.diag(nug), d)
 
     def weights(self, targets):
         """Simple-kriging weights ``C_td C_dd⁻¹``, shape (n_targets, n_data)."""
@@ -249,19 +254,7 @@ class ConditionalGenerator:
                              f"{nugget!r}")
         self.data_points, self.data_values, self.nugget = d, v, nug
 
-        C_dd = self.model.covariance_matrix(d) + nug * np.eye(d.shape[0])
-        try:
-            self._cho = linalg.cho_factor(C_dd, lower=True, check_finite=False)
-            ok = np.all(np.diag(self._cho[0]) > 1e-7)
-        except linalg.LinAlgError:
-            ok = False
-        if not ok:
-            dist = np.hypot(*(d[:, None, :] - d[None, :, :]).transpose(2, 0, 1))
-            np.fill_diagonal(dist, np.inf)
-            i, j = np.unravel_index(np.argmin(dist), dist.shape)
-            raise InputError(f"the data covariance matrix is singular: data points {min(i, j)} "
-                             f"and {max(i, j)} are {dist[i, j]:.3g} m apart; merge them or give "
-                             "nugget > 0 (measurement-error variance)")
+        self._cho = _factor_data_covariance(self.model.covariance_matrix(d) + nug * np.eye(d.shape[0]), d)
         # where the unconditional field is known at the data points
         tp = np.asarray(targets, dtype=float)
         if tp.ndim != 2 or tp.shape[1] != 2:
