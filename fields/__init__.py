@@ -5,7 +5,7 @@ Imports nothing from ``slope``. Names are imported on first use (PEP 562
 ``__getattr__``): importing the package costs no scipy import, which would
 otherwise be most of a short ``slipfield fields sample`` run.
 """
-import importlib
+from ._lazy import lazy_exports
 
 from .errors import InputError
 from .grid import RegularGrid
@@ -44,14 +44,4 @@ __all__ = [
 ]
 
 
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(globals(), _LAZY)

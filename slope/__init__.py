@@ -14,7 +14,7 @@ slipfield.slope`` stays fast::
     problem = random_problem(case, det, "undrained")
     result = simulate(problem, 500, seed=1)         # pf, pf_interval, fs per realisation
 """
-import importlib
+from slipfield.fields._lazy import lazy_exports
 
 _WHERE = {
     "load_case": "case.build",
@@ -30,13 +30,4 @@ _WHERE = {
 __all__ = sorted(_WHERE)
 
 
-def __getattr__(name):
-    if name in _WHERE:
-        value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
-        globals()[name] = value
-        return value
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-
-
-def __dir__():
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(globals(), _WHERE)

@@ -3,7 +3,7 @@
 The method modules are imported on first use (``make_generator`` imports
 them itself): scipy.linalg and gstools are not loaded for an FFT run.
 """
-import importlib
+from .._lazy import lazy_exports
 
 from .base import (FieldGenerator, generator_names, generator_options, make_generator, noise_generator_names,
                    register)
@@ -17,14 +17,4 @@ __all__ = ["FieldGenerator", "make_generator", "register", "generator_names", "g
            "gstools_seed"]
 
 
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(globals(), _LAZY)

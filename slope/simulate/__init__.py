@@ -5,7 +5,7 @@ averaging_report, theta_sweep, SimulationResult. Names are imported on first
 use (the simulator's compiled kernels take seconds to load; a command that
 only parses its options or reads a case must not pay for them).
 """
-import importlib
+from slipfield.fields._lazy import lazy_exports
 
 _WHERE = {
     "RandomProblem": "problem", "RandomProperty": "problem",
@@ -23,13 +23,4 @@ __all__ = ["RandomProperty", "RandomProblem", "simulate", "SimulationResult", "r
            "averaging_report", "theta_sweep"]
 
 
-def __getattr__(name):
-    if name in _WHERE:
-        value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
-        globals()[name] = value
-        return value
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-
-
-def __dir__():
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(globals(), _WHERE)
