@@ -74,8 +74,9 @@ _TREND_OK = ("normal", "lognormal", "deterministic")
 def field_stream(prop: int, zone: int) -> tuple[int, int]:
     """Seed stream of the independent field of property ``prop`` in zone ``zone``.
 
-    Realisation ``k`` of a run with seed ``s`` draws that field from
-    ``fields.seeding.realisation_rng(s, k, *field_stream(prop, zone))``.
+    Realisation ``k`` of a run with seed ``s`` draws that field's noise from
+    ``fields.seeding.field_noise_rng(s, k, *field_stream(prop, zone))`` (a
+    single random variable from ``realisation_rng`` with the same keys).
     """
     return int(prop), int(zone)
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["realisation_rng", "realisation_rngs"]
+__all__ = ["realisation_rng", "realisation_rngs", "field_noise_rng"]
 
 
 def realisation_rng(seed: int, k: int, *stream: int) -> np.random.Generator:
@@ -36,6 +36,26 @@ def realisation_rng(seed: int, k: int, *stream: int) -> np.random.Generator:
         raise ValueError(f"realisation index must be >= 0, got {k}")
     ss = np.random.SeedSequence(int(seed), spawn_key=(int(k), *map(int, stream)))
     return np.random.default_rng(ss)
+
+
+def field_noise_rng(seed: int, k: int, *stream: int) -> np.random.Generator:
+    """Generator of the white noise a random-field generator turns into realisation ``k``.
+
+    The same seed sequence as :func:`realisation_rng` (``SeedSequence(seed,
+    spawn_key=(k, *stream))``), so realisation ``k`` still depends only on
+    ``(seed, k, stream)``, but driving SFC64 (Small Fast Chaotic, 256-bit
+    state; O'Neill, in numpy since 1.17) instead of PCG64: the field's normal
+    numbers are most of a field's cost, and SFC64 draws them in about three
+    quarters of the time (9.3 against 12.1 ns per normal, measured side by
+    side on the 2-core machine of issue 17). Fields of the same seed therefore
+    differ from those of slipfield before that change; their law does not.
+    """
+    if int(seed) < 0:
+        raise ValueError(f"seed must be a non-negative integer, got {seed}")
+    if int(k) < 0:
+        raise ValueError(f"realisation index must be >= 0, got {k}")
+    ss = np.random.SeedSequence(int(seed), spawn_key=(int(k), *map(int, stream)))
+    return np.random.Generator(np.random.SFC64(ss))
 
 
 def realisation_rngs(seed: int, indices, *stream: int) -> list[np.random.Generator]:

@@ -8,6 +8,13 @@ Absolute times depend on the machine and its load; ratios less so.
 Parts (``--parts``, default all):
 
 ``sim``
+    With ``--before TREE``: each tree in a fresh process, alternated, the
+    CPU time per realisation of one process (``engine.batch_fs``, kernels on
+    one thread, process time) and the wall time per realisation of
+    ``simulate(..., n_jobs=2)``, beside the target (<= 0.6 ms per
+    realisation on 2 cores: the wall time, and CPU / 2, what 2 idle cores
+    give), with pf of both trees on the same realisations count.
+    Then, in this process:
     Levee demo (``cases/levee_soft_clay.toml``, invented), undrained:
     ``simulate`` wall time per realisation with ``--jobs 2`` (target
     <= 0.6 ms, i.e. 10^5 realisations a minute on 2 cores), and CPU time per
@@ -33,7 +40,7 @@ Parts (``--parts``, default all):
 
 Usage: python scripts/bench_speed.py [--parts sim,memory,kernel,jobs,run] [--repeat 3] [--before TREE]
 
-``--before TREE`` times the ``jobs`` and ``run`` commands of another source
+``--before TREE`` times the ``sim``, ``memory`` (RSS), ``jobs`` and ``run`` parts of another source
 tree (e.g. ``git archive main | tar -x -C TREE`` plus its ``.dev`` import
 shim) alternately with this one, so a before/after table comes from one run.
 """
@@ -80,7 +87,65 @@ def verdict(ok):
 
 
 # --------------------------------------------------------------------- sim
+_SIM_CHILD = """
+import json, os, sys, time
+import numba
+from slipfield.slope.case.analyses import deterministic, random_problem
+from slipfield.slope.case.build import load_case
+import slipfield.slope.simulate.engine as engine
+from slipfield.slope.simulate import simulate
+case = load_case({case!r})
+p = random_problem(case, deterministic(case), 'undrained')
+engine.prepare(p)
+engine.batch_fs(p, 1, range(8))  # kernels loaded
+numba.set_num_threads(1)  # CPU time of one core's work
+t = time.process_time()
+fs = [engine.batch_fs(p, 1, range(a, a + 100))[0] for a in range({n_cpu} // 100 * 100, {n_cpu} // 100 * 200, 100)]
+cpu = (time.process_time() - t) / ({n_cpu} // 100 * 100) * 1e3
+numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
+simulate(p, 200, 1, n_jobs=2, batch=100)  # workers started, kernels loaded
+t = time.perf_counter()
+res = simulate(p, {n_sim}, 1, n_jobs=2, batch=100)
+wall = (time.perf_counter() - t) / {n_sim} * 1e3
+print(json.dumps({{"cpu": cpu, "wall": wall, "pf": float(res.pf), "n": {n_sim}}}))
+"""
+
+
+def _sim_child(args, tree):
+    env = dict(os.environ)
+    if tree is not None:
+        env["PYTHONPATH"] = str(Path(tree) / ".dev")
+    code = _SIM_CHILD.format(case=str(CASE), n_cpu=args.n_cpu, n_sim=args.n_sim)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def part_sim_trees(args):
+    """This tree against ``--before``, each in fresh processes, alternated (see module doc)."""
+    rows = {}
+    for _ in range(args.repeat):
+        for label, tree in _trees(args):
+            rows.setdefault(label, []).append(_sim_child(args, tree))
+    print(f"[sim, trees side by side] levee undrained: CPU ms/realisation of one process (one thread, "
+          f"{args.n_cpu} realisations), wall ms/realisation of simulate n_jobs=2 ({args.n_sim} realisations)")
+    print(f"  {'target':<44} {'before':>16} {'this tree':>16}  met (this tree)?")
+    get = lambda label, key, f=1.0: [r[key] * f for r in rows.get(label, [])]  # noqa: E731
+    for name, key, f, target in (("CPU ms/realisation, one process", "cpu", 1.0, None),
+                                 ("CPU / 2 cores <= 0.6 ms/realisation", "cpu", 0.5, 0.6),
+                                 ("simulate --jobs 2 wall <= 0.6 ms/realisation", "wall", 1.0, 0.6)):
+        b, a = get("before", key, f), get("this tree", key, f)
+        met = "" if target is None else f"{verdict(min(a) <= target)} at best, {verdict(max(a) <= target)} at worst"
+        print(f"  {name:<44} {spread(b) if b else '-':>16} {spread(a):>16}  {met}")
+    if "before" in rows:
+        ratio = [x["cpu"] / y["cpu"] for x, y in zip(rows["before"], rows["this tree"])]
+        print(f"  CPU ratio before / this tree, pair by pair: {spread(ratio, '{:.2f}')}x")
+    for label, rs in rows.items():
+        print(f"  pf ({label}, {rs[0]['n']} realisations, seed 1): {rs[0]['pf']:.4f}")
+
+
 def part_sim(args):
+    if args.before:
+        part_sim_trees(args)
     import slipfield.slope.simulate.engine as engine
     from slipfield.slope.simulate import simulate
 

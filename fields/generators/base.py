@@ -3,7 +3,7 @@
 Every generator turns a correlation model and a set of points (or a regular
 grid) into standard-normal realisations.  ``gen.sample(seed, indices)``
 returns an array ``(len(indices), n_points)`` whose row ``i`` is realisation
-``indices[i]``, drawn from ``fields.seeding.realisation_rng(seed, k,
+``indices[i]``, drawn from ``fields.seeding.field_noise_rng(seed, k,
 *stream)``: a realisation is the same whatever batch it is generated in.
 Generators hold no random state; ``gen.info`` reports the numerical
 compromises made at set-up (jitter, truncation, clipping).
@@ -19,7 +19,7 @@ import numpy as np
 from ..errors import InputError
 from ..grid import RegularGrid
 from ..models import CorrelationModel
-from ..seeding import realisation_rng
+from ..seeding import field_noise_rng
 
 __all__ = ["FieldGenerator", "make_generator", "register", "generator_names", "generator_options"]
 
@@ -119,7 +119,7 @@ class FieldGenerator(ABC):
         out = np.empty((idx.size, self.n_points))
         for s in range(0, idx.size, self.block):
             ks = idx[s:s + self.block]
-            rngs = [realisation_rng(seed, int(k), *stream) for k in ks]
+            rngs = [field_noise_rng(seed, int(k), *stream) for k in ks]
             out[s:s + ks.size] = self._sample_block(rngs, seed, ks, stream)
         return out
 
@@ -154,7 +154,7 @@ class FieldGenerator(ABC):
     def noise(self, seed, indices, stream=()):
         """The white noise of realisations ``indices``: array ``(len(indices), noise_size)``.
 
-        Drawn from ``realisation_rng(seed, k, *stream)`` exactly as
+        Drawn from ``field_noise_rng(seed, k, *stream)`` exactly as
         :meth:`sample` draws it; i.i.d. standard normal.
         """
         if self.noise_size is None:
@@ -163,7 +163,7 @@ class FieldGenerator(ABC):
         seed, idx, stream = _check_call(seed, indices, stream)
         out = np.empty((idx.size, self.noise_size))
         for i, k in enumerate(idx):
-            realisation_rng(seed, int(k), *stream).standard_normal(out=out[i])
+            field_noise_rng(seed, int(k), *stream).standard_normal(out=out[i])
         return out
 
     def fields_from_noise(self, noise, keys=None):

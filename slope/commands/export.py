@@ -139,10 +139,20 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
         "grid": {"x0": grid.x0, "y0": grid.y0, "nx": grid.nx, "ny": grid.ny, "dx": grid.dx, "dy": grid.dy,
                  "units": "m"},
         "cells": "cell i*ny+j is grid cell (i, j), centre (x0+(i+0.5)dx, y0+(j+0.5)dy); NaN outside the "
-                 "property's zones",
+                 "property's zones and outside each zone's field box (the cells the simulation generates)",
+        "field_boxes": _field_boxes(problem),
         "time_value": "realisation index k" if fmt == "xdmf" else None,
         "index": "realisations.csv", "properties": props,
         "reproduce": "slipfield.slope.simulate.realise_fields(problem, seed, k) returns the same arrays (nx, ny)",
     }
     write_json(directory / "fields.json", manifest)
     return manifest
+
+
+def _field_boxes(problem):
+    """Each zone's field box (cells i0 <= i < i1, j0 <= j < j1 and metres), by zone."""
+    from ..simulate.field_box import field_box
+
+    used = sorted({z for i in range(len(problem.properties)) for z in problem.zones_of(i)})
+    return [{"zone": z, "material": problem.section.zones[z].material, **field_box(problem, z).describe()}
+            for z in used]

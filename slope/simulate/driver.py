@@ -537,7 +537,10 @@ def realise_fields(problem, seed, k):
     grid : RegularGrid
     fields : dict key -> ndarray (nx, ny)
         Physical values (factor for multiplier properties); NaN at cell
-        centres outside the property's material zones.
+        centres outside the property's material zones, and outside the zone's
+        field box (:func:`.field_box.field_box`: the cells the simulator
+        generates, where the bank and the per-realisation searches read), so
+        an export holds exactly the fields the simulation used.
     """
     from matplotlib.path import Path
 
@@ -550,7 +553,7 @@ def realise_fields(problem, seed, k):
             members = [j for j, q in enumerate(problem.properties) if z in problem.zones_of(j)]
             from .engine import _correlated
 
-            zs = _correlated(problem, seed, [k], z, members)[i][0]
+            zs = _correlated(problem, seed, [k], z, members, outside="nan")[i][0]
             val = np.broadcast_to(np.asarray(p.marginal.from_standard_normal(zs), float), grid.shape)
             inside = Path(np.asarray(problem.section.zones[z].polygon)).contains_points(pts, radius=1e-9)
             inside = grid.reshape(inside[None].astype(float))[0] > 0.5

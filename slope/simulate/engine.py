@@ -1,8 +1,10 @@
 """Realisations of the random fields on slice bases, and FS per realisation.
 
 Noise of realisation k, property i, zone z comes only from
-``realisation_rng(seed, k, i, z)`` (through the field generator), so results
-do not depend on batch size or on the number of workers.
+``field_noise_rng(seed, k, i, z)`` (through the field generator, on the
+zone's field box, :mod:`.field_box`; ``realisation_rng(seed, k, i, z)`` for
+a single random variable), so results do not depend on batch size or on the
+number of workers.
 
 The mapping from grid cells to slice bases is linear (bilinear
 interpolation at ``AVERAGING[problem.averaging]`` points per base, then
@@ -28,6 +30,7 @@ from ..methods import factor_of_safety, prepare_bank
 from ..search.evaluate import _TOLERABLE
 from ..strength import base_strength
 from .conditioning import conditioner
+from .field_box import field_box
 from .fused import strength_map
 from .problem import AVERAGING
 
@@ -175,14 +178,16 @@ def prepare(problem):
     """Build what every realisation reuses (stencil, strength map, field generators), once."""
     st = stencil(problem)
     strength_map(problem, st, lambda prop: _det_value(problem, prop))
-    for i, p in enumerate(problem.properties):
-        if not p.single:
-            problem.generator(i)
+    for z in st.zones:
+        for i in zone_members(problem, z):
+            if not problem.properties[i].single:
+                problem.generator(i, z)
     return st
 
 
 def standard_normals(problem, seed, indices, i, z):
-    """Standard-normal field of property i in zone z: (s, nx, ny), or (s, 1, 1) for θ = inf.
+    """Standard-normal field of property i in zone z on the zone's field box: (s, bx, by)
+    (:func:`.field_box.field_box`), or (s, 1, 1) for θ = inf.
 
     ``seed`` is the run seed, or a given white noise (an object with
     ``standard_normals(problem, indices, i, z)``, :mod:`slope.simulate.rare`)
@@ -193,7 +198,7 @@ def standard_normals(problem, seed, indices, i, z):
     p = problem.properties[i]
     if p.single:
         return np.array([realisation_rng(seed, int(k), *field_stream(i, z)).standard_normal() for k in indices])[:, None, None]
-    return problem.generator(i).sample_grid(seed, list(indices), stream=field_stream(i, z))
+    return problem.generator(i, z).sample_grid(seed, list(indices), stream=field_stream(i, z))
 
 
 def _mix(problem, raw, members):
@@ -202,16 +207,24 @@ def _mix(problem, raw, members):
     return coregionalise(problem._chol, {i: raw[i] for i in members})
 
 
-def _correlated(problem, seed, indices, z, members):
-    """Standard normals of the properties ``members`` in zone z on the whole grid, correlated
-    (and conditioned on the site data of the zone)."""
+def _correlated(problem, seed, indices, z, members, outside="edge"):
+    """Standard normals of the properties ``members`` in zone z on the whole grid ``(s, nx, ny)``,
+    correlated (and conditioned on the site data of the zone); ``(s, 1, 1)`` for θ = inf.
+
+    The fields exist on the zone's field box; ``outside`` says what the cells
+    beyond it hold (:meth:`.field_box.FieldBox.embed`: the nearest box cell,
+    or NaN).
+    """
+    box = field_box(problem, z)
     zs = _mix(problem, {i: standard_normals(problem, seed, indices, i, z) for i in members}, members)
     for i in members:
+        if zs[i].shape[1:] == (1, 1):
+            continue
         cd = conditioner(problem, i, z)
         if cd is not None:
             flat = zs[i].reshape(len(indices), -1)
-            every = np.arange(flat.shape[1])
-            zs[i] = cd.apply(flat, flat[:, cd.cells], every, seed, indices, (i, z)).reshape(zs[i].shape)
+            zs[i] = cd.apply(flat, flat[:, box.local(cd.cells)], box.cells(), seed, indices, (i, z))
+        zs[i] = box.embed(zs[i], outside)
     return zs
 
 
@@ -234,7 +247,7 @@ def zone_cell_values(problem, seed, indices, z, cells, members):
     raw = {}
     conds = {i: conditioner(problem, i, z) for i in members}
     # site data: the fields are also gathered at the data cells, then conditioned after mixing
-    take = np.concatenate([cells] + [c.cells for c in conds.values() if c is not None])
+    take = field_box(problem, z).local(np.concatenate([cells] + [c.cells for c in conds.values() if c is not None]))
     for i in members:
         zi = standard_normals(problem, seed, indices, i, z)
         raw[i] = zi[:, 0, 0][:, None] if problem.properties[i].single else zi.reshape(s, -1)[:, take]

@@ -254,11 +254,24 @@ class RandomProblem:
         mat = self.properties[i].material
         return [z for z, zone in enumerate(self.section.zones) if zone.material == mat]
 
-    def generator(self, i):
-        if i not in self._gens:
-            self._gens[i] = make_generator(self.field_method, self.properties[i].correlation_model(),
-                                           grid=self.grid)
-        return self._gens[i]
+    def generator(self, i, z=None):
+        """Field generator of property i: on zone z's field box (the simulator's), or the whole grid.
+
+        The fields of a zone are generated on the box of cells its consumers
+        read (:func:`slope.simulate.field_box.field_box`); ``z=None`` gives a
+        whole-grid generator (not used by the simulator).
+        """
+        if z is None:
+            key, grid = i, self.grid
+        else:
+            from .field_box import field_box
+
+            box = field_box(self, z)
+            key, grid = (i, box.i0, box.i1, box.j0, box.j1), box.subgrid()
+        if key not in self._gens:
+            self._gens[key] = make_generator(self.field_method, self.properties[i].correlation_model(),
+                                             grid=grid)
+        return self._gens[key]
 
     def fingerprint(self) -> str:
         """Hash of everything that determines the realisations and FS values."""
@@ -272,7 +285,10 @@ class RandomProblem:
                 "materials": {k: repr(v) for k, v in sorted(self.section.materials.items())},
                 "surfaces": [repr(s) for s in self.surfaces],
                 # water and loads change every base's pore pressure and driving force
-                "water": _canonical(self.section.water), "loads": _canonical(self.section.loads)}
+                "water": _canonical(self.section.water), "loads": _canonical(self.section.loads),
+                # fields generated per zone on its box of read cells (slope.simulate.field_box): stores
+                # written with whole-grid fields hold other realisations and must not be resumed
+                "field_layout": "zone-box-1"}
         if self.site_data:  # only when present, so stores of runs without data stay valid
             desc["site_data"] = {k: _canonical([np.asarray(a) for a in v])
                                  for k, v in sorted(self.site_data.items())}

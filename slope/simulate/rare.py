@@ -160,15 +160,13 @@ class NoiseLayout:
         self.blocks = {}
         off = 0
         for i, p in enumerate(problem.properties):
-            if p.single:
-                size = 1
-            else:
-                size = problem.generator(i).noise_size
+            for z in problem.zones_of(i):
+                # each zone's field has its own box (slope.simulate.field_box), so its own noise size
+                size = 1 if p.single else problem.generator(i, z).noise_size
                 if size is None:
                     raise InputError(f"simulation.field_method = {problem.field_method!r}: subset simulation "
                                      "moves the fields' white noise, which this generator draws inside GSTools; "
                                      "use 'fft', 'cholesky' or 'kl'")
-            for z in problem.zones_of(i):
                 self.blocks[(i, z)] = (off, size)
                 off += size
         # site data with measurement errors: the simulated errors are random input too
@@ -197,7 +195,7 @@ class NoiseLayout:
             if problem.properties[i].single:
                 out[:, off] = [realisation_rng(seed, k, i, z).standard_normal() for k in idx]
             else:
-                out[:, off:off + size] = problem.generator(i).noise(seed, idx, stream=field_stream(i, z))
+                out[:, off:off + size] = problem.generator(i, z).noise(seed, idx, stream=field_stream(i, z))
         return out
 
 
@@ -223,7 +221,7 @@ class GivenNoise:
         u = self.U[rows, off:off + size]
         if problem.properties[i].single:
             return u[:, :, None]
-        gen = problem.generator(i)
+        gen = problem.generator(i, z)
         return gen.grid.reshape(gen.fields_from_noise(u, keys=self.keys[rows]))
 
 

@@ -87,14 +87,19 @@ def fixed_surface_problem(problem):
     """The same problem on its fixed deterministic critical surface alone (``fixed_index`` 0).
 
     For runs that read only ``fs_fixed``: realisations are the same (noise
-    depends on the seed, realisation, property and zone, never on the bank),
+    depends on the seed, realisation, property and zone, and the fields lie on
+    the whole problem's boxes, :func:`.field_box.inherit_boxes`),
     and the kernel evaluates one surface instead of the whole bank.
     """
-    return RandomProblem(problem.section, problem.hypothesis, problem.method, problem.properties,
-                         [problem.surfaces[problem.fixed_index]], 0,
-                         cross_correlation=list(problem.cross_correlation), n_slices=problem.n_slices,
-                         cell=problem.cell, field_method=problem.field_method, averaging=problem.averaging,
-                         interslice=problem.interslice, site_data=dict(problem.site_data))
+    from .field_box import inherit_boxes
+
+    # the fields live on the whole problem's boxes (slope.simulate.field_box), not on one surface's
+    return inherit_boxes(problem, RandomProblem(
+        problem.section, problem.hypothesis, problem.method, problem.properties,
+        [problem.surfaces[problem.fixed_index]], 0,
+        cross_correlation=list(problem.cross_correlation), n_slices=problem.n_slices,
+        cell=problem.cell, field_method=problem.field_method, averaging=problem.averaging,
+        interslice=problem.interslice, site_data=dict(problem.site_data)))
 
 
 def reduced_variance_problem(problem, *, fixed_only=False):

@@ -17,7 +17,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from slipfield.fields import InputError, RegularGrid, get_model, make_generator, realisation_rng
+from slipfield.fields import InputError, RegularGrid, get_model, make_generator
+from slipfield.fields.seeding import field_noise_rng
 from slipfield.fields.generators import gstools_seed
 
 FAMILY_P = 1e-4
@@ -142,11 +143,11 @@ def test_reproducible_across_batches_and_instances():
         assert not np.allclose(gen.sample(43, [3]), full[3])
 
 
-def test_noise_comes_from_realisation_rng():
+def test_noise_comes_from_field_noise_rng():
     # Cholesky realisation k is L z_k with z_k the first normals of
-    # realisation_rng(seed, k, *stream) (DEVELOPERS.md seeding contract)
+    # field_noise_rng(seed, k, *stream) (DEVELOPERS.md seeding contract)
     gen = make_generator("cholesky", MODEL, grid=GRID)
-    zk = realisation_rng(5, 9, 2, 1).standard_normal(GRID.n_points)
+    zk = field_noise_rng(5, 9, 2, 1).standard_normal(GRID.n_points)
     L = np.linalg.cholesky(MODEL.covariance_matrix(GRID.points()))
     assert np.allclose(gen.sample(5, [9], stream=(2, 1))[0], L @ zk)
 
