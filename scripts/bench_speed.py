@@ -45,6 +45,7 @@ tree (e.g. ``git archive main | tar -x -C TREE`` plus its ``.dev`` import
 shim) alternately with this one, so a before/after table comes from one run.
 """
 import argparse
+import hashlib
 import json
 import os
 import pickle
@@ -111,10 +112,21 @@ print(json.dumps({{"cpu": cpu, "wall": wall, "pf": float(res.pf), "n": {n_sim}}}
 """
 
 
-def _sim_child(args, tree):
-    env = dict(os.environ)
+def _tree_env(tree, env=None):
+    """Environment of a child process importing ``tree`` (None: this tree). Another tree's
+    bytecode and numba cache go to a folder of this benchmark, never into that tree."""
+    env = dict(os.environ if env is None else env)
     if tree is not None:
         env["PYTHONPATH"] = str(Path(tree) / ".dev")
+        cache = Path(tempfile.gettempdir()) / ("slipfield_bench_before_"
+                                                    + hashlib.sha256(str(Path(tree).resolve()).encode()).hexdigest()[:12])
+        env["PYTHONPYCACHEPREFIX"] = str(cache / "pycache")
+        env.setdefault("NUMBA_CACHE_DIR", str(cache / "numba"))
+    return env
+
+
+def _sim_child(args, tree):
+    env = _tree_env(tree)
     code = _SIM_CHILD.format(case=str(CASE), n_cpu=args.n_cpu, n_sim=args.n_sim)
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env)
     return json.loads(out.stdout.strip().splitlines()[-1])
@@ -314,13 +326,19 @@ def part_kernel(args):
 def _cli(argv, env=None, tree=None):
     """Wall time of one ``slipfield`` command in a fresh process; ``tree``: another source tree
     (its ``.dev`` import shim, see the brief of the work trees) instead of this one."""
-    env = dict(os.environ if env is None else env)
-    if tree is not None:
-        env["PYTHONPATH"] = str(Path(tree) / ".dev")
+    env = _tree_env(tree, env)
     t = time.perf_counter()
     subprocess.run([sys.executable, "-m", "slipfield.slope.cli"] + argv, check=True, env=env,
                    stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     return time.perf_counter() - t
+
+
+def _cli_cpu(argv, tree=None):
+    """Wall time and CPU time (user + system, the command and the workers it reaped) of one command."""
+    r0 = resource.getrusage(resource.RUSAGE_CHILDREN)
+    wall = _cli(argv, tree=tree)
+    r1 = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return wall, (r1.ru_utime + r1.ru_stime) - (r0.ru_utime + r0.ru_stime)
 
 
 def _trees(args):
@@ -335,13 +353,18 @@ def part_jobs(args):
                 for j in (1, 2):
                     out = os.path.join(tmp, f"{label[:4]}_j{j}_{r}")
                     rows.setdefault(label, {1: [], 2: []})[j].append(
-                        _cli(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
-                              "--quiet", "--out", out], tree=tree))
+                        _cli_cpu(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
+                                  "--quiet", "--out", out], tree=tree))
     for label, times in rows.items():
-        ratio = [a / b for a, b in zip(times[1], times[2])]
+        w1, w2 = [w for w, _ in times[1]], [w for w, _ in times[2]]
+        c1, c2 = [c for _, c in times[1]], [c for _, c in times[2]]
+        ratio = [a / b for a, b in zip(w1, w2)]
         print(f"[jobs] {label}: slipfield simulate levee, {args.n_jobs_run} realisations: --jobs 1 "
-              f"{spread(times[1], '{:.1f}')} s, --jobs 2 {spread(times[2], '{:.1f}')} s; ratio {spread(ratio, '{:.2f}')} "
+              f"{spread(w1, '{:.1f}')} s wall ({spread(c1, '{:.1f}')} s CPU), --jobs 2 {spread(w2, '{:.1f}')} s wall "
+              f"({spread(c2, '{:.1f}')} s CPU); ratio {spread(ratio, '{:.2f}')} "
               f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best)")
+    print(f"  (a wall ratio needs two idle cores; load average now {os.getloadavg()[0]:.1f} on {os.cpu_count()} "
+          "cores. CPU of --jobs 2 equal to --jobs 1 means no work is added by the workers)")
 
 
 def part_run(args):
