@@ -42,3 +42,19 @@ def test_printed_report_keeps_headings_with_their_content(tmp_path, demo_run):
     assert listed.returncode == 0, listed.stderr
     drawn = [ln.split() for ln in listed.stdout.splitlines()[2:] if ln.split()[2:3] == ["image"]]
     assert len(drawn) == html.count("<img ")  # each figure drawn once: none cut over two pages
+
+
+def test_printed_generic_report_keeps_headings_with_their_content(tmp_path):
+    # The generic report (slope.report.write_report) shares the print stylesheet: many figures in few sections.
+    from slipfield.slope.report import plot_pf_convergence, plot_tornado, write_report
+
+    figs = [plot_tornado(["a", "b", "c"], [0.9, 1.1, 1.0], [1.5, 1.3, 1.4], 1.2) for _ in range(4)] + \
+        [plot_pf_convergence([10, 100, 1000], [0.1, 0.08, 0.09], [0.0, 0.03, 0.07], [0.4, 0.15, 0.11])
+         for _ in range(4)]
+    sections = [{"heading": f"Part {i}", "text": f"What part {i} shows.", "figures": figs[2 * i:2 * i + 2],
+                 "tables": [{"caption": f"values {i}", "columns": ["name", "value"],
+                             "rows": [[f"v{k}", k] for k in range(12)]}]} for i in range(4)]
+    page = write_report(tmp_path / "report.html", "Print check", [("pf", 0.04, "-")], sections)
+    pages = pdf_pages(print_to_pdf(tmp_path, page, tmp_path / "report.pdf"))
+    assert len(pages) > 2
+    assert headings_left_alone(page.read_text(encoding="utf-8"), pages) == []

@@ -126,19 +126,24 @@ def headings_left_alone(html_text, pages):
     faults, cursor = [], 0
     for heading, content in headings_with_content(html_text):
         h = _norm(heading)
-        at = text.find(h, cursor)
-        if at < 0:
+        first = text.find(h, cursor)
+        if first < 0:
             faults.append(f"heading {heading.strip()!r} not found in the PDF")
             continue
-        cursor = at + len(h)
         if content is None:
-            faults.append(f"heading {heading.strip()!r} (page {page_of(at)}) has no content after it")
+            faults.append(f"heading {heading.strip()!r} (page {page_of(first)}) has no content after it")
+            cursor = first + len(h)
             continue
         c = _norm(content)[:40]
-        ct = text.find(c, cursor)
+        ct = text.find(c, first + len(h))
         if ct < 0:
             faults.append(f"content {content.strip()[:40]!r} after heading {heading.strip()!r} not found in the PDF")
-        elif page_of(ct) != page_of(at):
+            cursor = first + len(h)
+            continue
+        # The heading's last occurrence before its content: a table of contents may print it earlier.
+        at = text.rfind(h, first, ct)
+        cursor = at + len(h)
+        if page_of(ct) != page_of(at):
             faults.append(f"heading {heading.strip()!r} on page {page_of(at)}, its content "
                           f"{content.strip()[:40]!r} on page {page_of(ct)}")
     return faults
