@@ -209,6 +209,7 @@ class SingleVariableResult:
     tornado_block: dict
     tornado: Any
     samples: dict = field(default_factory=dict)
+    site_data: dict | None = None  # which variables used conditional means; the analyses without the data
 
     @property
     def path(self) -> tuple:
@@ -218,6 +219,8 @@ class SingleVariableResult:
         out = {"variables": self.variables, "surface": self.surface, "method": self.method, **self.blocks}
         if self.tornado_block is not None:
             out["tornado"] = self.tornado_block
+        if self.site_data is not None:
+            out["site_data"] = self.site_data
         return out
 
     def estimates(self) -> list[Estimate]:
