@@ -31,7 +31,7 @@ from ..search import evaluate_surfaces, search_from_case
 from ..search.families import add_families
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem",
            "surface_xy", "properties_for", "marginal_of"]
 
 
@@ -157,39 +157,6 @@ def marginal_of(case: Case, r: dict):
         raise InputError(f"random property {r['material']}.{p}: the mean is {kw['mean']:g}; give a positive "
                          f"mean in the [[random]] entry or in the material")
     return make_marginal(r["distribution"], **kw)
-
-
-def risk_scenarios(case: Case, pf_by_hypothesis: dict) -> dict | None:
-    """The case's ``[risk]`` as scenarios of the risk chart, one per hypothesis; None without ``[risk]``.
-
-    Parameters
-    ----------
-    pf_by_hypothesis : dict
-        ``{hypothesis: {"pf": float, "pf_interval_95": [lo, hi]}}`` (the
-        spatial simulation's estimate; hypotheses without one are skipped).
-
-    Returns
-    -------
-    dict
-        ``scenarios`` (for :func:`slope.report.risk.risk_points`),
-        ``tolerability`` (the case's lines) and ``consequence_label``.
-    """
-    risk = case.data.get("risk")
-    if risk is None:
-        return None
-    scen = []
-    for hyp, est in pf_by_hypothesis.items():
-        if est is None:
-            continue
-        sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
-        if "annual_pf" in risk:
-            sc["annual_probability"] = risk["annual_pf"]
-        else:
-            sc.update(pf=est["pf"], annual_exceedance=risk["annual_exceedance"],
-                      pf_interval=tuple(est["pf_interval_95"]))
-        scen.append(sc)
-    return {"scenarios": scen, "tolerability": risk.get("tolerability", []),
-            "consequence_label": risk["consequence_label"]}
 
 
 def _name(r) -> str:
