@@ -23,7 +23,6 @@ import textwrap
 
 import numpy as np
 import pytest
-from scipy.stats import norm
 
 from slipfield.slope.case.analyses import deterministic, single_variable_reliability
 from slipfield.slope.case.build import load_case
