@@ -232,6 +232,26 @@ class SingleVariableResult:
                     out.append(e)
         return out
 
+    def site_data_sentence(self) -> str:
+        """One sentence on how the site data entered the single-variable analyses ("" without data)."""
+        sd = self.site_data
+        if not sd:
+            return ""
+        fmt = lambda v, f: "n/a" if v is None else format(v, f)  # noqa: E731
+        without = sd.get("without_site_data", {})
+        bits = []
+        for m, label in (("monte-carlo", "Monte Carlo pf"), ("latin-hypercube", "Latin hypercube pf"),
+                         ("subset", "subset pf"), ("form", "FORM β")):
+            now, then = self.blocks.get(m, {}), without.get(m, {})
+            key = "beta" if m == "form" else "pf"
+            if now.get(key) is not None and then.get(key) is not None:
+                bits.append(f"{label} {fmt(now[key], '.3g')} (without the data {fmt(then[key], '.3g')})")
+        bits.append(f"FS at the means {fmt(sd.get('fs_at_means'), '.3f')} (without the data "
+                    f"{fmt(without.get('fs_at_means'), '.3f')})")
+        return (f"Site data in the single-variable analyses: {', '.join(sd['conditional_mean'])} took the conditional "
+                "mean of the data at each slice base, with the spread not narrowed by the data (conservative); "
+                + "; ".join(bits) + ".")
+
     def most_influential(self) -> tuple[str, str] | None:
         """(variable, how it was judged): the largest FORM α², else the widest tornado swing."""
         imp = (self.blocks.get("form") or {}).get("importance")

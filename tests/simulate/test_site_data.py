@@ -280,7 +280,9 @@ samples = 100
     assert sv["site_data"]["conditional_mean"] == ["clay.su"]        # the single variables used the data too
     assert sv["monte-carlo"]["pf"] != sv["site_data"]["without_site_data"]["monte-carlo"]["pf"]
     assert (tmp_path / "out" / "figures" / "site_data_sd_undrained.png").exists()
-    assert "changed pf from" in (tmp_path / "out" / "report.html").read_text()
+    page = (tmp_path / "out" / "report.html").read_text()
+    assert "changed pf from" in page
+    assert "Site data in the single-variable analyses: clay.su took the conditional mean" in page
     dr = json.loads((tmp_path / "out" / "results.json").read_text())["spatial_simulation"]["undrained"]["drilling"]
     assert [c["x"] for c in dr["candidates"]] == [22.0, 38.0]
     assert all(0 <= c["properties"]["clay.su"]["fraction_removed"] <= 1 for c in dr["candidates"])
