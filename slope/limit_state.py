@@ -192,17 +192,18 @@ class SliceBankLimitState:
                 vals.append(self._shifted(col, x[:, col], mask)[:, mask].ravel() if col in self.shift
                             else x[:, col])
         vals = np.concatenate(vals)
+        where = "at an evaluation point (a sample, or a trial point of FORM or the tornado)"
         if vals.size and np.nanmax(vals) >= 90.0:
-            return (f"a sample of φ' reached {np.nanmax(vals):.4g}° (90° or more: tan φ' is no longer a friction "
-                    "coefficient); its marginal has a tail beyond 90°, as a lognormal or normal always has. "
-                    "Bound φ' below 90° (truncated-normal or beta with upper < 90) or reduce its cov")
+            return (f"φ' reached {np.nanmax(vals):.4g}° {where}; at 90° or more tan φ' is no longer a friction "
+                    "coefficient. Its marginal has a tail beyond 90°, as a lognormal or normal always has: "
+                    "bound φ' below 90° (truncated-normal or beta with upper < 90) or reduce its cov")
         if vals.size and np.nanmin(vals) < 0.0:
-            return (f"a sample of φ' was {np.nanmin(vals):.4g}° (negative); use a marginal for φ' bounded below "
+            return (f"φ' was {np.nanmin(vals):.4g}° (negative) {where}; use a marginal for φ' bounded below "
                     "at 0 (lognormal, truncated-normal or beta with lower >= 0) or reduce its cov")
         if np.any(t < 0):
-            return ("a sample of tan φ' was negative; use a marginal for it bounded below at 0 (lognormal, "
+            return (f"tan φ' was negative {where}; use a marginal for it bounded below at 0 (lognormal, "
                     "truncated-normal or beta with lower >= 0) or reduce its cov")
-        return (f"a sample of c' or su was negative (least {float(np.min(c)):.4g} kPa on a slice base); use a "
+        return (f"c' or su was negative {where} (least {float(np.min(c)):.4g} kPa on a slice base); use a "
                 "marginal bounded below at 0 (lognormal, truncated-normal or beta with lower >= 0) or reduce "
                 "its cov")
 
