@@ -109,6 +109,9 @@ RC_PARAMS: dict[str, object] = {
     "image.cmap": FIELD_CMAP,
     # Keep text as text in SVG output (smaller files, searchable reports).
     "svg.fonttype": "none",
+    # Fixed salt for the SVG element ids (random by default): the same figure gives the same file,
+    # whichever process draws it.
+    "svg.hashsalt": "slipfield",
 }
 
 

@@ -37,6 +37,7 @@ class Drawn:
     text: str = ""
     group: str = ""
     legend: list = None  # the figure's legend entries as text, for readers who cannot see the image
+    saved: bool = False  # the figure was written to figures/<stem>.png (and ``figure`` let go)
 
 
 @dataclass(frozen=True)
