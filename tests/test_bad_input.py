@@ -78,6 +78,18 @@ MUTATIONS = [
      "simulation.refine_search"),
     ("refine-off-with-below", sub(LEVEE, "batch = 100", 'batch = 100\nrefine_search = "off"\nrefine_below = 1.2'),
      "simulation.refine_below"),
+    # issue 15's search families (the levee judged by Spencer, which suits blocks and paths)
+    ("block-zone-missing", add(sub(LEVEE, 'method = "bishop"', 'method = "spencer"'),
+                               '[[search.block]]\nzone = "slimes"\nentry = [0.0, 10.0]\nexit = [16.0, 30.0]'),
+     "search.block[0].zone"),
+    ("block-exit-off-ground", add(sub(LEVEE, 'method = "bishop"', 'method = "spencer"'),
+                                  '[[search.block]]\nzone = "foundation"\nentry = [0.0, 10.0]\nexit = [45.0, 60.0]'),
+     "search.block[0].exit"),
+    ("block-one-point", add(sub(LEVEE, 'method = "bishop"', 'method = "spencer"'),
+                            '[[search.block]]\nzone = "foundation"\nentry = [0.0, 10.0]\nexit = [16.0, 30.0]\n'
+                            'points = 1'), "search.block[0].points"),
+    ("paths-two-columns", add(sub(LEVEE, 'method = "bishop"', 'method = "spencer"'),
+                              "[search.dynamic_programming]\ncolumns = 2"), "search.dynamic_programming.columns"),
     ("refine-off-with-method", sub(LEVEE, "batch = 100", 'batch = 100\nrefine_search = "off"\nrefine_method = "janbu"'),
      "simulation.refine_method"),
     ("min-depth-too-deep", sub(LEVEE, "min_depth = 1.0", "min_depth = 100.0"), "search.min_depth"),

@@ -189,14 +189,18 @@ trials = 100
 [[search.block]]
 zone = "{zone}"
 entry = {entry}
-exit = [45.0, 65.0]
+exit = {exit}
+{extra}
 [search.dynamic_programming]
 columns = {columns}
+{dp_extra}
 """
 
 
-def _case(method="spencer", zone="seam", entry="[10.0, 30.0]", columns=20):
-    return _CASE.format(method=method, zone=zone, entry=entry, columns=columns)
+def _case(method="spencer", zone="seam", entry="[10.0, 30.0]", columns=20, exit="[45.0, 65.0]", extra="",
+          dp_extra=""):
+    return _CASE.format(method=method, zone=zone, entry=entry, columns=columns, exit=exit, extra=extra,
+                        dp_extra=dp_extra)
 
 
 def test_good_block_case_parses():
@@ -209,7 +213,12 @@ def test_good_block_case_parses():
     (dict(zone="slimes"), "search.block[0].zone"),
     (dict(entry="[100.0, 120.0]"), "search.block[0].entry"),
     (dict(entry="[30.0, 10.0]"), "search.block[0].entry"),
-    (dict(columns=2), "search.dynamic_programming.columns"),
+    (dict(exit="[80.0, 95.0]"), "search.block[0].exit"),       # beyond the ground line (x 0 to 75 m)
+    (dict(exit="[-30.0, -5.0]"), "search.block[0].exit"),
+    (dict(extra="points = 1"), "search.block[0].points"),       # fewer than 2 points per range
+    (dict(extra="lift = 1.0"), "search.block[0].lift"),
+    (dict(columns=2), "search.dynamic_programming.columns"),    # fewer than 3 vertices
+    (dict(dp_extra="nodes = 2"), "search.dynamic_programming.nodes"),
     (dict(method="bishop"), "analysis.method"),
 ])
 def test_bad_search_families_name_the_key(kw, key):
