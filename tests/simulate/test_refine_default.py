@@ -95,3 +95,19 @@ def test_resume_with_another_search_setting_is_refused(tmp_path, capsys):
         assert "refinement settings differ" in err, err
     assert sorted(p.name for p in (out / "store").iterdir()) == before
     assert main(args[:5] + ["8"] + args[6:] + ["--resume", "--refine-search", DEFAULT_REFINE_SEARCH]) == 0
+
+
+def test_mechanisms_in_words_carry_the_counts_and_both_pf():
+    from slipfield.slope.report.findings import mechanism_sentence
+    from slipfield.slope.simulate.mechanism_results import mechanism_summary
+
+    p, _ = gf_problem(5.0, 0.5, mean_c=0.2)
+    r = simulate(p, 30, 5, refine=RefineSettings(below=DEFAULT_REFINE_BELOW, above=FAILURE_FS,
+                                                  search="dynamic-programming"))
+    m = mechanism_summary(r)
+    assert m.n_searched == r.n_searched > 0 and m.window == (FAILURE_FS, DEFAULT_REFINE_BELOW)
+    assert sum(m.families.values()) == r.n and m.families.get("dynamic-programming (per realisation)") == r.n_refined
+    text = mechanism_sentence(m)
+    assert f"ran on the {r.n_searched} realisations" in text and f"lowered {r.n_refined}" in text
+    assert f"circles alone {r.pf_circles:.3g}" in text and f"free search {r.pf:.3g}" in text
+    assert "[1, 1.1)" in text
