@@ -26,7 +26,7 @@ from .slices import SliceBank
 from .surfaces import Circle, Circles, Polyline, circle_cuts, polyline_cuts
 from .water import GAMMA_W
 
-__all__ = ["build_bank", "unit_weight_parts", "scale_unit_weights", "section_with_unit_weights",
+__all__ = ["build_bank", "vertical_effective_stress", "unit_weight_parts", "scale_unit_weights", "section_with_unit_weights",
            "WEIGHT_DEPENDENT", "NO_DRIVING_REASON"]
 
 # slice quantities linear in the unit weights (weight · y_centroid stands for y_centroid)
@@ -481,3 +481,45 @@ def scale_unit_weights(bank, parts, factors):
     w = q["weight"]
     ycen = np.where(w > 0, q["weight_moment"] / np.where(w > 0, w, 1.0), bank.y_base)
     return replace(bank, weight=w, y_centroid=ycen, sigma_v_eff=q["sigma_v_eff"], u_base=q["u_base"])
+
+
+def vertical_effective_stress(section, x, y):
+    """Vertical effective stress σ'v (kPa) at points of the section, as a slice base there would carry it.
+
+    The same terms as a slice base midpoint in :func:`build_bank`: the soil
+    column above the point (moist above the phreatic surface, saturated
+    below), the strip loads there, ponded water above the ground, less the
+    pore pressure of the case's water model. This is the σ'v of the ``ratio``
+    undrained law (su = S · σ'v), so a figure of S can be shown as su in kPa.
+
+    Parameters
+    ----------
+    section : Section
+    x, y : array_like, m
+        Points in the section frame, broadcast together; points above the
+        ground get the stress of a zero-height column.
+
+    Returns
+    -------
+    ndarray, kPa
+        σ'v, shape of the broadcast points; NaN outside every zone.
+    """
+    x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
+    shp = x.shape
+    x, y = x.ravel(), y.ravel()
+    ytop = section.ground_y(x)
+    y = np.minimum(y, ytop)
+    eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
+    zone = section.zone_at(x, y + eps)
+    sig_soil = _column_weight(section, x, y, ytop)
+    sig_tot = sig_soil.copy()
+    water, loads = section.water, section.loads
+    if loads is not None:
+        sig_tot += loads.surcharge(x)
+    if water is not None:
+        if water.phreatic is not None:
+            sig_tot += water.gamma_w * np.maximum(water.phreatic_y(x) - ytop, 0.0)
+        u = water.pore_pressure(x, y, zone, section.zone_names, sig_soil)
+    else:
+        u = np.zeros_like(y)
+    return np.where(zone >= 0, sig_tot - u, np.nan).reshape(shp)

@@ -197,7 +197,7 @@ def _spatial(case, det, hyp, *, n, n_jobs, progress, estimator=("monte-carlo", N
 def _reliability_status(summ):
     """Give every reliability estimate a status beside its numbers (in place)."""
     for m, r in summ.items():
-        if not isinstance(r, dict) or m in ("tornado",):
+        if not isinstance(r, dict) or m in ("tornado", "site_data"):
             continue
         if "status" in r:
             continue  # the method reported its own
@@ -214,7 +214,7 @@ def _single_variable(case, det, hyp, estimator=("monte-carlo", None)) -> SingleV
         return None
     s, arrays = r["summary"], r["arrays"]
     _reliability_status(s)
-    head = ("variables", "surface", "method", "tornado")
+    head = ("variables", "surface", "method", "tornado", "site_data")
     blocks = {m: b for m, b in s.items() if m not in head}
     for b in blocks.values():
         iv = b.get("pf_interval_95")
@@ -224,7 +224,8 @@ def _single_variable(case, det, hyp, estimator=("monte-carlo", None)) -> SingleV
             b["pf_interval_95"] = [min(iv[0], b["pf"]), max(iv[1], b["pf"])]
     return SingleVariableResult(hyp, s["variables"], s["surface"], s["method"], blocks, s.get("tornado"),
                                 arrays.get("tornado"),
-                                {m: a["fs"] for m, a in arrays.items() if isinstance(a, dict) and "fs" in a})
+                                {m: a["fs"] for m, a in arrays.items() if isinstance(a, dict) and "fs" in a},
+                                site_data=s.get("site_data"))
 
 
 def _deterministic(case, det) -> dict:

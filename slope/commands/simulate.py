@@ -26,7 +26,7 @@ from ..case.preflight import preflight
 from ..errors import InputError
 from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
-from .export import EXPORT_FORMATS, export_realisations
+from .export import EXPORT_FORMATS, export_realisations, write_realisations
 from .folders import OutputFolder
 from .results import jsonable
 from .sweep import sweep_case
@@ -264,7 +264,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         write_csv(stage / "fs_realisations.csv", header, rows)
         if exp_folder is not None:
             exp_stage = exp_folder.stage()
-            export_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)
+            write_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)  # guarded above
         results = {
             "slipfield_results_version": RESULTS_VERSION, "command": "simulate",
             "case": {"path": str(case_path), "title": case.title, "note": case.data["case"].get("note", "")},

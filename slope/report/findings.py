@@ -124,6 +124,7 @@ def findings(res) -> dict:
             if form and form.get("beta") is not None:
                 s.append(f"FORM: β = {form['beta']:.3g}, pf = {form['pf']:.3g}"
                          + ("" if form.get("converged") else " (the iteration did not converge)") + ".")
+            s.append(sv.site_data_sentence())  # "" without [[site_data]]
             top = sv.most_influential()
             if top:
                 s.append(f"Most influential variable: {top[0]} ({top[1]}).")

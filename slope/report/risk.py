@@ -39,14 +39,16 @@ tolerability line dict
 """
 from __future__ import annotations
 
+import textwrap
 from collections.abc import Mapping, Sequence
 
 import numpy as np
+from matplotlib.figure import Figure
 
 from ..errors import InputError
-from .style import CYCLE, new_figure, report_style
+from .style import CYCLE, report_style
 
-__all__ = ["annual_probability", "risk_points", "plot_risk_chart", "tolerability_line"]
+__all__ = ["annual_probability", "risk_points", "plot_risk_chart", "tolerability_line", "AXES_SIZE"]
 
 _LINE_STYLES = ("--", "-.", ":", (0, (5, 1, 1, 1)))
 
@@ -254,6 +256,7 @@ def plot_risk_chart(
         raise InputError("scenarios: give at least one scenario (consequence and annual probability) to chart.")
     lns = _lines(lines)
     notes = []
+    own = ax is None
     with report_style():
         fig, ax = _axes(ax)
         for k, ln in enumerate(lns):
@@ -280,17 +283,52 @@ def plot_risk_chart(
         ax.set_xlabel(consequence_label)
         ax.set_ylabel("annual probability of failure (per year)")
         ax.grid(True, which="both", linewidth=0.4)
-        if ax.get_legend_handles_labels()[0]:
-            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
         if not lns:
             notes.append("No tolerability criteria are built in; supply lines with their sources in the case file.")
-        fig.text(0.01, 0.0, "\n".join(notes), ha="left", va="top", fontsize=7, wrap=True, gid="risk-footnote")
         if title:
             ax.set_title(title)
+        if own:
+            _legend_below(fig, ax, notes)
+        else:
+            if ax.get_legend_handles_labels()[0]:
+                ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.18), borderaxespad=0.0)
+            fig.text(0.01, 0.0, "\n".join(notes), ha="left", va="top", fontsize=7, wrap=True, gid="risk-footnote")
     return fig
+
+
+#: Size of the risk chart's plotting area and its margins (inches): fixed, so that a long legend adds height
+#: below the axes instead of squeezing them.
+AXES_SIZE = (5.4, 3.2)
+_MARGINS = {"left": 1.0, "right": 0.3, "top": 0.25, "title": 0.3, "below": 0.62, "gap": 0.12}
+
+
+def _legend_below(fig, ax, notes):
+    """Legend, then the footnote, under the axes; the figure grows to hold them, the axes keep :data:`AXES_SIZE`."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    m = _MARGINS
+    width = m["left"] + AXES_SIZE[0] + m["right"]
+    handles, labels = ax.get_legend_handles_labels()
+    leg = fig.legend(handles, labels, loc="upper left", ncols=1, borderaxespad=0.0, frameon=False) if handles else None
+    foot = fig.text(0.0, 0.0, "\n".join(textwrap.fill(n, 130) for n in notes), ha="left", va="top", fontsize=7,
+                    gid="risk-footnote")
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    leg_h = leg.get_window_extent(renderer).height / fig.dpi if leg is not None else 0.0
+    foot_h = foot.get_window_extent(renderer).height / fig.dpi
+    top = m["top"] + (m["title"] if ax.get_title() else 0.0)
+    height = top + AXES_SIZE[1] + m["below"] + leg_h + m["gap"] + foot_h + m["gap"]
+    fig.set_size_inches(width, height)
+    ax.set_position([m["left"] / width, 1.0 - (top + AXES_SIZE[1]) / height, AXES_SIZE[0] / width,
+                     AXES_SIZE[1] / height])
+    y_leg = height - top - AXES_SIZE[1] - m["below"]  # inches from the bottom edge
+    if leg is not None:
+        leg.set_bbox_to_anchor((m["left"] / width, y_leg / height), transform=fig.transFigure)
+    foot.set_position((m["left"] / width, (y_leg - leg_h - m["gap"]) / height))
 
 
 def _axes(ax):
     if ax is None:
-        return new_figure(figsize=(7.0, 4.2))
+        # Placed by hand (_legend_below), not by the constrained layout, which would shrink the axes.
+        fig = Figure(figsize=(7.0, 4.2))
+        return fig, fig.add_subplot()
     return ax.figure, ax

@@ -1,6 +1,7 @@
 """Monte Carlo over random fields: ``simulate`` and its result."""
 from __future__ import annotations
 
+import math
 import os
 import warnings
 from dataclasses import dataclass, field
@@ -17,6 +18,12 @@ from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
            "connect_scheduler", "SchedulerLost"]
+
+
+def _plain(v) -> float | None:
+    """A plain float, or None for a non-finite one (JSON has no NaN)."""
+    v = float(v)
+    return v if math.isfinite(v) else None
 
 
 @dataclass
@@ -141,7 +148,8 @@ class SimulationResult:
         if nv == 0:
             return float("nan"), (float("nan"), float("nan")), 0
         k = int((fs[ok] < 1.0).sum())
-        return k / nv, binomial_interval(k, nv, 0.95, "wilson"), nv
+        lo, hi = binomial_interval(k, nv, 0.95, "wilson")
+        return k / nv, (float(lo), float(hi)), nv  # plain floats: to_dict and messages show no numpy types
 
     @property
     def pf(self) -> float:
@@ -168,14 +176,15 @@ class SimulationResult:
         return {"normal": float(beta_normal(m, s)), "lognormal": float(beta_lognormal(m, s))}
 
     def to_dict(self) -> dict:
-        """JSON-ready summary (FS dimensionless, pf as a fraction)."""
+        """JSON-ready summary (FS dimensionless, pf as a fraction): plain Python numbers, and None
+        where an estimate does not exist (no valid realisation; JSON has no NaN)."""
         f = self.fs[np.isfinite(self.fs)]
-        lo, hi = self.pf_interval
-        flo, fhi = self.pf_fixed_interval
+        lo, hi = map(_plain, self.pf_interval)
+        flo, fhi = map(_plain, self.pf_fixed_interval)
         return {"n": self.n, "seed": self.seed,
-                "pf": self.pf, "pf_interval_95_wilson": [lo, hi],
-                "pf_fixed_surface": self.pf_fixed, "pf_fixed_interval_95_wilson": [flo, fhi],
-                "beta_normal": self.beta["normal"], "beta_lognormal": self.beta["lognormal"],
+                "pf": _plain(self.pf), "pf_interval_95_wilson": [lo, hi],
+                "pf_fixed_surface": _plain(self.pf_fixed), "pf_fixed_interval_95_wilson": [flo, fhi],
+                "beta_normal": _plain(self.beta["normal"]), "beta_lognormal": _plain(self.beta["lognormal"]),
                 "mean_fs": float(f.mean()) if f.size else None,
                 "std_fs": float(f.std(ddof=1)) if f.size > 1 else None,
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
@@ -190,8 +199,8 @@ class SimulationResult:
         dp = self.refine is not None and self.refine.get("search") == "dynamic-programming"
         if self.fs_circles is None and not dp:
             return {}
-        lo, hi = self.pf_circles_interval
-        out = {"pf_circles_only": self.pf_circles, "pf_circles_only_interval_95_wilson": [lo, hi]}
+        lo, hi = map(_plain, self.pf_circles_interval)
+        out = {"pf_circles_only": _plain(self.pf_circles), "pf_circles_only_interval_95_wilson": [lo, hi]}
         if self.problem is not None:
             out["governing_family"] = self.family_counts()
         return out
