@@ -131,3 +131,24 @@ def test_check_leaves_circles_and_a_planar_block_alone():
     mixed = evaluate_surfaces(sec, [Circle(250.0, 400.0, 380.0), blocks[1]], method="spencer", n_slices=40)
     assert mixed.bank.valid.all() and np.isnan(mixed.interslice_ratio[0]) and np.isfinite(mixed.interslice_ratio[1])
     assert evaluate_surfaces(sec, [Circle(250.0, 400.0, 380.0)], method="spencer").interslice_ratio is None
+
+
+def test_phi0_non_circular_path_below_every_circle_passes_the_check():
+    # What the check cannot do, measured so a change is seen. Homogeneous phi = 0 clay, su = 50 kPa,
+    # gamma = 20 kN/m3, 10 m high 2H:1V slope, firm base 30 m below the toe (D = 4; invented). Taylor (1937):
+    # the stability number su / (F gamma H) of a phi = 0 slope never exceeds 0.181 (midpoint circle, unlimited
+    # depth; recalled from memory), so no circle gives F below 50 / (0.181 * 200) = 1.381 here. The 13-vertex
+    # path below (vertices of the dynamic-programming path found from the best circle, rounded to 0.1 m) has a
+    # clean Spencer solution about 6 % below that bound (measured 1.301), yet the interslice shear it needs is a
+    # quarter of su h / F on every boundary (measured ratio 0.254, the best circle's 0.19): the check leaves it.
+    # What separates it from a circle is kinematic: as a mechanism of vertical-sided blocks it needs internal
+    # shearing on the boundaries (upper bound 1.77 by the work equation, base 1.18 + boundaries 0.59, measured),
+    # while a circle turns rigidly; limit equilibrium does not see that work.
+    sec = simple_slope(10.0, 2.0, 4.0, material=Material("clay", unit_weight=20.0, su_model="constant", su=50.0))
+    path = Polyline(np.array([[-14.3, 0.0], [-9.2, -6.3], [-4.6, -11.2], [0.5, -15.8], [4.8, -18.4], [10.2, -19.4],
+                              [16.1, -18.5], [20.0, -16.5], [24.5, -11.8], [30.1, -5.2], [34.7, 0.8], [38.8, 6.8],
+                              [40.8, 10.0]]))
+    r = evaluate_surfaces(sec, [path], method="spencer", hypothesis="undrained", n_slices=60, tolerate=())
+    assert r.counted[0] and INTERSLICE_REASON not in r.rejected
+    assert r.fs_min < 0.96 * 50.0 / (0.181 * 20.0 * 10.0)
+    assert 0.0 < r.interslice_ratio[0] < 0.5
