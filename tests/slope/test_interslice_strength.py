@@ -152,3 +152,26 @@ def test_phi0_non_circular_path_below_every_circle_passes_the_check():
     assert r.counted[0] and INTERSLICE_REASON not in r.rejected
     assert r.fs_min < 0.96 * 50.0 / (0.181 * 20.0 * 10.0)
     assert 0.0 < r.interslice_ratio[0] < 0.5
+
+
+def test_a_searched_run_store_is_tied_to_the_acceptance_rules(tmp_path):
+    # A store written before the check existed (its per-reason counts one shorter, its paths accepted
+    # without it) must not be continued with it: the identity lists the acceptance reasons.
+    from slipfield.slope.errors import InputError as Refused
+    from slipfield.slope.simulate.driver import store_header
+    from slipfield.slope.simulate.refinement import RefineSettings
+    from slipfield.slope.simulate.store import BlockStore
+
+    class _Problem:  # store_header reads only the fingerprint
+        @staticmethod
+        def fingerprint():
+            return "same problem"
+
+    st = RefineSettings(below=1.1, search="dynamic-programming")
+    new = store_header(_Problem(), 7, st)
+    assert INTERSLICE_REASON in new["refine"]["acceptance"]
+    old = {k: (dict(v) if isinstance(v, dict) else v) for k, v in new.items()}
+    old["refine"]["acceptance"] = [r for r in new["refine"]["acceptance"] if r != INTERSLICE_REASON]
+    BlockStore(tmp_path / "s", old).open(resume=False)
+    with pytest.raises(Refused, match="refinement settings differ"):
+        BlockStore(tmp_path / "s", new).check(resume=True)
