@@ -368,18 +368,21 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
                          f"choose from {', '.join(FIGURE_FORMATS)} (comma separated, e.g. png,svg)")
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before the case is even read
 
+    pool = {"n_jobs": 1}
+
     def ready(case, n_jobs):
         from ..simulate.driver import start_workers
 
+        pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
         start_workers(n_jobs)  # the pool starts while the search runs
 
     case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
                              estimator=estimator, level_probability=level_probability,
                              samples_per_level=samples_per_level, refine_search=refine_search)
-    return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start)
+    return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start, jobs=pool["n_jobs"])
 
 
-def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> dict:
+def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None, jobs=1) -> dict:
     """Write the figures, tables, ``report.html`` and ``results.json`` of analysed results.
 
     Parameters
@@ -387,6 +390,8 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
     out : path-like or OutputFolder
         The output folder (checked here when given as a path). Everything goes
         to a staging folder first and is moved into place only when complete.
+    jobs : int
+        Worker processes drawing the figures (1: in this process); the files are the same.
 
     Returns
     -------
@@ -403,7 +408,7 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
     stage = out.stage()
     try:
         progress.say("figures, tables and report")
-        write_run_report(stage, case, res, formats=formats)
+        write_run_report(stage, case, res, formats=formats, n_jobs=jobs)
         if t_start is not None:
             res.wall_time_s = round(time.perf_counter() - t_start, 2)
         else:  # analysed earlier: the analyses' time plus the writing

@@ -15,9 +15,9 @@ from pathlib import Path
 
 from ..files import atomic_write_text
 from .exclusions import exclusion_table
-from .figures.catalogue import SECTIONS, draw_all
+from .figures.catalogue import SECTIONS
 from .findings import findings
-from .html import save_figure
+from .render import render_figures
 from .inputs import input_tables
 from .tables import table_to_html, write_csv
 from .templating import TEMPLATES, render_page
@@ -128,14 +128,6 @@ def _csv_tables(stage: Path, res) -> list[dict]:
     return slices
 
 
-def _save_all(drawn, fig_dir: Path, formats) -> None:
-    """Render and write every figure in the formats asked (PNG always)."""
-    fig_dir.mkdir(parents=True, exist_ok=True)
-    for d in drawn:
-        if d.figure is not None:
-            save_figure(d.figure, fig_dir, d.stem, formats=formats)
-
-
 def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
     """The report page as HTML text."""
     from ..commands.results import CAUTION
@@ -146,7 +138,7 @@ def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
         for d in (x for x in drawn if x.group == key):
             item = {"caption": d.caption, "text": d.text, "stem": d.stem, "number": None, "src": None,
                     "legend": d.legend or []}
-            if d.figure is not None:
+            if d.saved:
                 number += 1
                 b64 = base64.b64encode((fig_dir / f"{d.stem}.png").read_bytes()).decode("ascii")
                 item.update(number=number, src=f"data:image/png;base64,{b64}")
@@ -169,9 +161,12 @@ def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
         slices=slices)
 
 
-def write_run_report(stage: Path, case, res, *, formats=("png",)) -> None:
-    """Figures (``figures/``), CSV tables and ``report.html`` of a run into ``stage``."""
-    drawn = draw_all(case, res)
-    _save_all(drawn, stage / "figures", formats)
+def write_run_report(stage: Path, case, res, *, formats=("png",), n_jobs: int = 1) -> None:
+    """Figures (``figures/``), CSV tables and ``report.html`` of a run into ``stage``.
+
+    ``n_jobs`` ≥ 2 draws the figures in that many worker processes (:func:`slope.report.render.render_figures`);
+    the files are the same.
+    """
+    drawn = render_figures(case, res, stage / "figures", formats, n_jobs=n_jobs)
     slices = _csv_tables(stage, res)
     atomic_write_text(stage / "report.html", render_run_report(case, res, drawn, stage / "figures", slices))

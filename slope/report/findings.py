@@ -67,11 +67,19 @@ def mechanism_sentence(mech) -> str:
 
 
 def _exclusions(h, ms, sv, sp) -> str:
-    bits = []
+    from .exclusions import NOT_SLIP_SURFACES
+
+    bits, by_count = [], {}
     for m, d in ms.items():
-        bad = d.n_trials - d.n_counted
-        if d.n_trials and bad / d.n_trials > 0.25:
-            bits.append(f"{bad} of {d.n_trials} trial surfaces were not counted by {m}")
+        # Only surfaces a method failed on could hide a lower FS; those that are no slip surface of the case
+        # (listed in the exclusions table) could not.
+        failed = {r: k for r, k in d.not_counted.items() if k and r not in NOT_SLIP_SURFACES}
+        if failed:
+            key = (sum(failed.values()), d.n_trials, "; ".join(f"{r}: {k}" for r, k in failed.items()))
+            by_count.setdefault(key, []).append(m)
+    if by_count:
+        bits.append("trial surfaces without a valid solution, among which a lower FS could lie: " + ", ".join(
+            f"{k} of {n} by {' and '.join(methods)} ({why})" for (k, n, why), methods in by_count.items()))
     if sp is not None:
         n = sp.spatial.realisations
         x = n - sp.spatial.searched.n_valid

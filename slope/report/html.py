@@ -69,8 +69,14 @@ def figure_png_bytes(fig: Figure, dpi: int = 150) -> bytes:
 
 def figure_svg_text(fig: Figure) -> str:
     """The figure as SVG text (tight bounding box), XML prolog included."""
+    from .style import report_style
+
     buf = io.StringIO()
-    _check_figure(fig, "figure").savefig(buf, format="svg", bbox_inches="tight", facecolor="white")
+    # The style's SVG settings (text kept as text, fixed id salt) are read when the file is written, and no
+    # date goes in the metadata: the same figure gives the same file, whichever process writes it.
+    with report_style():
+        _check_figure(fig, "figure").savefig(buf, format="svg", bbox_inches="tight", facecolor="white",
+                                             metadata={"Date": None})
     return buf.getvalue()
 
 

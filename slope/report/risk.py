@@ -42,6 +42,7 @@ from __future__ import annotations
 import textwrap
 from collections.abc import Mapping, Sequence
 
+import matplotlib.transforms as mtransforms
 import numpy as np
 from matplotlib.figure import Figure
 
@@ -51,6 +52,7 @@ from .style import CYCLE, report_style
 __all__ = ["annual_probability", "risk_points", "plot_risk_chart", "tolerability_line", "AXES_SIZE"]
 
 _LINE_STYLES = ("--", "-.", ":", (0, (5, 1, 1, 1)))
+_DODGE_PT = 11.0  # side-by-side spacing (points) of scenarios sharing one consequence
 
 
 def annual_probability(pf, annual_exceedance):
@@ -264,18 +266,28 @@ def plot_risk_chart(
                     linestyle=_LINE_STYLES[k % len(_LINE_STYLES)], linewidth=1.2,
                     label=f"[{k + 1}] {ln['label']}", gid=f"tolerability-{k}")
             notes.append(f"[{k + 1}] {ln['label']}: {ln['source']}")
+        same = [sum(q["consequence"] == pt["consequence"] for q in pts[:k]) for k, pt in enumerate(pts)]
+        n_same = [sum(q["consequence"] == pt["consequence"] for q in pts) for pt in pts]
         for k, pt in enumerate(pts):
             colour = pt["colour"] or CYCLE[k % len(CYCLE)]
             p, iv = pt["annual_probability"], pt["annual_interval"]
+            # Points of one consequence are set side by side on the page (a few points apart), so that none
+            # hides another; their data stay at the consequence itself.
+            shift = mtransforms.ScaledTranslation((same[k] - (n_same[k] - 1) / 2) * _DODGE_PT / 72.0, 0.0,
+                                                  fig.dpi_scale_trans)
             if p > 0:
                 yerr = None if iv is None or iv[0] <= 0 else [[p - iv[0]], [iv[1] - p]]
                 eb = ax.errorbar([pt["consequence"]], [p], yerr=yerr, color=colour, marker=pt["marker"], markersize=7,
                                  capsize=3, linestyle="none", label=f"{pt['label']}: {p:.2g} /yr",
                                  markerfacecolor=colour if pt["filled"] else "white")
                 eb.lines[0].set_gid(f"scenario-{k}")
+                for art in (eb.lines[0], *eb.lines[1], *eb.lines[2]):
+                    art.set_transform(ax.transData + shift)
             elif iv is not None and iv[1] > 0:
-                ax.plot([pt["consequence"]], [iv[1]], color=colour, marker="v", markersize=8, linestyle="none",
-                        label=f"{pt['label']}: < {iv[1]:.2g} /yr (no failures)", gid=f"scenario-{k}")
+                (tri,) = ax.plot([pt["consequence"]], [iv[1]], color=colour, marker="v", markersize=8,
+                                 linestyle="none", label=f"{pt['label']}: < {iv[1]:.2g} /yr (no failures)",
+                                 gid=f"scenario-{k}")
+                tri.set_transform(ax.transData + shift)  # after plotting, so the axes' limits still include it
             else:
                 notes.append(f"{pt['label']}: annual probability 0 without an upper bound, not drawable on log axes.")
         ax.set_xscale("log")

@@ -14,14 +14,16 @@ search only lowers FS, so a realisation with bank FS < 1 already fails and
 searching it cannot change pf; one far above 1 would need the search to
 lower its FS by more than the margin. The margin 0.10 is about the measured 95th percentile of FS_bank / FS_free
 (the bank's circles by Bishop over the per-realisation dynamic-programming
-search by Spencer, every realisation searched): 1.096 on the levee demo
-(undrained, 400 realisations), 1.077-1.107 on Griffiths & Fenton's (2004)
-undrained slope (C 0.2; θ 2, 5, 10 m; COV 0.5, 0.5, 0.25; 400 each).
-pf with the free search therefore counts the refinements inside the window
-only: a realisation the free search would lower by more than 10 % from a
-bank FS of 1.10 or more keeps its bank FS. Measured, the failures of the
-search-everything run this misses: levee 3 of 88, Griffiths & Fenton 4 of
-125, 2 of 35 and 0 of 26. ``scripts/bench_mechanisms.py`` prints these
+search by Spencer, every realisation searched): 1.086 on the levee demo
+(undrained, 300 realisations; 1.091-1.096 before slice sides followed the
+paths' bends), 1.077-1.107 on Griffiths & Fenton's (2004) undrained slope
+(C 0.2; θ 2, 5, 10 m; COV 0.5, 0.5, 0.25; 400 each). pf with the free
+search therefore counts the refinements inside the window only: a
+realisation the free search would lower by more than 10 % from a bank FS of
+1.10 or more keeps its bank FS. Measured, the failures of the
+search-everything run this misses: levee 1 of 58, Griffiths & Fenton 4 of
+125, 2 of 35 and 0 of 26.
+``scripts/bench_mechanisms.py`` prints these
 figures and the CPU the window adds.
 """
 

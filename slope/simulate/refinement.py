@@ -28,7 +28,7 @@ from .problem import AVERAGING
 from .refine_names import (DEFAULT_REFINE_BELOW, DEFAULT_REFINE_SEARCH, FAILURE_FS, REFINE_OFF,
                            REFINE_SEARCHES)
 
-__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation",
+__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation", "search_region",
            "REFINE_REASONS"]
 
 START_UNUSABLE = "start surface has no clean solution by the refinement method"
@@ -173,6 +173,49 @@ class RefineSettings:
                    above=FAILURE_FS,
                    method=simulation.get("refine_method", "spencer") if method is None else method,
                    search=chosen)
+
+
+def search_region(problem, settings) -> tuple | None:
+    """Box of the section (section frame, m) whose cells the per-realisation search may read.
+
+    For field generators that build only part of the grid: a realisation's
+    search reads its fields (through :func:`realisation_overrides`) only
+    inside ``(x_min, x_max, y_min, y_max)``. ``dynamic-programming``: the
+    first bands of every bank surface that can start it (each start's
+    horizontal extent plus ``margin`` of it on each side, from ``band`` of
+    its greatest depth below it up to the ground; later passes stay within
+    a band plus two node spacings), padded by one cell for the bilinear
+    interpolation; ``nelder-mead`` may move a polyline anywhere, so the
+    whole section. None without a search.
+    """
+    if settings is None:
+        return None
+    sec = problem.section
+    whole = (float(sec.x_min), float(sec.x_max), float(sec.base_y), float(np.max(sec.ground[:, 1])))
+    if settings.search != "dynamic-programming":
+        return whole
+    from ..search.dp_grid import start_xy
+    from ..search.dynamic_programming import DPSettings
+
+    st = DPSettings(columns=settings.columns, nodes=settings.nodes, passes=settings.passes)
+    lo_x, hi_x, lo_y = np.inf, -np.inf, np.inf
+    for surf in problem.surfaces:
+        try:
+            xy = start_xy(sec, surf, 40)
+        except InputError:
+            continue  # a surface that does not cut the ground twice never starts a search
+        x1, x2 = xy[0, 0], xy[-1, 0]
+        depth = float(np.max(sec.ground_y(xy[:, 0]) - xy[:, 1]))
+        if not depth > 0:
+            continue
+        half = st.band * depth * (1.0 + 4.0 / max(st.nodes - 1, 1))
+        lo_x, hi_x = min(lo_x, x1 - st.margin * (x2 - x1)), max(hi_x, x2 + st.margin * (x2 - x1))
+        lo_y = min(lo_y, float(np.min(xy[:, 1])) - half)
+    if not np.isfinite(lo_x):
+        return whole
+    pad = problem.cell
+    return (float(max(whole[0], lo_x - pad)), float(min(whole[1], hi_x + pad)), float(max(whole[2], lo_y - pad)),
+            whole[3])
 
 
 def _grid_values(problem, seed, k):

@@ -111,3 +111,20 @@ def test_mechanisms_in_words_carry_the_counts_and_both_pf():
     assert f"ran on the {r.n_searched} realisations" in text and f"lowered {r.n_refined}" in text
     assert f"circles alone {r.pf_circles:.3g}" in text and f"free search {r.pf:.3g}" in text
     assert "[1, 1.1)" in text
+
+
+def test_search_region_holds_every_accepted_path():
+    # fields generated only over part of the grid must cover what the search reads: every vertex of
+    # every accepted path (and hence its slice bases) lies inside search_region
+    from slipfield.slope.simulate.refinement import search_region
+
+    p, _ = gf_problem(5.0, 0.5, mean_c=0.2)
+    st = RefineSettings(below=1.3, search="dynamic-programming")
+    r = simulate(p, 20, 5, refine=st)
+    x0, x1, y0, y1 = search_region(p, st)
+    xy = r.refined_xy[np.isfinite(r.refined_xy[:, :, 0])]
+    assert xy.size and r.n_refined > 0
+    assert np.all((xy[:, 0] >= x0) & (xy[:, 0] <= x1) & (xy[:, 1] >= y0) & (xy[:, 1] <= y1))
+    sec = p.section
+    assert search_region(p, None) is None
+    assert search_region(p, RefineSettings(below=1.3)) == (sec.x_min, sec.x_max, sec.base_y, float(sec.ground[:, 1].max()))
