@@ -139,8 +139,8 @@ def test_phi0_non_circular_path_below_every_circle_passes_the_check():
     # the stability number su / (F gamma H) of a phi = 0 slope never exceeds 0.181 (midpoint circle, unlimited
     # depth; recalled from memory), so no circle gives F below 50 / (0.181 * 200) = 1.381 here. The 13-vertex
     # path below (vertices of the dynamic-programming path found from the best circle, rounded to 0.1 m) has a
-    # clean Spencer solution about 6 % below that bound (measured 1.301), yet the interslice shear it needs is a
-    # quarter of su h / F on every boundary (measured ratio 0.254, the best circle's 0.19): the check leaves it.
+    # clean Spencer solution about 6 % below that bound (measured 1.305), yet the interslice shear it needs is a
+    # quarter of su h / F on every boundary (measured ratio 0.258, the best circle's 0.19): the check leaves it.
     # What separates it from a circle is kinematic: as a mechanism of vertical-sided blocks it needs internal
     # shearing on the boundaries (upper bound 1.77 by the work equation, base 1.18 + boundaries 0.59, measured),
     # while a circle turns rigidly; limit equilibrium does not see that work.
