@@ -20,10 +20,12 @@ Parts (``--parts``, default all):
     peak RSS of ``simulate`` over 1,000 and 4,000 realisations (flat in n).
 ``kernel``
     ``factor_of_safety`` as the simulator calls it (strengths of the levee
-    realisations, chunks from ``fused.StrengthMap.chunk``), Bishop and
-    Morgenstern-Price, in M slice-evaluations/s (samples x surfaces x
-    slices / wall time; targets 200 M and 40 M), beside one call on a whole
-    batch of 100 (the layout before the chunks).
+    realisations, chunks from ``fused.StrengthMap.chunk``, one numba thread
+    as in a worker), Bishop (undrained) and Morgenstern-Price (drained), in
+    M slice-evaluations per CPU second (samples x surfaces x slices / CPU
+    time); the targets, 200 M and 40 M per second, are for the two workers
+    of a 2-core machine, so twice the one-thread rate is compared with them.
+    Each tree is measured in a fresh process, the trees alternated.
 ``jobs``
     ``slipfield simulate`` of 16,000 realisations, ``--jobs 1`` against
     ``--jobs 2`` (target ratio >= 1.6).
@@ -33,9 +35,9 @@ Parts (``--parts``, default all):
 
 Usage: python scripts/bench_speed.py [--parts sim,memory,kernel,jobs,run] [--repeat 3] [--before TREE]
 
-``--before TREE`` times the ``jobs`` and ``run`` commands of another source
-tree (e.g. ``git archive main | tar -x -C TREE`` plus its ``.dev`` import
-shim) alternately with this one, so a before/after table comes from one run.
+``--before TREE`` times the ``kernel``, ``jobs`` and ``run`` parts of another source
+tree (e.g. ``git archive main | tar -x -C TREE``; its ``.dev`` import shim is
+used if it has one, else a private one is made in the temporary folder) alternately with this one, so a before/after table comes from one run.
 """
 import argparse
 import json
@@ -193,13 +195,25 @@ def part_memory(args):
 
 
 # ------------------------------------------------------------------ kernel
-def part_kernel(args):
+KERNEL_CASES = (("bishop", "undrained", 200.0), ("morgenstern-price", "drained", 40.0))
+
+
+def kernel_rates(cache, repeat=1):
+    """M slice-evaluations per CPU second of ``factor_of_safety`` as the simulator calls it.
+
+    Strengths of 100 levee realisations through ``fused.StrengthMap`` in the
+    simulator's chunks (C-contiguous ``(k, m, n)``), one numba thread (the
+    workers run single-threaded); the wall rate with the default threads too.
+    Returns {method: {"cpu": [...], "wall": [...], "surfaces", "slices", "chunk"}}.
+    """
+    import numba
+
     import slipfield.slope.simulate.engine as engine
     from slipfield.slope.methods import factor_of_safety
-    from slipfield.slope.strength import base_strength
 
-    for method, hyp, target in (("bishop", "undrained", 200.0), ("morgenstern-price", "drained", 40.0)):
-        p = levee_problem(hyp, args.cache)
+    out = {}
+    for method, hyp, _ in KERNEL_CASES:
+        p = levee_problem(hyp, cache)
         st = engine.prepare(p)
         sm = engine.strength_map(p, st, lambda prop: engine._det_value(p, prop))
         s = 100
@@ -211,38 +225,75 @@ def part_kernel(args):
                     phys[:, off:off + ncol] = vals[i]
         k = sm.chunk()
         chunks = [sm.strengths(phys[a:a + k]) for a in range(0, s, k)]
-        # the layout before: one call on the whole batch, strengths from the array path
-        over = engine.strength_overrides(p, engine._valid_base_values(p, 3, range(s)),
-                                         lambda prop: engine._det_value(p, prop))
-        c_all, t_all = base_strength(st.bank, p.section.materials, p.hypothesis, overrides=over)
         kw = {"interslice": p.interslice} if method != "bishop" else {}
-        factor_of_safety(st.terms, *chunks[0], method, **kw)
+        factor_of_safety(st.terms, *chunks[0], method, **kw)  # compiled or loaded from the cache
         evals = s * st.rows.size * p.n_slices
-        import numba
-
-        rate = {"chunks": [], "one call": [], "chunks, 1 thread, per CPU s": []}
-        for _ in range(args.repeat):
-            t = time.perf_counter()
-            for c, tp in chunks:
-                factor_of_safety(st.terms, c, tp, method, **kw)
-            rate["chunks"].append(evals / (time.perf_counter() - t) / 1e6)
-            t = time.perf_counter()
-            factor_of_safety(st.terms, c_all, t_all, method, **kw)
-            rate["one call"].append(evals / (time.perf_counter() - t) / 1e6)
+        cpu, wall = [], []
+        for _ in range(repeat):
             numba.set_num_threads(1)
             t = time.process_time()
             for c, tp in chunks:
                 factor_of_safety(st.terms, c, tp, method, **kw)
-            rate["chunks, 1 thread, per CPU s"].append(evals / (time.process_time() - t) / 1e6)
+            cpu.append(evals / (time.process_time() - t) / 1e6)
             numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
-        best = max(rate["chunks"])
-        cpu = rate["chunks, 1 thread, per CPU s"]
-        print(f"[kernel] {method}, levee {hyp}: {st.rows.size} surfaces x {p.n_slices} slices x {s} realisations")
-        print(f"  factor_of_safety on chunks of {k}: {spread(rate['chunks'], '{:.0f}')} M slice-eval/s wall "
-              f"({numba.config.NUMBA_NUM_THREADS} threads); one call on the batch: "
-              f"{spread(rate['one call'], '{:.0f}')} M/s; chunks on one thread: {spread(cpu, '{:.0f}')} M per CPU second")
-        print(f"  target >= {target:.0f} M/s: {verdict(best >= target)} in wall time at best; "
-              f"{'met' if 2 * max(cpu) >= target else 'NOT met'} as 2 cores x the CPU rate (what an idle machine gives)")
+            t = time.perf_counter()
+            for c, tp in chunks:
+                factor_of_safety(st.terms, c, tp, method, **kw)
+            wall.append(evals / (time.perf_counter() - t) / 1e6)
+        out[method] = {"cpu": cpu, "wall": wall, "surfaces": int(st.rows.size), "slices": int(p.n_slices),
+                       "chunk": int(k), "hypothesis": hyp}
+    return out
+
+
+def _kernel_child(args, tree):
+    """:func:`kernel_rates` in a fresh process of ``tree`` (None: this tree)."""
+    env = dict(os.environ)
+    if tree is not None:
+        env["PYTHONPATH"] = str(_shim(tree))
+    cache = args.cache if tree is None else args.cache + ".before"
+    code = (f"import sys, json; sys.path.insert(0, {str(Path(__file__).parent)!r}); import bench_speed as b; "
+            f"print(json.dumps(b.kernel_rates({cache!r}, {args.kernel_repeat})))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
+    if out.returncode:
+        raise RuntimeError(out.stderr[-2000:])
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def part_kernel(args):
+    rows = {}
+    for _ in range(args.repeat):
+        for label, tree in _trees(args):  # alternated: both see the same load
+            for method, r in _kernel_child(args, tree).items():
+                d = rows.setdefault(label, {}).setdefault(method, {"cpu": [], "wall": []})
+                d["cpu"] += r["cpu"]
+                d["wall"] += r["wall"]
+                d["info"] = r
+    for method, hyp, target in KERNEL_CASES:
+        info = rows["this tree"][method]["info"]
+        print(f"[kernel] {method}, levee {hyp}: {info['surfaces']} surfaces x {info['slices']} slices x 100 "
+              f"realisations in chunks of {info['chunk']} (the simulator's layout and calls)")
+        for label in rows:
+            cpu = rows[label][method]["cpu"]
+            wall = rows[label][method]["wall"]
+            print(f"  {label:>9}: {spread(cpu, '{:.0f}')} M slice-eval per CPU second on one thread "
+                  f"(as in a worker); x 2 workers = {spread([2 * c for c in cpu], '{:.0f}')} M/s "
+                  f"(target >= {target:.0f}: {verdict(2 * max(cpu) >= target)} at best, "
+                  f"{verdict(2 * min(cpu) >= target)} at worst); wall, "
+                  f"{os.cpu_count()} threads in one process: {spread(wall, '{:.0f}')} M/s")
+
+
+def _shim(tree):
+    """The import root of another source tree: its ``.dev`` shim, else a private one (symlinks)."""
+    tree = Path(tree).resolve()
+    if (tree / ".dev" / "slipfield").is_dir():
+        return tree / ".dev"
+    root = Path(tempfile.gettempdir()) / f"slipfield-bench-shim-{os.getpid()}"
+    pkg = root / "slipfield"
+    pkg.mkdir(parents=True, exist_ok=True)
+    for name in ("fields", "slope"):
+        if not (pkg / name).exists():
+            (pkg / name).symlink_to(tree / name)
+    return root
 
 
 # -------------------------------------------------------------------- jobs
@@ -251,10 +302,13 @@ def _cli(argv, env=None, tree=None):
     (its ``.dev`` import shim, see the brief of the work trees) instead of this one."""
     env = dict(os.environ if env is None else env)
     if tree is not None:
-        env["PYTHONPATH"] = str(Path(tree) / ".dev")
+        env["PYTHONPATH"] = str(_shim(tree))
     t = time.perf_counter()
+    r0 = resource.getrusage(resource.RUSAGE_CHILDREN)
     subprocess.run([sys.executable, "-m", "slipfield.slope.cli"] + argv, check=True, env=env,
                    stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    r1 = resource.getrusage(resource.RUSAGE_CHILDREN)
+    _cli.cpu = (r1.ru_utime - r0.ru_utime) + (r1.ru_stime - r0.ru_stime)  # the command and its workers
     return time.perf_counter() - t
 
 
@@ -283,17 +337,20 @@ def part_run(args):
     rows = {}
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(args.repeat):
-            for label, tree in _trees(args):
+            for label, tree in _trees(args):  # alternated: both see the same load
                 env = dict(os.environ, NUMBA_CACHE_DIR=os.path.join(tmp, f"numba_{label[:4]}_{r}"))
-                cold = _cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_c{r}")], env, tree)
-                warm = _cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_w{r}")], env, tree)
-                rows.setdefault(label, ([], []))
-                rows[label][0].append(cold)
-                rows[label][1].append(warm)
-    for label, (cold, warm) in rows.items():
-        print(f"[run] {label}: slipfield run levee demo: cold (empty numba cache) {spread(cold, '{:.1f}')} s "
-              f"(target <= 15 s: {verdict(min(cold) <= 15)} at best), warm {spread(warm, '{:.1f}')} s "
-              f"(target <= 10 s: {verdict(min(warm) <= 10)} at best)")
+                row = rows.setdefault(label, {"cold": [], "warm": [], "cold cpu": [], "warm cpu": []})
+                row["cold"].append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_c{r}")],
+                                        env, tree))
+                row["cold cpu"].append(_cli.cpu)
+                row["warm"].append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_w{r}")],
+                                        env, tree))
+                row["warm cpu"].append(_cli.cpu)
+    for label, row in rows.items():
+        print(f"[run] {label}: slipfield run levee demo: cold (empty numba cache) {spread(row['cold'], '{:.1f}')} s "
+              f"wall, {spread(row['cold cpu'], '{:.1f}')} s CPU (target <= 15 s: {verdict(min(row['cold']) <= 15)} "
+              f"at best); warm {spread(row['warm'], '{:.1f}')} s wall, {spread(row['warm cpu'], '{:.1f}')} s CPU "
+              f"(target <= 10 s: {verdict(min(row['warm']) <= 10)} at best)")
 
 
 def main():
@@ -305,6 +362,7 @@ def main():
     ap.add_argument("--n-jobs-run", type=int, default=16000)
     ap.add_argument("--before", help="another source tree (with its .dev shim) timed beside this one in "
                                      "the jobs and run parts, e.g. an export of main")
+    ap.add_argument("--kernel-repeat", type=int, default=3, help="timed passes per kernel process")
     ap.add_argument("--cache", default=os.path.join(tempfile.gettempdir(), "slipfield_bench_levee.pickle"),
                     help="pickle of the levee problems (built once; delete it after changing the case)")
     args = ap.parse_args()

@@ -261,7 +261,7 @@ def _counts(case, realisations, jobs):
 
 
 def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_ready=None, estimator=None,
-                 level_probability=None, samples_per_level=None):
+                 level_probability=None, samples_per_level=None, refine_search=None):
     """Run every analysis of a case; nothing is written.
 
     Parameters
@@ -274,6 +274,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
         No stage lines and no progress bars.
     estimator, level_probability, samples_per_level : optional
         Override ``simulation.estimator`` and the subset-simulation settings (``--estimator`` …).
+    refine_search : str, optional
+        Override ``simulation.refine_search`` (``--refine-search``): a search
+        of :data:`slope.simulate.refine_names.REFINE_SEARCHES` or ``off``.
     on_ready : callable, optional
         ``on_ready(case, n_jobs)`` once the case and options are checked, before any computation
         (``run_case`` checks its output folder and starts the worker pool there).
@@ -292,6 +295,11 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     from .subset_cmd import estimator_settings
 
     est = estimator_settings(case, estimator, level_probability, samples_per_level)
+    if refine_search is not None:
+        from ..simulate.refinement import RefineSettings
+
+        RefineSettings.from_case(case.simulation, search=refine_search)  # checked before any computation
+        case.simulation["refine_search"] = refine_search  # every analysis below reads it from the case
     n, n_jobs = _counts(case, realisations, jobs)
     if on_ready is not None:
         on_ready(case, n_jobs)
@@ -317,7 +325,7 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
              figure_formats=("png",), overwrite=False, estimator=None, level_probability=None,
-             samples_per_level=None) -> dict:
+             samples_per_level=None, refine_search=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -342,6 +350,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         files are ever replaced).
     estimator, level_probability, samples_per_level : optional
         Override ``simulation.estimator`` (``monte-carlo``, ``subset``, ``auto``) and its settings.
+    refine_search : str, optional
+        Override ``simulation.refine_search`` (``--refine-search``; ``off`` switches the
+        per-realisation search off).
 
     Returns
     -------
@@ -367,7 +378,7 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
 
     case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
                              estimator=estimator, level_probability=level_probability,
-                             samples_per_level=samples_per_level)
+                             samples_per_level=samples_per_level, refine_search=refine_search)
     return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start, jobs=pool["n_jobs"])
 
 

@@ -75,40 +75,51 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
             F = 1.0
         done = False
         n_it = 0
-        # the iterate the last pass evaluated, within tol of the returned F:
-        # admissibility is judged there (as before the loops were split)
-        F_eval = F
+        # admissibility is judged at the iterate the last pass evaluated
+        # (within tol of the returned F)
+        fl = 0
         for it in range(max_iter):
             n_it = it + 1
-            F_eval = F
             inv = 1.0 / F
             inv2 = inv * inv
             num = 0.0
             dnum = 0.0
             den = den0[m]
             dden = 0.0
+            # admissibility at this iterate, judged in the same pass (no
+            # pass of its own): the flags of the last iterate evaluated are kept
+            nflag = 0
             # two versions of the loop, branch-free inside, so that they vectorise
             if circ:
                 for i in range(N):
                     t = tp[ts, tm, i]
+                    cc = c[cs, cm, i]
                     st = sa[m, i] * t
-                    r = 1.0 / (ca[m, i] + st * inv)
-                    P = (wb[m, i] * c[cs, cm, i] + wa[m, i] * t) * r
+                    ma = ca[m, i] + st * inv
+                    r = 1.0 / ma
+                    P = (wb[m, i] * cc + wa[m, i] * t) * r
                     num += P
                     dnum += P * (st * inv2 * r)
+                    ne = (A[m, i] - ub[m, i] - cc * l[m, i] * sa[m, i] * inv) * r
+                    nflag |= (2 if ma <= m_alpha_min else 0) | (1 if ne < -1e-9 * abs(A[m, i]) else 0)
             else:
                 for i in range(N):
                     t = tp[ts, tm, i]
+                    cc = c[cs, cm, i]
                     st = sa[m, i] * t
-                    r = 1.0 / (ca[m, i] + st * inv)
-                    P = (wb[m, i] * c[cs, cm, i] + wa[m, i] * t) * r
+                    ma = ca[m, i] + st * inv
+                    r = 1.0 / ma
+                    P = (wb[m, i] * cc + wa[m, i] * t) * r
                     g = st * inv2 * r          # -d(m_alpha)/dF / m_alpha
                     num += P
                     dnum += P * g
-                    K = c[cs, cm, i] * lsa[m, i] - ulsa[m, i] * t
+                    K = cc * lsa[m, i] - ulsa[m, i] * t
                     Nn = (A[m, i] - K * inv) * r
                     den += mn[m, i] * Nn
                     dden += mn[m, i] * (K * inv2 * r + Nn * g)
+                    ne = (A[m, i] - ub[m, i] - cc * l[m, i] * sa[m, i] * inv) * r
+                    nflag |= (2 if ma <= m_alpha_min else 0) | (1 if ne < -1e-9 * abs(A[m, i]) else 0)
+            fl = nflag
             h = F * den - num
             dh = den + F * dden - dnum
             Fn = F - h / dh if dh != 0.0 else -1.0
@@ -128,19 +139,6 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
         if not (F > 0.0) or not np.isfinite(F):
             flags[s, m] = 8
             continue
-        # admissibility at the last evaluated iterate, once
-        inv = 1.0 / F_eval
-        fl = 0
-        for i in range(N):
-            cc = c[cs, cm, i]
-            st = sa[m, i] * tp[ts, tm, i]
-            ma = ca[m, i] + st * inv
-            r = 1.0 / ma
-            ne = (A[m, i] - ub[m, i] - cc * l[m, i] * sa[m, i] * inv) * r
-            if ma <= m_alpha_min:
-                fl |= 2
-            if ne < -1e-9 * abs(A[m, i]):
-                fl |= 1
         flags[s, m] = fl
         if want_forces:
             inv = 1.0 / F

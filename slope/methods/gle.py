@@ -50,7 +50,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-__all__ = ["morgenstern_price", "bracketed_roots", "SCAN_LAMBDAS"]
+__all__ = ["morgenstern_price", "bracketed_roots", "reverse_circles", "SCAN_LAMBDAS", "REVERSE_MOMENT"]
 
 _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 #: boundaries where E is below this fraction of the largest E on the surface
@@ -319,8 +319,11 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     fl = 0
     E = 0.0
     Emax = 0.0
+    # the forces are marched once and kept: the checks below need the largest E first
+    E_next = np.empty(N)
     for i in range(N):
         En = _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam)
+        E_next[i] = En
         if i < N - 1 and En > Emax:
             Emax = En
         E = En
@@ -333,7 +336,7 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
         fi = f[m, i] if i > 0 else 0.0
         fj = f[m, i + 1]
         cl = c[s, m, i] * l[m, i]
-        En = _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam)
+        En = E_next[i]
         Xi = lam * fi * E
         Xn = lam * fj * En
         dE = E - En
@@ -420,8 +423,9 @@ def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm
 
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)
 def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb, couple,
-                   fscale, lscale, tol, max_iter, F0, lams, F_out, lam_out, it_out, found_out):
-    """:func:`_rescue` for a list of (sample, surface) pairs (used by Spencer)."""
+                   fscale, lscale, tol, max_iter, F0, lams, F_out, lam_out, it_out, found_out, fl_out):
+    """:func:`_rescue` for a list of (sample, surface) pairs (Spencer's misses, and
+    Morgenstern-Price's: kept out of :func:`_gle_kernel`, which compiles faster without it)."""
     E_out = np.empty((1, 1, 1))
     for k in prange(ss.size):
         s = ss[k]
@@ -433,6 +437,65 @@ def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, 
         lam_out[k] = lam
         it_out[k] = n_it
         found_out[k] = found
+        fl_out[k] = fl
+
+
+#: a circle is a *reverse* circle when the moment of its loads about its
+#: centre turns the mass against the direction of motion by more than this
+#: fraction of force_scale x length_scale (see :func:`reverse_circles`).
+#: 1e-6 is our convention: far above the round-off of the moment (1e-16)
+#: and of the equilibrium residual at a converged root (about tol^2).
+REVERSE_MOMENT = 1e-6
+
+
+def reverse_circles(terms):
+    """Surfaces on which no unflagged Spencer / Morgenstern-Price root exists (a bound).
+
+    A circle whose moment point is its centre (normal forces pass through it:
+    ``mn = 0``), with every shear arm ``mt`` positive and within a factor 2
+    of the largest, and whose loads have a negative moment about the centre
+    (they turn the mass against the direction of motion, so Bishop's F is
+    negative). Moment equilibrium of the whole mass about the centre gives,
+    at any root ``(F, lam)`` with ``F > 0``,
+
+        sum mt_i s_i = F M_active < 0,     s_i = c_i l_i + N'_i tan(phi_i),
+
+    so the bases with a negative strength outweigh the others:
+    ``mt_max s_neg > mt_min s_pos``, hence ``s_neg > s_pos / 2`` -- the
+    ``NEGATIVE_STRENGTH`` flag of :func:`_post`. The continuation and the
+    lam scan accept only roots without that flag, so on these surfaces they
+    cannot change the result; they are skipped. The bound holds wherever the
+    equilibrium residual at the root is below ``F |M_active|``
+    (``|M_active|`` is at least :data:`REVERSE_MOMENT` of the surface's
+    force x length scale here).
+
+    Returns
+    -------
+    ndarray of bool, shape (m,) (kept on ``terms``)
+    """
+    cache = terms.__dict__.setdefault("_kernel_terms", {})
+    if "reverse" not in cache:
+        mt = np.asarray(terms.mt, dtype=float)
+        with np.errstate(invalid="ignore"):
+            lo = mt.min(axis=1)
+            hi = mt.max(axis=1)
+            cache["reverse"] = np.ascontiguousarray(
+                np.asarray(terms.valid, bool) & ~np.asarray(terms.use_mn, bool) & (lo > 0.0) & (lo >= 0.5 * hi)
+                & (terms.m_active < -REVERSE_MOMENT * terms.force_scale * terms.length_scale))
+    return cache["reverse"]
+
+
+def _dense(x, shape):
+    """``x`` broadcast to ``shape`` as a C-contiguous, writeable float array.
+
+    One array type for every caller, so the kernels compile once (a
+    read-only or broadcast view is another numba specialisation: seconds of
+    compilation each). Arrays that already are so are passed as they are.
+    """
+    x = np.asarray(x, dtype=float)
+    if x.shape == tuple(shape) and x.flags.c_contiguous and x.flags.writeable:
+        return x
+    return np.array(np.broadcast_to(x, shape), dtype=float, order="C")
 
 
 def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=50):
@@ -451,7 +514,7 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
 
     Returns
     -------
-    F, lam, iterations, found : ndarray (len(pairs[0]),)
+    F, lam, iterations, found, flags : ndarray (len(pairs[0]),)
     """
     ss = np.ascontiguousarray(pairs[0], dtype=np.int64)
     ms = np.ascontiguousarray(pairs[1], dtype=np.int64)
@@ -460,29 +523,39 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
     lam = np.full(k, np.nan)
     its = np.zeros(k, dtype=np.int64)
     found = np.zeros(k, dtype=np.bool_)
+    fl = np.full(k, 8, dtype=np.int64)
     if k == 0:
-        return F, lam, its, found
+        return F, lam, its, found, fl
     F0 = np.asarray(F_start, dtype=float).ravel()
-    F0 = np.where(np.isfinite(F0) & (F0 > 0), F0, 1.0)
+    F0 = np.ascontiguousarray(np.where(np.isfinite(F0) & (F0 > 0), F0, 1.0))
     bank = terms.bank
-    _rescue_kernel(ss, ms, c, tan_phi, terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B,
-                   terms.ul, terms.dx, terms.dy, np.ascontiguousarray(f, dtype=float),
+    S = int(c.shape[0])
+    shape = (S, terms.n_surfaces, terms.n_slices)
+    _rescue_kernel(ss, ms, _dense(c, shape), _dense(tan_phi, shape), terms.cos_a, terms.sin_a, terms.length,
+                   terms.A, terms.B, terms.ul, terms.dx, terms.dy, np.ascontiguousarray(f, dtype=float),
                    terms.couple.sum(axis=1), terms.x_bound, terms.y_bound_base, terms.y_bound_top,
                    np.asarray(bank.x_mid, dtype=float), np.asarray(bank.y_base, dtype=float),
                    terms.couple, terms.force_scale, terms.length_scale, float(tol), int(max_iter),
-                   F0, SCAN_LAMBDAS, F, lam, its, found)
-    return F, lam, its, found
+                   F0, SCAN_LAMBDAS, F, lam, its, found, fl)
+    return F, lam, its, found, fl
 
 
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)
 def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-                couple, fscale, lscale, valid, tol, max_iter, F_start, lam_start, lams,
-                fs, lam_out, iters, conv, flags, E_out, X_out, yt_out, neff_out, want):
+                couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
+                fs, lam_out, iters, conv, flags, rescue):
+    """Newton from (F_start, lam_start), then the continuation where needed.
+
+    Cells that still miss a clean root are marked in ``rescue`` for the lam
+    scan (:func:`_rescue_kernel`, run after this kernel on those cells only).
+    """
     S = fs.shape[0]
     M = fs.shape[1]
+    none = np.empty((1, 1, 1))
     for k in prange(S * M):
         s = k // M
         m = k - s * M
+        rescue[s, m] = False
         if not valid[m]:
             fs[s, m] = np.nan
             lam_out[s, m] = np.nan
@@ -502,8 +575,10 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
         fl = 8
         if F > 0.0 and np.isfinite(F):
             fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
-                       fscale, lscale, F, lam, E_out, X_out, yt_out, neff_out, False)
-        if (fl & 40) != 0:
+                       fscale, lscale, F, lam, none, none, none, none, False)
+        # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
+        # reverse_circles): neither the continuation nor the scan can replace it
+        if (fl & 40) != 0 and not reverse[m]:
             # Newton from (Bishop's F, lam = 0) diverged or reached a spurious
             # root (negative base strength): continuation from Spencer's
             # constant function, whose root is found reliably from that start,
@@ -527,37 +602,36 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
                     break
             if ok:
                 fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
-                            couple, fscale, lscale, F2, lam2, E_out, X_out, yt_out,
-                            neff_out, False)
+                            couple, fscale, lscale, F2, lam2, none, none, none, none, False)
                 if (fl2 & 32) == 0:
                     F = F2
                     lam = lam2
                     done = True
                     fl = fl2
-        if not done or (fl & 104) != 0:
-            # Newton from lam = 0 (and the continuation) missed, or reached a
-            # root across a pole of the recursion: scan lam over both signs
-            # for a root on the physical branch, bracketed before Newton
-            F3, lam3, k3, d3, fl3 = _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb,
-                                            yb_b, yt_b, xm, yb, couple, fscale, lscale, tol,
-                                            max_iter, F0, lams, E_out, X_out, yt_out, neff_out)
-            n_it += k3
-            if d3:
-                F = F3
-                lam = lam3
-                done = True
-                fl = fl3
+        # Newton from lam = 0 (and the continuation) missed, or reached a
+        # root across a pole of the recursion: the lam scan over both signs
+        # looks for a root on the physical branch (after this kernel)
+        rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
         fs[s, m] = F
         lam_out[s, m] = lam
         iters[s, m] = n_it
         conv[s, m] = done
-        if not (F > 0.0) or not np.isfinite(F):
-            flags[s, m] = 8
-            continue
-        if want:
-            fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
-                       fscale, lscale, F, lam, E_out, X_out, yt_out, neff_out, True)
-        flags[s, m] = fl
+        flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
+
+
+@njit(cache=True, fastmath=_FASTMATH)
+def _forces_kernel(c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale, lscale,
+                   valid, fs, lam, flags, E_out, X_out, yt_out, neff_out):
+    """Interslice forces, line of thrust and base normals of the solutions (on request)."""
+    S = fs.shape[0]
+    M = fs.shape[1]
+    for k in range(S * M):
+        s = k // M
+        m = k - s * M
+        F = fs[s, m]
+        if valid[m] and F > 0.0 and np.isfinite(F):
+            flags[s, m] = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
+                                fscale, lscale, F, lam[s, m], E_out, X_out, yt_out, neff_out, True)
 
 
 def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=None,
@@ -586,34 +660,52 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
     -------
     dict with ``fs``, ``lam``, ``converged``, ``flags``, ``iterations`` and
     optionally ``E``, ``X``, ``thrust_y``, ``normal_eff``.
+    ``iterations`` counts Newton's steps, the continuation's and the lam
+    scan's (neither is run on :func:`reverse_circles`).
     """
     S, M, N = c.shape
     if F_start is None:
         from .bishop import bishop
         F_start = bishop(terms, c, tan_phi, tol=1e-3, max_iter=20)["fs"]
-    F_start = np.broadcast_to(np.asarray(F_start, dtype=float), (S, M))
-    lam_start = np.broadcast_to(np.asarray(lam_start, dtype=float), (S, M))
+    c = _dense(c, (S, M, N))
+    tan_phi = _dense(tan_phi, (S, M, N))
+    F_start = _dense(F_start, (S, M))
+    lam_start = _dense(lam_start, (S, M))
     fs = np.empty((S, M))
     lam = np.empty((S, M))
     iters = np.zeros((S, M), dtype=np.int64)
     conv = np.zeros((S, M), dtype=np.bool_)
     flags = np.zeros((S, M), dtype=np.int64)
-    shp = (S, M, N + 1) if return_forces else (1, 1, 1)
-    E = np.empty(shp)
-    X = np.empty(shp)
-    yt = np.empty(shp)
-    neff = np.empty((S, M, N) if return_forces else (1, 1, 1))
+    rescue = np.zeros((S, M), dtype=np.bool_)
+    f = np.ascontiguousarray(f, dtype=float)
     G0 = terms.couple.sum(axis=1)
     bank = terms.bank
+    xm = np.asarray(bank.x_mid, dtype=float)
+    yb = np.asarray(bank.y_base, dtype=float)
+    valid = np.ascontiguousarray(terms.valid)
     _gle_kernel(c, tan_phi, terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B,
-                terms.ul, terms.dx, terms.dy, np.ascontiguousarray(f, dtype=float), G0,
-                terms.x_bound, terms.y_bound_base, terms.y_bound_top,
-                np.asarray(bank.x_mid, dtype=float), np.asarray(bank.y_base, dtype=float),
-                terms.couple, terms.force_scale, terms.length_scale,
-                np.ascontiguousarray(terms.valid), float(tol), int(max_iter), F_start,
-                lam_start, SCAN_LAMBDAS, fs, lam, iters, conv, flags, E, X, yt, neff,
-                bool(return_forces))
+                terms.ul, terms.dx, terms.dy, f, G0, terms.x_bound, terms.y_bound_base,
+                terms.y_bound_top, xm, yb, terms.couple, terms.force_scale, terms.length_scale,
+                valid, reverse_circles(terms), float(tol), int(max_iter), F_start, lam_start,
+                fs, lam, iters, conv, flags, rescue)
+    if rescue.any():
+        si, mi = np.nonzero(rescue)
+        Fr, lr, kr, found, flr = bracketed_roots(terms, c, tan_phi, f, (si, mi), F_start[si, mi],
+                                                 tol=tol, max_iter=max_iter)
+        iters[si, mi] += kr
+        si, mi = si[found], mi[found]
+        fs[si, mi] = Fr[found]
+        lam[si, mi] = lr[found]
+        conv[si, mi] = True
+        flags[si, mi] = flr[found]
     out = {"fs": fs, "lam": lam, "converged": conv, "flags": flags, "iterations": iters}
     if return_forces:
+        E = np.empty((S, M, N + 1))
+        X = np.empty((S, M, N + 1))
+        yt = np.empty((S, M, N + 1))
+        neff = np.empty((S, M, N))
+        _forces_kernel(c, tan_phi, terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B, terms.ul, f,
+                       terms.x_bound, terms.y_bound_base, terms.y_bound_top, xm, yb, terms.couple,
+                       terms.force_scale, terms.length_scale, valid, fs, lam, flags, E, X, yt, neff)
         out.update(E=E, X=X, thrust_y=yt, normal_eff=neff)
     return out

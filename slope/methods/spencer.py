@@ -168,16 +168,16 @@ def spencer(terms, c, tan_phi, *, tol=1e-6, max_iter=50, F_start=None, lam_start
     # Newton on Spencer's own equations from there.
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         beyond = (net_forces(np.where(np.isfinite(F), F, 1.0), th)[3] <= 0).any(axis=2)
-    miss = valid & (~conv | failed | ~(F > 0) | beyond)
-    if miss.any():
-        from .gle import bracketed_roots
+    from .gle import bracketed_roots, reverse_circles
 
+    # the scan finds no unflagged root on a reverse circle (a bound, see
+    # reverse_circles): it is not run there
+    miss = valid & (~conv | failed | ~(F > 0) | beyond) & ~reverse_circles(terms)[None, :]
+    if miss.any():
         si, mi = np.nonzero(miss)
         F0 = np.broadcast_to(np.asarray(F_start, dtype=float), (S, M))[si, mi]
-        Fb, lb, kb, found = bracketed_roots(terms, np.ascontiguousarray(np.broadcast_to(c, (S, M, N))),
-                                            np.ascontiguousarray(np.broadcast_to(tan_phi, (S, M, N))),
-                                            np.ones((M, N + 1)), (si, mi), F0, tol=tol,
-                                            max_iter=max_iter)
+        Fb, lb, kb, found, _ = bracketed_roots(terms, c, tan_phi, np.ones((M, N + 1)), (si, mi), F0,
+                                               tol=tol, max_iter=max_iter)
         if found.any():
             act = np.zeros((S, M), dtype=bool)
             act[si[found], mi[found]] = True

@@ -114,6 +114,16 @@ class SimulationResult:
     def pf_circles_interval(self):
         return self._pf(self.fs_circles_only)[1]
 
+    @property
+    def n_searched(self) -> int:
+        """Realisations the per-realisation search was run on: bank FS in its window [above, below)."""
+        if self.refine is None or self.fs_bank is None:
+            return 0
+        fb = self.fs_bank
+        lo = float(self.refine.get("above", 0.0))
+        return int(np.sum(np.isfinite(fb) & (fb >= lo) & (fb < float(self.refine["below"]))
+                          & (self.critical_index >= 0)))
+
     def governing_families(self) -> np.ndarray:
         """Family that governed each realisation (its critical surface's; the search's where it lowered FS)."""
         from ..surfaces import family_of
@@ -179,7 +189,7 @@ class SimulationResult:
                 "std_fs": float(f.std(ddof=1)) if f.size > 1 else None,
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
-                "refine": self.refine, "n_refined": self.n_refined,
+                "refine": self.refine, "n_refined": self.n_refined, "n_searched": self.n_searched,
                 "refine_rejected": self.refine_rejected,
                 **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
@@ -263,7 +273,9 @@ def _run_block(problem, seed, start, stop, refine=None):
 
         # one record per realisation (stores hold 1-D arrays): rejections by reason
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
-        for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
+        # the window [above, below): below ``above`` (1 for case files) a realisation already fails
+        near = np.isfinite(fs_c) & (fs_c < refine.below) & (fs_c >= refine.above) & (out["crit"] >= 0)
+        for r in np.flatnonzero(near):
             if dp:
                 f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:
