@@ -182,6 +182,9 @@ def run_sample(args) -> int:
     ext = out.suffix.lower()
     if ext not in (".npz", ".vtu", ".xdmf"):
         raise InputError(f"--out {args.out!r}: use a .npz, .vtu or .xdmf file name")
+    from .outputs import check_new_file
+
+    check_new_file(out, "--out")  # up front: an existing file is never replaced
     if (args.grid is None) == (args.mesh is None):
         raise InputError("give exactly one of --grid NXxNY (regular grid) or --mesh FILE")
     model = get_model(args.model, theta_h=th, theta_v=tv, angle=args.angle, **_model_kwargs(args))
@@ -295,7 +298,8 @@ def _fill(fp):
     s.add_argument("--mode", type=float, help="most likely value (triangular)")
     s.add_argument("--batch", type=whole_number(1), default=50,
                    help="realisations generated and written per block (default 50)")
-    s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf")
+    s.add_argument("--out", required=True, help="output file .npz, .vtu or .xdmf (a new file: an existing one is "
+                   "never replaced)")
     s.add_argument("--quiet", action="store_true", help="no summary line")
     s.set_defaults(func=run_sample)
     from .fitcommand import add_fit_parser

@@ -140,8 +140,21 @@ def _figures(fit, profiles, folder):
     fig.savefig(folder / "fit_correlation.png", dpi=120)
 
 
+def _output_folder(out: Path) -> Path:
+    """``--out`` checked up front: a folder (new or existing) without any of :data:`OUTPUT_FILES`."""
+    if out.is_symlink() or (out.exists() and not out.is_dir()):
+        raise InputError(f"--out {str(out)!r} is {'a symbolic link' if out.is_symlink() else 'an existing file'}, "
+                         "not a folder; give a folder name")
+    taken = [n for n in OUTPUT_FILES if (out / n).exists()]
+    if taken:
+        raise InputError(f"--out {str(out)!r} already holds {', '.join(taken)}; choose another "
+                         "folder (slipfield never overwrites files)")
+    return out
+
+
 def run_fit(args) -> int:
     """Fit the profiles named on the command line and print/write the results."""
+    out = None if args.out is None else _output_folder(Path(args.out))  # checked before any work
     profiles = []
     for f in args.files:
         profiles += read_profile_csv(f)
@@ -161,13 +174,7 @@ def run_fit(args) -> int:
     if th is not None and not (th > 0 and math.isfinite(th)):
         raise InputError(f"--theta-h must be > 0 (m), got {th!r}")
     block = fit.random_block(args.material, args.property, theta_h=th)
-    out = None
-    if args.out is not None:
-        out = Path(args.out)
-        taken = [n for n in OUTPUT_FILES if (out / n).exists()]
-        if taken:
-            raise InputError(f"--out {str(out)!r} already holds {', '.join(taken)}; choose another "
-                             "folder (slipfield never overwrites files)")
+    if out is not None:
         out.mkdir(parents=True, exist_ok=True)
         _figures(fit, profiles, out)
         (out / "fit.json").write_text(json.dumps(fit.to_dict(), indent=2) + "\n")

@@ -13,7 +13,15 @@ compilation): a realisation whose start surface was met before reuses its
 first band (kept per process), one whose start is new builds it, as in a run.
 
 Target (issue 15): <= 50 ms per refined realisation on one core.
-Run: python scripts/bench_mechanisms.py [n_bank] [n_refined]
+
+Second part, the default window (slope.simulate.refine_names): the same
+realisations simulated side by side with the search off, with the default
+window (bank FS in [1, 1.10)) and with every realisation searched, one
+process, CPU seconds: the CPU the default adds per 1,000 realisations and
+per searched realisation, and the distribution of FS_bank / FS_free that
+sets the margin (the failures the window misses are counted).
+
+Run: python scripts/bench_mechanisms.py [n_bank] [n_refined] [n_window]
 """
 import os
 import sys
@@ -29,17 +37,55 @@ from slipfield.slope.case.analyses import deterministic, random_problem  # noqa:
 from slipfield.slope.case.build import load_case  # noqa: E402
 from slipfield.slope.simulate.engine import batch_fs  # noqa: E402
 from slipfield.slope.simulate.mechanisms import mechanism_search  # noqa: E402
+from slipfield.slope.simulate import simulate  # noqa: E402
+from slipfield.slope.simulate.refine_names import DEFAULT_REFINE_BELOW, FAILURE_FS  # noqa: E402
 from slipfield.slope.simulate.refinement import RefineSettings, refine_realisation  # noqa: E402
 
 CASE = os.path.join(os.path.dirname(__file__), "..", "cases", "levee_soft_clay.toml")
 TARGET_MS = 50.0
 
 
-def main(n_bank=200, n_refined=20):
+def _problem():
     case = load_case(CASE)
     case.data["analysis"]["hypotheses"] = ["undrained"]
     det = deterministic(case)
-    prob = random_problem(case, det, "undrained")
+    return case, random_problem(case, det, "undrained")
+
+
+def window(n=300):
+    """CPU of the default window against the search off and against searching everything (one process)."""
+    case, prob = _problem()
+    seed = int(case.simulation["seed"])
+    dp = dict(search="dynamic-programming")
+    runs = {"off": None, "window [1, 1.10)": RefineSettings(below=DEFAULT_REFINE_BELOW, above=FAILURE_FS, **dp),
+            "every realisation": RefineSettings(below=1e9, **dp)}
+    simulate(prob, 4, seed, refine=runs["every realisation"])  # warm-up: numba, first bands
+    cpu, res = {}, {}
+    for name, st in runs.items():
+        t0 = time.process_time()
+        res[name] = simulate(prob, n, seed, refine=st)
+        cpu[name] = time.process_time() - t0
+    off, win, every = res["off"], res["window [1, 1.10)"], res["every realisation"]
+    added = cpu["window [1, 1.10)"] - cpu["off"]
+    print(f"\ndefault window, levee demo undrained, {n} realisations, one process (CPU s):")
+    for name in runs:
+        print(f"  {name:20s} {cpu[name]:7.2f} s, pf {res[name].pf:.4f}, searched {res[name].n_searched}, "
+              f"lowered {res[name].n_refined}")
+    print(f"  window adds {1e3 * added / n:.1f} ms per realisation ({added * 1000 / n:.1f} s per 1,000), "
+          f"{1e3 * added / max(win.n_searched, 1):.1f} ms per searched realisation; "
+          f"CPU ratio window/off {cpu['window [1, 1.10)'] / cpu['off']:.2f}")
+    ok = np.isfinite(every.fs_bank) & np.isfinite(every.fs)
+    ratio = every.fs_bank[ok] / every.fs[ok]
+    q = np.quantile(ratio, [0.5, 0.9, 0.95, 0.99, 1.0])
+    print("  FS_bank / FS_free, every realisation searched: median {:.4f}, p90 {:.4f}, p95 {:.4f}, p99 {:.4f}, "
+          "max {:.4f}".format(*q))
+    missed = int(np.sum((every.fs < 1.0) & ~(win.fs < 1.0)))
+    print(f"  failures of searching everything that the window misses: {missed} of {int(np.sum(every.fs < 1.0))}; "
+          f"pf off {off.pf:.4f}, window {win.pf:.4f}, everything {every.pf:.4f}")
+
+
+def main(n_bank=200, n_refined=20):
+    case, prob = _problem()
     seed = int(case.simulation["seed"])
     t0 = time.process_time()
     fs, conv, adm = batch_fs(prob, seed, range(n_bank))
@@ -79,3 +125,4 @@ def main(n_bank=200, n_refined=20):
 
 if __name__ == "__main__":
     main(*(int(a) for a in sys.argv[1:3]))
+    window(*(int(a) for a in sys.argv[3:4]))

@@ -26,7 +26,7 @@ from .slices import SliceBank
 from .surfaces import Circle, Circles, Polyline, circle_cuts, polyline_cuts
 from .water import GAMMA_W
 
-__all__ = ["build_bank", "unit_weight_parts", "scale_unit_weights", "section_with_unit_weights",
+__all__ = ["build_bank", "vertical_effective_stress", "unit_weight_parts", "scale_unit_weights", "section_with_unit_weights",
            "WEIGHT_DEPENDENT", "NO_DRIVING_REASON"]
 
 # slice quantities linear in the unit weights (weight · y_centroid stands for y_centroid)
@@ -96,6 +96,59 @@ def build_bank(section, surfaces, n_slices: int = 40, n_quad: int = 3) -> SliceB
         kind = "mixed"
         data = surfaces
     return _assemble(section, x1, x2, reason, kind, data, n_slices, int(n_quad))
+
+
+def polyline_sides(a, b, breaks, n):
+    """Slice sides from a to b (sliding frame, m) with a side at every break inside (a, b).
+
+    The breaks are added to the sides of ``n - len(breaks)`` equal slices,
+    so the count stays ``n`` and every side moves continuously with the
+    surface's vertices (an optimiser sees no jumps); with as many breaks as
+    slices or more, equal widths (the bends cannot all be followed).
+
+    Returns
+    -------
+    ndarray (n + 1,)
+    """
+    tol = 1e-9 * max(1.0, abs(b - a))
+    inner = np.unique(np.asarray(breaks, float))
+    inner = inner[(inner > a + tol) & (inner < b - tol)]
+    m = n - inner.size
+    if m < 1:
+        inner, m = inner[:0], n
+    out = np.sort(np.r_[a + (b - a) / m * np.arange(m + 1), inner])
+    out[0], out[-1] = a, b
+    return out
+
+
+_CROSSING_SAMPLES = 801
+
+
+def zone_crossings(section, poly, x_lo, x_hi):
+    """Abscissae (section frame, m) where a polyline passes from one zone into another.
+
+    Found on a sampling of the line (``_CROSSING_SAMPLES`` points, so crossings
+    closer together than its spacing may be missed) and refined by bisection
+    to 1e-9 of the width; the zone is read just above the line, as the slice
+    bases read it.
+    """
+    x = np.linspace(x_lo, x_hi, _CROSSING_SAMPLES)
+    eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
+
+    def zone(xv):
+        return section.zone_at(xv, poly.y(xv) + eps)
+
+    z = zone(x)
+    # between two zones only: where the line meets the ground (zone -1 above it) is its end, not a crossing
+    j = np.flatnonzero((z[1:] != z[:-1]) & (z[1:] >= 0) & (z[:-1] >= 0))
+    if not j.size:
+        return np.empty(0)
+    a, b, za = x[j], x[j + 1], z[j]
+    for _ in range(int(np.ceil(np.log2((x[1] - x[0]) / (1e-9 * max(1.0, x_hi - x_lo))))) + 1):
+        m = 0.5 * (a + b)
+        same = zone(m) == za
+        a, b = np.where(same, m, a), np.where(same, b, m)
+    return 0.5 * (a + b)
 
 
 def _surface_y(kind, data, rows, x):
@@ -188,6 +241,16 @@ def _assemble(section, x1, x2, reason, kind, data, n, nq) -> SliceBank:
         b = (B - A) / n
         sides = A + b * np.arange(n + 1)  # sliding frame
         sides[:, -1] = B[:, 0]
+        if kind != "circle":
+            # polylines: a slice side at every bend of the surface and of the ground line, so no
+            # slice base cuts across a bend (a thin seam's block would otherwise have bases
+            # through the cover); circles keep equal widths
+            gx = section.ground[:, 0]
+            for k, i in enumerate(rows):
+                if isinstance(data[i], Polyline):
+                    lo, hi = sorted((d[k, 0] * A[k, 0], d[k, 0] * B[k, 0]))
+                    brk = np.r_[data[i].points[:, 0], gx, zone_crossings(section, data[i], lo, hi)] * d[k, 0]
+                    sides[k] = polyline_sides(A[k, 0], B[k, 0], brk, n)
         ys = _surface_y(kind, data, rows, d * sides)
         yt = section.ground_y(d * sides)
         # the downslope end lies on the ground; the upslope end too unless cracked
@@ -481,3 +544,45 @@ def scale_unit_weights(bank, parts, factors):
     w = q["weight"]
     ycen = np.where(w > 0, q["weight_moment"] / np.where(w > 0, w, 1.0), bank.y_base)
     return replace(bank, weight=w, y_centroid=ycen, sigma_v_eff=q["sigma_v_eff"], u_base=q["u_base"])
+
+
+def vertical_effective_stress(section, x, y):
+    """Vertical effective stress σ'v (kPa) at points of the section, as a slice base there would carry it.
+
+    The same terms as a slice base midpoint in :func:`build_bank`: the soil
+    column above the point (moist above the phreatic surface, saturated
+    below), the strip loads there, ponded water above the ground, less the
+    pore pressure of the case's water model. This is the σ'v of the ``ratio``
+    undrained law (su = S · σ'v), so a figure of S can be shown as su in kPa.
+
+    Parameters
+    ----------
+    section : Section
+    x, y : array_like, m
+        Points in the section frame, broadcast together; points above the
+        ground get the stress of a zero-height column.
+
+    Returns
+    -------
+    ndarray, kPa
+        σ'v, shape of the broadcast points; NaN outside every zone.
+    """
+    x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
+    shp = x.shape
+    x, y = x.ravel(), y.ravel()
+    ytop = section.ground_y(x)
+    y = np.minimum(y, ytop)
+    eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
+    zone = section.zone_at(x, y + eps)
+    sig_soil = _column_weight(section, x, y, ytop)
+    sig_tot = sig_soil.copy()
+    water, loads = section.water, section.loads
+    if loads is not None:
+        sig_tot += loads.surcharge(x)
+    if water is not None:
+        if water.phreatic is not None:
+            sig_tot += water.gamma_w * np.maximum(water.phreatic_y(x) - ytop, 0.0)
+        u = water.pore_pressure(x, y, zone, section.zone_names, sig_soil)
+    else:
+        u = np.zeros_like(y)
+    return np.where(zone >= 0, sig_tot - u, np.nan).reshape(shp)

@@ -45,7 +45,8 @@ def _cmd_run(args) -> int:
 
     formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
     results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
-                       figure_formats=formats, overwrite=args.overwrite, **_estimator_kw(args))
+                       figure_formats=formats, overwrite=args.overwrite, refine_search=args.refine_search,
+                       **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -94,7 +95,8 @@ def _cmd_simulate(args) -> int:
                       seed=args.seed, hypothesis=args.hypothesis, resume=args.resume, scheduler=args.scheduler,
                       export_fields=args.export_fields, export_format=args.export_format,
                       progress=not args.quiet, refine_below=args.refine_below,
-                      refine_method=args.refine_method, overwrite=args.overwrite, **_estimator_kw(args))
+                      refine_method=args.refine_method, refine_search=args.refine_search, overwrite=args.overwrite,
+                      **_estimator_kw(args))
     if r.get("estimator") == "subset":
         _print_subset(r, args)
     elif args.json:
@@ -109,7 +111,7 @@ def _cmd_simulate(args) -> int:
               + f"; results in {args.out} (results.json, fs_realisations.csv)")
         print(f"  pf {fmt(s['pf'])} [95 % {fmt(lo)}, {fmt(hi)}]  mean FS {fmt(s['mean_fs'])}  "
               f"std FS {fmt(s['std_fs'])}  no valid surface {s['n_no_valid_surface']}"
-              + (f"  refined lower {s['n_refined']}" if s.get("refine") else ""))
+              + (f"  searched {s['n_searched']}, lowered {s['n_refined']}" if s.get("refine") else ""))
         if args.export_fields:
             print(f"  fields of every realisation in {args.export_fields} ({args.export_format}, fields.json)")
     return 0
@@ -137,7 +139,7 @@ def _cmd_sweep(args) -> int:
     r = sweep_case(args.case, args.out, theta_h=args.theta_h, theta_v=args.theta_v,
                    realisations=args.realisations, jobs=args.jobs, batch=args.batch, seed=args.seed,
                    hypothesis=args.hypothesis, scheduler=args.scheduler, progress=not args.quiet,
-                   overwrite=args.overwrite, **_estimator_kw(args))
+                   overwrite=args.overwrite, refine_search=args.refine_search, **_estimator_kw(args))
     if args.json:
         print(json.dumps({k: r[k] for k in ("case", "hypothesis", "seed", "realisations_per_point", "rows")},
                          indent=2))
@@ -192,6 +194,18 @@ def _estimator_options(p):
                    help="subset: samples per level (default simulation.samples_per_level, then 1000)")
 
 
+def _refine_search_option(p):
+    """--refine-search (run, simulate, sweep): names from the registry of per-realisation searches, or off."""
+    from .simulate.refine_names import (DEFAULT_MARGIN, DEFAULT_REFINE_SEARCH, FAILURE_FS, REFINE_OFF,
+                                        REFINE_SEARCHES)
+
+    p.add_argument("--refine-search", choices=REFINE_SEARCHES + (REFINE_OFF,), default=None, metavar="NAME",
+                   help=f"per-realisation search of realisations near failure (bank FS in [{FAILURE_FS:g}, "
+                        f"{FAILURE_FS + DEFAULT_MARGIN:g}) unless simulation.refine_below says otherwise): "
+                        f"{', '.join(REFINE_SEARCHES)}, or {REFINE_OFF} (default simulation.refine_search, "
+                        f"then {DEFAULT_REFINE_SEARCH})")
+
+
 def _estimator_kw(args) -> dict:
     return {"estimator": args.estimator, "level_probability": args.level_probability,
             "samples_per_level": args.samples_per_level}
@@ -216,6 +230,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "(default: png)")
     _overwrite_option(r)
     _estimator_options(r)
+    _refine_search_option(r)
     r.set_defaults(func=_cmd_run)
     c = sub.add_parser("check", help="check a case file and report every problem at once")
     c.add_argument("case")
@@ -230,11 +245,13 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--export-format", choices=("xdmf", "vtu", "npz"), default="xdmf",
                    help="format of --export-fields (default xdmf: one time series per property)")
     s.add_argument("--refine-below", type=_positive_number, default=None, metavar="FS",
-                   help="refine the critical surface of realisations with a bank FS below FS into a polyline "
-                        "with their own fields (slower; off by default)")
-    s.add_argument("--refine-method", default="spencer", choices=POLYLINE_METHOD_NAMES,
-                   help="method of slices of the refined polylines (default spencer; with --refine-below)")
+                   help="search realisations with a bank FS in [1, FS) with their own fields (default "
+                        "simulation.refine_below, then 1.1)")
+    s.add_argument("--refine-method", default=None, choices=POLYLINE_METHOD_NAMES,
+                   help="method of slices of the per-realisation search's surfaces (default "
+                        "simulation.refine_method, then spencer)")
     _estimator_options(s)
+    _refine_search_option(s)
     s.set_defaults(func=_cmd_simulate)
     w = sub.add_parser("sweep", help="pf over a grid of scales of fluctuation (common random numbers)")
     _sim_options(w, sweep=True)
@@ -243,6 +260,7 @@ def build_parser() -> argparse.ArgumentParser:
     w.add_argument("--theta-v", default=None, help="θv values, m, comma separated, inf allowed "
                    "(default sweep.theta_v of the case)")
     _estimator_options(w)
+    _refine_search_option(w)
     w.set_defaults(func=_cmd_sweep)
     from slipfield.fields.cli import add_fields_parser
     add_fields_parser(sub)

@@ -14,6 +14,13 @@ multiplier of the zone's su profile, mean 1 typically) for bases analysed
 undrained; ``"unit_weight"`` (dimensionless factor on the zone's γ and γsat:
 slice weights, σ'v and ru pore pressures follow it, so each sample gets its
 own slice terms, see :func:`slope.bank.scale_unit_weights`).
+
+Site data (``gaussian_shift``): a column may carry, per slice base, a shift
+``μ_c`` of its variable in the standard-normal space of its marginal ``F``;
+the value on a base is then ``F⁻¹(Φ(Φ⁻¹(F(x)) + μ_c))`` instead of ``x``.
+``μ_c`` is the conditional (simple-kriging) mean of the property's field at
+the base given the case's site data (:mod:`slope.case.site_means`); where
+``μ_c = 0`` (no data) the value is ``x`` itself, bit for bit.
 """
 from __future__ import annotations
 
@@ -49,12 +56,17 @@ class SliceBankLimitState:
     weight_parts : dict, optional
         :func:`slope.bank.unit_weight_parts` of the bank's surfaces for the
         zones assigned ``"unit_weight"`` (required for them).
+    gaussian_shift : mapping int -> (Marginal, ndarray (m, n)), optional
+        Column of ``X`` → its marginal and the standard-normal shift ``μ_c``
+        of every slice base of the bank (0 where the column's zone has no
+        data). The variable keeps its own spread: only its median moves on
+        each base (for c', φ' and su factors; not for unit weights).
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
     """
 
     def __init__(self, bank, materials, assign, *, method="bishop", hypothesis="drained",
-                 chunk=2_000_000, weight_parts=None, **method_opts):
+                 chunk=2_000_000, weight_parts=None, gaussian_shift=None, **method_opts):
 
         if not assign:
             raise InputError("assign: map at least one column of X to (zone, property)")
@@ -83,6 +95,18 @@ class SliceBankLimitState:
             raise InputError(f"weight_parts: no unit_weight_parts for zone(s) {missing}; compute them with "
                              "slipfield.slope.bank.unit_weight_parts(section, surfaces, zones, n_slices)")
         self.weight_parts = weight_parts or {}
+        self.shift = {}
+        for col, pair in (gaussian_shift or {}).items():
+            marginal, mu = pair
+            mu = np.asarray(mu, float)
+            if int(col) not in self.assign or self.assign[int(col)][1] == "unit_weight":
+                raise InputError(f"gaussian_shift[{col}]: give it only for columns assigned c, phi, tan_phi "
+                                 "or su_factor")
+            if mu.shape != np.shape(bank.zone) or not np.all(np.isfinite(mu)):
+                raise InputError(f"gaussian_shift[{col}]: need finite shifts of shape {np.shape(bank.zone)} "
+                                 f"(surfaces, slices), got {mu.shape}")
+            if np.any(mu != 0):
+                self.shift[int(col)] = (marginal, mu)
         self.materials = materials
         self.bank = bank
         self.valid = np.asarray(bank.valid, bool)
@@ -115,6 +139,8 @@ class SliceBankLimitState:
         for col, (zi, prop) in self.assign.items():
             mask = self.zone == zi
             v = X[:, col][:, None, None]
+            if col in self.shift:
+                v = self._shifted(col, X[:, col], mask)
             if prop == "c":
                 c = np.where(mask & ~self.undrained, v, c)
             elif prop == "phi":
@@ -125,6 +151,13 @@ class SliceBankLimitState:
                 c = np.where(mask & self.undrained, v * c0, c)
         valid_rows = self.valid[None, :, None]
         return np.where(valid_rows, c, 0.0), np.where(valid_rows, t, 0.0)
+
+    def _shifted(self, col, x, mask):
+        """Values ``(s, m, n)`` of column ``col`` on each base: its median moved by ``μ_c`` (Gaussian space)."""
+        marginal, mu = self.shift[col]
+        u = np.asarray(marginal.to_standard_normal(x), float)[:, None, None]
+        moved = np.asarray(marginal.from_standard_normal(u + mu[None]), float)
+        return np.where(((mu != 0) & mask)[None], moved, x[:, None, None])
 
     def __call__(self, X):
 
@@ -140,8 +173,7 @@ class SliceBankLimitState:
             s = x.shape[0]
             terms, c, t = self._chunk(x)
             if np.any(c < 0) or np.any(t < 0):
-                raise InputError("random strengths produced negative c or tan(phi); use a "
-                                 "positive marginal (lognormal, truncated-normal, beta)")
+                raise InputError(self._sign_message(x, c, t))
             r = factor_of_safety(terms, c.reshape(-1, terms.n_surfaces, n), t.reshape(-1, terms.n_surfaces, n),
                                  method=self.method, **self.method_opts)
             fs.append(r.fs.reshape(s, m))
@@ -150,6 +182,30 @@ class SliceBankLimitState:
         fs = np.concatenate(fs)
         return (np.where(self.valid[None, :], fs, np.nan), np.concatenate(conv),
                 np.concatenate(adm))
+
+    def _sign_message(self, x, c, t):
+        """What made a base strength negative, in the user's terms, and the fix."""
+        vals = [np.empty(0)]
+        for col, (zi, prop) in self.assign.items():
+            if prop == "phi":  # the values on the bases (site data move them base by base)
+                mask = self.zone == zi
+                vals.append(self._shifted(col, x[:, col], mask)[:, mask].ravel() if col in self.shift
+                            else x[:, col])
+        vals = np.concatenate(vals)
+        where = "at an evaluation point (a sample, or a trial point of FORM or the tornado)"
+        if vals.size and np.nanmax(vals) >= 90.0:
+            return (f"φ' reached {np.nanmax(vals):.4g}° {where}; at 90° or more tan φ' is no longer a friction "
+                    "coefficient. Its marginal has a tail beyond 90°, as a lognormal or normal always has: "
+                    "bound φ' below 90° (truncated-normal or beta with upper < 90) or reduce its cov")
+        if vals.size and np.nanmin(vals) < 0.0:
+            return (f"φ' was {np.nanmin(vals):.4g}° (negative) {where}; use a marginal for φ' bounded below "
+                    "at 0 (lognormal, truncated-normal or beta with lower >= 0) or reduce its cov")
+        if np.any(t < 0):
+            return (f"tan φ' was negative {where}; use a marginal for it bounded below at 0 (lognormal, "
+                    "truncated-normal or beta with lower >= 0) or reduce its cov")
+        return (f"c' or su was negative {where} (least {float(np.min(c)):.4g} kPa on a slice base); use a "
+                "marginal bounded below at 0 (lognormal, truncated-normal or beta with lower >= 0) or reduce "
+                "its cov")
 
     def _chunk(self, x):
         """Slice terms and base strengths ``(s, m, n)`` of the samples ``x``."""

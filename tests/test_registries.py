@@ -132,13 +132,12 @@ def test_every_case_search_from_a_case(kind, tmp_path):
 
 
 def test_every_library_search(tmp_path):
-    """Searches the case file cannot name (refine, weak-layer) run through the one library dispatcher."""
+    """Searches the case file cannot name (refine, block, dynamic-programming) run through the one library dispatcher."""
     sec = _load(tmp_path, CASE).section
     opts = {"centre-lattice": dict(nx=4, ny=4, n_radii=4),
             "window": dict(upslope=(2.0, 10.0), downslope=(24.0, 32.0), n_up=4, n_down=4, n_radii=4),
             "fixed": dict(surfaces=critical_surface(sec, "centre-lattice", nx=4, ny=4, n_radii=4).critical),
             "refine": dict(max_evaluations=40, n_vertices=5),
-            "weak-layer": dict(zone="upper", x_from=4.0, x_to=30.0, n_positions=3, n_lengths=3),
             "block": dict(zone="upper", entry=(0.0, 8.0), exit=(16.0, 21.0), points=3),
             "dynamic-programming": dict(settings=DPSettings(columns=6, nodes=5, passes=1))}
     assert set(opts) == set(SEARCHES), "a new search needs its options here"

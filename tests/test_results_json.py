@@ -334,7 +334,7 @@ def test_every_plotted_risk_point_equals_results_json(demo_analysis, name):
             assert y == p["annual_pf"]
         else:  # drawn as "below" its upper bound on a log axis
             assert y == p["annual_pf_interval_95"][1]
-    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    legend = [t.get_text() for lg in fig.legends for t in lg.get_texts()]  # below the axes
     for line in doc["risk"]["tolerability"]:
         assert any(line["label"] in t for t in legend)
     foot = [t.get_text() for t in fig.texts if t.get_gid() == "risk-footnote"][0]

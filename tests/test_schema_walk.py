@@ -282,9 +282,8 @@ WALK = {
                            "sim"),
     "site_data.error_cov": (SITE, SITE.replace("readings = [[-1.0, 55.0]]",
                                                "readings = [[-1.0, 55.0]]\nerror_cov = 0.2"), "sim"),
-    "simulation.refine_search": (REFINE, REFINE.replace("refine_below = 5.0",
-                                                        'refine_below = 5.0\nrefine_search = "dynamic-programming"'),
-                                 "engine"),
+    # on by default (dynamic programming): "off" and another search of the registry each change the run
+    "simulation.refine_search": (BASE, sub("batch = 3", 'batch = 3\nrefine_search = "off"'), "engine"),
     "random.material": (LAYERS, LAYERS.replace('material = "clay"\nproperty = "c"', 'material = "sand"\nproperty = "c"'),
                         "rel"),
     "random.property": (BASE, sub('property = "phi"', 'property = "unit_weight"').replace(
@@ -421,8 +420,10 @@ def probe_engine(case, tmp_path, monkeypatch):
     seen = {}
 
     def sweep_spy(prob, theta_h, theta_v, n, seed, **kw):
+        refine = kw.get("refine")
         seen["sweep"] = dict(theta_h=list(theta_h), theta_v=list(theta_v), n=n, seed=seed,
-                             jobs=kw.get("n_jobs"), batch=kw.get("batch"))
+                             jobs=kw.get("n_jobs"), batch=kw.get("batch"),
+                             refine=None if refine is None else refine.describe())
         raise _Stop
 
     def simulate_spy(prob, n, seed, **kw):

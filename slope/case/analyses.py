@@ -31,7 +31,7 @@ from ..search import evaluate_surfaces, search_from_case
 from ..search.families import add_families
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem", "risk_scenarios",
+__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem",
            "surface_xy", "properties_for", "marginal_of"]
 
 
@@ -159,39 +159,6 @@ def marginal_of(case: Case, r: dict):
     return make_marginal(r["distribution"], **kw)
 
 
-def risk_scenarios(case: Case, pf_by_hypothesis: dict) -> dict | None:
-    """The case's ``[risk]`` as scenarios of the risk chart, one per hypothesis; None without ``[risk]``.
-
-    Parameters
-    ----------
-    pf_by_hypothesis : dict
-        ``{hypothesis: {"pf": float, "pf_interval_95": [lo, hi]}}`` (the
-        spatial simulation's estimate; hypotheses without one are skipped).
-
-    Returns
-    -------
-    dict
-        ``scenarios`` (for :func:`slope.report.risk.risk_points`),
-        ``tolerability`` (the case's lines) and ``consequence_label``.
-    """
-    risk = case.data.get("risk")
-    if risk is None:
-        return None
-    scen = []
-    for hyp, est in pf_by_hypothesis.items():
-        if est is None:
-            continue
-        sc = {"label": f"{hyp} (spatial)", "consequence": risk["consequence"]}
-        if "annual_pf" in risk:
-            sc["annual_probability"] = risk["annual_pf"]
-        else:
-            sc.update(pf=est["pf"], annual_exceedance=risk["annual_exceedance"],
-                      pf_interval=tuple(est["pf_interval_95"]))
-        scen.append(sc)
-    return {"scenarios": scen, "tolerability": risk.get("tolerability", []),
-            "consequence_label": risk["consequence_label"]}
-
-
 def _name(r) -> str:
     return f"{r['material']}.{r['property']}"
 
@@ -225,21 +192,24 @@ class _ExpandedLimitState:
         return fs, conv, np.isfinite(fs) & (fs > 0)
 
 
-def _limit_state(case: Case, bank, props, hypothesis, method, surfaces):
+def _limit_state(case: Case, bank, props, hypothesis, method, surfaces, means=None):
+    """The single-variable limit state; ``means``: ``{j: μ_c (m, n)}`` of :func:`.site_means.gaussian_means`."""
     zones = case.section.zones
-    assign, expand = {}, []
+    assign, expand, shift = {}, [], {}
     for j, r in enumerate(props):
         prop = {"c": "c", "phi": "phi", "su": "su_factor", "su_ratio": "su_factor",
                 "unit_weight": "unit_weight"}[r["property"]]
         for z in zones:
             if z.material == r["material"]:
+                if means and j in means:
+                    shift[len(expand)] = (marginal_of(case, r), means[j])
                 assign[len(expand)] = (z.name, prop)
                 expand.append(j)
     opts = dict(interslice=case.analysis["interslice"]) if method == "morgenstern-price" else {}
     uw = [i for i, z in enumerate(zones) if (z.name, "unit_weight") in assign.values()]
     parts = unit_weight_parts(case.section, surfaces, uw, case.analysis["slices"]) if uw else None
     inner = SliceBankLimitState(bank, case.section.materials, assign, method=method,
-                                hypothesis=hypothesis, weight_parts=parts, **opts)
+                                hypothesis=hypothesis, weight_parts=parts, gaussian_shift=shift or None, **opts)
     return _ExpandedLimitState(inner, expand)
 
 
@@ -247,8 +217,20 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
                                 estimator=None) -> dict | None:
     """Each random property as one random variable, on the critical surface.
 
+    With ``[[site_data]]`` for a property, its variable ``U`` (standard normal
+    in the space of its marginal) keeps its prior spread and the value on
+    each slice base is ``F⁻¹(Φ(μ_c + U))``, ``μ_c`` the conditional (kriged)
+    mean of the property's field at the base (:mod:`.site_means`): the data
+    move the median base by base, they do not narrow the variable
+    (conservative; the spatial simulation is where they reduce uncertainty).
+    The summary's ``site_data`` says so, names the properties, and gives the
+    same analyses without the data beside them when that is cheap (fixed
+    surface; with ``research_surface`` only the FS at the means).
+
     Returns None when no random property acts under ``hypothesis``.
     """
+    from .site_means import gaussian_means
+
     props = properties_for(case, hypothesis)
     if not props:
         return None
@@ -264,17 +246,16 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
     research = bool(cfg.get("research_surface", False))
     if research:
         # every sample takes the least FS over the whole trial bank (a per-sample search of those surfaces)
-        surfaces = _surface_list(first.surfaces)
-        ls = LimitState(_limit_state(case, first.bank, props, hypothesis, method, surfaces))
+        bank, surfaces = first.bank, _surface_list(first.surfaces)
     else:
-        ls = LimitState(_limit_state(case, first.bank.subset([first.critical_index]), props, hypothesis,
-                                     method, [first.critical]))
+        bank, surfaces = first.bank.subset([first.critical_index]), [first.critical]
+    means = gaussian_means(case, det, hypothesis, bank)
+    ls = LimitState(_limit_state(case, bank, props, hypothesis, method, surfaces, means))
     seed = int(case.simulation["seed"])
     out: dict = {"variables": [{"name": n, "distribution": v.marginal.name, "mean": v.mean, "std": v.std}
                                for n, v in zip(names, variables.variables)],
                  "surface": ("re-searched over the trial surfaces for each sample" if research else
                              "fixed (deterministic critical surface)"), "method": method}
-    arrays: dict = {}
     est_name, sub = estimator if estimator is not None else ("monte-carlo", None)
     settings = Settings(samples=int(cfg["samples"]), seed=seed, n_jobs=n_jobs,
                         **({} if sub is None else {"level_probability": sub.level_probability,
@@ -282,7 +263,30 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
     methods = list(cfg["methods"])
     if est_name != "monte-carlo" and "subset" not in methods:
         methods.append("subset")  # [simulation] estimator = subset/auto: the single variables' pf by subset too
-    for m in methods:  # each through the registry; one that cannot reach an answer says so in its row
+    arrays = _run_methods(ls, variables, settings, methods, cfg, est_name, out)
+    k = float(cfg.get("tornado_k", 2.0))
+    try:
+        tr = tornado(ls, variables, k=k)
+    except InputError as exc:  # the tornado too reports in its own row and stops nothing
+        out["tornado"] = {"k": k, "status": f"not computed: {exc}"}
+        tr = None
+    else:
+        out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common "
+                          "practice)", "fs_mean": float(tr.fs_mean), "names": list(tr.names),
+                          "fs_low": [float(v) for v in tr.fs_low], "fs_high": [float(v) for v in tr.fs_high],
+                          "clipped": list(tr.clipped)}
+        arrays["tornado"] = tr
+    if means:
+        plain = LimitState(_limit_state(case, bank, props, hypothesis, method, surfaces))
+        out["site_data"] = _site_data_summary(means, names, ls, plain, variables, settings,
+                                              [] if research else [m for m in methods if m in out], cfg, est_name)
+    return {"summary": out, "arrays": arrays}
+
+
+def _run_methods(ls, variables, settings, methods, cfg, est_name, out) -> dict:
+    """Each estimator through the registry into ``out``; one that cannot reach an answer says so in its row."""
+    arrays = {}
+    for m in methods:
         if m == "subset" and "subset" not in cfg["methods"] and est_name == "auto":
             from ..simulate.estimators import AUTO_MIN_FAILURES
 
@@ -297,18 +301,43 @@ def single_variable_reliability(case: Case, det: dict, hypothesis: str, *, n_job
             out[m], arr = {"status": "not computed: a numerical failure in the evaluation"}, {}
         if arr:
             arrays[m] = arr
-    k = float(cfg.get("tornado_k", 2.0))
+    return arrays
+
+
+#: what the comparison without site data keeps of each method's row
+_COMPARED = ("pf", "pf_normal", "beta", "beta_from_pf", "beta_normal", "mean_fs")
+
+
+def _fs_at_means(ls, variables) -> float | None:
+    ev = ls.evaluate(np.asarray([v.mean for v in variables.variables], float)[None, :])
+    return float(ev.fs[0]) if bool(ev.valid[0]) else None
+
+
+def _site_data_summary(means, names, ls, plain, variables, settings, methods, cfg, est_name) -> dict:
+    """The ``site_data`` block: which variables used conditional means, and the same analyses without them."""
+    used = [names[j] for j in sorted(means)]
+    without: dict = {}
     try:
-        tr = tornado(ls, variables, k=k)
-    except InputError as exc:  # the tornado too reports in its own row and stops nothing
-        out["tornado"] = {"k": k, "status": f"not computed: {exc}"}
-        return {"summary": out, "arrays": arrays}
-    out["tornado"] = {"k": k, "note": "each variable at mean ± k·σ, others at their means (k = 2 is common practice)",
-                      "fs_mean": float(tr.fs_mean), "names": list(tr.names),
-                      "fs_low": [float(v) for v in tr.fs_low], "fs_high": [float(v) for v in tr.fs_high],
-                      "clipped": list(tr.clipped)}
-    arrays["tornado"] = tr
-    return {"summary": out, "arrays": arrays}
+        without["fs_at_means"] = _fs_at_means(plain, variables)
+    except InputError as exc:
+        without["fs_at_means"] = None
+        without["status"] = f"not computed: {exc}"
+    rows: dict = {}
+    if methods:
+        _run_methods(plain, variables, settings, methods, cfg, est_name, rows)
+    for m, row in rows.items():
+        without[m] = ({k: row[k] for k in _COMPARED if k in row} if "status" not in row or
+                      str(row.get("status", "")).startswith("ok") else {"status": row["status"]})
+    try:
+        fs_c = _fs_at_means(ls, variables)
+    except InputError:
+        fs_c = None
+    return {"conditional_mean": used,
+            "fs_at_means": fs_c,
+            "note": ("the variables named use the conditional (simple-kriging) mean of their field at each slice "
+                     "base, given the site data; their spread is the prior one (the data are not used to narrow "
+                     "it: conservative); the spatial simulation is where the data reduce uncertainty"),
+            "without_site_data": without}
 
 
 def _surface_list(surfaces):

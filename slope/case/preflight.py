@@ -248,7 +248,7 @@ def preflight(case: Case, *, realisations: int | None = None, batch: int | None 
     try:
         RefineSettings.from_case(case.simulation)
     except InputError as exc:
-        problems.append(f"[simulation] refine_below/refine_method: {exc}")
+        problems.append(f"[simulation] refine_search/refine_below/refine_method: {exc}")
     _check_memory(case, realisations, batch, problems)
     if not problems:
         _check_randoms(case, realisations, problems)

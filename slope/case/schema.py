@@ -30,7 +30,7 @@ from ..reliability.registry import ESTIMATOR_NAMES
 from ..search import SEARCHES, case_search_names
 from ..simulate.problem import AVERAGING, PROPS
 from ..simulate.estimators import AUTO_MIN_FAILURES, ESTIMATORS
-from ..simulate.refinement import REFINE_SEARCHES
+from ..simulate.refine_names import DEFAULT_MARGIN, DEFAULT_REFINE_BELOW, DEFAULT_REFINE_SEARCH, REFINE_OFF, REFINE_SEARCHES
 
 __all__ = ["CaseError", "read_case", "parse_case", "SCHEMA", "acts_under"]
 
@@ -335,8 +335,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "averaging": Key(_string(tuple(AVERAGING)), default="base-average"),
         "jobs": Key(_integer(lo=1), default=1),
         "batch": Key(_integer(lo=1), default=100),
-        "refine_below": Key(_number(lo=0, lo_open=True),
-                            doc="refine the critical surface of realisations with a bank FS below this (-)"),
+        "refine_below": Key(_number(lo=1, lo_open=True), default=DEFAULT_REFINE_BELOW,
+                            doc="the per-realisation search runs on realisations with a bank FS in [1, refine_below) "
+                                f"(-; default 1 + {DEFAULT_MARGIN:g}: near failure, where it can change pf)"),
         "refine_method": Key(_string(POLYLINE_METHOD_NAMES), default="spencer",
                              doc="method of slices of the refined polylines"),
         # subset simulation (slope.simulate.rare); names from its registry
@@ -346,9 +347,10 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "level_probability": Key(_number(lo=0, hi=0.5, lo_open=True),
                                  doc="subset: conditional probability of each level (-), default 0.1"),
         "samples_per_level": Key(_integer(lo=1), doc="subset: samples per level, default 1000"),
-        "refine_search": Key(_string(REFINE_SEARCHES),
-                             doc="per-realisation search below refine_below: the critical surface bent by Nelder-Mead, "
-                                 "or dynamic programming (Baker 1980) from the lowest surfaces of different families"),
+        "refine_search": Key(_string(REFINE_SEARCHES + (REFINE_OFF,)), default=DEFAULT_REFINE_SEARCH,
+                             doc="per-realisation search of realisations near failure (on by default): dynamic "
+                                 "programming (Baker 1980) from the lowest surfaces of different families, the "
+                                 f"critical surface bent by Nelder-Mead, or {REFINE_OFF} (the bank's surfaces only)"),
     },
     "reliability": {
         "methods": Key(_string_list(ESTIMATOR_NAMES), default=["monte-carlo", "point-estimate", "form"]),
@@ -897,9 +899,12 @@ def _check_conditional_keys(case: dict, raw: dict, where, problems: list[str]) -
         problems.append(f"{where('analysis', None, 'interslice')}analysis.interslice is read only by "
                         "morgenstern-price, which is not among analysis.method/methods; remove it or add the method")
     sim = case.get("simulation", {})
-    if given("simulation", "refine_method") and "refine_below" not in sim:
-        problems.append(f"{where('simulation', None, 'refine_method')}simulation.refine_method is read only with "
-                        "simulation.refine_below; give refine_below (e.g. 1.2) or remove refine_method")
+    if sim.get("refine_search") == REFINE_OFF:
+        for key in ("refine_below", "refine_method"):
+            if given("simulation", key):
+                problems.append(f"{where('simulation', None, key)}simulation.{key} does nothing with "
+                                f"simulation.refine_search = \"{REFINE_OFF}\"; remove it or name a search "
+                                f"({', '.join(REFINE_SEARCHES)})")
     tc = case.get("tension_crack")
     if tc is not None and given("tension_crack", "fill") and not tc.get("water_filled"):
         problems.append(f"{where('tension_crack', None, 'fill')}tension_crack.fill is read only when "
@@ -940,10 +945,6 @@ def _check_search_families(case: dict, search: dict, zone_names: set, where, pro
             elif v[1] <= x_lo or v[0] >= x_hi:
                 problems.append(f"{where('search.block', i, r)}{key}.{r} {v!r} does not intersect the ground line "
                                 f"(x = {x_lo:g} to {x_hi:g} m); give a range on it")
-    sim = case.get("simulation", {})
-    if "refine_search" in sim and "refine_below" not in sim:
-        problems.append(f"{where('simulation', None, 'refine_search')}simulation.refine_search does nothing without "
-                        "simulation.refine_below (the bank FS below which realisations are searched); give both")
     method = case.get("analysis", {}).get("method")
     if (blocks or "dynamic_programming" in search) and method is not None and method not in POLYLINE_METHODS:
         problems.append(f"{where('analysis', None, 'method')}analysis.method {method!r} takes moments about a point, "

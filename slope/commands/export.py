@@ -9,7 +9,7 @@ import numpy as np
 from ..errors import InputError
 from ._shared import slug, write_json
 
-__all__ = ["export_realisations", "EXPORT_FORMATS"]
+__all__ = ["export_realisations", "write_realisations", "EXPORT_FORMATS"]
 
 EXPORT_FORMATS = ("xdmf", "vtu", "npz")
 #: property → unit of the exported field (multiplier properties are factors)
@@ -18,7 +18,54 @@ _UNITS = {"c": "kPa", "phi": "degree", "su": "kPa", "su_ratio": "-"}
 
 def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, indices=None,
                         statuses=None) -> dict:
+    """Write each realisation's property fields on the section grid, with its FS, into a checked folder.
+
+    ``directory`` follows the output-folder rules of ``slipfield simulate
+    --export-fields`` (:class:`.folders.OutputFolder`): a new or empty
+    folder, or one holding an earlier export (its marker file says so, and
+    only the files it lists are replaced); a folder with files slipfield
+    did not write, a file, a symbolic link or the current folder are refused
+    (:class:`InputError` naming ``directory`` and the fix) before anything
+    is computed. The files are staged and moved into place when all are
+    written, so a failure leaves nothing half-written. Arguments and return
+    value as :func:`write_realisations`.
+    """
+    from .folders import OutputFolder
+
+    _checked_indices(problem, result, fmt, indices)  # bad arguments: refused before the folder is touched
+    folder = OutputFolder(directory, "export_realisations", option="directory")
+    stage = folder.stage()
+    try:
+        manifest = write_realisations(problem, result, seed, stage, fmt, indices=indices, statuses=statuses)
+        folder.commit(stage)
+    except BaseException:
+        folder.discard(stage)
+        raise
+    return manifest
+
+
+def _checked_indices(problem, result, fmt, indices) -> list:
+    if fmt not in EXPORT_FORMATS:
+        raise InputError(f"export format {fmt!r} is not supported; use one of {', '.join(EXPORT_FORMATS)}")
+    n = int(result.n)
+    idx = list(range(n)) if indices is None else [int(k) for k in indices]
+    bad = [k for k in idx if not 0 <= k < n]
+    if bad:
+        raise InputError(f"export_realisations: indices {bad[:5]} are outside 0..{n - 1}; give realisations of "
+                         "this result")
+    if result.problem is not None and result.problem.fingerprint() != problem.fingerprint():
+        raise InputError("export_realisations: result was computed for another problem; pass the problem "
+                         "given to simulate()")
+    return idx
+
+
+def write_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, indices=None,
+                       statuses=None) -> dict:
     """Write each realisation's property fields on the section grid, with its FS.
+
+    No folder check: ``directory`` is a staging folder the caller made and
+    guards (:func:`export_realisations`, ``slipfield simulate
+    --export-fields``).
 
     The fields are those of :func:`slope.simulate.realise_fields` (the values
     the simulator interpolated onto the slice bases), so another code can
@@ -33,9 +80,8 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
     seed : int
         The run seed (``result.seed``).
     directory : path-like
-        Output folder (created). Files are each written atomically; callers
-        that need the folder as a whole to appear at once stage it
-        (``slipfield simulate --export-fields`` does).
+        Output folder (created if missing). Files are each written
+        atomically; the callers stage the folder so it appears whole.
     fmt : {"xdmf", "vtu", "npz"}
         ``xdmf``: one XDMF time series per property (time value =
         realisation index k, heavy data in ``<stem>.h5`` beside it), streamed;
@@ -70,17 +116,8 @@ def export_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, 
     from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
     from ..simulate import realise_fields
 
-    if fmt not in EXPORT_FORMATS:
-        raise InputError(f"export format {fmt!r} is not supported; use one of {', '.join(EXPORT_FORMATS)}")
     n = int(result.n)
-    idx = list(range(n)) if indices is None else [int(k) for k in indices]
-    bad = [k for k in idx if not 0 <= k < n]
-    if bad:
-        raise InputError(f"export_realisations: indices {bad[:5]} are outside 0..{n - 1}; give realisations of "
-                         "this result")
-    if result.problem is not None and result.problem.fingerprint() != problem.fingerprint():
-        raise InputError("export_realisations: result was computed for another problem; pass the problem "
-                         "given to simulate()")
+    idx = _checked_indices(problem, result, fmt, indices)
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
     grid = problem.grid

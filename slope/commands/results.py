@@ -209,6 +209,7 @@ class SingleVariableResult:
     tornado_block: dict
     tornado: Any
     samples: dict = field(default_factory=dict)
+    site_data: dict | None = None  # which variables used conditional means; the analyses without the data
 
     @property
     def path(self) -> tuple:
@@ -218,6 +219,8 @@ class SingleVariableResult:
         out = {"variables": self.variables, "surface": self.surface, "method": self.method, **self.blocks}
         if self.tornado_block is not None:
             out["tornado"] = self.tornado_block
+        if self.site_data is not None:
+            out["site_data"] = self.site_data
         return out
 
     def estimates(self) -> list[Estimate]:
@@ -228,6 +231,26 @@ class SingleVariableResult:
                 if e is not None:
                     out.append(e)
         return out
+
+    def site_data_sentence(self) -> str:
+        """One sentence on how the site data entered the single-variable analyses ("" without data)."""
+        sd = self.site_data
+        if not sd:
+            return ""
+        fmt = lambda v, f: "n/a" if v is None else format(v, f)  # noqa: E731
+        without = sd.get("without_site_data", {})
+        bits = []
+        for m, label in (("monte-carlo", "Monte Carlo pf"), ("latin-hypercube", "Latin hypercube pf"),
+                         ("subset", "subset pf"), ("form", "FORM β")):
+            now, then = self.blocks.get(m, {}), without.get(m, {})
+            key = "beta" if m == "form" else "pf"
+            if now.get(key) is not None and then.get(key) is not None:
+                bits.append(f"{label} {fmt(now[key], '.3g')} (without the data {fmt(then[key], '.3g')})")
+        bits.append(f"FS at the means {fmt(sd.get('fs_at_means'), '.3f')} (without the data "
+                    f"{fmt(without.get('fs_at_means'), '.3f')})")
+        return (f"Site data in the single-variable analyses: {', '.join(sd['conditional_mean'])} took the conditional "
+                "mean of the data at each slice base, with the spread not narrowed by the data (conservative); "
+                + "; ".join(bits) + ".")
 
     def most_influential(self) -> tuple[str, str] | None:
         """(variable, how it was judged): the largest FORM α², else the widest tornado swing."""

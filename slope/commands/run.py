@@ -197,7 +197,7 @@ def _spatial(case, det, hyp, *, n, n_jobs, progress, estimator=("monte-carlo", N
 def _reliability_status(summ):
     """Give every reliability estimate a status beside its numbers (in place)."""
     for m, r in summ.items():
-        if not isinstance(r, dict) or m in ("tornado",):
+        if not isinstance(r, dict) or m in ("tornado", "site_data"):
             continue
         if "status" in r:
             continue  # the method reported its own
@@ -214,7 +214,7 @@ def _single_variable(case, det, hyp, estimator=("monte-carlo", None)) -> SingleV
         return None
     s, arrays = r["summary"], r["arrays"]
     _reliability_status(s)
-    head = ("variables", "surface", "method", "tornado")
+    head = ("variables", "surface", "method", "tornado", "site_data")
     blocks = {m: b for m, b in s.items() if m not in head}
     for b in blocks.values():
         iv = b.get("pf_interval_95")
@@ -224,7 +224,8 @@ def _single_variable(case, det, hyp, estimator=("monte-carlo", None)) -> SingleV
             b["pf_interval_95"] = [min(iv[0], b["pf"]), max(iv[1], b["pf"])]
     return SingleVariableResult(hyp, s["variables"], s["surface"], s["method"], blocks, s.get("tornado"),
                                 arrays.get("tornado"),
-                                {m: a["fs"] for m, a in arrays.items() if isinstance(a, dict) and "fs" in a})
+                                {m: a["fs"] for m, a in arrays.items() if isinstance(a, dict) and "fs" in a},
+                                site_data=s.get("site_data"))
 
 
 def _deterministic(case, det) -> dict:
@@ -260,7 +261,7 @@ def _counts(case, realisations, jobs):
 
 
 def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_ready=None, estimator=None,
-                 level_probability=None, samples_per_level=None):
+                 level_probability=None, samples_per_level=None, refine_search=None):
     """Run every analysis of a case; nothing is written.
 
     Parameters
@@ -273,6 +274,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
         No stage lines and no progress bars.
     estimator, level_probability, samples_per_level : optional
         Override ``simulation.estimator`` and the subset-simulation settings (``--estimator`` …).
+    refine_search : str, optional
+        Override ``simulation.refine_search`` (``--refine-search``): a search
+        of :data:`slope.simulate.refine_names.REFINE_SEARCHES` or ``off``.
     on_ready : callable, optional
         ``on_ready(case, n_jobs)`` once the case and options are checked, before any computation
         (``run_case`` checks its output folder and starts the worker pool there).
@@ -291,6 +295,11 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     from .subset_cmd import estimator_settings
 
     est = estimator_settings(case, estimator, level_probability, samples_per_level)
+    if refine_search is not None:
+        from ..simulate.refinement import RefineSettings
+
+        RefineSettings.from_case(case.simulation, search=refine_search)  # checked before any computation
+        case.simulation["refine_search"] = refine_search  # every analysis below reads it from the case
     n, n_jobs = _counts(case, realisations, jobs)
     if on_ready is not None:
         on_ready(case, n_jobs)
@@ -316,7 +325,7 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
 
 def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
              figure_formats=("png",), overwrite=False, estimator=None, level_probability=None,
-             samples_per_level=None) -> dict:
+             samples_per_level=None, refine_search=None) -> dict:
     """Run every analysis of a case and write the outputs into ``out_dir``.
 
     Parameters
@@ -341,6 +350,9 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         files are ever replaced).
     estimator, level_probability, samples_per_level : optional
         Override ``simulation.estimator`` (``monte-carlo``, ``subset``, ``auto``) and its settings.
+    refine_search : str, optional
+        Override ``simulation.refine_search`` (``--refine-search``; ``off`` switches the
+        per-realisation search off).
 
     Returns
     -------
@@ -356,19 +368,22 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
                          f"choose from {', '.join(FIGURE_FORMATS)} (comma separated, e.g. png,svg)")
     out = OutputFolder(out_dir, "run", overwrite=overwrite)  # checked before the case is even read
 
+    pool = {"n_jobs": 1}
+
     def ready(case, n_jobs):
         from ..simulate.driver import start_workers
 
+        pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
         # the pool starts while the search runs, and compiles the other methods' kernels meanwhile
         start_workers(n_jobs, methods=case.analysis["methods"])
 
     case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
                              estimator=estimator, level_probability=level_probability,
-                             samples_per_level=samples_per_level)
-    return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start)
+                             samples_per_level=samples_per_level, refine_search=refine_search)
+    return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start, jobs=pool["n_jobs"])
 
 
-def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> dict:
+def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None, jobs=1) -> dict:
     """Write the figures, tables, ``report.html`` and ``results.json`` of analysed results.
 
     Parameters
@@ -376,6 +391,8 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
     out : path-like or OutputFolder
         The output folder (checked here when given as a path). Everything goes
         to a staging folder first and is moved into place only when complete.
+    jobs : int
+        Worker processes drawing the figures (1: in this process); the files are the same.
 
     Returns
     -------
@@ -392,7 +409,7 @@ def write_run(case, res, out, *, formats=("png",), quiet=True, t_start=None) -> 
     stage = out.stage()
     try:
         progress.say("figures, tables and report")
-        write_run_report(stage, case, res, formats=formats)
+        write_run_report(stage, case, res, formats=formats, n_jobs=jobs)
         if t_start is not None:
             res.wall_time_s = round(time.perf_counter() - t_start, 2)
         else:  # analysed earlier: the analyses' time plus the writing

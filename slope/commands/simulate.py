@@ -26,7 +26,7 @@ from ..case.preflight import preflight
 from ..errors import InputError
 from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
-from .export import EXPORT_FORMATS, export_realisations
+from .export import EXPORT_FORMATS, export_realisations, write_realisations
 from .folders import OutputFolder
 from .results import jsonable
 from .sweep import sweep_case
@@ -133,8 +133,8 @@ def _remove_store(store: Path) -> None:
 # --------------------------------------------------------------- simulate
 def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=None, seed=None, hypothesis=None,
                   resume=False, scheduler=None, export_fields=None, export_format="xdmf",
-                  progress=False, refine_below=None, refine_method="spencer", overwrite=False, estimator=None,
-                  level_probability=None, samples_per_level=None) -> dict:
+                  progress=False, refine_below=None, refine_method=None, overwrite=False, estimator=None,
+                  level_probability=None, samples_per_level=None, refine_search=None) -> dict:
     """Spatially variable simulation of a case, streamed to ``out_dir`` (resumable).
 
     Parameters
@@ -161,11 +161,14 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
     export_format : {"xdmf", "vtu", "npz"}
     progress : bool
         tqdm progress bar.
+    refine_search : str, optional
+        Override ``simulation.refine_search``: the per-realisation search
+        (on by default for realisations with bank FS in [1, refine_below),
+        ``slope.simulate.refinement``), or ``off``.
     refine_below : float, optional
-        Refine the critical surface of realisations with a bank FS below this
-        into a polyline with their own fields (``slope.simulate.refinement``).
-    refine_method : str
-        Method of slices of the refinement (default ``spencer``).
+        Override ``simulation.refine_below`` (default 1.10).
+    refine_method : str, optional
+        Override ``simulation.refine_method`` (default ``spencer``).
     overwrite : bool
         Start afresh in an ``out_dir`` (or ``export_fields``) holding
         slipfield's own output: only the files its marker lists are replaced.
@@ -200,12 +203,10 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         if a == b or b in a.parents or a in b.parents:
             raise InputError(f"--export-fields {exp}: must not be --out, inside it or hold it; give a "
                              "separate folder")
+    refine = RefineSettings.from_case(case.simulation, search=refine_search, below=refine_below, method=refine_method)
     out = OutputFolder(out_dir, "simulate", overwrite=overwrite)
     exp_folder = None if exp is None else OutputFolder(exp, "simulate --export-fields", option="--export-fields",
                                                        overwrite=overwrite)
-    refine = (RefineSettings.from_case(case.simulation) if refine_below is None else
-              RefineSettings(below=refine_below, method=refine_method,
-                             search=case.simulation.get("refine_search", "nelder-mead")))
     if scheduler is None:
         from ..simulate.driver import start_workers
 
@@ -263,7 +264,7 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
         write_csv(stage / "fs_realisations.csv", header, rows)
         if exp_folder is not None:
             exp_stage = exp_folder.stage()
-            export_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)
+            write_realisations(prob, res, seed, exp_stage, export_format, statuses=statuses)  # guarded above
         results = {
             "slipfield_results_version": RESULTS_VERSION, "command": "simulate",
             "case": {"path": str(case_path), "title": case.title, "note": case.data["case"].get("note", "")},

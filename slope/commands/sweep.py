@@ -23,7 +23,7 @@ __all__ = ["sweep_case"]
 
 def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=None, jobs=None, batch=None,
                seed=None, hypothesis=None, scheduler=None, progress=False, overwrite=False, estimator=None,
-               level_probability=None, samples_per_level=None) -> dict:
+               level_probability=None, samples_per_level=None, refine_search=None) -> dict:
     """pf over a grid of scales of fluctuation, with common random numbers.
 
     Every random property gets the same (θh, θv) at a grid point; the same
@@ -49,6 +49,9 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
         As :func:`slope.commands.simulate.simulate_case`.
     overwrite : bool
         Allow an ``out_dir`` holding another slipfield command's output.
+    refine_search : str, optional
+        Override ``simulation.refine_search`` (``--refine-search``; ``off``
+        switches the per-realisation search off at every grid point).
 
     Returns
     -------
@@ -77,18 +80,21 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
     from .subset_cmd import estimator_settings
 
     est, sub = estimator_settings(case, estimator, level_probability, samples_per_level)
+    from ..simulate.refinement import RefineSettings
+
+    refine = RefineSettings.from_case(case.simulation, search=refine_search)
     out = OutputFolder(out_dir, "sweep", overwrite=overwrite)  # checked before any computation
     hyp, _, prob = problem_of(case, hypothesis)
     client = None if scheduler is None else connect_scheduler(scheduler, option="--scheduler")
     try:  # every input is checked: from here on the sweep computes, then writes
         if est == "monte-carlo":
             rows = theta_sweep(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, n_jobs=n_jobs,
-                               batch=block, progress=progress, scheduler=client)
+                               batch=block, progress=progress, scheduler=client, refine=refine)
         else:  # subset simulation at every point (auto: where Monte Carlo's first batch sees few failures)
             from ..simulate.rare import theta_sweep_rare
 
             rows = theta_sweep_rare(prob, grid_vals["theta_h"], grid_vals["theta_v"], n, seed, sub, est,
-                                    n_jobs=n_jobs, batch=block, scheduler=client)
+                                    n_jobs=n_jobs, batch=block, scheduler=client, refine=refine)
     finally:
         if client is not None:
             client.close()
@@ -109,6 +115,7 @@ def sweep_case(case_path, out_dir, *, theta_h=None, theta_v=None, realisations=N
             "seed": seed, "realisations_per_point": n, "theta_h": grid_vals["theta_h"],
             "theta_v": grid_vals["theta_v"], "rows": rows,
             "common_random_numbers": "same seed and streams at every grid point", "estimator": est,
+            "per_realisation_search": None if refine is None else refine.describe(),
             "infinite_theta": "a point with theta_h or theta_v = inf is run with both = inf (single random "
                               "variable per property); theta_h_run/theta_v_run give what was run",
             "units": {"theta": "m", "fs": "-", "pf": "probability (fraction)"},

@@ -13,28 +13,19 @@ import datetime as _dt
 import os
 from pathlib import Path
 
-import jinja2
-
 from ..files import atomic_write_text
 from .exclusions import exclusion_table
-from .figures.catalogue import SECTIONS, draw_all
+from .figures.catalogue import SECTIONS
 from .findings import findings
-from .html import save_figure
+from .render import render_figures
 from .inputs import input_tables
-from .tables import format_value, table_to_html, write_csv
+from .tables import table_to_html, write_csv
+from .templating import TEMPLATES, render_page
 
 __all__ = ["write_run_report", "comparison_table", "render_run_report", "TEMPLATES"]
 
-TEMPLATES = Path(__file__).resolve().parent / "templates"
 QUANTITIES = (("mean_fs", "mean FS"), ("std_fs", "σ FS"), ("pf", "pf [95 % interval]"), ("beta", "β"),
               ("n", "evaluations"))
-
-
-def _env() -> jinja2.Environment:
-    env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(TEMPLATES)), autoescape=True,
-                             undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
-    env.filters["num"] = format_value
-    return env
 
 
 def comparison_table(res) -> dict:
@@ -137,14 +128,6 @@ def _csv_tables(stage: Path, res) -> list[dict]:
     return slices
 
 
-def _save_all(drawn, fig_dir: Path, formats) -> None:
-    """Render and write every figure in the formats asked (PNG always)."""
-    fig_dir.mkdir(parents=True, exist_ok=True)
-    for d in drawn:
-        if d.figure is not None:
-            save_figure(d.figure, fig_dir, d.stem, formats=formats)
-
-
 def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
     """The report page as HTML text."""
     from ..commands.results import CAUTION
@@ -155,7 +138,7 @@ def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
         for d in (x for x in drawn if x.group == key):
             item = {"caption": d.caption, "text": d.text, "stem": d.stem, "number": None, "src": None,
                     "legend": d.legend or []}
-            if d.figure is not None:
+            if d.saved:
                 number += 1
                 b64 = base64.b64encode((fig_dir / f"{d.stem}.png").read_bytes()).decode("ascii")
                 item.update(number=number, src=f"data:image/png;base64,{b64}")
@@ -167,21 +150,23 @@ def render_run_report(case, res, drawn, fig_dir: Path, slices) -> str:
             ("realisations", res.realisations),
             ("wall time of the analyses", f"{res.analysis_time_s:.1f} s" if res.analysis_time_s else "—"),
             ("report written", _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))]
-    env = _env()
-    return env.get_template("run_report.html").render(
+    return render_page(
+        "run_report.html",
         title=res.title, note=res.note, meta=meta, caution=CAUTION, findings=findings(res),
         comparison=comparison_table(res),
         inputs=[table_to_html(t, table_id=f"inputs-{i}") for i, t in enumerate(input_tables(case, res.realisations))],
         section=next((g for g in groups if g["key"] == "section"), None),
         groups=[g for g in groups if g["key"] != "section"],
         exclusions=table_to_html(exclusion_table(res), table_id="exclusions-table"),
-        slices=slices, css=(TEMPLATES / "report.css").read_text(encoding="utf-8"),
-        print_css=(TEMPLATES / "print.css").read_text(encoding="utf-8"))
+        slices=slices)
 
 
-def write_run_report(stage: Path, case, res, *, formats=("png",)) -> None:
-    """Figures (``figures/``), CSV tables and ``report.html`` of a run into ``stage``."""
-    drawn = draw_all(case, res)
-    _save_all(drawn, stage / "figures", formats)
+def write_run_report(stage: Path, case, res, *, formats=("png",), n_jobs: int = 1) -> None:
+    """Figures (``figures/``), CSV tables and ``report.html`` of a run into ``stage``.
+
+    ``n_jobs`` ≥ 2 draws the figures in that many worker processes (:func:`slope.report.render.render_figures`);
+    the files are the same.
+    """
+    drawn = render_figures(case, res, stage / "figures", formats, n_jobs=n_jobs)
     slices = _csv_tables(stage, res)
     atomic_write_text(stage / "report.html", render_run_report(case, res, drawn, stage / "figures", slices))

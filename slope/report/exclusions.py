@@ -8,7 +8,7 @@ still listed, with its own words as its meaning.
 """
 from __future__ import annotations
 
-__all__ = ["exclusion_table", "MEANINGS"]
+__all__ = ["exclusion_table", "MEANINGS", "NOT_SLIP_SURFACES"]
 
 #: Reason → what it means, one line each.
 MEANINGS = {
@@ -41,6 +41,16 @@ MEANINGS = {
         "the fixed deterministic surface gave no valid FS in that realisation; left out of its pf",
     "evaluations not converged or inadmissible": "samples whose FS is not a valid solution; left out of the estimate",
 }
+
+
+#: Trial surfaces set aside because they are not slip surfaces of the case by definition (no sliding mass, no
+#: driving moment, shallower than the case's minimum depth…). Leaving them out cannot hide a lower FS; every
+#: other reason (a method that did not converge or gave an inadmissible solution) could.
+NOT_SLIP_SURFACES = frozenset({
+    "does not cut the ground line twice", "cuts the ground line more than twice",
+    "a slice base lies outside every zone", "never deeper than the tension crack", "shallower than search.min_depth",
+    "no driving moment: the loads balance about the circle centre",
+})
 
 
 def _row(analysis, what, reason, count, of):

@@ -3,12 +3,13 @@
 For each hypothesis: the deterministic FS by method, pf with its interval
 from the spatial simulation and from single random variables, whether
 spatial averaging raised or lowered pf and by how much, the most influential
-variable, and any exclusion that could bias the result; then the governing
-hypothesis.
+variable, the failure mechanisms (which family governed how many
+realisations, pf with circles alone beside pf with the free search), and any
+exclusion that could bias the result; then the governing hypothesis.
 """
 from __future__ import annotations
 
-__all__ = ["findings", "governing_hypothesis"]
+__all__ = ["findings", "governing_hypothesis", "mechanism_sentence"]
 
 
 def _pf(p, iv=None) -> str:
@@ -48,12 +49,37 @@ def _averaging(sp) -> str:
             f"(θ → ∞: {_pf(b.pf, b.interval)}).{note}")
 
 
+def mechanism_sentence(mech) -> str:
+    """Failure mechanisms of one simulation in words (a MechanismSummary; "" without one)."""
+    if mech is None:
+        return ""
+    fams = ", ".join(f"{k} {v}" for k, v in mech.families.items())
+    out = f"Governing surface family, realisations: {fams}."
+    if mech.search is not None:
+        lo, hi = mech.window if mech.window is not None else (0.0, float("nan"))
+        out += (f" The per-realisation {mech.search} search ran on the {mech.n_searched} realisations with a bank FS "
+                f"in [{lo:g}, {hi:g}) and lowered {mech.n_refined}; pf with it counts the lowering inside that "
+                "window only (a realisation already below 1 fails either way).")
+    out += (f" pf with circles alone {_pf(mech.pf_circles, mech.pf_circles_interval)}, with every family and the "
+            f"free search {_pf(mech.pf, mech.pf_interval)}")
+    eff = mech.mechanism_effect
+    return out + (f" (× {eff:.2g}, the mechanism effect)." if eff is not None and eff != 1.0 else ".")
+
+
 def _exclusions(h, ms, sv, sp) -> str:
-    bits = []
+    from .exclusions import NOT_SLIP_SURFACES
+
+    bits, by_count = [], {}
     for m, d in ms.items():
-        bad = d.n_trials - d.n_counted
-        if d.n_trials and bad / d.n_trials > 0.25:
-            bits.append(f"{bad} of {d.n_trials} trial surfaces were not counted by {m}")
+        # Only surfaces a method failed on could hide a lower FS; those that are no slip surface of the case
+        # (listed in the exclusions table) could not.
+        failed = {r: k for r, k in d.not_counted.items() if k and r not in NOT_SLIP_SURFACES}
+        if failed:
+            key = (sum(failed.values()), d.n_trials, "; ".join(f"{r}: {k}" for r, k in failed.items()))
+            by_count.setdefault(key, []).append(m)
+    if by_count:
+        bits.append("trial surfaces without a valid solution, among which a lower FS could lie: " + ", ".join(
+            f"{k} of {n} by {' and '.join(methods)} ({why})" for (k, n, why), methods in by_count.items()))
     if sp is not None:
         n = sp.spatial.realisations
         x = n - sp.spatial.searched.n_valid
@@ -94,6 +120,7 @@ def findings(res) -> dict:
             s.append(f"Spatial simulation ({sp.spatial.realisations} realisations, critical surface re-searched in "
                      f"each): pf = {_pf(c.pf, c.interval)}, mean FS {c.mean_fs:.3f}, σ FS {c.std_fs:.3f}.")
             s.append(_averaging(sp))
+            s.append(mechanism_sentence(getattr(sp.spatial, "mechanisms", None)))
         if sv is not None:
             for m, label in (("monte-carlo", "Monte Carlo"), ("latin-hypercube", "Latin hypercube")):
                 b = sv.blocks.get(m)
@@ -105,6 +132,7 @@ def findings(res) -> dict:
             if form and form.get("beta") is not None:
                 s.append(f"FORM: β = {form['beta']:.3g}, pf = {form['pf']:.3g}"
                          + ("" if form.get("converged") else " (the iteration did not converge)") + ".")
+            s.append(sv.site_data_sentence())  # "" without [[site_data]]
             top = sv.most_influential()
             if top:
                 s.append(f"Most influential variable: {top[0]} ({top[1]}).")

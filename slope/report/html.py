@@ -1,9 +1,11 @@
 """The self-contained HTML report and figure files.
 
 ``report.html`` carries everything inside itself: figures are embedded as
-base64 PNG (default) or inline SVG, the style sheet is a short one of our own
-in a ``<style>`` element, and there is no script and no external link, so the
-page opens the same from a USB stick, an e-mail attachment or an archive.
+base64 PNG (default) or inline SVG; the page is the jinja2 template
+``templates/report.html`` with the report's one stylesheet and its print
+stylesheet inlined (:mod:`slope.report.templating`, shared with the run
+report). There is no script and no external link, so the page opens the same
+from a USB stick, an e-mail attachment or an archive.
 
 Input shapes
 ------------
@@ -25,47 +27,23 @@ from __future__ import annotations
 
 import base64
 import datetime as _dt
-import html
 import io
 import os
 import re
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 
+from markupsafe import Markup
 from matplotlib.figure import Figure
 
 from ..errors import InputError
 from ..files import atomic_write_bytes, atomic_write_text
 from .tables import summary_table, table_to_html
+from .templating import render_page
 
 from ..caution import CAUTION
 
 __all__ = ["CAUTION", "save_figure", "figure_png_bytes", "figure_svg_text", "write_report", "render_report"]
-
-
-_CSS = """
-:root { --ink: #1d1d1d; --muted: #5b5b5b; --rule: #d0d0d0; --accent: #0072B2; --warn: #D55E00; }
-* { box-sizing: border-box; }
-body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
-       color: var(--ink); margin: 0 auto; max-width: 60rem; padding: 1.5rem 1.25rem 3rem; line-height: 1.45; }
-h1 { font-size: 1.6rem; margin: 0 0 0.25rem; }
-h2 { font-size: 1.2rem; margin: 2rem 0 0.5rem; border-bottom: 1px solid var(--rule); padding-bottom: 0.2rem; }
-.meta { color: var(--muted); font-size: 0.85rem; margin: 0 0 1rem; }
-.caution { border-left: 4px solid var(--warn); background: #fdf3ec; padding: 0.6rem 0.9rem; margin: 1rem 0 1.5rem;
-           font-size: 0.92rem; }
-table { border-collapse: collapse; margin: 0.75rem 0 1.25rem; font-size: 0.9rem; width: auto; }
-caption { text-align: left; font-weight: 600; padding-bottom: 0.3rem; }
-th, td { border-bottom: 1px solid var(--rule); padding: 0.25rem 0.7rem; text-align: left; vertical-align: top; }
-thead th { border-bottom: 2px solid var(--ink); }
-td.num { text-align: right; font-variant-numeric: tabular-nums; }
-figure { margin: 1rem 0 1.5rem; }
-figure img, figure svg { max-width: 100%; height: auto; display: block; }
-figcaption { color: var(--muted); font-size: 0.88rem; margin-top: 0.3rem; }
-nav ol { padding-left: 1.2rem; margin: 0.3rem 0; }
-nav a { color: var(--accent); text-decoration: none; }
-footer { color: var(--muted); font-size: 0.8rem; margin-top: 3rem; border-top: 1px solid var(--rule); padding-top: 0.5rem; }
-@media print { body { max-width: none; } h2 { break-after: avoid; } figure, table { break-inside: avoid; } }
-"""
 
 
 # --------------------------------------------------------------------------- figures
@@ -91,8 +69,14 @@ def figure_png_bytes(fig: Figure, dpi: int = 150) -> bytes:
 
 def figure_svg_text(fig: Figure) -> str:
     """The figure as SVG text (tight bounding box), XML prolog included."""
+    from .style import report_style
+
     buf = io.StringIO()
-    _check_figure(fig, "figure").savefig(buf, format="svg", bbox_inches="tight", facecolor="white")
+    # The style's SVG settings (text kept as text, fixed id salt) are read when the file is written, and no
+    # date goes in the metadata: the same figure gives the same file, whichever process writes it.
+    with report_style():
+        _check_figure(fig, "figure").savefig(buf, format="svg", bbox_inches="tight", facecolor="white",
+                                             metadata={"Date": None})
     return buf.getvalue()
 
 
@@ -146,7 +130,8 @@ def _inline_svg(svg_text: str, where: str) -> str:
     return body
 
 
-def _figure_html(item, number: int, embed: str, dpi: int, where: str) -> str:
+def _figure_item(item, number: int, embed: str, dpi: int, where: str) -> dict:
+    """A figure of the generic report as the template's dict: number, caption, alt and ``src`` or ``svg``."""
     caption, alt = "", ""
     if isinstance(item, Mapping):
         if "figure" not in item:
@@ -156,37 +141,33 @@ def _figure_html(item, number: int, embed: str, dpi: int, where: str) -> str:
         fig = item["figure"]
     else:
         fig = item
-    alt = alt or caption or f"Figure {number}"
+    out = {"number": number, "caption": caption, "alt": alt or caption or f"Figure {number}", "src": None,
+           "svg": None}
     if isinstance(fig, Figure):
         if embed == "svg":
-            body = _inline_svg(figure_svg_text(fig), where)
-            media = f'<div role="img" aria-label="{html.escape(alt, quote=True)}">{body}</div>'
+            out["svg"] = Markup(_inline_svg(figure_svg_text(fig), where))
         else:
-            b64 = base64.b64encode(figure_png_bytes(fig, dpi)).decode("ascii")
-            media = f'<img alt="{html.escape(alt, quote=True)}" src="data:image/png;base64,{b64}">'
+            out["src"] = "data:image/png;base64," + base64.b64encode(figure_png_bytes(fig, dpi)).decode("ascii")
     elif isinstance(fig, (str, os.PathLike)):
         p = Path(fig)
         if not p.is_file():
             raise InputError(f"{where}: figure file {str(p)!r} does not exist; save the figure first.")
         ext = p.suffix.lower()
         if ext == ".png":
-            b64 = base64.b64encode(p.read_bytes()).decode("ascii")
-            media = f'<img alt="{html.escape(alt, quote=True)}" src="data:image/png;base64,{b64}">'
+            out["src"] = "data:image/png;base64," + base64.b64encode(p.read_bytes()).decode("ascii")
         elif ext == ".svg":
-            body = _inline_svg(p.read_text(encoding="utf-8"), where)
-            media = f'<div role="img" aria-label="{html.escape(alt, quote=True)}">{body}</div>'
+            out["svg"] = Markup(_inline_svg(p.read_text(encoding="utf-8"), where))
         else:
             raise InputError(f"{where}: figure file {p.name!r} is neither .png nor .svg.")
     else:
         raise InputError(f"{where}: expected a matplotlib Figure, a figure dict or a .png/.svg path, "
                          f"got {type(fig).__name__}.")
-    cap = f"Figure {number}." + (f" {html.escape(caption)}" if caption else "")
-    return f'<figure id="figure-{number}">\n{media}\n<figcaption>{cap}</figcaption>\n</figure>'
+    return out
 
 
-def _paragraphs(text: str) -> str:
-    paras = [p.strip() for p in re.split(r"\n\s*\n", text or "") if p.strip()]
-    return "\n".join(f"<p>{html.escape(' '.join(p.split()))}</p>" for p in paras)
+def _paragraphs(text: str) -> list[str]:
+    """Paragraphs separated by blank lines, each with its line breaks joined."""
+    return [" ".join(p.split()) for p in re.split(r"\n\s*\n", text or "") if p.strip()]
 
 
 def _slug(text: str, used: set) -> str:
@@ -223,59 +204,31 @@ def render_report(
     used: set = {"summary"}
     fig_no = 0
     table_no = 1  # the summary is table 1
-    body, toc = [], ['<li><a href="#summary">Summary of results</a></li>']
+    out_sections = []
     for s, sec in enumerate(sections):
         where = f"sections[{s}]"
         if not isinstance(sec, Mapping) or not sec.get("heading"):
             raise InputError(f"{where}: each section is a dict with a 'heading' (and 'text', 'figures', 'tables').")
         heading = str(sec["heading"])
-        slug = _slug(heading, used)
-        toc.append(f'<li><a href="#{slug}">{html.escape(heading)}</a></li>')
-        parts = [f'<section id="{slug}">', f"<h2>{html.escape(heading)}</h2>", _paragraphs(str(sec.get("text", "") or ""))]
+        figures, tables = [], []
         for f, item in enumerate(sec.get("figures", ()) or ()):
             fig_no += 1
-            parts.append(_figure_html(item, fig_no, embed, dpi, f"{where}.figures[{f}]"))
+            figures.append(_figure_item(item, fig_no, embed, dpi, f"{where}.figures[{f}]"))
         for t, tab in enumerate(sec.get("tables", ()) or ()):
             table_no += 1
             try:
-                parts.append(table_to_html(tab, number=table_no, table_id=f"table-{table_no}"))
+                tables.append(Markup(table_to_html(tab, number=table_no, table_id=f"table-{table_no}")))
             except InputError as exc:
                 raise InputError(f"{where}.tables[{t}]: {exc}") from None
-        parts.append("</section>")
-        body.append("\n".join(p for p in parts if p))
+        out_sections.append({"heading": heading, "slug": _slug(heading, used),
+                             "paragraphs": _paragraphs(str(sec.get("text", "") or "")), "figures": figures,
+                             "tables": tables})
 
     meta_items = dict(meta or {})
     meta_items.setdefault("written", _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))
-    meta_html = " · ".join(f"{html.escape(str(k))}: {html.escape(str(v))}" for k, v in meta_items.items())
-
-    return "\n".join([
-        "<!DOCTYPE html>",
-        '<html lang="en">',
-        "<head>",
-        '<meta charset="utf-8">',
-        '<meta name="viewport" content="width=device-width, initial-scale=1">',
-        f"<title>{html.escape(title)}</title>",
-        f"<style>{_CSS}</style>",
-        "</head>",
-        "<body>",
-        "<header>",
-        f"<h1>{html.escape(title)}</h1>",
-        f'<p class="meta">{meta_html}</p>',
-        f'<div class="caution" role="note"><strong>Caution.</strong> {html.escape(str(caution))}</div>',
-        f"<nav><strong>Contents</strong><ol>{''.join(toc)}</ol></nav>",
-        "</header>",
-        "<main>",
-        '<section id="summary">',
-        "<h2>Summary of results</h2>",
-        table_to_html(summary, number=1, table_id="summary-table"),
-        "</section>",
-        *body,
-        "</main>",
-        f"<footer>Written by slipfield. {html.escape(str(caution))}</footer>",
-        "</body>",
-        "</html>",
-        "",
-    ])
+    return render_page("report.html", title=title, caution=str(caution), meta=list(meta_items.items()),
+                       summary=Markup(table_to_html(summary, number=1, table_id="summary-table")),
+                       sections=out_sections)
 
 
 def write_report(

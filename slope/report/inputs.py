@@ -150,6 +150,15 @@ def simulation_table(case, realisations: int) -> dict:
 def input_tables(case, realisations: int) -> list[dict]:
     """Every input table, in the report's order (materials, random properties, cross-correlations, water,
     loads, search, simulation)."""
-    out = [materials_table(case), random_table(case), correlation_table(case), water_table(case), loads_table(case),
-           search_table(case), simulation_table(case, realisations)]
+    out = [materials_table(case), random_table(case), correlation_table(case), water_table(case),
+           _values_as_text(loads_table(case)), _values_as_text(search_table(case)),
+           _values_as_text(simulation_table(case, realisations))]
     return [t for t in out if t is not None]
+
+
+def _values_as_text(table: dict) -> dict:
+    """The value column of a settings table as text: numbers and words in one column align alike."""
+    from .tables import format_value
+
+    table["rows"] = [[*r[:-1], format_value(r[-1])] for r in table["rows"]]
+    return table

@@ -39,16 +39,20 @@ tolerability line dict
 """
 from __future__ import annotations
 
+import textwrap
 from collections.abc import Mapping, Sequence
 
+import matplotlib.transforms as mtransforms
 import numpy as np
+from matplotlib.figure import Figure
 
 from ..errors import InputError
-from .style import CYCLE, new_figure, report_style
+from .style import CYCLE, report_style
 
-__all__ = ["annual_probability", "risk_points", "plot_risk_chart", "tolerability_line"]
+__all__ = ["annual_probability", "risk_points", "plot_risk_chart", "tolerability_line", "AXES_SIZE"]
 
 _LINE_STYLES = ("--", "-.", ":", (0, (5, 1, 1, 1)))
+_DODGE_PT = 11.0  # side-by-side spacing (points) of scenarios sharing one consequence
 
 
 def annual_probability(pf, annual_exceedance):
@@ -254,6 +258,7 @@ def plot_risk_chart(
         raise InputError("scenarios: give at least one scenario (consequence and annual probability) to chart.")
     lns = _lines(lines)
     notes = []
+    own = ax is None
     with report_style():
         fig, ax = _axes(ax)
         for k, ln in enumerate(lns):
@@ -261,18 +266,28 @@ def plot_risk_chart(
                     linestyle=_LINE_STYLES[k % len(_LINE_STYLES)], linewidth=1.2,
                     label=f"[{k + 1}] {ln['label']}", gid=f"tolerability-{k}")
             notes.append(f"[{k + 1}] {ln['label']}: {ln['source']}")
+        same = [sum(q["consequence"] == pt["consequence"] for q in pts[:k]) for k, pt in enumerate(pts)]
+        n_same = [sum(q["consequence"] == pt["consequence"] for q in pts) for pt in pts]
         for k, pt in enumerate(pts):
             colour = pt["colour"] or CYCLE[k % len(CYCLE)]
             p, iv = pt["annual_probability"], pt["annual_interval"]
+            # Points of one consequence are set side by side on the page (a few points apart), so that none
+            # hides another; their data stay at the consequence itself.
+            shift = mtransforms.ScaledTranslation((same[k] - (n_same[k] - 1) / 2) * _DODGE_PT / 72.0, 0.0,
+                                                  fig.dpi_scale_trans)
             if p > 0:
                 yerr = None if iv is None or iv[0] <= 0 else [[p - iv[0]], [iv[1] - p]]
                 eb = ax.errorbar([pt["consequence"]], [p], yerr=yerr, color=colour, marker=pt["marker"], markersize=7,
                                  capsize=3, linestyle="none", label=f"{pt['label']}: {p:.2g} /yr",
                                  markerfacecolor=colour if pt["filled"] else "white")
                 eb.lines[0].set_gid(f"scenario-{k}")
+                for art in (eb.lines[0], *eb.lines[1], *eb.lines[2]):
+                    art.set_transform(ax.transData + shift)
             elif iv is not None and iv[1] > 0:
-                ax.plot([pt["consequence"]], [iv[1]], color=colour, marker="v", markersize=8, linestyle="none",
-                        label=f"{pt['label']}: < {iv[1]:.2g} /yr (no failures)", gid=f"scenario-{k}")
+                (tri,) = ax.plot([pt["consequence"]], [iv[1]], color=colour, marker="v", markersize=8,
+                                 linestyle="none", label=f"{pt['label']}: < {iv[1]:.2g} /yr (no failures)",
+                                 gid=f"scenario-{k}")
+                tri.set_transform(ax.transData + shift)  # after plotting, so the axes' limits still include it
             else:
                 notes.append(f"{pt['label']}: annual probability 0 without an upper bound, not drawable on log axes.")
         ax.set_xscale("log")
@@ -280,17 +295,52 @@ def plot_risk_chart(
         ax.set_xlabel(consequence_label)
         ax.set_ylabel("annual probability of failure (per year)")
         ax.grid(True, which="both", linewidth=0.4)
-        if ax.get_legend_handles_labels()[0]:
-            ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
         if not lns:
             notes.append("No tolerability criteria are built in; supply lines with their sources in the case file.")
-        fig.text(0.01, 0.0, "\n".join(notes), ha="left", va="top", fontsize=7, wrap=True, gid="risk-footnote")
         if title:
             ax.set_title(title)
+        if own:
+            _legend_below(fig, ax, notes)
+        else:
+            if ax.get_legend_handles_labels()[0]:
+                ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.18), borderaxespad=0.0)
+            fig.text(0.01, 0.0, "\n".join(notes), ha="left", va="top", fontsize=7, wrap=True, gid="risk-footnote")
     return fig
+
+
+#: Size of the risk chart's plotting area and its margins (inches): fixed, so that a long legend adds height
+#: below the axes instead of squeezing them.
+AXES_SIZE = (5.4, 3.2)
+_MARGINS = {"left": 1.0, "right": 0.3, "top": 0.25, "title": 0.3, "below": 0.62, "gap": 0.12}
+
+
+def _legend_below(fig, ax, notes):
+    """Legend, then the footnote, under the axes; the figure grows to hold them, the axes keep :data:`AXES_SIZE`."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    m = _MARGINS
+    width = m["left"] + AXES_SIZE[0] + m["right"]
+    handles, labels = ax.get_legend_handles_labels()
+    leg = fig.legend(handles, labels, loc="upper left", ncols=1, borderaxespad=0.0, frameon=False) if handles else None
+    foot = fig.text(0.0, 0.0, "\n".join(textwrap.fill(n, 130) for n in notes), ha="left", va="top", fontsize=7,
+                    gid="risk-footnote")
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    leg_h = leg.get_window_extent(renderer).height / fig.dpi if leg is not None else 0.0
+    foot_h = foot.get_window_extent(renderer).height / fig.dpi
+    top = m["top"] + (m["title"] if ax.get_title() else 0.0)
+    height = top + AXES_SIZE[1] + m["below"] + leg_h + m["gap"] + foot_h + m["gap"]
+    fig.set_size_inches(width, height)
+    ax.set_position([m["left"] / width, 1.0 - (top + AXES_SIZE[1]) / height, AXES_SIZE[0] / width,
+                     AXES_SIZE[1] / height])
+    y_leg = height - top - AXES_SIZE[1] - m["below"]  # inches from the bottom edge
+    if leg is not None:
+        leg.set_bbox_to_anchor((m["left"] / width, y_leg / height), transform=fig.transFigure)
+    foot.set_position((m["left"] / width, (y_leg - leg_h - m["gap"]) / height))
 
 
 def _axes(ax):
     if ax is None:
-        return new_figure(figsize=(7.0, 4.2))
+        # Placed by hand (_legend_below), not by the constrained layout, which would shrink the axes.
+        fig = Figure(figsize=(7.0, 4.2))
+        return fig, fig.add_subplot()
     return ax.figure, ax

@@ -109,6 +109,9 @@ RC_PARAMS: dict[str, object] = {
     "image.cmap": FIELD_CMAP,
     # Keep text as text in SVG output (smaller files, searchable reports).
     "svg.fonttype": "none",
+    # Fixed salt for the SVG element ids (random by default): the same figure gives the same file,
+    # whichever process draws it.
+    "svg.hashsalt": "slipfield",
 }
 
 
@@ -169,8 +172,9 @@ def new_figure(nrows: int = 1, ncols: int = 1, figsize=None, **kwargs):
     return fig, ax
 
 
-#: One colour per drainage hypothesis, the same in every figure of every report.
-HYPOTHESIS_COLOURS: dict[str, str] = {"undrained": PALETTE["vermillion"], "drained": PALETTE["blue"]}
+#: One colour per drainage hypothesis, the same in every figure of every report. Not blue: blue is the
+#: colour of water lines on the section, and a drained surface must not read as a water line.
+HYPOTHESIS_COLOURS: dict[str, str] = {"undrained": PALETTE["vermillion"], "drained": PALETTE["bluish_green"]}
 #: Line style per method of slices on the section figure (colour says the hypothesis).
 METHOD_LINESTYLES: dict[str, object] = {"bishop": "-", "spencer": "--", "morgenstern-price": (0, (1, 1.5)),
                                         "janbu": "-.", "ordinary": (0, (6, 2, 1, 2, 1, 2))}

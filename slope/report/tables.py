@@ -13,7 +13,6 @@ summary row
 from __future__ import annotations
 
 import csv
-import html
 import io
 import math
 import numbers
@@ -138,23 +137,15 @@ def table_to_html(table: Mapping, *, digits: int = 4, table_id: str | None = Non
     -------
     str
     """
+    from .templating import environment
+
     t = normalise_table(table)
-    id_attr = f' id="{html.escape(table_id, quote=True)}"' if table_id else ""
-    parts = [f"<table{id_attr}>"]
     cap = t["caption"]
-    if cap or number is not None:
-        prefix = f"Table {number}. " if number is not None else ""
-        parts.append(f"<caption>{html.escape(prefix + cap)}</caption>")
-    parts.append("<thead><tr>" + "".join(f'<th scope="col">{html.escape(c)}</th>' for c in t["columns"]) + "</tr></thead>")
-    parts.append("<tbody>")
-    for row in t["rows"]:
-        cells = []
-        for v in row:
-            cls = ' class="num"' if _is_number(v) else ""
-            cells.append(f"<td{cls}>{html.escape(format_value(v, digits))}</td>")
-        parts.append("<tr>" + "".join(cells) + "</tr>")
-    parts.append("</tbody></table>")
-    return "\n".join(parts)
+    if number is not None:
+        cap = f"Table {number}. {cap}".strip()
+    rows = [[(format_value(v, digits), _is_number(v)) for v in row] for row in t["rows"]]
+    macro = environment().get_template("_table.html").module.table
+    return str(macro({"id": table_id, "caption": cap, "columns": t["columns"], "rows": rows}))
 
 
 def _csv_value(v):

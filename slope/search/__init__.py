@@ -10,9 +10,11 @@ Searches (plain names of our own):
   polyline whose vertices are moved by scipy optimisation, keeping the
   surface kinematically admissible (base inclination never increasing in the
   direction of motion, so the mass can slide without internal locking);
-- ``weak-layer``: block surfaces whose base runs along the bottom of a weak
-  zone, with an active wedge upslope (at 45° + φ/2 to the horizontal) and a
-  passive wedge downslope (45° − φ/2).
+- ``block``: sliding blocks whose base runs along a weak zone or layer, with
+  an active wedge from an entry range (Rankine, 45° + φ/2 to the horizontal)
+  and a passive wedge to an exit range (45° − φ/2);
+- ``dynamic-programming``: non-circular surfaces by dynamic programming over
+  grids of nodes (Baker 1980).
 
 Every search returns a :class:`SearchResult` with the critical surface, its
 factor of safety, the factor of safety of every trial and the counts of
@@ -25,7 +27,7 @@ is tolerated but counted, while m_α ≤ 0.2 and non-positive F are not.
 Units: m, kPa, degrees at the user level.
 
 Modules: ``evaluate`` (counting a set of trial surfaces), ``circles``
-(centre-lattice, window), ``refine``, ``weak_layer``, ``block`` and
+(centre-lattice, window), ``refine``, ``block`` and
 ``dynamic_programming`` (with ``dp_grid``): the families a bank may hold,
 ``families`` (a case's bank of every family) and ``registry`` (name → search,
 the one dispatcher of case files).
@@ -36,11 +38,10 @@ from .evaluate import MIN_DEPTH_REASON, SearchResult, evaluate_surfaces, surface
 from .refine import SHAPE_REJECTED, kinematic_reason, refine
 from .registry import (SEARCHES, SearchKind, case_search_names, critical_surface, register_search,
                        search_from_case)
-from .weak_layer import block_surfaces, weak_layer
 
 __all__ = [
-    "SearchResult", "evaluate_surfaces", "centre_lattice", "window", "refine", "weak_layer",
+    "SearchResult", "evaluate_surfaces", "centre_lattice", "window", "refine",
     "critical_surface", "SEARCHES", "SearchKind", "register_search", "case_search_names",
     "search_from_case", "MIN_DEPTH_REASON", "SHAPE_REJECTED", "lattice_circles", "window_circles",
-    "block_surfaces", "block_search", "block_polylines", "surface_depth", "kinematic_reason",
+    "block_search", "block_polylines", "surface_depth", "kinematic_reason",
 ]

@@ -146,5 +146,3 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
     res.trials_rejected = dict(trials_rejected)
     return res
 
-
-# -------------------------------------------------------------- weak layer

@@ -15,7 +15,6 @@ from .circles import centre_lattice, window
 from .dynamic_programming import dynamic_programming
 from .evaluate import SearchResult, evaluate_surfaces
 from .refine import refine
-from .weak_layer import weak_layer
 
 @dataclass(frozen=True)
 class SearchKind:
@@ -108,8 +107,6 @@ register_search(SearchKind("fixed", _given, _fixed_from_case, ("circle", "polyli
                            "one given surface: a circle {x, y, r} or a polyline"))
 register_search(SearchKind("refine", _refine_search, None, (),
                            "a start surface turned into a polyline and optimised"))
-register_search(SearchKind("weak-layer", weak_layer, None, (),
-                           "block surfaces along the bottom of a weak zone"))
 # issue 15's families: a case adds them to its bank with [[search.block]] and
 # [search.dynamic_programming] (slope.search.families), whatever its kind
 register_search(SearchKind("block", block_search, None, (),

@@ -1,6 +1,7 @@
 """Monte Carlo over random fields: ``simulate`` and its result."""
 from __future__ import annotations
 
+import math
 import os
 import warnings
 from dataclasses import dataclass, field
@@ -17,6 +18,12 @@ from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
            "connect_scheduler", "SchedulerLost"]
+
+
+def _plain(v) -> float | None:
+    """A plain float, or None for a non-finite one (JSON has no NaN)."""
+    v = float(v)
+    return v if math.isfinite(v) else None
 
 
 @dataclass
@@ -107,6 +114,16 @@ class SimulationResult:
     def pf_circles_interval(self):
         return self._pf(self.fs_circles_only)[1]
 
+    @property
+    def n_searched(self) -> int:
+        """Realisations the per-realisation search was run on: bank FS in its window [above, below)."""
+        if self.refine is None or self.fs_bank is None:
+            return 0
+        fb = self.fs_bank
+        lo = float(self.refine.get("above", 0.0))
+        return int(np.sum(np.isfinite(fb) & (fb >= lo) & (fb < float(self.refine["below"]))
+                          & (self.critical_index >= 0)))
+
     def governing_families(self) -> np.ndarray:
         """Family that governed each realisation (its critical surface's; the search's where it lowered FS)."""
         from ..surfaces import family_of
@@ -131,7 +148,8 @@ class SimulationResult:
         if nv == 0:
             return float("nan"), (float("nan"), float("nan")), 0
         k = int((fs[ok] < 1.0).sum())
-        return k / nv, binomial_interval(k, nv, 0.95, "wilson"), nv
+        lo, hi = binomial_interval(k, nv, 0.95, "wilson")
+        return k / nv, (float(lo), float(hi)), nv  # plain floats: to_dict and messages show no numpy types
 
     @property
     def pf(self) -> float:
@@ -158,19 +176,20 @@ class SimulationResult:
         return {"normal": float(beta_normal(m, s)), "lognormal": float(beta_lognormal(m, s))}
 
     def to_dict(self) -> dict:
-        """JSON-ready summary (FS dimensionless, pf as a fraction)."""
+        """JSON-ready summary (FS dimensionless, pf as a fraction): plain Python numbers, and None
+        where an estimate does not exist (no valid realisation; JSON has no NaN)."""
         f = self.fs[np.isfinite(self.fs)]
-        lo, hi = self.pf_interval
-        flo, fhi = self.pf_fixed_interval
+        lo, hi = map(_plain, self.pf_interval)
+        flo, fhi = map(_plain, self.pf_fixed_interval)
         return {"n": self.n, "seed": self.seed,
-                "pf": self.pf, "pf_interval_95_wilson": [lo, hi],
-                "pf_fixed_surface": self.pf_fixed, "pf_fixed_interval_95_wilson": [flo, fhi],
-                "beta_normal": self.beta["normal"], "beta_lognormal": self.beta["lognormal"],
+                "pf": _plain(self.pf), "pf_interval_95_wilson": [lo, hi],
+                "pf_fixed_surface": _plain(self.pf_fixed), "pf_fixed_interval_95_wilson": [flo, fhi],
+                "beta_normal": _plain(self.beta["normal"]), "beta_lognormal": _plain(self.beta["lognormal"]),
                 "mean_fs": float(f.mean()) if f.size else None,
                 "std_fs": float(f.std(ddof=1)) if f.size > 1 else None,
                 "n_nonconverged": self.n_nonconverged, "n_inadmissible": self.n_inadmissible,
                 "n_no_valid_surface": self.n_no_valid,
-                "refine": self.refine, "n_refined": self.n_refined,
+                "refine": self.refine, "n_refined": self.n_refined, "n_searched": self.n_searched,
                 "refine_rejected": self.refine_rejected,
                 **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
@@ -180,8 +199,8 @@ class SimulationResult:
         dp = self.refine is not None and self.refine.get("search") == "dynamic-programming"
         if self.fs_circles is None and not dp:
             return {}
-        lo, hi = self.pf_circles_interval
-        out = {"pf_circles_only": self.pf_circles, "pf_circles_only_interval_95_wilson": [lo, hi]}
+        lo, hi = map(_plain, self.pf_circles_interval)
+        out = {"pf_circles_only": _plain(self.pf_circles), "pf_circles_only_interval_95_wilson": [lo, hi]}
         if self.problem is not None:
             out["governing_family"] = self.family_counts()
         return out
@@ -254,7 +273,9 @@ def _run_block(problem, seed, start, stop, refine=None):
 
         # one record per realisation (stores hold 1-D arrays): rejections by reason
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
-        for r in np.flatnonzero(np.isfinite(fs_c) & (fs_c < refine.below) & (out["crit"] >= 0)):
+        # the window [above, below): below ``above`` (1 for case files) a realisation already fails
+        near = np.isfinite(fs_c) & (fs_c < refine.below) & (fs_c >= refine.above) & (out["crit"] >= 0)
+        for r in np.flatnonzero(near):
             if dp:
                 f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
             else:

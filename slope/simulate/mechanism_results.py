@@ -40,6 +40,12 @@ class MechanismSummary:
         Realisations whose FS the per-realisation search lowered.
     search : str or None
         The per-realisation search (``RefineSettings.search``), None without.
+    n_searched : int
+        Realisations the search ran on (bank FS inside ``window``).
+    window : (float, float) or None
+        Bank FS window [low, high) of the realisations searched. pf with the
+        free search counts the search's lowering of realisations inside it
+        only (case files: [1, 1.10), :mod:`slope.simulate.refine_names`).
     """
 
     n: int
@@ -50,6 +56,8 @@ class MechanismSummary:
     pf_circles_interval: tuple
     n_refined: int
     search: str | None
+    n_searched: int = 0
+    window: tuple | None = None
 
     @property
     def mechanism_effect(self) -> float | None:
@@ -62,7 +70,8 @@ class MechanismSummary:
                 "pf": f(self.pf), "pf_interval_95": [f(v) for v in self.pf_interval],
                 "pf_circles_only": f(self.pf_circles), "pf_circles_only_interval_95": [f(v) for v in self.pf_circles_interval],
                 "pf_ratio_to_circles_only": f(self.mechanism_effect), "n_refined": int(self.n_refined),
-                "per_realisation_search": self.search}
+                "per_realisation_search": self.search, "n_searched": int(self.n_searched),
+                "search_window_bank_fs": None if self.window is None else [float(v) for v in self.window]}
 
 
 def mechanism_summary(result) -> MechanismSummary | None:
@@ -75,7 +84,9 @@ def mechanism_summary(result) -> MechanismSummary | None:
     return MechanismSummary(n=result.n, families=result.family_counts(), pf=float(result.pf),
                             pf_interval=(float(lo), float(hi)), pf_circles=float(result.pf_circles),
                             pf_circles_interval=(float(clo), float(chi)), n_refined=int(result.n_refined),
-                            search=search)
+                            search=search, n_searched=result.n_searched,
+                            window=None if search is None else (float(result.refine.get("above", 0.0)),
+                                                                float(result.refine["below"])))
 
 
 def _bank_xy(bank, i):

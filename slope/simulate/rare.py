@@ -545,7 +545,7 @@ class _Replay:
 
 
 def theta_sweep_rare(problem, theta_h, theta_v, n, seed, settings, estimator="subset", *, n_jobs=1, batch=100,
-                     scheduler=None) -> list:
+                     scheduler=None, refine=None) -> list:
     """:func:`slope.simulate.theta_sweep` with subset simulation at each grid point.
 
     Same grid rules and common random numbers (the same seed and streams at
@@ -570,11 +570,13 @@ def theta_sweep_rare(problem, theta_h, theta_v, n, seed, settings, estimator="su
                 prob = _with_thetas(problem, [eff] * len(problem.properties))
                 use = estimator
                 if estimator == "auto":
-                    first = simulate(prob, batch, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler)
+                    first = simulate(prob, batch, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler,
+                                     refine=refine)
                     k = int((np.isfinite(first.fs) & (first.fs < 1.0)).sum())
                     use = "subset" if k < AUTO_MIN_FAILURES else "monte-carlo"
                 if use == "subset":
-                    r = subset_simulate(prob, settings, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler)
+                    r = subset_simulate(prob, settings, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler,
+                                        refine=refine)
                     lo, hi = r.interval_95
                     f0 = r.level0_fs[np.isfinite(r.level0_fs)]  # level 0: N Monte Carlo realisations
                     done[eff] = {"estimator": "subset", "pf": r.pf, "lo": lo, "hi": hi, "cov": r.cov,
@@ -584,7 +586,7 @@ def theta_sweep_rare(problem, theta_h, theta_v, n, seed, settings, estimator="su
                                  "n_nonconverged": r.counts["nonconv"], "n_inadmissible": r.counts["inadm"],
                                  "n_no_valid_surface": r.counts["none"]}
                 else:
-                    res = simulate(prob, n, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler)
+                    res = simulate(prob, n, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler, refine=refine)
                     s = _summary(res)
                     done[eff] = {"estimator": "monte-carlo", "pf": s["pf"], "lo": s["lo"], "hi": s["hi"],
                                  "cov": (math.sqrt((1 - s["pf"]) / (s["pf"] * res.n)) if s["pf"] else float("nan")),

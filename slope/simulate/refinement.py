@@ -25,13 +25,11 @@ from ..search import refine
 from ..surfaces import Circle
 from .engine import _correlated, bilinear, deterministic_value, strength_overrides
 from .problem import AVERAGING
+from .refine_names import (DEFAULT_REFINE_BELOW, DEFAULT_REFINE_SEARCH, FAILURE_FS, REFINE_OFF,
+                           REFINE_SEARCHES)
 
-__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation",
+__all__ = ["RefineSettings", "REFINE_SEARCHES", "realisation_overrides", "refine_realisation", "search_region",
            "REFINE_REASONS"]
-
-#: searches of a realisation after the bank (``RefineSettings.search``)
-REFINE_SEARCHES = ("nelder-mead", "dynamic-programming")
-
 
 START_UNUSABLE = "start surface has no clean solution by the refinement method"
 
@@ -67,6 +65,11 @@ class RefineSettings:
         Refine realisations whose critical bank FS is below this value
         (e.g. 1.2; realisations above it keep their bank FS). pf can only
         change through realisations with 1 <= bank FS < ``below``.
+    above : float, -
+        ... and at or above this one (default 0: every realisation below
+        ``below``). Case files and the command line use 1 (the failure
+        threshold): the search only lowers FS, so searching a realisation
+        that already fails cannot change pf (:mod:`.refine_names`).
     method : str
         Method of slices for the polylines (``spencer``, default, or
         ``morgenstern-price``, ``janbu``): Bishop's and the Ordinary method's
@@ -89,6 +92,7 @@ class RefineSettings:
     """
 
     below: float
+    above: float = 0.0
     method: str = "spencer"
     n_vertices: int = 8
     max_evaluations: int = 300
@@ -103,6 +107,13 @@ class RefineSettings:
         if not (math.isfinite(b) and b > 0):
             raise InputError(f"refine below (--refine-below): {self.below!r}; give a factor of safety > 0, e.g. 1.2")
         object.__setattr__(self, "below", b)
+        a = float(self.above)
+        if not (math.isfinite(a) and 0 <= a < b):
+            raise InputError(f"refine below (simulation.refine_below, --refine-below): {b!r} leaves no realisation "
+                             f"to search: realisations are searched when their bank FS is in [{a:g}, refine_below); "
+                             f"give a value above {a:g} (default {DEFAULT_REFINE_BELOW:g}) or switch the search off "
+                             f"(refine_search = \"{REFINE_OFF}\", --refine-search {REFINE_OFF})")
+        object.__setattr__(self, "above", a)
         m = str(self.method).lower()
         if m not in POLYLINE_METHOD_NAMES:
             raise InputError(f"refine method (--refine-method): {self.method!r}; polylines need one of "
@@ -125,6 +136,8 @@ class RefineSettings:
 
     def describe(self) -> dict:
         d = asdict(self)
+        if not d["above"]:  # the library's default window (and older stores lack it)
+            d.pop("above")
         if self.search == "nelder-mead":  # the grid sizes do nothing then (and older stores lack them)
             for k in ("search", "families", "columns", "nodes", "passes"):
                 d.pop(k)
@@ -134,14 +147,74 @@ class RefineSettings:
         return d
 
     @classmethod
-    def from_case(cls, simulation: dict):
-        """Settings of a case's ``[simulation]`` table (``refine_below``, ``refine_method``,
-        ``refine_search``); None when absent."""
-        below = simulation.get("refine_below")
-        if below is None:
+    def from_case(cls, simulation: dict, *, search=None, below=None, method=None):
+        """Settings of a case's ``[simulation]`` table, with command-line overrides; None when off.
+
+        The per-realisation search is on unless ``refine_search`` (or the
+        ``search`` override, ``--refine-search``) is ``"off"``: by default
+        dynamic programming for realisations with bank FS in
+        [1, ``refine_below``), ``refine_below`` 1.10 (:mod:`.refine_names`
+        says why). ``below`` and ``method`` override ``refine_below`` and
+        ``refine_method`` (``--refine-below``, ``--refine-method``).
+        """
+        chosen = search if search is not None else simulation.get("refine_search", DEFAULT_REFINE_SEARCH)
+        if chosen == REFINE_OFF:
+            for opt, v in (("--refine-below", below), ("--refine-method", method)):
+                if v is not None:
+                    raise InputError(f"{opt}: the per-realisation search is off (--refine-search {REFINE_OFF} or "
+                                     f"simulation.refine_search = \"{REFINE_OFF}\"), so {opt} would do nothing; "
+                                     f"remove it or name a search ({', '.join(REFINE_SEARCHES)})")
             return None
-        return cls(below=below, method=simulation.get("refine_method", "spencer"),
-                   search=simulation.get("refine_search", "nelder-mead"))
+        if chosen not in REFINE_SEARCHES:
+            raise InputError(f"refine search (--refine-search, simulation.refine_search): {chosen!r}; use one of "
+                             f"{', '.join(REFINE_SEARCHES + (REFINE_OFF,))}")
+        return cls(below=simulation.get("refine_below", DEFAULT_REFINE_BELOW) if below is None else below,
+                   above=FAILURE_FS,
+                   method=simulation.get("refine_method", "spencer") if method is None else method,
+                   search=chosen)
+
+
+def search_region(problem, settings) -> tuple | None:
+    """Box of the section (section frame, m) whose cells the per-realisation search may read.
+
+    For field generators that build only part of the grid: a realisation's
+    search reads its fields (through :func:`realisation_overrides`) only
+    inside ``(x_min, x_max, y_min, y_max)``. ``dynamic-programming``: the
+    first bands of every bank surface that can start it (each start's
+    horizontal extent plus ``margin`` of it on each side, from ``band`` of
+    its greatest depth below it up to the ground; later passes stay within
+    a band plus two node spacings), padded by one cell for the bilinear
+    interpolation; ``nelder-mead`` may move a polyline anywhere, so the
+    whole section. None without a search.
+    """
+    if settings is None:
+        return None
+    sec = problem.section
+    whole = (float(sec.x_min), float(sec.x_max), float(sec.base_y), float(np.max(sec.ground[:, 1])))
+    if settings.search != "dynamic-programming":
+        return whole
+    from ..search.dp_grid import start_xy
+    from ..search.dynamic_programming import DPSettings
+
+    st = DPSettings(columns=settings.columns, nodes=settings.nodes, passes=settings.passes)
+    lo_x, hi_x, lo_y = np.inf, -np.inf, np.inf
+    for surf in problem.surfaces:
+        try:
+            xy = start_xy(sec, surf, 40)
+        except InputError:
+            continue  # a surface that does not cut the ground twice never starts a search
+        x1, x2 = xy[0, 0], xy[-1, 0]
+        depth = float(np.max(sec.ground_y(xy[:, 0]) - xy[:, 1]))
+        if not depth > 0:
+            continue
+        half = st.band * depth * (1.0 + 4.0 / max(st.nodes - 1, 1))
+        lo_x, hi_x = min(lo_x, x1 - st.margin * (x2 - x1)), max(hi_x, x2 + st.margin * (x2 - x1))
+        lo_y = min(lo_y, float(np.min(xy[:, 1])) - half)
+    if not np.isfinite(lo_x):
+        return whole
+    pad = problem.cell
+    return (float(max(whole[0], lo_x - pad)), float(min(whole[1], hi_x + pad)), float(max(whole[2], lo_y - pad)),
+            whole[3])
 
 
 def _grid_values(problem, seed, k):

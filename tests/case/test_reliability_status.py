@@ -46,5 +46,6 @@ def test_form_failure_is_reported_in_its_row_and_the_others_run(tmp_path):
     if "beta" not in form:
         # its own status, with the reason, in its own row
         assert form["status"].startswith("not computed: ") and len(form["status"]) > 20
+        assert "φ' reached" in form["status"] and "90°" in form["status"]   # what happened, not "use a positive marginal"
     else:
         assert np.isfinite(form["beta"]) and form["beta"] < 0

@@ -158,3 +158,24 @@ def test_sample_on_mesh_cell_centres(tmp_path):
     assert main(base + ["--grid", "4x2", "--spacing", "1", "--out", str(tmp_path / "a.npz")]) == 0
     _, vals, _, _ = fio.read_vtu(tmp_path / "a.vtu")
     np.testing.assert_allclose(vals, np.load(tmp_path / "a.npz")["values"].reshape(4, -1), atol=1e-12)
+
+
+@pytest.mark.parametrize("name,existing", [("f.npz", "f.npz"), ("f.vtu", "f.vtu"), ("f.xdmf", "f.h5")])
+def test_sample_never_replaces_an_existing_file(tmp_path, capsys, name, existing):
+    # issue noticed last session: `fields sample --out FILE` overwrote a file it had not written
+    mine = tmp_path / existing
+    mine.write_text("the user's own notes\n")
+    argv = ["sample", "--model", "exponential", "--theta", "2", "--grid", "4x4", "--spacing", "1",
+            "--n", "2", "--quiet", "--out", str(tmp_path / name)]
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert "--out" in err and "give a new file name" in err and existing in err
+    assert mine.read_text() == "the user's own notes\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == [existing]      # nothing else written
+
+
+def test_sample_refuses_a_folder_as_output(tmp_path, capsys):
+    (tmp_path / "d.npz").mkdir()
+    assert main(["sample", "--model", "exponential", "--theta", "2", "--grid", "4x4", "--spacing", "1",
+                 "--quiet", "--out", str(tmp_path / "d.npz")]) == 2
+    assert "is a folder" in capsys.readouterr().err

@@ -152,3 +152,15 @@ def test_command_names_the_file_and_row_of_a_bad_reading(tmp_path, capsys):
     assert fields_main(["fit", str(p), "--out", str(tmp_path / "o")]) == 2
     assert "row 3" in capsys.readouterr().err
     assert not (tmp_path / "o").exists()
+
+
+def test_command_refuses_an_existing_file_as_its_folder_before_fitting(tmp_path, capsys):
+    # --out naming a file ended in a traceback (FileExistsError) after the fit; now exit 2 up front
+    depth = np.arange(0.25, 5.0, 0.5)
+    _write_csv(tmp_path / "cpt1.csv", depth, 12.0 + depth)
+    mine = tmp_path / "notes.txt"
+    mine.write_text("mine\n")
+    assert fields_main(["fit", str(tmp_path / "cpt1.csv"), "--out", str(mine)]) == 2
+    err = capsys.readouterr().err
+    assert "--out" in err and "an existing file, not a folder" in err
+    assert mine.read_text() == "mine\n"

@@ -164,3 +164,21 @@ def test_csv_round_trip_full_precision(tmp_path):
     with pytest.raises(InputError, match="row 1"):
         write_csv(tmp_path / "bad.csv", ["a", "b"], [[1]])
     assert not (tmp_path / "bad.csv").exists()
+
+
+def test_generic_report_uses_the_run_reports_one_stylesheet(tmp_path):
+    # Issue 13: every page from templates with one stylesheet and one print stylesheet; the generic report
+    # had its own CSS string. Read the stylesheets from the package's templates folder, not from the code.
+    import slipfield.slope.report as report_pkg
+    from pathlib import Path
+
+    templates = Path(report_pkg.__file__).resolve().parent / "templates"
+    text = render_report("t", SUMMARY, _sections(_figs()))
+    styles = re.findall(r"<style( media=\"print\")?>(.*?)</style>", text, re.S)
+    assert [(m, s) for m, s in styles] == [("", (templates / "report.css").read_text(encoding="utf-8")),
+                                           (' media="print"', (templates / "print.css").read_text(encoding="utf-8"))]
+    # case text never becomes markup, in headings, paragraphs, captions and table cells alike
+    evil = "<b>x</b>"
+    text = render_report(evil, [(evil, 1.0, evil)], [{"heading": evil, "text": evil, "figures": [
+        {"figure": _figs()[0], "caption": evil}], "tables": [{"caption": evil, "columns": [evil], "rows": [[evil]]}]}])
+    assert "<b>" not in text and text.count("&lt;b&gt;x&lt;/b&gt;") >= 8

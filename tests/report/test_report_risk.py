@@ -47,7 +47,7 @@ def test_point_lies_at_consequence_and_pf_times_exceedance():
     np.testing.assert_allclose(line.get_xydata(), [[1, 1e-2], [1e7, 1e-9]])
     foot = _gid(fig, "risk-footnote").get_text()
     assert "[1] owner's limit (invented for this test): Test fixture, no publication" in foot
-    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    legend = [t.get_text() for lg in fig.legends for t in lg.get_texts()]  # below the axes
     assert legend[0].startswith("[1] ")
     assert len(figure_png_bytes(fig, dpi=50)) > 5000
 
@@ -117,3 +117,32 @@ def test_case_file_forms_are_accepted():
     np.testing.assert_allclose(_gid(fig, "scenario-0").get_xydata(), [[2e6, 1e-3]])
     with pytest.raises(InputError, match="points"):
         plot_risk_chart([{"consequence": 1, "annual_pf": 1e-3}], [{"label": "l", "source": "s", "points": [1, 2, 3]}])
+
+
+def _extent(artist, fig):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    return artist.get_window_extent(FigureCanvasAgg(fig).get_renderer())
+
+
+def test_legend_below_keeps_the_plotting_area():
+    # A long legend used to sit right of the axes, and the layout shrank the axes to make room for it.
+    one = plot_risk_chart([{"label": "a", "consequence": 5, "annual_probability": 1e-4}])
+    many = plot_risk_chart([{"label": f"hypothesis {k} · a rather long estimate name, spatial simulation",
+                             "consequence": 5 * (k + 1), "annual_probability": 1e-4 * (k + 1),
+                             "annual_interval": (0.5e-4 * (k + 1), 2e-4 * (k + 1))} for k in range(12)],
+                           [{"label": f"line {k}", "source": "test fixture, no publication",
+                             "consequence": [1, 1e3], "annual_probability": [1e-2, 1e-6]} for k in range(3)],
+                           title="many entries")
+    sizes = []
+    for fig in (one, many):
+        ax_box = _extent(fig.axes[0], fig)
+        sizes.append((ax_box.width / fig.dpi, ax_box.height / fig.dpi))  # inches
+        for lg in fig.legends:
+            lg_box = _extent(lg, fig)
+            assert lg_box.y1 < ax_box.y0  # wholly below the axes, no overlap
+        foot = _extent(_gid(fig, "risk-footnote"), fig)
+        assert foot.y1 <= min([_extent(lg, fig).y0 for lg in fig.legends] + [ax_box.y0]) + 1e-9
+        assert foot.y0 >= -1e-6  # inside the figure, not cut at the bottom edge
+    np.testing.assert_allclose(sizes[0], sizes[1], rtol=1e-9)
+    assert sum(len(lg.get_texts()) for lg in many.legends) == 15

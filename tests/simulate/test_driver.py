@@ -59,3 +59,32 @@ def test_resume_equals_uninterrupted_and_refuses_other_problem(tmp_path):
     np.testing.assert_array_equal(full.fs, res.fs)
     with pytest.raises(InputError, match="problem differs"):
         simulate(_problem(20.0), 20, seed=2, batch=5, store=tmp_path / "s", resume=True)
+
+
+def _plain_types(v, path="result"):
+    """Paths in a nested dict/list whose values are not plain Python JSON types."""
+    if isinstance(v, dict):
+        return [p for k, x in v.items() for p in _plain_types(x, f"{path}.{k}")]
+    if isinstance(v, list):
+        return [p for i, x in enumerate(v) for p in _plain_types(x, f"{path}[{i}]")]
+    return [] if type(v) in (int, float, str, bool, type(None)) else [f"{path}: {type(v).__name__}"]
+
+
+def test_to_dict_is_plain_json(tmp_path):
+    # issue noticed last session: the pf interval held numpy floats (printed as np.float64(...))
+    import copy
+    import json
+
+    from support.problems import gf_problem
+
+    p, _ = gf_problem(5.0, 0.3, nx=3, ny=3, n_radii=2)
+    r = simulate(p, 12, 3)
+    d = r.to_dict()
+    assert _plain_types(d) == []
+    assert json.loads(json.dumps(d, allow_nan=False))["pf_interval_95_wilson"] == list(r.pf_interval)
+    none_valid = copy.copy(r)                         # no valid realisation: no estimate, and no NaN in JSON
+    none_valid.fs = np.full_like(r.fs, np.nan)
+    none_valid.fixed_ok = np.zeros_like(r.fixed_ok)
+    d = none_valid.to_dict()
+    assert d["pf"] is None and d["pf_interval_95_wilson"] == [None, None] and d["pf_fixed_surface"] is None
+    json.dumps(d, allow_nan=False)

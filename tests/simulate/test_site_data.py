@@ -276,8 +276,13 @@ samples = 100
     assert s["n_data"] == {"clay.su": 3}
     assert 0 <= s["pf_conditional"] <= 1 and 0 <= s["pf_unconditional"] <= 1
     assert "changed pf from" in s["statement"]
+    sv = json.loads((tmp_path / "out" / "results.json").read_text())["single_variable_reliability"]["undrained"]
+    assert sv["site_data"]["conditional_mean"] == ["clay.su"]        # the single variables used the data too
+    assert sv["monte-carlo"]["pf"] != sv["site_data"]["without_site_data"]["monte-carlo"]["pf"]
     assert (tmp_path / "out" / "figures" / "site_data_sd_undrained.png").exists()
-    assert "changed pf from" in (tmp_path / "out" / "report.html").read_text()
+    page = (tmp_path / "out" / "report.html").read_text()
+    assert "changed pf from" in page
+    assert "Site data in the single-variable analyses: clay.su took the conditional mean" in page
     dr = json.loads((tmp_path / "out" / "results.json").read_text())["spatial_simulation"]["undrained"]["drilling"]
     assert [c["x"] for c in dr["candidates"]] == [22.0, 38.0]
     assert all(0 <= c["properties"]["clay.su"]["fraction_removed"] <= 1 for c in dr["candidates"])

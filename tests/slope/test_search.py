@@ -10,8 +10,8 @@ import pytest
 
 from slipfield.slope.errors import InputError
 from slipfield.slope.examples import simple_slope
-from slipfield.slope.search import (block_surfaces, centre_lattice, critical_surface, evaluate_surfaces,
-                          kinematic_reason, refine, weak_layer, window)
+from slipfield.slope.search import (block_polylines, block_search, centre_lattice, critical_surface,
+                                    evaluate_surfaces, kinematic_reason, refine, window)
 from slipfield.slope.section import Section
 from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle, Polyline, cut_ground
@@ -102,7 +102,7 @@ def test_kinematic_checks_reject_inadmissible_polylines():
         refine(sec, Polyline(np.c_[xs, kink]), n_vertices=4, max_evaluations=5)
 
 
-def test_weak_layer_block_against_sliding_block_force_balance():
+def test_block_search_against_sliding_block_force_balance():
     # Long straight slope (tan beta = 1/3) with a thin cohesionless seam
     # (phi = 12 deg) 1 m below the ground and parallel to it, under a
     # cohesionless cover (phi = 20 deg). Sliding-block force balance derived
@@ -120,10 +120,11 @@ def test_weak_layer_block_against_sliding_block_force_balance():
             "seam": Material("seam", unit_weight=20.0, c=0.0, phi=12.0)}
     sec = Section.from_layers(ground, [("upper", "soil", seam_top), ("seam", "seam", seam_bot),
                                        ("lower", "soil", None)], mats, base_y=-5.0)
-    r = weak_layer(sec, zone="seam", x_from=12.0, x_to=68.0, n_positions=5, n_lengths=5)
+    # the block search (slope.search.block): active wedge from the upper slope, passive wedge to the lower
+    r = block_search(sec, zone="seam", entry=(14.0, 40.0), exit=(40.0, 66.0), points=6)
     _check_bookkeeping(r)
     p = r.critical.points
-    (xa, ya), (xb, yb) = p[1], p[2]  # the base along the seam
+    (xa, ya), (xb, yb) = p[1], p[-2]  # the base along the seam (straight there: no bend between)
     h = float(sec.ground_y(xa) - ya)
     beta = np.arctan(t)
     W = 20.0 * h * (xb - xa)
@@ -137,7 +138,7 @@ def test_weak_layer_block_against_sliding_block_force_balance():
     b = r.bank.subset([r.critical_index])
     mid = slice(b.n_slices // 4, 3 * b.n_slices // 4)
     assert set(np.asarray(b.zone_names)[b.zone[0, mid]]) == {"seam"}
-    assert all(isinstance(q, Polyline) for q in block_surfaces(sec, "seam", 12.0, 68.0, 3, 3))
+    assert all(isinstance(q, Polyline) for q in block_polylines(sec, "seam", (14.0, 40.0), (40.0, 66.0), 3))
 
 
 @pytest.mark.parametrize("call,word", [
@@ -145,7 +146,7 @@ def test_weak_layer_block_against_sliding_block_force_balance():
     (lambda s: window(s, upslope=(100.0, 120.0), downslope=(0.0, 5.0)), "upslope window"),
     (lambda s: window(s, upslope=(12.0, 20.0), downslope=(0.0, 5.0), min_angle=50.0, max_angle=40.0),
      "min_angle"),
-    (lambda s: weak_layer(s, zone="peat", x_from=0.0, x_to=10.0), "zone 'peat'"),
+    (lambda s: block_search(s, zone="peat", entry=(12.0, 20.0), exit=(0.0, 5.0)), "zone 'peat'"),
     (lambda s: centre_lattice(s, nx=0), "nx"),
     (lambda s: evaluate_surfaces(s, Circle(10.0, 20.0, 15.0), tolerate=("tiny",)), "tolerate"),
     (lambda s: refine(s, Circle(10.0, 20.0, 15.0), n_vertices=2), "n_vertices"),

@@ -31,7 +31,12 @@ def _long_seam(beta=10.0, length=500.0, cover=1.0, seam=0.2):
     return Section.from_layers(ground, layers, mats, base_y=-20.0), H
 
 
-def test_block_on_a_long_seam_matches_the_infinite_slope():
+@pytest.mark.parametrize("n_slices", [20, 100])
+def test_block_on_a_long_seam_matches_the_infinite_slope(n_slices):
+    # 20 slices suffice: slice sides sit at every bend of the block and of the ground line and where
+    # the base crosses into another zone (slope.bank.polyline_sides), so each wedge is whole slices
+    # (measured +0.54 % at 10 to 100 slices; with equal widths, +1.2 % at 20 slices and 11 % low on
+    # the thin-seam section of the next test)
     beta, length, lift = 10.0, 500.0, 0.5
     sec, H = _long_seam(beta, length)
     # Infinite slope, dry (e.g. Duncan, Wright & Brandon 2014, ch. 6): FS = [c' + γ z cos²β tanφ'] /
@@ -45,12 +50,29 @@ def test_block_on_a_long_seam_matches_the_infinite_slope():
     blocks = block_polylines(sec, "seam", entry=(length - 20.0, length + 20.0), exit=(-20.0, 20.0), points=7,
                              lift=lift)
     assert all(family_of(p) == "block" for p in blocks)
-    r = evaluate_surfaces(sec, blocks, method="spencer", n_slices=100)
+    r = evaluate_surfaces(sec, blocks, method="spencer", n_slices=n_slices)
     assert r.fs_min == pytest.approx(exact, rel=0.01)
     # Circles cannot follow a 500 m long, 1.1 m deep plane: the best of a lattice over the whole
     # slope is more than 8 % above it (measured 12.6 % with a finer lattice).
     c = centre_lattice(sec, nx=10, ny=10, n_radii=8, method="spencer", n_slices=40)
     assert c.fs_min > 1.08 * exact
+
+
+def test_block_on_a_thin_seam_needs_few_slices():
+    # Invented 10 m cut over a 0.6 m seam (slope.examples.layered_weak_section): with slice sides at
+    # the block's bends and where its wedges cross into the seam, Janbu's simplified FS of a block
+    # is the same for any slice count (its geometry is exactly piecewise linear) and Spencer's at 20
+    # slices is within 1 % of 400 (measured 0.7 %); with equal widths it was 11 % low at 20.
+    from slipfield.slope.examples import layered_weak_section
+
+    sec = layered_weak_section()
+    blocks = block_polylines(sec, "seam", entry=(15.0, 30.0), exit=(45.0, 60.0), points=4)
+    fine = evaluate_surfaces(sec, blocks, method="spencer", n_slices=400)
+    coarse = evaluate_surfaces(sec, blocks, method="spencer", n_slices=20)
+    assert coarse.fs_min == pytest.approx(fine.fs_min, rel=0.01)
+    j20 = evaluate_surfaces(sec, fine.critical, method="janbu", n_slices=20)
+    j400 = evaluate_surfaces(sec, fine.critical, method="janbu", n_slices=400)
+    assert j20.fs[0] == pytest.approx(j400.fs[0], rel=1e-9)
 
 
 def test_block_wedges_follow_rankine_angles():
@@ -72,25 +94,33 @@ def _taylor_section(beta):
     return simple_slope(10.0, cot, 3.0, material=Material("clay", unit_weight=20.0, su_model="constant", su=50.0)), cot
 
 
-@pytest.mark.parametrize("beta,ns,below", [(90, 0.261, 0.01), (75, 0.219, 0.015)])
-def test_taylor_numbers_with_dynamic_programming(beta, ns, below):
+@pytest.mark.parametrize("beta,ns", [(90, 0.261), (75, 0.219)])
+def test_taylor_numbers_with_every_family_that_can_express_them(beta, ns):
     # Taylor (1937) stability numbers c/(F γ H), φ = 0, toe circles, recalled from memory: 0.261
-    # (vertical), 0.219 (75°). The non-circular search starts from the best window circle (Spencer)
-    # and may only go below it (Ns up). On φ = 0 Spencer's method gives non-circular surfaces a
-    # little below the circle at 75° (measured 1.2 %: no interslice shear limit stops it), hence
-    # the one-sided 1.5 % there; 1 % for the vertical cut (measured 0.05 %).
+    # (vertical), 0.219 (75°); within 1 % (issue 15) by each family that can express a toe mechanism
+    # in a homogeneous slope: circles (Spencer and Bishop), the dynamic-programming paths from the
+    # best circle and the Nelder-Mead polyline refinement. Blocks cannot: their base follows a zone.
+    # Measured: circles 0.2189 and 0.2606 (-0.05 %, -0.1 %); dynamic programming 0.2199 (+0.4 %) and
+    # 0.2610. The path may only go below the circle (Ns up). (1.2 % above 0.219 was measured when this
+    # test was first written, before the later changes to Spencer's root finding of issue 11.)
+    from slipfield.slope.search import refine
+
     sec, cot = _taylor_section(beta)
     L = 10.0 * cot
-    circ = window(sec, upslope=(L + 0.5, L + 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20,
-                  max_angle=89.0, min_angle=5.0, method="spencer", hypothesis="undrained", tolerate=PHI0_TOL)
+    kw = dict(upslope=(L + 0.5, L + 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20, max_angle=89.0,
+              min_angle=5.0, hypothesis="undrained", tolerate=PHI0_TOL)
+    circ = window(sec, method="spencer", **kw)
+    bishop = window(sec, method="bishop", **kw)
     paths = dp_surface(sec, circ.critical, hypothesis="undrained", n_slices=60)
     assert paths and all(family_of(p) == DP_FAMILY for p in paths)
     r = evaluate_surfaces(sec, paths, method="spencer", hypothesis="undrained", n_slices=60, tolerate=PHI0_TOL)
-    ns_dp = 50.0 / (20.0 * 10.0 * r.fs_min)
-    ns_circle = 50.0 / (20.0 * 10.0 * circ.fs_min)
-    assert ns_circle == pytest.approx(ns, rel=0.01)
-    assert ns_dp >= ns_circle * (1 - 1e-3)
-    assert ns * (1 - 0.01) <= ns_dp <= ns * (1 + below)
+    nm = refine(sec, circ.critical, n_vertices=8, method="spencer", hypothesis="undrained", n_slices=60,
+                max_evaluations=60, tolerate=PHI0_TOL)
+    ns_of = lambda fs: 50.0 / (20.0 * 10.0 * fs)  # noqa: E731 - c / (F γ H)
+    for name, fs in (("circles, Spencer", circ.fs_min), ("circles, Bishop", bishop.fs_min),
+                     ("dynamic programming", r.fs_min), ("Nelder-Mead polyline", nm.fs_min)):
+        assert ns_of(fs) == pytest.approx(ns, rel=0.01), name
+    assert ns_of(r.fs_min) >= ns_of(circ.fs_min) * (1 - 1e-3)
 
 
 # ------------------------------------------------------- homogeneous slope --
@@ -107,19 +137,35 @@ def test_dynamic_programming_never_above_the_best_circle_on_a_homogeneous_slope(
     assert r.fs_min >= circ.fs_min * 0.98
 
 
-def test_dynamic_programming_on_phi0_vertical_cut_is_near_circular():
-    # Homogeneous φ = 0 vertical cut: the critical surface is Taylor's toe circle; the path found
-    # from it stays within 0.5 % in FS and within 3 % of the circle's radius everywhere.
-    sec, _ = _taylor_section(90)
-    circ = window(sec, upslope=(0.5, 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20,
+@pytest.mark.parametrize("beta", [90, 75])
+def test_dynamic_programming_on_homogeneous_phi0_slope_is_near_circular(beta):
+    # Homogeneous φ = 0 steep slopes (vertical cut, 75°) with the firm base out of reach (D = 3: the
+    # base is 20 m below the toe; Taylor's toe circles reach about 1 m below the toe): the critical surface
+    # is Taylor's (1937) toe circle; the path found from the best circle stays within 0.5 % in FS
+    # (measured 0.14 % and 0.46 %) and within 3 % of the circle's radius everywhere.
+    # Flatter slopes are not checked this way, on purpose: on a 2H:1V φ = 0 slope Spencer's method
+    # finds non-circular paths 7-9 % below the best circle whether the firm base is in reach (D = 2,
+    # along the base) or not (D = 4, 13 m above it), and at D = 4 that path is accepted with only
+    # small m_α tolerated (converged, no negative normal, thrust line inside; measured 1.321 against
+    # 1.454 for the best circle of a 16 x 16 x 14 lattice), so it is neither the firm base nor a flag
+    # the searches tolerate. Limit equilibrium on a non-circular surface does not compare the
+    # interslice shear it needs with the strength across the slice boundaries, which a rotating
+    # circle never calls on; the circle is an upper-bound mechanism for φ = 0, the path is not.
+    # Until such a check exists the circle family is the one to trust on homogeneous φ = 0 slopes.
+    sec, cot = _taylor_section(beta)
+    L = 10.0 * cot
+    circ = window(sec, upslope=(L + 0.5, L + 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20,
                   max_angle=89.0, min_angle=5.0, method="spencer", hypothesis="undrained", tolerate=PHI0_TOL)
     paths = dp_surface(sec, circ.critical, hypothesis="undrained", n_slices=60)
-    r = evaluate_surfaces(sec, paths[-1], method="spencer", hypothesis="undrained", n_slices=60, tolerate=PHI0_TOL)
-    assert r.fs[0] == pytest.approx(circ.fs_min, rel=0.005)
+    r = evaluate_surfaces(sec, paths, method="spencer", hypothesis="undrained", n_slices=60, tolerate=PHI0_TOL)
+    assert r.counted.any()
+    assert r.fs_min == pytest.approx(circ.fs_min, rel=0.005)
+    assert r.fs_min <= circ.fs_min * (1 + 1e-9)
     c = circ.critical
-    p = paths[-1].points[1:-1]
+    p = r.critical.points[1:-1]
     off = np.abs(np.hypot(p[:, 0] - c.xc, p[:, 1] - c.yc) - c.radius)
     assert off.max() < 0.03 * c.radius
+    assert circ.critical.yc - circ.critical.radius > -20.0 + 5.0    # the base is out of reach
 
 
 def test_dp_settings_refuse_fewer_than_three_vertices():
@@ -165,14 +211,18 @@ trials = 100
 [[search.block]]
 zone = "{zone}"
 entry = {entry}
-exit = [45.0, 65.0]
+exit = {exit}
+{extra}
 [search.dynamic_programming]
 columns = {columns}
+{dp_extra}
 """
 
 
-def _case(method="spencer", zone="seam", entry="[10.0, 30.0]", columns=20):
-    return _CASE.format(method=method, zone=zone, entry=entry, columns=columns)
+def _case(method="spencer", zone="seam", entry="[10.0, 30.0]", columns=20, exit="[45.0, 65.0]", extra="",
+          dp_extra=""):
+    return _CASE.format(method=method, zone=zone, entry=entry, columns=columns, exit=exit, extra=extra,
+                        dp_extra=dp_extra)
 
 
 def test_good_block_case_parses():
@@ -185,7 +235,12 @@ def test_good_block_case_parses():
     (dict(zone="slimes"), "search.block[0].zone"),
     (dict(entry="[100.0, 120.0]"), "search.block[0].entry"),
     (dict(entry="[30.0, 10.0]"), "search.block[0].entry"),
-    (dict(columns=2), "search.dynamic_programming.columns"),
+    (dict(exit="[80.0, 95.0]"), "search.block[0].exit"),       # beyond the ground line (x 0 to 75 m)
+    (dict(exit="[-30.0, -5.0]"), "search.block[0].exit"),
+    (dict(extra="points = 1"), "search.block[0].points"),       # fewer than 2 points per range
+    (dict(extra="lift = 1.0"), "search.block[0].lift"),
+    (dict(columns=2), "search.dynamic_programming.columns"),    # fewer than 3 vertices
+    (dict(dp_extra="nodes = 2"), "search.dynamic_programming.nodes"),
     (dict(method="bishop"), "analysis.method"),
 ])
 def test_bad_search_families_name_the_key(kw, key):

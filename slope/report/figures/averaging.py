@@ -6,10 +6,14 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from ...errors import InputError
-from ..style import CYCLE, report_style
+from ..style import CYCLE, PALETTE, report_style
 from ._common import _axes, _vector
 
 __all__ = ["plot_variance_reduction", "plot_variance_reduction_along_surface"]
+
+# Properties' curves avoid the hypotheses' colours (vermillion, bluish green): the figure is one hypothesis'.
+_PROPERTY_COLOURS = (PALETTE["blue"], PALETTE["orange"], PALETTE["reddish_purple"], PALETTE["sky_blue"],
+                     PALETTE["black"])
 
 
 def plot_variance_reduction(T_over_theta, gamma_by_model: Mapping[str, object], *, ax=None, title: str | None = None):
@@ -91,7 +95,7 @@ def plot_variance_reduction_along_surface(entries: Sequence[Mapping], *, ax=None
             g = _vector(e["gamma"], f"entries[{k}].gamma", min_len=2)
             if g.size != t.size or np.any(t <= 0):
                 raise InputError(f"entries[{k}]: T (> 0, m) and gamma need one value each per point.")
-            colour = CYCLE[k % len(CYCLE)]
+            colour = _PROPERTY_COLOURS[k % len(_PROPERTY_COLOURS)]
             ax.plot(t, g, color=colour, label=str(e["label"]), gid=f"gamma-curve-{k}")
             ax.plot([e["length"]], [e["gamma_line"]], marker="o", color=colour, linestyle="none",
                     gid=f"gamma-line-{k}")
@@ -104,7 +108,8 @@ def plot_variance_reduction_along_surface(entries: Sequence[Mapping], *, ax=None
         ax.set_ylim(0.0, 1.05)
         ax.set_xlabel("averaging length T (m)")
         ax.set_ylabel("variance function γ(T)")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
+        # Below the axes, so that long property names do not narrow the plotting area.
+        ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.2), borderaxespad=0.0)
         if title:
             ax.set_title(title)
     return fig

@@ -37,6 +37,7 @@ class Drawn:
     text: str = ""
     group: str = ""
     legend: list = None  # the figure's legend entries as text, for readers who cannot see the image
+    saved: bool = False  # the figure was written to figures/<stem>.png (and ``figure`` let go)
 
 
 @dataclass(frozen=True)
@@ -166,9 +167,18 @@ def _comparison(case, res):
                 ("single random variable (θ → ∞)", sp.single.searched)]
         if sp.quick.estimate is not None:
             rows.append(("quick estimate: σ × √γ on the fixed surface", sp.quick.estimate))
+        cap = f"What spatial averaging changes: pf with and without it, {h}"
+        if all(r[1].pf == 0 for r in rows):
+            # Points at 0 would sit on the axis, all alike: a sentence says it plainly.
+            bounds = "; ".join(f"{name} < {r.interval[1]:.3g}" for name, r in rows)
+            out.append(Drawn(f"pf_comparison_{h}", cap, None,
+                             f"No realisation failed (FS < 1) in any of these {h} analyses, so pf = 0 in each and "
+                             f"spatial averaging shows no difference to draw. Upper ends of the 95 % intervals: "
+                             f"{bounds}."))
+            continue
         fig = plot_pf_comparison([r[0] for r in rows], [r[1].pf for r in rows], [r[1].interval[0] for r in rows],
                                  [r[1].interval[1] for r in rows], colour=hypothesis_colour(h))
-        out.append(Drawn(f"pf_comparison_{h}", f"What spatial averaging changes: pf with and without it, {h}", fig))
+        out.append(Drawn(f"pf_comparison_{h}", cap, fig))
     return out
 
 
@@ -196,8 +206,15 @@ def _site_data(case, res):
 
 
 # --------------------------------------------------------------------------- fields
-def _su_law(mat, x, y, ground_y):
-    """The material's undrained law at points (kPa), as :func:`slope.strength.base_strength` applies it."""
+def _su_law(mat, x, y, section):
+    """The material's undrained law at points (kPa), as :func:`slope.strength.base_strength` applies it.
+
+    The ``ratio`` law (su = S · σ'v, never below its minimum) uses the vertical effective stress a slice base
+    at the point would carry (:func:`slope.bank.vertical_effective_stress`): the field is shown in kPa.
+    """
+    from ...bank import vertical_effective_stress
+
+    ground_y = section.ground_y(x.ravel()).reshape(x.shape)
     depth = np.maximum(ground_y - y, 0.0)
     if mat.su_model == "constant":
         su = np.full_like(x, mat.su)
@@ -205,27 +222,37 @@ def _su_law(mat, x, y, ground_y):
         su = mat.su + mat.su_gradient * depth
     elif mat.su_model == "elevation":
         su = mat.su + mat.su_gradient * (mat.su_datum - y)
+    elif mat.su_model == "ratio":
+        su = np.maximum(mat.su_ratio * np.maximum(vertical_effective_stress(section, x, y), 0.0), mat.su_min)
     else:
         return None
     return np.maximum(su, 0.0)
 
 
 def _physical(case, p, grid, values):
-    """A realisation's field in physical units: (values, label, units), or None (not a field)."""
+    """A realisation's field in physical units: (values, label, units, note), or None (not a field).
+
+    Multiplier properties (su, su_ratio) are factors on the material's undrained law; the simulator applies
+    them to the whole law (:func:`slope.simulate.engine.strength_overrides`), so su in kPa is the factor times
+    the law at each cell.
+    """
     labels = {"c": ("c'", "kPa"), "phi": ("φ'", "°")}
     if p.prop == "unit_weight":
         return None  # one random variable per zone: no spatial variation to show
     if not p.multiplier:
         name, units = labels.get(p.prop, (p.prop, "-"))
-        return values, f"{p.material}: {name}", units
+        return values, f"{p.material}: {name}", units, ""
     mat = case.section.materials[p.material]
-    if p.prop == "su_ratio" or mat.su_model == "ratio":
-        return values * mat.su_ratio, f"{p.material}: su/σ'v ratio", "-"
     X, Y = np.meshgrid(grid.x, grid.y, indexing="ij")
-    law = _su_law(mat, X, Y, case.section.ground_y(X.ravel()).reshape(X.shape))
+    law = _su_law(mat, X, Y, case.section)
     if law is None:
-        return values, f"{p.material}: su factor on its law", "-"
-    return values * law, f"{p.material}: su (its depth law × the random factor)", "kPa"
+        return values, f"{p.material}: su factor on its law", "-", ""
+    if mat.su_model == "ratio":
+        note = (f"su = the random factor × max({mat.su_ratio:g} σ'v, {mat.su_min:g} kPa): the field of the "
+                f"strength ratio su/σ'v (mean {mat.su_ratio:g}) is shown as su in kPa, with σ'v at each cell from "
+                "the soil above it, the loads and the pore pressures of the case.")
+        return values * law, f"{p.material}: su = factor × {mat.su_ratio:g} σ'v", "kPa", note
+    return values * law, f"{p.material}: su (its depth law × the random factor)", "kPa", ""
 
 
 def _fields(case, res):
@@ -244,14 +271,15 @@ def _fields(case, res):
             first = _physical(case, p, grid, real[0][1][1][p.key])
             if first is None:
                 continue
-            _, label, units = first
+            _, label, units, note = first
             panels = [{"values": _physical(case, p, grid, f[p.key])[0],
                        "surface_xy": surface_xy(prob.bank, r["bank_index"]), "fs": r["fs"],
                        "label": f"realisation {r['realisation']}, {r['role']}"} for r, (_, f) in real]
-            fig = plot_realisations(grid.x, grid.y, panels, label, units=units, ground_xy=case.section.ground, ncols=2)
+            fig = plot_realisations(grid.x, grid.y, panels, label, units=units, ground_xy=case.section.ground, ncols=2,
+                                    surface_colour=hypothesis_colour(h))
             stem = "field_" + "".join(ch if ch.isalnum() else "_" for ch in p.key) + f"_{h}"
             out.append(Drawn(stem, f"Random field {p.key} in the realisation with the lowest FS and in a typical "
-                                   f"one, each with its own critical surface, {h}", fig))
+                                   f"one, each with its own critical surface, {h}", fig, note))
     return out
 
 
@@ -273,10 +301,19 @@ def _averaging(case, res):
             model = get_model(r.get("model", "exponential"), theta_h=th,
                               **({"nu": r["nu"]} if r.get("model") == "matern" else {}))
             T = np.logspace(np.log10(th) - 1.5, np.log10(th) + 1.5, 60)
-            entries.append({"label": f"{row['property']} (θh = {th:g} m, {r.get('model', 'exponential')})", "T": T,
-                            "gamma": np.array([float(variance_function(model, t)) for t in T]),
+            same = next((e for e in entries if e["key"] == (th, r.get("model", "exponential"), r.get("nu"))
+                         and np.isclose(e["length"], row["length_m"]) and np.isclose(e["gamma_surface"], row["gamma"])
+                         and np.isclose(e["gamma_line"], row["gamma_1d_theta_h"])), None)
+            if same is not None:
+                # Drawn once: an identical curve on top would hide the first and its markers.
+                same["names"].append(row["property"])
+                continue
+            entries.append({"names": [row["property"]], "key": (th, r.get("model", "exponential"), r.get("nu")),
+                            "T": T, "gamma": np.array([float(variance_function(model, t)) for t in T]),
                             "length": row["length_m"], "gamma_surface": row["gamma"],
                             "gamma_line": row["gamma_1d_theta_h"]})
+        for e in entries:
+            e["label"] = f"{', '.join(e['names'])} (θh = {e['key'][0]:g} m, {e['key'][1]})"
         if not entries:
             continue
         fig = plot_variance_reduction_along_surface(entries)

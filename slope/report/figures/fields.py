@@ -97,6 +97,7 @@ def plot_realisations(
     ground_xy=None,
     ncols: int = 2,
     title: str | None = None,
+    surface_colour: str = PALETTE["vermillion"],
 ):
     """A handful of realisations, each with its own critical surface, on one colour scale.
 
@@ -117,6 +118,8 @@ def plot_realisations(
     ncols : int
         Panels per row.
     title : str, optional
+    surface_colour : str
+        Colour of the critical surfaces (the report passes its hypothesis' colour).
 
     Returns
     -------
@@ -160,7 +163,7 @@ def plot_realisations(
             head = str(r.get("label", f"realisation {k + 1}"))
             if r.get("surface_xy") is not None:
                 sxy = _xy(r["surface_xy"], f"realisations[{k}].surface_xy")
-                ax.plot(sxy[:, 0], sxy[:, 1], color=PALETTE["vermillion"], linewidth=1.8, gid=f"surface-{k}")
+                ax.plot(sxy[:, 0], sxy[:, 1], color=surface_colour, linewidth=1.8, gid=f"surface-{k}")
             if r.get("fs") is not None:
                 head += f", {_fs_text(float(r['fs']))}"
             ax.set_title(head, fontsize=8.5)

@@ -26,8 +26,9 @@ __all__ = ["plot_section", "WATER_STYLES"]
 _SURFACE_COLOURS = (PALETTE["vermillion"], PALETTE["black"], PALETTE["reddish_purple"], PALETTE["blue"])
 _WATER = PALETTE["blue"]
 #: (colour, dash) of the phreatic surface and of successive piezometric lines.
+#: Blues only: the hypotheses' colours (slope.report.style.HYPOTHESIS_COLOURS) are kept for critical surfaces.
 WATER_STYLES = ((PALETTE["blue"], "--"), (PALETTE["sky_blue"], (0, (6, 2, 1, 2))),
-                (PALETTE["bluish_green"], (0, (2, 2))), (PALETTE["blue"], (0, (8, 3))))
+                (PALETTE["blue"], (0, (2, 2))), (PALETTE["sky_blue"], (0, (8, 3))))
 
 
 def _draw_water(ax, xy, label, colour, dash):
@@ -102,7 +103,7 @@ def _draw_search(ax, search, ground):
                                linewidth=1.0, label="circle centres searched", gid="search-lattice"))
     elif kind == "window":
         for name, rng, colour in (("entry", search.get("entry"), PALETTE["orange"]),
-                                  ("exit", search.get("exit"), PALETTE["bluish_green"])):
+                                  ("exit", search.get("exit"), "#888888")):
             if not rng:
                 continue
             xs = np.linspace(float(rng[0]), float(rng[1]), 30)

@@ -54,9 +54,9 @@ def plot_tornado(names, low_fs, high_fs, base_fs: float, k: float = 1.0, *, clip
     with report_style():
         fig, ax = _axes(ax, figsize=(6.4, 0.45 * len(names) + 1.4))
         ypos = np.arange(len(names))[::-1]  # largest swing on top
-        ax.barh(ypos, low[order] - base_fs, left=base_fs, color=PALETTE["vermillion"], height=0.6,
+        ax.barh(ypos, low[order] - base_fs, left=base_fs, color=PALETTE["orange"], height=0.6,
                 label=f"variable at mean − {k:g}σ")
-        ax.barh(ypos, high[order] - base_fs, left=base_fs, color=PALETTE["blue"], height=0.6,
+        ax.barh(ypos, high[order] - base_fs, left=base_fs, color=PALETTE["sky_blue"], height=0.6,
                 label=f"variable at mean + {k:g}σ")
         ax.axvline(base_fs, color=PALETTE["black"], linewidth=1.0, label=f"all at mean, FS = {base_fs:.3f}")
         marked = set(map(str, clipped))

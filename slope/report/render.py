@@ -1,0 +1,90 @@
+"""The figures of a run drawn and written, in this process or by a pool of worker processes.
+
+Each entry of :data:`~slope.report.figures.catalogue.CATALOGUE` is one task:
+it draws its figures from the typed results and writes each to
+``figures/<stem>.png`` (and ``.svg`` when asked) at once, so neither this
+process nor a worker holds more than one entry's figures. With ``n_jobs`` ≥ 2
+the case and the typed results are written once to a private temporary file
+that each worker reads once; the tasks run on the run's worker pool
+(:func:`slope.simulate.executors.run_tasks`, the pool the simulations used),
+and each worker draws with matplotlib's Agg renderer (figures are made as
+:class:`matplotlib.figure.Figure`, never through pyplot). The files are the
+same whichever way they are drawn; the items come back in catalogue order.
+"""
+from __future__ import annotations
+
+import pickle
+from pathlib import Path
+
+from .figures.catalogue import CATALOGUE, Drawn
+from .html import save_figure
+
+__all__ = ["render_figures", "render_entry"]
+
+# Longest entries first, so that two workers finish together (measured on the demos: the random fields
+# regenerate realisations and draw several panels; the section figure and the FS distributions follow).
+_FIRST = ("field", "section", "fs_single_variable", "fs_spatial", "variance_reduction")
+
+
+def render_entry(case, res, index: int, fig_dir: Path, formats) -> list[Drawn]:
+    """Draw catalogue entry ``index`` and write its figures; the items keep their text, not the figures."""
+    entry = CATALOGUE[index]
+    out = []
+    for d in entry.draw(case, res):
+        d.group = entry.group
+        if d.figure is not None:
+            save_figure(d.figure, fig_dir, d.stem, formats=formats)
+            d.figure, d.saved = None, True  # written: let the figure's memory go
+        out.append(d)
+    return out
+
+
+def render_figures(case, res, fig_dir, formats=("png",), *, n_jobs: int = 1) -> list[Drawn]:
+    """Every figure of a run written to ``fig_dir``; the report's items, in catalogue order.
+
+    Parameters
+    ----------
+    case, res
+        The checked case and the run's typed results
+        (:class:`~slope.commands.results.RunResults`).
+    fig_dir : path-like
+        Folder of the figure files (created).
+    formats : sequence of str
+        ``"png"`` and optionally ``"svg"``.
+    n_jobs : int
+        Worker processes; 1 draws in this process, one entry after the other.
+
+    Returns
+    -------
+    list of Drawn
+        Each with ``saved`` True when its figure file was written, or the sentence that replaces it.
+    """
+    fig_dir = Path(fig_dir)
+    fig_dir.mkdir(parents=True, exist_ok=True)
+    formats = tuple(formats)
+    if int(n_jobs) <= 1:
+        return [d for i in range(len(CATALOGUE)) for d in render_entry(case, res, i, fig_dir, formats)]
+    from ..simulate.executors import _ship, _unship, run_tasks
+
+    order = sorted(range(len(CATALOGUE)),
+                   key=lambda i: (_FIRST.index(CATALOGUE[i].name) if CATALOGUE[i].name in _FIRST else len(_FIRST), i))
+    path = _ship((case, res))
+    try:
+        done = dict(zip(order, run_tasks(_render_in_worker, [(path, i, str(fig_dir), formats) for i in order],
+                                         n_jobs=int(n_jobs))))
+    finally:
+        _unship(path)
+    return [d for i in range(len(CATALOGUE)) for d in done[i]]
+
+
+_LOADED: tuple = (None, None)  # in a worker: (file, (case, results)) read once per run
+
+
+def _render_in_worker(path, index, fig_dir, formats):
+    global _LOADED
+    if _LOADED[0] != path:
+        _LOADED = (None, None)  # the previous run's results go before this run's are read
+        with open(path, "rb") as fh:
+            _LOADED = (path, pickle.load(fh))
+    case, res = _LOADED[1]
+    return render_entry(case, res, index, Path(fig_dir), formats)
