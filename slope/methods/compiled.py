@@ -50,8 +50,8 @@ def warm_up(methods=()):
     """Compile (or load from the cache) the kernels of ``methods`` with tiny inputs of the real types.
 
     Morgenstern-Price with and without forces (the deterministic analysis
-    writes its slice tables); Bishop and Janbu share one kernel, Spencer is
-    numpy (its lam scan compiles on first need). Names unknown to the
+    writes its slice tables) and the lam scan it shares with Spencer (whose
+    Newton is numpy); Bishop and Janbu share one kernel. Names unknown to the
     registry are ignored: this only saves time.
     """
     import numpy as np
@@ -74,6 +74,12 @@ def warm_up(methods=()):
     c = np.full((1, 1, 8), 10.0)
     tp = np.full((1, 1, 8), 0.5)
     for name in dict.fromkeys(names):
+        if name in ("spencer", "morgenstern-price"):
+            from .gle import bracketed_roots
+
+            # the lam scan both use for the cells Newton missed (the demos' searches reach it)
+            one = np.zeros(1, dtype=np.int64)
+            bracketed_roots(terms, c, tp, np.ones((1, 9)), (one, one), np.ones(1))
         if name == "morgenstern-price":
             from .gle import morgenstern_price
             from .interslice import interslice_function

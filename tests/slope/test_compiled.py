@@ -26,9 +26,9 @@ def _bank():
 def test_real_calls_reuse_the_warmed_up_kernels():
     from slipfield.slope.simulate import fused
 
-    warm_up(["morgenstern-price", "bishop"])
+    warm_up(["morgenstern-price", "spencer", "bishop"])
     fused.warm_up()
-    kernels = (gle._gle_kernel, gle._forces_kernel, bishop._single_equation_kernel)
+    kernels = (gle._gle_kernel, gle._forces_kernel, gle._rescue_kernel, bishop._single_equation_kernel)
     before = [len(k.signatures) for k in kernels]
     assert all(n >= 1 for n in before)
     sec, bank = _bank()
@@ -39,5 +39,8 @@ def test_real_calls_reuse_the_warmed_up_kernels():
             factor_of_safety(bank, cc, tt, method="morgenstern-price", interslice="half-sine",
                              return_forces=forces)
         factor_of_safety(prepare_bank(bank), cc, tt, method="bishop")
+        m = bank.n_surfaces
+        gle.bracketed_roots(prepare_bank(bank), np.broadcast_to(cc, tt.shape if tt.ndim == 3 else (1,) + tt.shape), tt,
+                            np.ones((m, bank.n_slices + 1)), (np.zeros(1, int), np.zeros(1, int)), np.ones(1))
     assert [len(k.signatures) for k in kernels] == before
 
