@@ -21,6 +21,11 @@ process, CPU seconds: the CPU the default adds per 1,000 realisations and
 per searched realisation, and the distribution of FS_bank / FS_free that
 sets the margin (the failures the window misses are counted).
 
+Third part, the interslice shear-strength check of non-circular solutions
+(slope.search.interslice_strength): both searches with the check and
+without it, side by side on the same realisations: CPU per searched
+realisation, mean FS, realisations whose FS changed, candidates left out.
+
 Run: python scripts/bench_mechanisms.py [n_bank] [n_refined] [n_window]
 """
 import os
@@ -123,6 +128,58 @@ def main(n_bank=200, n_refined=20):
           f"dynamic programming {np.mean(f_dp):.4f} ({low_dp} lowered), Nelder-Mead {np.mean(f_nm):.4f}")
 
 
+def interslice(n_bank=200, n_refined=20):
+    """CPU and FS of the per-realisation searches with and without the interslice shear-strength check.
+
+    The check (slope.search.interslice_strength) is on in every non-circular
+    evaluation; "without" runs the same code with it switched off through
+    evaluate_surfaces' keyword, side by side on the same realisations.
+    """
+    import functools
+
+    from slipfield.slope.search import evaluate as ev, refine as rf
+    from slipfield.slope.search.interslice_strength import INTERSLICE_REASON
+    from slipfield.slope.simulate import mechanisms as mech
+    from slipfield.slope.simulate.refinement import REFINE_REASONS
+
+    case, prob = _problem()
+    seed = int(case.simulation["seed"])
+    fs, conv, adm = batch_fs(prob, seed, range(n_bank))
+    ok = conv & adm & np.isfinite(fs)
+    fs_c = np.where(ok, fs, np.inf).min(axis=1)
+    crit = np.where(ok, fs, np.inf).argmin(axis=1)
+    order = np.argsort(fs_c)[:n_refined + 1]
+    settings = {"dynamic programming": RefineSettings(below=10.0, search="dynamic-programming"),
+                "Nelder-Mead": RefineSettings(below=10.0)}
+    checked = ev.evaluate_surfaces
+    unchecked = functools.partial(checked, interslice_check=False)
+    col = REFINE_REASONS.index(INTERSLICE_REASON)
+    print(f"\ninterslice shear-strength check, levee demo undrained, {n_refined} realisations with the lowest "
+          f"bank FS of {n_bank}, one process (CPU per searched realisation):")
+    for name, st in settings.items():
+        out = {}
+        for label, fn in (("without", unchecked), ("with", checked)):
+            mech.evaluate_surfaces = rf.evaluate_surfaces = fn
+            try:
+                def run(k):
+                    if name == "Nelder-Mead":
+                        return refine_realisation(prob, seed, int(k), int(crit[k]), st)
+                    return mechanism_search(prob, seed, int(k), fs[k], ok[k], st)
+                run(order[0])  # warm-up
+                t0 = time.process_time()
+                res = [run(k) for k in order[1:]]
+                cpu = (time.process_time() - t0) / len(res)
+            finally:
+                mech.evaluate_surfaces = rf.evaluate_surfaces = checked
+            f = np.array([min(r[0], fs_c[k]) if np.isfinite(r[0]) else fs_c[k] for r, k in zip(res, order[1:])])
+            out[label] = (cpu, f, int(sum(r[2][col] for r in res)))
+        (c0, f0, _), (c1, f1, n1) = out["without"], out["with"]
+        print(f"  {name:20s} without {1e3 * c0:7.1f} ms, with {1e3 * c1:7.1f} ms (ratio {c1 / c0:.2f}); "
+              f"mean FS {np.mean(f0):.4f} -> {np.mean(f1):.4f}, {int(np.sum(f1 != f0))} realisations changed, "
+              f"{n1} candidates left out by the check")
+
+
 if __name__ == "__main__":
     main(*(int(a) for a in sys.argv[1:3]))
     window(*(int(a) for a in sys.argv[3:4]))
+    interslice(*(int(a) for a in sys.argv[1:3]))

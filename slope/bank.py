@@ -567,6 +567,17 @@ def vertical_effective_stress(section, x, y):
     ndarray, kPa
         σ'v, shape of the broadcast points; NaN outside every zone.
     """
+    zone, sig_eff, _ = point_stresses(section, x, y)
+    return np.where(zone >= 0, sig_eff, np.nan)
+
+
+def point_stresses(section, x, y):
+    """Zone, vertical effective stress σ'v (kPa) and pore pressure u (kPa) at points of the section.
+
+    The terms of :func:`vertical_effective_stress` (a slice base's), with the
+    zone index (-1 outside every zone) and the pore pressure of the case's
+    water model; shapes of the broadcast points.
+    """
     x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
     shp = x.shape
     x, y = x.ravel(), y.ravel()
@@ -585,4 +596,4 @@ def vertical_effective_stress(section, x, y):
         u = water.pore_pressure(x, y, zone, section.zone_names, sig_soil)
     else:
         u = np.zeros_like(y)
-    return np.where(zone >= 0, sig_tot - u, np.nan).reshape(shp)
+    return zone.reshape(shp), (sig_tot - u).reshape(shp), u.reshape(shp)

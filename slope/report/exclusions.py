@@ -28,6 +28,9 @@ MEANINGS = {
     "line of thrust outside the slice": "the interslice force acts outside its slice: equilibrium needs tension "
                                         "or moment the soil cannot supply",
     "factor of safety not positive or not finite": "no driving moment, or the solver diverged",
+    "interslice shear above the strength across a slice boundary":
+        "a non-circular solution needs more shear across a vertical slice boundary than the soil there can "
+        "carry at the same factor of safety (Chen & Morgenstern 1983), so it is not an acceptable solution",
     "surface rejected by the slice bank": "the surface geometry was rejected before any method ran",
     "negative shear strength on slice bases": "a spurious root of the equilibrium equations with negative base "
                                               "strengths",

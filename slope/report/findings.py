@@ -49,6 +49,10 @@ def _averaging(sp) -> str:
             f"(θ → ∞: {_pf(b.pf, b.interval)}).{note}")
 
 
+def _and(names) -> str:
+    return names[0] if len(names) == 1 else f"{', '.join(names[:-1])} and {names[-1]}"
+
+
 def mechanism_sentence(mech) -> str:
     """Failure mechanisms of one simulation in words (a MechanismSummary; "" without one)."""
     if mech is None:
@@ -79,7 +83,7 @@ def _exclusions(h, ms, sv, sp) -> str:
             by_count.setdefault(key, []).append(m)
     if by_count:
         bits.append("trial surfaces without a valid solution, among which a lower FS could lie: " + ", ".join(
-            f"{k} of {n} by {' and '.join(methods)} ({why})" for (k, n, why), methods in by_count.items()))
+            f"{k} of {n} by {_and(methods)} ({why})" for (k, n, why), methods in by_count.items()))
     if sp is not None:
         n = sp.spatial.realisations
         x = n - sp.spatial.searched.n_valid

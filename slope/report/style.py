@@ -77,14 +77,15 @@ DENSITY_CMAP = "cividis"
 
 # Light fills for soil zones: the palette's colours blended towards white so
 # that surfaces and text drawn on top keep their contrast.
+# The hypotheses' colours (vermillion, bluish green) are left out, so a critical surface never lies on a fill
+# of its own colour.
 _ZONE_BASE = (
     PALETTE["orange"],
     PALETTE["sky_blue"],
-    PALETTE["bluish_green"],
     PALETTE["yellow"],
     PALETTE["reddish_purple"],
+    PALETTE["black"],
     PALETTE["blue"],
-    PALETTE["vermillion"],
 )
 
 RC_PARAMS: dict[str, object] = {

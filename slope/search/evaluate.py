@@ -18,6 +18,7 @@ from ..bank import build_bank
 from ..errors import InputError
 from ..strength import base_strength
 from ..surfaces import Circle, Circles, Polyline
+from .interslice_strength import INTERSLICE_REASON
 
 _TOLERABLE = {"negative-normal": 1, "small-m-alpha": 2, "thrust-outside": 4}
 
@@ -66,6 +67,10 @@ class SearchResult:
         ``refine`` only: the optimiser's trial shapes that were not accepted
         as a minimum, by reason (kinematically inadmissible shape, not
         converged, or a method flag).
+    interslice_ratio : ndarray (n_trials,) or None
+        Largest interslice shear needed over shear available of each trial
+        (:mod:`slope.search.interslice_strength`); NaN where not checked
+        (circles, invalid geometry), None when no trial was checked.
     """
 
     search: str
@@ -83,6 +88,7 @@ class SearchResult:
     bank: object = None
     history: list = field(default_factory=list)
     trials_rejected: dict = field(default_factory=dict)
+    interslice_ratio: np.ndarray = None
 
     def summary(self) -> str:
         rej = ", ".join(f"{k}: {v}" for k, v in sorted(self.rejected.items())) or "none"
@@ -107,7 +113,7 @@ def _surface_of(surfaces, i):
 
 def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop", n_slices=40,
                       overrides=None, tolerate=("negative-normal", "thrust-outside"), search="given",
-                      min_depth=None, **method_opts) -> SearchResult:
+                      min_depth=None, interslice_check=True, **method_opts) -> SearchResult:
     """Factor of safety of every trial surface for one set of strengths.
 
     Parameters
@@ -131,6 +137,13 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         less than this are dropped from the trials (they are not in
         ``surfaces`` nor in the bank) and counted in ``rejected`` under
         :data:`MIN_DEPTH_REASON`; ``n_trials`` still counts them.
+    interslice_check : bool
+        Judge the interslice shear of non-circular surfaces (polylines)
+        solved by Spencer or Morgenstern-Price against the strength across
+        the slice boundaries (:mod:`slope.search.interslice_strength`): a
+        counted solution needing more is no longer counted, under
+        :data:`INTERSLICE_REASON`. Circles are never judged this way (their
+        acceptance, and every result built on them, is unchanged).
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
 
@@ -147,6 +160,7 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     if min_depth is not None and float(min_depth) > 0:
         bank, surfaces, n_shallow = _drop_shallow(bank, surfaces, float(min_depth))
     m = bank.n_surfaces
+    isr = None
     rejected = Counter(str(r) for r in bank.reason[~bank.valid])
     rejected[MIN_DEPTH_REASON] += n_shallow
     fs = np.full(m, np.nan)
@@ -161,7 +175,9 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         elif overrides is not None:
             ov = {k: np.broadcast_to(np.asarray(v, float), (m, bank.n_slices))[idx] for k, v in overrides.items()}
         c, tp = base_strength(sub, section.materials, hypothesis, ov)
-        res = methods.factor_of_safety(sub, c, tp, method=method, **method_opts)
+        check = (interslice_check and methods.method_spec(method).name in _INTERSLICE_METHODS
+                 and not np.all(np.isfinite(sub.centre_x)))
+        res = methods.factor_of_safety(sub, c, tp, method=method, return_forces=check, **method_opts)
         f = res.fs.reshape(-1, len(idx))[0]
         fl = np.asarray(res.flags).reshape(-1, len(idx))[0]
         conv = np.asarray(res.converged).reshape(-1, len(idx))[0]
@@ -173,6 +189,12 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
             -1, len(idx), sub.n_slices)[0] == 0, axis=1)
         bad = fl & ~tol_mask & ~np.where(frictionless, _TOLERABLE["negative-normal"], 0)
         ok = conv & (bad == 0) & np.isfinite(f)
+        if check:
+            ratio, fails = _interslice(section, sub, res, len(idx), hypothesis, overrides, ok)
+            isr = np.full(m, np.nan)
+            isr[idx] = ratio
+            rejected[INTERSLICE_REASON] += int(fails.sum())
+            ok = ok & ~fails
         counted[idx] = ok
         rejected["not converged"] += int(np.sum(~conv))
         for bit, name in methods.FLAG_NAMES.items():
@@ -187,8 +209,32 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         i, crit, fmin, cflags = -1, None, float("nan"), 0
     return SearchResult(search=search, method=str(method), fs_min=fmin, critical=crit, critical_index=i,
                         critical_flags=cflags, surfaces=surfaces, fs=fs, counted=counted, flags=flags,
-                        rejected=rejected, n_trials=m + n_shallow, bank=bank)
+                        rejected=rejected, n_trials=m + n_shallow, bank=bank, interslice_ratio=isr)
 
+
+def _interslice(section, sub, res, k, hypothesis, overrides, ok):
+    """Largest interslice shear ratio of each surface of ``sub`` (NaN on circles) and which fail the check."""
+    from ..methods.terms import prepare_bank
+    from .interslice_strength import RATIO_TOLERANCE, boundary_strength, interslice_ratio
+
+    poly = ~np.isfinite(sub.centre_x) & ok
+    ratio = np.full(k, np.nan)
+    if poly.any():
+        rows = np.flatnonzero(poly)
+        part = sub.subset(rows)
+        ov = overrides if callable(overrides) or overrides is None else {
+            key: np.asarray(v, float) for key, v in overrides.items()}
+        st = boundary_strength(section, part, hypothesis, ov)
+        E = np.asarray(res.E).reshape(-1, k, sub.n_slices + 1)[0][rows]
+        X = np.asarray(res.X).reshape(-1, k, sub.n_slices + 1)[0][rows]
+        F = np.asarray(res.fs).reshape(-1, k)[0][rows]
+        r = interslice_ratio(st, E, X, F, prepare_bank(part).force_scale)
+        ratio[rows] = r.max(axis=1) if r.shape[1] else 0.0
+    return ratio, np.nan_to_num(ratio, nan=0.0) > 1.0 + RATIO_TOLERANCE
+
+
+#: Methods whose solutions carry interslice forces E and X to judge.
+_INTERSLICE_METHODS = ("spencer", "morgenstern-price")
 
 #: Reason under which :func:`evaluate_surfaces` counts the surfaces shallower than ``min_depth``.
 MIN_DEPTH_REASON = "shallower than search.min_depth"

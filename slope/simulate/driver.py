@@ -333,7 +333,12 @@ def store_header(problem, seed, refine=None, extra: dict | None = None) -> dict:
     """
     ident = {"problem": problem.fingerprint(), "seed": int(seed)}
     if refine is not None:
+        from .refinement import REFINE_REASONS
+
         ident["refine"] = _refine_settings(refine).describe()
+        # the acceptance rules of the search (each has its reason; the stored counts are per reason):
+        # a store written before the interslice shear-strength check existed is not continued with it
+        ident["refine"]["acceptance"] = list(REFINE_REASONS)
     if extra:
         ident.update(extra)
     return ident

@@ -35,6 +35,10 @@ def subset_store_identity(problem, seed, settings, refine, extra=None) -> dict:
     """What a subset store is tied to; a resume needs an equal one."""
     ident = {"problem": problem.fingerprint(), "seed": int(seed), "subset": settings.describe(),
              "refine": None if refine is None else refine.describe()}
+    if refine is not None:
+        from .refinement import REFINE_REASONS
+
+        ident["refine"]["acceptance"] = list(REFINE_REASONS)  # as driver.store_header: the search's acceptance rules
     if extra:
         ident.update(extra)
     return ident

@@ -37,9 +37,10 @@ START_UNUSABLE = "start surface has no clean solution by the refinement method"
 def _reasons():
     from ..methods import FLAG_NAMES
     from ..search import SHAPE_REJECTED
+    from ..search.interslice_strength import INTERSLICE_REASON
 
     return ((SHAPE_REJECTED, START_UNUSABLE, "not converged") + tuple(FLAG_NAMES.values())
-            + ("other geometry",))
+            + (INTERSLICE_REASON, "other geometry"))
 
 
 #: reasons a refinement trial or candidate is rejected, in the order of the

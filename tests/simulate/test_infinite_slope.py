@@ -131,18 +131,22 @@ def test_variance_falls_as_gamma_for_small_theta(geometry, theta):
 @pytest.mark.parametrize("theta", [3.5, 35.0])
 def test_surface_gamma_is_the_variance_function_along_the_plane(geometry, theta):
     # along a straight line the surface γ is Vanmarcke's γ(T) (Markov closed
-    # form); the block's 0.2 m ends bend the line and add ~1 % at most
+    # form); the block's ends are 0.2 m wide but 3 m tall (8 % of its 73 m) and
+    # bend the line: sliced exactly (slice sides at the polyline's vertices) they
+    # raise γ by 2.0 % at θ = 3.5 m, within 0.4 % of a dense quadrature along the
+    # actual polyline (when equal slices smeared them into the end slices, ~1 %)
     _, T, _ = geometry
     T_s, g = surface_variance_factor(_problem(theta, 50.0), 0)
     assert T_s == pytest.approx(T, rel=1e-12)
     g1 = float(variance_function(get_model("exponential", theta_h=theta, theta_v=theta), T))
-    assert g == pytest.approx(g1, rel=0.015)
+    assert g == pytest.approx(g1, rel=0.03)
 
 
 def test_surface_gamma_anisotropic_equals_line_theta(geometry):
     # elliptical anisotropy: along a line at angle β the Markov correlation is
     # exp(−2τ/θ_β) with 1/θ_β² = cos²β/θh² + sin²β/θv², so γ along the plane is
-    # the 1D γ(T) with θ_β (Vanmarcke 1983, ch. 5, for a line average)
+    # the 1D γ(T) with θ_β (Vanmarcke 1983, ch. 5, for a line average); the
+    # block's 3 m tall ends add 1.6 % (see the test above), hence 3 %
     _, T, _ = geometry
     th, tv = 40.0, 4.0
     prop = RandomProperty("clay", "su", make_marginal("normal", mean=50.0, cov=COV), th, tv)
@@ -151,7 +155,7 @@ def test_surface_gamma_anisotropic_equals_line_theta(geometry):
     t_line = 1.0 / math.hypot(math.cos(beta) / th, math.sin(beta) / tv)
     g1 = float(variance_function(get_model("exponential", theta_h=t_line, theta_v=t_line), T))
     _, g = surface_variance_factor(p, 0)
-    assert g == pytest.approx(g1, rel=0.015)
+    assert g == pytest.approx(g1, rel=0.03)
 
 
 def test_quick_estimate_is_exact_for_the_cohesive_infinite_slope(geometry):

@@ -100,8 +100,9 @@ def _exact(block, mean, g):
 
 
 def test_block_follows_the_variance_function_along_the_plane(block):
-    # the ends and 1 m cells change γ by under 2 % (measured 1.0 %): the closed form applies
-    assert block["g_model"] == pytest.approx(block["g"], rel=0.02)
+    # the block's steep ends (sliced exactly since slice sides follow the polyline's vertices) and
+    # the 1 m cells change γ by under 3 % (measured 2.5 %; 1.0 % when equal slices smeared the ends)
+    assert block["g_model"] == pytest.approx(block["g"], rel=0.03)
 
 
 @pytest.mark.parametrize("pf", [1e-5, 1e-6])

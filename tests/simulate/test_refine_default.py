@@ -102,7 +102,7 @@ def test_mechanisms_in_words_carry_the_counts_and_both_pf():
     from slipfield.slope.simulate.mechanism_results import mechanism_summary
 
     p, _ = gf_problem(5.0, 0.5, mean_c=0.2)
-    r = simulate(p, 30, 5, refine=RefineSettings(below=DEFAULT_REFINE_BELOW, above=FAILURE_FS,
+    r = simulate(p, 20, 5, refine=RefineSettings(below=DEFAULT_REFINE_BELOW, above=FAILURE_FS,
                                                   search="dynamic-programming"))
     m = mechanism_summary(r)
     assert m.n_searched == r.n_searched > 0 and m.window == (FAILURE_FS, DEFAULT_REFINE_BELOW)
@@ -119,8 +119,8 @@ def test_search_region_holds_every_accepted_path():
     from slipfield.slope.simulate.refinement import search_region
 
     p, _ = gf_problem(5.0, 0.5, mean_c=0.2)
-    st = RefineSettings(below=1.3, search="dynamic-programming")
-    r = simulate(p, 20, 5, refine=st)
+    st = RefineSettings(below=1.2, search="dynamic-programming")
+    r = simulate(p, 10, 5, refine=st)
     x0, x1, y0, y1 = search_region(p, st)
     xy = r.refined_xy[np.isfinite(r.refined_xy[:, :, 0])]
     assert xy.size and r.n_refined > 0

@@ -148,10 +148,11 @@ def test_dynamic_programming_on_homogeneous_phi0_slope_is_near_circular(beta):
     # along the base) or not (D = 4, 13 m above it), and at D = 4 that path is accepted with only
     # small m_α tolerated (converged, no negative normal, thrust line inside; measured 1.321 against
     # 1.454 for the best circle of a 16 x 16 x 14 lattice), so it is neither the firm base nor a flag
-    # the searches tolerate. Limit equilibrium on a non-circular surface does not compare the
-    # interslice shear it needs with the strength across the slice boundaries, which a rotating
-    # circle never calls on; the circle is an upper-bound mechanism for φ = 0, the path is not.
-    # Until such a check exists the circle family is the one to trust on homogeneous φ = 0 slopes.
+    # the searches tolerate. Nor is it the interslice shear strength: the path needs about a quarter
+    # of su h / F across its boundaries (slope/search/interslice_strength.py, see
+    # tests/slope/test_interslice_strength.py). The circle is an upper-bound mechanism for φ = 0
+    # (rigid rotation); the path is not, and as a mechanism of vertical-sided blocks its work
+    # equation gives about 1.77. The circle family is the one to trust on homogeneous φ = 0 slopes.
     sec, cot = _taylor_section(beta)
     L = 10.0 * cot
     circ = window(sec, upslope=(L + 0.5, L + 15.0), downslope=(-3.0, 0.0), n_up=20, n_down=5, n_radii=20,

@@ -252,7 +252,8 @@ def _physical(case, p, grid, values):
                 f"strength ratio su/σ'v (mean {mat.su_ratio:g}) is shown as su in kPa, with σ'v at each cell from "
                 "the soil above it, the loads and the pore pressures of the case.")
         return values * law, f"{p.material}: su = factor × {mat.su_ratio:g} σ'v", "kPa", note
-    return values * law, f"{p.material}: su (its depth law × the random factor)", "kPa", ""
+    law_name = {"constant": f"{mat.su:g} kPa", "depth": "its depth law", "elevation": "its elevation law"}[mat.su_model]
+    return values * law, f"{p.material}: su ({law_name} × the random factor)", "kPa", ""
 
 
 def _fields(case, res):

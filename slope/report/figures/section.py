@@ -228,20 +228,22 @@ def plot_section(
         if ax.get_ylim()[1] < top:
             ax.set_ylim(top=top)  # room for the surcharge arrows and their text inside the axes
         if notes:
-            ax.text(0.99, 0.98, "\n".join(notes), transform=ax.transAxes, ha="right", va="top", fontsize=7.5,
-                    gid="load-notes", bbox=dict(boxstyle="round,pad=0.3", facecolor="white", edgecolor="#999999",
-                                                linewidth=0.5))
+            # Above the plotting area, under the title: inside it the box covered the search region or a surface.
+            ax.text(0.0, 1.01, "\n".join(notes), transform=ax.transAxes, ha="left", va="bottom", fontsize=7.5,
+                    gid="load-notes")
         ax.set_xlabel(f"x ({units})")
         ax.set_ylabel(f"elevation y ({units})")
         if title:
-            ax.set_title(title)
+            ax.set_title(title, pad=6.0 + 11.0 * len(notes))
         if zone_names_on_section:
             _drop_overlapping_names(fig, [tx for tx in ax.texts if (tx.get_gid() or "").startswith("zone-name-")])
         if own:
             # Below the axes, in columns: every entry (and so every FS) has its own line and never
             # overlaps another or the section, however many methods and water lines there are.
             n = len(ax.get_legend_handles_labels()[0])
-            fig.legend(*ax.get_legend_handles_labels(), loc="outside lower center", ncols=2 if n <= 8 else 3)
+            # Long handles, so that each method's dash pattern shows in full (ordinary and Janbu differ by a dot).
+            fig.legend(*ax.get_legend_handles_labels(), loc="outside lower center", ncols=2 if n <= 8 else 3,
+                       handlelength=4.0)
         else:
             ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     return fig
