@@ -374,7 +374,8 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         from ..simulate.driver import start_workers
 
         pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
-        start_workers(n_jobs)  # the pool starts while the search runs
+        # the pool starts while the search runs, and compiles the other methods' kernels meanwhile
+        start_workers(n_jobs, methods=case.analysis["methods"])
 
     case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
                              estimator=estimator, level_probability=level_probability,

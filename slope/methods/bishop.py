@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
+from .compiled import first_call
 from .result import NEGATIVE_NORMAL, NONPOSITIVE, SMALL_M_ALPHA
 
 __all__ = ["bishop", "solve_single_equation"]
@@ -240,9 +241,10 @@ def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
     flags = np.zeros((S, M), dtype=np.int64)
     neff = np.empty((S, M, N) if return_forces else (1, 1, 1))
     geo = _kernel_terms(terms, w, den0, use_mn, cache_key)
-    _single_equation_kernel(_compact(c, N), _compact(tan_phi, N), *geo, float(tol), int(max_iter),
-                            float(m_alpha_min), fs, iters, conv, flags, neff,
-                            bool(return_forces))
+    with first_call(_single_equation_kernel):
+        _single_equation_kernel(_compact(c, N), _compact(tan_phi, N), *geo, float(tol), int(max_iter),
+                                float(m_alpha_min), fs, iters, conv, flags, neff,
+                                bool(return_forces))
     out = {"fs": fs, "converged": conv, "flags": flags, "iterations": iters}
     if return_forces:
         out["normal_eff"] = neff

@@ -50,6 +50,8 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
+from .compiled import first_call
+
 __all__ = ["morgenstern_price", "bracketed_roots", "reverse_circles", "SCAN_LAMBDAS", "REVERSE_MOMENT"]
 
 _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
@@ -485,6 +487,23 @@ def reverse_circles(terms):
     return cache["reverse"]
 
 
+def _geometry(terms):
+    """The kernels' per-surface arrays, C-contiguous (one numba specialisation), kept on ``terms``.
+
+    ``cos_a, sin_a, length, A, B, ul, dx, dy`` (0-7), ``G0, x_bound, y_bound_base,
+    y_bound_top, x_mid, y_base, couple, force_scale, length_scale`` (8-16), ``valid`` (17).
+    """
+    cache = terms.__dict__.setdefault("_kernel_terms", {})
+    if "gle" not in cache:
+        C = np.ascontiguousarray
+        bank = terms.bank
+        cache["gle"] = tuple(C(a, dtype=float) for a in (
+            terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B, terms.ul, terms.dx, terms.dy,
+            terms.couple.sum(axis=1), terms.x_bound, terms.y_bound_base, terms.y_bound_top, bank.x_mid,
+            bank.y_base, terms.couple, terms.force_scale, terms.length_scale)) + (C(terms.valid, dtype=np.bool_),)
+    return cache["gle"]
+
+
 def _dense(x, shape):
     """``x`` broadcast to ``shape`` as a C-contiguous, writeable float array.
 
@@ -528,15 +547,12 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
         return F, lam, its, found, fl
     F0 = np.asarray(F_start, dtype=float).ravel()
     F0 = np.ascontiguousarray(np.where(np.isfinite(F0) & (F0 > 0), F0, 1.0))
-    bank = terms.bank
     S = int(c.shape[0])
     shape = (S, terms.n_surfaces, terms.n_slices)
-    _rescue_kernel(ss, ms, _dense(c, shape), _dense(tan_phi, shape), terms.cos_a, terms.sin_a, terms.length,
-                   terms.A, terms.B, terms.ul, terms.dx, terms.dy, np.ascontiguousarray(f, dtype=float),
-                   terms.couple.sum(axis=1), terms.x_bound, terms.y_bound_base, terms.y_bound_top,
-                   np.asarray(bank.x_mid, dtype=float), np.asarray(bank.y_base, dtype=float),
-                   terms.couple, terms.force_scale, terms.length_scale, float(tol), int(max_iter),
-                   F0, SCAN_LAMBDAS, F, lam, its, found, fl)
+    g = _geometry(terms)
+    with first_call(_rescue_kernel):
+        _rescue_kernel(ss, ms, _dense(c, shape), _dense(tan_phi, shape), *g[:8], np.ascontiguousarray(f, dtype=float),
+                       *g[8:17], float(tol), int(max_iter), F0, SCAN_LAMBDAS, F, lam, its, found, fl)
     return F, lam, its, found, fl
 
 
@@ -678,16 +694,10 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
     flags = np.zeros((S, M), dtype=np.int64)
     rescue = np.zeros((S, M), dtype=np.bool_)
     f = np.ascontiguousarray(f, dtype=float)
-    G0 = terms.couple.sum(axis=1)
-    bank = terms.bank
-    xm = np.asarray(bank.x_mid, dtype=float)
-    yb = np.asarray(bank.y_base, dtype=float)
-    valid = np.ascontiguousarray(terms.valid)
-    _gle_kernel(c, tan_phi, terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B,
-                terms.ul, terms.dx, terms.dy, f, G0, terms.x_bound, terms.y_bound_base,
-                terms.y_bound_top, xm, yb, terms.couple, terms.force_scale, terms.length_scale,
-                valid, reverse_circles(terms), float(tol), int(max_iter), F_start, lam_start,
-                fs, lam, iters, conv, flags, rescue)
+    g = _geometry(terms)
+    with first_call(_gle_kernel):
+        _gle_kernel(c, tan_phi, *g[:8], f, *g[8:], reverse_circles(terms), float(tol), int(max_iter),
+                    F_start, lam_start, fs, lam, iters, conv, flags, rescue)
     if rescue.any():
         si, mi = np.nonzero(rescue)
         Fr, lr, kr, found, flr = bracketed_roots(terms, c, tan_phi, f, (si, mi), F_start[si, mi],
@@ -704,8 +714,7 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
         X = np.empty((S, M, N + 1))
         yt = np.empty((S, M, N + 1))
         neff = np.empty((S, M, N))
-        _forces_kernel(c, tan_phi, terms.cos_a, terms.sin_a, terms.length, terms.A, terms.B, terms.ul, f,
-                       terms.x_bound, terms.y_bound_base, terms.y_bound_top, xm, yb, terms.couple,
-                       terms.force_scale, terms.length_scale, valid, fs, lam, flags, E, X, yt, neff)
+        with first_call(_forces_kernel):
+            _forces_kernel(c, tan_phi, *g[:6], f, *g[9:], fs, lam, flags, E, X, yt, neff)
         out.update(E=E, X=X, thrust_y=yt, normal_eff=neff)
     return out

@@ -24,6 +24,14 @@ The check is applied to non-circular surfaces only (see
 :func:`slope.search.evaluate_surfaces`): circles keep the acceptance they
 always had.
 
+Where it bites (measured on the demos): boundaries through saturated
+cohesionless zones near the toe, where most of the total E is water thrust
+and (E - U) tan φ' is small, while Spencer's constant λ asks X = λ E of the
+total force (the dam demo's per-realisation paths, ratios 1.16-2.4); tension
+across cohesionless cover (E < 0, blocks entering beyond the crest). Where it
+does not: homogeneous φ = 0 slopes, whose non-circular paths need about a
+quarter of su h / F (tests/slope/test_interslice_strength.py).
+
 Integration: each boundary is split at every zone edge and at the phreatic
 surface, and each piece integrated by 3-point Gauss-Legendre, so piecewise
 linear strengths (constant c, su growing with depth, su/σ'v with hydrostatic

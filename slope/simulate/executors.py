@@ -185,14 +185,16 @@ def _watch_parent(parent: int, period: float = 0.5) -> None:
 _WARMING = None  # the thread starting the worker pool ahead of the first simulation
 
 
-def start_workers(n_jobs):
+def start_workers(n_jobs, methods=()):
     """Start the pool of ``n_jobs`` workers in the background and load the simulator in them.
 
     A command calls this before its serial work (case, deterministic search)
     so that the workers' start-up (interpreter, imports, compiled kernels
     loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
     run then uses the same pool (joblib's reusable executor). No effect for
-    ``n_jobs`` 1. Results do not depend on it.
+    ``n_jobs`` 1. Results do not depend on it. ``methods``: methods of slices the
+    command will call (the workers compile their kernels meanwhile, see
+    :mod:`slope.methods.compiled`).
     """
     global _WARMING
     if int(n_jobs) < 2 or _WARMING is not None:
@@ -204,7 +206,7 @@ def start_workers(n_jobs):
             from joblib import Parallel, delayed
 
             parent = os.getpid()
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent) for _ in range(int(n_jobs)))
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent, tuple(methods)) for _ in range(int(n_jobs)))
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
@@ -218,7 +220,7 @@ def _await_workers():
         _WARMING.join()
 
 
-def _warm_worker(parent=None):
+def _warm_worker(parent=None, methods=()):
     """In a worker: import the simulator and load its compiled kernels (tiny calls).
 
     The worker also starts watching ``parent`` (it ends if the run is killed
@@ -231,6 +233,10 @@ def _warm_worker(parent=None):
 
     from . import fused
 
+    if methods:  # first: the command needs them after its search (which compiles Bishop)
+        from ..methods.compiled import warm_up
+
+        warm_up(methods)
     fused.warm_up()
     return os.getpid()
 

@@ -201,12 +201,15 @@ def strength_map(problem, st, det_value):
 def warm_up():
     """Load the compiled kernels of the simulator (from numba's cache) with tiny inputs of the real types."""
     from ..methods.bishop import _single_equation_kernel
+    from ..methods.compiled import first_call
 
     z = np.zeros((1, 1))
-    _fill(z.copy(), z.copy(), np.zeros((1, 1)), np.zeros(1, np.int64), np.array([0, 1], np.int64),
-          np.zeros(1, np.int64), np.ones(1), np.ones(1), np.zeros(1, np.int64))
+    with first_call(_fill):  # one process compiles, the others load it (see methods.compiled)
+        _fill(z.copy(), z.copy(), np.zeros((1, 1)), np.zeros(1, np.int64), np.array([0, 1], np.int64),
+              np.zeros(1, np.int64), np.ones(1), np.ones(1), np.zeros(1, np.int64))
     one = np.ones((1, 1))
     geo = [one.copy() for _ in range(13)] + [np.zeros(1, np.bool_), np.ones(1), np.ones(1, np.bool_)]
-    _single_equation_kernel(np.ones((1, 1, 1)), np.zeros((1, 1, 1)), *geo, 1e-6, 50, 0.2, np.empty((1, 1)),
-                            np.zeros((1, 1), np.int64), np.zeros((1, 1), np.bool_), np.zeros((1, 1), np.int64),
-                            np.empty((1, 1, 1)), False)
+    with first_call(_single_equation_kernel):
+        _single_equation_kernel(np.ones((1, 1, 1)), np.zeros((1, 1, 1)), *geo, 1e-6, 50, 0.2, np.empty((1, 1)),
+                                np.zeros((1, 1), np.int64), np.zeros((1, 1), np.bool_), np.zeros((1, 1), np.int64),
+                                np.empty((1, 1, 1)), False)

@@ -1,0 +1,92 @@
+"""Compiling the methods' kernels once per machine, and ahead of the work that needs them.
+
+numba compiles a kernel on its first call in a process and writes it to its
+cache (``cache=True``); the next process loads it in a fraction of a second.
+Several processes of one run (the command and its worker pool) that reach
+the same kernel before its cache exists would each compile it -- seconds of
+CPU each on a machine whose cores they share. :func:`first_call` makes the
+first call of a kernel in a process wait for the same kernel's compilation
+in any other process of this user, then load it from the cache.
+:func:`warm_up` lets an idle worker compile what the command will call
+next (e.g. Morgenstern-Price while the command searches with Bishop).
+"""
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+
+try:  # POSIX; elsewhere every process compiles for itself, as before
+    import fcntl
+except ImportError:  # pragma: no cover - Windows
+    fcntl = None
+
+__all__ = ["first_call", "warm_up"]
+
+
+@contextlib.contextmanager
+def first_call(kernel):
+    """Around a call of numba dispatcher ``kernel``: hold its machine-wide lock if it has no
+    compiled version in this process yet (the call compiles it or loads it from the cache)."""
+    if fcntl is None or kernel.signatures:
+        yield
+        return
+    name = f"{kernel.py_func.__module__}.{kernel.py_func.__qualname__}"
+    path = os.path.join(tempfile.gettempdir(), f"slipfield-compile-{os.getuid()}-{name}.lock")
+    try:
+        fh = open(path, "a")
+    except OSError:  # no lock, no harm: the call compiles as it would have
+        yield
+        return
+    with fh:
+        fcntl.flock(fh, fcntl.LOCK_EX)
+        try:
+            yield
+        finally:
+            fcntl.flock(fh, fcntl.LOCK_UN)
+
+
+def warm_up(methods=()):
+    """Compile (or load from the cache) the kernels of ``methods`` with tiny inputs of the real types.
+
+    Morgenstern-Price with and without forces (the deterministic analysis
+    writes its slice tables) and the lam scan it shares with Spencer (whose
+    Newton is numpy); Bishop and Janbu share one kernel. Names unknown to the
+    registry are ignored: this only saves time.
+    """
+    import numpy as np
+
+    from . import factor_of_safety, method_spec, prepare_bank
+    from ..bank import build_bank
+    from ..examples import simple_slope
+    from ..surfaces import Circle
+
+    names = []
+    for m in methods:
+        try:
+            names.append(method_spec(m).name)
+        except Exception:  # noqa: BLE001 - a warm-up never fails a run
+            continue
+    if not names:
+        return
+    bank = build_bank(simple_slope(), [Circle(8.0, 16.0, 14.0)], n_slices=8)
+    terms = prepare_bank(bank)
+    c = np.full((1, 1, 8), 10.0)
+    tp = np.full((1, 1, 8), 0.5)
+    for name in dict.fromkeys(names):
+        if name in ("spencer", "morgenstern-price"):
+            from .gle import bracketed_roots
+
+            # the lam scan both use for the cells Newton missed (the demos' searches reach it)
+            one = np.zeros(1, dtype=np.int64)
+            bracketed_roots(terms, c, tp, np.ones((1, 9)), (one, one), np.ones(1))
+        if name == "morgenstern-price":
+            from .gle import morgenstern_price
+            from .interslice import interslice_function
+
+            # started from a given F, not Bishop's: this need not wait for Bishop's kernel
+            f = interslice_function(terms.x_bound, "half-sine")
+            morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)))
+            morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)), return_forces=True)
+        elif name in ("bishop", "janbu"):
+            factor_of_safety(terms, c, tp, name)
