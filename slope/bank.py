@@ -583,9 +583,32 @@ def point_stresses(section, x, y):
     x, y = x.ravel(), y.ravel()
     ytop = section.ground_y(x)
     y = np.minimum(y, ytop)
+    zone, sig_tot, u = column_stresses(section, x, y, ytop, _column_weight(section, x, y, ytop))
+    return zone.reshape(shp), (sig_tot - u).reshape(shp), u.reshape(shp)
+
+
+def column_stresses(section, x, y, ytop, sig_soil):
+    """Zone, total vertical stress σv (kPa) and pore pressure u (kPa) at points under soil columns.
+
+    Parameters
+    ----------
+    section : Section
+    x, y, ytop : ndarray (m,), m
+        Points and the ground elevation above each.
+    sig_soil : ndarray (m,), kPa
+        Weight of the soil column above each point per unit area.
+
+    Returns
+    -------
+    zone : ndarray (m,) of int
+        Zone index just above each point (-1 outside every zone).
+    sig_tot : ndarray (m,), kPa
+        ``sig_soil`` plus surcharges and ponded water above the ground.
+    u : ndarray (m,), kPa
+        Pore pressure of the case's water model (0 without water).
+    """
     eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
     zone = section.zone_at(x, y + eps)
-    sig_soil = _column_weight(section, x, y, ytop)
     sig_tot = sig_soil.copy()
     water, loads = section.water, section.loads
     if loads is not None:
@@ -596,4 +619,4 @@ def point_stresses(section, x, y):
         u = water.pore_pressure(x, y, zone, section.zone_names, sig_soil)
     else:
         u = np.zeros_like(y)
-    return zone.reshape(shp), (sig_tot - u).reshape(shp), u.reshape(shp)
+    return zone, sig_tot, u

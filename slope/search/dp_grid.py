@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..bank import _column_weight, _ponded_top
+from ..bank import _column_weight, _ponded_top, column_stresses
 from ..slices import SliceBank
 from ..surfaces import Circle, cut_ground
 
@@ -131,18 +131,8 @@ def _segment_bank(section, grid: NodeGrid, direction: int) -> SliceBank:
     qv, qh = qv_i[jj], qh_i[jj]
     xm_sec = d * xm
     ytop = section.ground_y(xm_sec)
-    eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
-    zone = section.zone_at(xm_sec, ybase + eps)
-    sig_soil = wsum  # trapezoid of the end columns, as for the weight
-    sig_tot = sig_soil.copy()
-    if loads is not None:
-        sig_tot += loads.surcharge(xm_sec)
-    if water is not None:
-        if water.phreatic is not None:
-            sig_tot += water.gamma_w * np.maximum(water.phreatic_y(xm_sec) - ytop, 0.0)
-        u = water.pore_pressure(xm_sec, ybase, zone, section.zone_names, sig_soil)
-    else:
-        u = np.zeros(m)
+    # the soil column is the trapezoid of the end columns, as for the weight
+    zone, sig_tot, u = column_stresses(section, xm_sec, ybase, ytop, wsum)
     valid = (zone >= 0) & (width > 0)
     zone = np.where(valid, zone, 0)  # outside every zone: left out of the paths (valid False)
     col = lambda v: np.asarray(v, float).reshape(m, 1)  # noqa: E731 - one slice per row
