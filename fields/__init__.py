@@ -5,7 +5,11 @@ Imports nothing from ``slope``. Names are imported on first use (PEP 562
 ``__getattr__``): importing the package costs no scipy import, which would
 otherwise be most of a short ``slipfield fields sample`` run.
 """
+from ._compile_cache import choose_cache_dir as _choose_cache_dir
 from ._lazy import lazy_exports
+
+# before any module of slipfield imports numba: a read-only install must still import
+_choose_cache_dir(__path__[0])  # slope/ is installed beside fields/, with the same permissions
 
 from .errors import InputError
 from .grid import RegularGrid
