@@ -62,7 +62,8 @@ def binomial_interval(k: int, n: int, level: float = 0.95, method: str = "wilson
         den = 1.0 + z * z / n
         c = (p + z * z / (2 * n)) / den
         h = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / den
-        return max(0.0, c - h), min(1.0, c + h)
+        # c = h exactly at k = 0 (and c + h = 1 at k = n): round-off must not print a bound of 2e-19
+        return (0.0 if k == 0 else max(0.0, c - h)), (1.0 if k == n else min(1.0, c + h))
     if method == "clopper-pearson":
         lo = 0.0 if k == 0 else float(stats.beta.ppf(a / 2, k, n - k + 1))
         hi = 1.0 if k == n else float(stats.beta.ppf(1 - a / 2, k + 1, n - k))

@@ -55,3 +55,12 @@ def test_bad_interval_input():
         binomial_interval(1, 10, method="agresti")
     with pytest.raises(InputError, match="0 <= k <= n"):
         binomial_interval(11, 10)
+
+
+@pytest.mark.parametrize("n", [3, 7, 35, 1000])
+def test_wilson_bounds_are_exact_at_no_and_all_failures(n):
+    # Wilson's lower bound is exactly 0 at k = 0 and its upper bound exactly 1 at k = n (the centre
+    # equals the half-width); scipy.stats.binomtest's proportion_ci gives those exact values, where
+    # the plain formula left 2e-19 in a report ("95 % interval 2.17e-19 - 0.00383").
+    assert binomial_interval(0, n, 0.95, "wilson")[0] == stats.binomtest(0, n).proportion_ci(method="wilson").low == 0.0
+    assert binomial_interval(n, n, 0.95, "wilson")[1] == stats.binomtest(n, n).proportion_ci(method="wilson").high == 1.0
