@@ -6,21 +6,15 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from ...errors import InputError
+from ...section import _as_points
 from ..style import new_figure
 
 __all__ = ["_xy", "_vector", "_axes", "_edges", "_fs_text"]
 
 
 def _xy(a, name: str, min_points: int = 2) -> np.ndarray:
-    arr = np.asarray(a, dtype=float)
-    if arr.ndim != 2 or arr.shape[1] != 2 or arr.shape[0] < min_points:
-        raise InputError(
-            f"{name}: expected an (n, 2) array of (x, y) points in m with n >= {min_points}, "
-            f"got shape {arr.shape}; pass a list of [x, y] pairs."
-        )
-    if not np.all(np.isfinite(arr)):
-        raise InputError(f"{name}: contains NaN or infinite coordinates; give finite x, y in m.")
-    return arr
+    """(n, 2) points in m, by the one check of point lists that the section, water and surfaces use."""
+    return _as_points(name, a, min_points)
 
 
 def _vector(a, name: str, min_len: int = 1) -> np.ndarray:
