@@ -521,6 +521,33 @@ def test_bad_input_names_the_item(kwargs, word):
         factor_of_safety(bank, **args)
 
 
+@pytest.mark.parametrize("method", ALL_METHODS)
+@pytest.mark.parametrize("name,bad", [("c", np.nan), ("c", -0.5), ("tan_phi", np.inf), ("tan_phi", -1e-3)])
+@pytest.mark.parametrize("where", ["valid surface", "rejected surface"])
+def test_one_bad_strength_anywhere_is_refused(method, name, bad, where):
+    # one value of one sample on one slice base: Bishop and Janbu check the strengths in
+    # their kernel's own pass, which skips surfaces the bank rejected; a value there must
+    # be refused all the same
+    bank = _mixed_bank()
+    if where == "rejected surface":
+        bank.valid = bank.valid.copy()
+        bank.valid[3] = False
+    s, m, n = 3, bank.n_surfaces, bank.n_slices
+    args = {"c": np.full((s, m, n), 10.0), "tan_phi": np.full((s, m, n), 0.5)}
+    args[name][1, 3, n // 2] = bad
+    with pytest.raises(InputError, match=name):
+        factor_of_safety(bank, method=method, **args)
+    # broadcast inputs (one row for every sample) are checked as well
+    args = {"c": np.full((1, m, n), 10.0), "tan_phi": 0.5}
+    if name == "c":
+        args["c"][0, 3, 0] = bad
+    else:
+        args["tan_phi"] = np.full(n, 0.5)
+        args["tan_phi"][-1] = bad
+    with pytest.raises(InputError, match=name):
+        factor_of_safety(bank, method=method, **args)
+
+
 def test_result_type():
     r = factor_of_safety(_mixed_bank(), 10.0, 0.5)
     assert isinstance(r, FSResult) and r.method == "bishop"
