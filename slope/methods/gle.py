@@ -514,6 +514,99 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     return fl
 
 
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")
+def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale, lscale,
+                F, lam, fl_out):
+    """:func:`_post`'s flags (no forces) for every sample of surface ``m`` at once.
+
+    ``ct``, ``tt`` (n, s) as for :func:`_newton_lanes`; ``F``, ``lam`` (s,)
+    the solutions; ``fl_out`` (s,) receives the flags. The same arithmetic
+    and tests as :func:`_post`, written without branches inside the sample
+    loop so that it is vectorised (numpy's error model: a division by zero
+    gives inf or NaN where _post would not divide, and the test it feeds is
+    then off as in _post).
+    """
+    N = ca.shape[1]
+    S = F.shape[0]
+    E_next = np.empty((N, S))
+    E = np.zeros(S)
+    Emax = np.zeros(S)
+    ZE = np.zeros(S)
+    s_pos = np.zeros(S)
+    s_neg = np.zeros(S)
+    fl = np.zeros(S, dtype=np.int64)
+    # the forces are marched once and kept: the checks below need the largest E first
+    for i in range(N):
+        cai = ca[m, i]
+        sai = sa[m, i]
+        fi = f[m, i] if i > 0 else 0.0
+        fj = f[m, i + 1]
+        R0 = A[m, i] * cai - B[m, i] * sai
+        T = B[m, i] * cai + A[m, i] * sai
+        li = l[m, i]
+        uli = ul[m, i]
+        last = i == N - 1
+        for j in range(S):
+            t = tt[i, j]
+            Fj = F[j]
+            lj = lam[j]
+            Phi = Fj * cai + t * sai
+            Psi = t * cai - Fj * sai
+            R = ct[i, j] * li - uli * t + R0 * t
+            En = (E[j] * (Phi - lj * fi * Psi) + Fj * T - R) / (Phi - lj * fj * Psi)
+            E_next[i, j] = En
+            Emax[j] = En if (not last and En > Emax[j]) else Emax[j]
+            E[j] = En
+    for j in range(S):
+        E[j] = 0.0
+    for i in range(N):
+        cai = ca[m, i]
+        sai = sa[m, i]
+        Ai = A[m, i]
+        Bi = B[m, i]
+        uli = ul[m, i]
+        li = l[m, i]
+        fi = f[m, i] if i > 0 else 0.0
+        fj = f[m, i + 1]
+        ybi = yb[m, i]
+        xbi = xb[m, i] - xm[m, i]
+        xbn = xb[m, i + 1] - xm[m, i]
+        cpl = couple[m, i]
+        thr_ne = -1e-9 * abs(Ai)
+        inner = i < N - 1
+        lo = yb_b[m, i + 1] - 1e-9 * lscale[m] if inner else 0.0
+        hi = yt_b[m, i + 1] + 1e-9 * lscale[m] if inner else 0.0
+        e_floor = 1e-9 * fscale[m]
+        for j in range(S):
+            t = tt[i, j]
+            Fj = F[j]
+            lj = lam[j]
+            Ej = E[j]
+            En = E_next[i, j]
+            Xi = lj * fi * Ej
+            Xn = lj * fj * En
+            dE = Ej - En
+            dX = Xn - Xi
+            ne = (Ai - dX) * cai - (Bi + dE) * sai - uli
+            bits = 1 if ne < thr_ne else 0
+            if Fj * cai + t * sai - lj * fj * (t * cai - Fj * sai) <= 0.0:
+                bits |= 64
+            strength = ct[i, j] * li + ne * t
+            s_pos[j] += strength if strength > 0.0 else 0.0
+            s_neg[j] -= strength if not (strength > 0.0) else 0.0
+            m_left = xbi * (-Xi) - (ZE[j] - ybi * Ej)
+            ZEn = ybi * En - cpl - m_left - xbn * Xn
+            if inner:
+                y = ZEn / En
+                if (En > THRUST_E_FRACTION * Emax[j] and Emax[j] > e_floor) and (y < lo or y > hi):
+                    bits |= 4
+            fl[j] |= bits
+            E[j] = En
+            ZE[j] = ZEn
+    for j in range(S):
+        fl_out[j] = fl[j] | (32 if s_neg[j] > NEGATIVE_STRENGTH_FRACTION * s_pos[j] else 0)
+
+
 @njit(cache=True, fastmath=_FASTMATH)
 def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple,
             fscale, lscale, tol, max_iter, F0, lams, E_out, X_out, yt_out, neff_out):
@@ -735,6 +828,9 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
             lamL[s] = lam0
         _newton_lanes(ct, tt, np.int64(m), ca, sa, l, A, B, ul, dx, dy, f, G0[m], s1, s2, tol, max_iter,
                       FL, lamL, itL, doneL)
+        flL = np.empty(S, dtype=np.int64)
+        _post_lanes(ct, tt, np.int64(m), ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                    lscale, FL, lamL, flL)
         for s in range(S):
             rescue[s, m] = False
             F0 = F0L[s]
@@ -744,20 +840,20 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
             done = doneL[s]
             _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                          couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
-                         fs, lam_out, iters, conv, flags, rescue, none)
+                         flL[s], fs, lam_out, iters, conv, flags, rescue, none)
 
 
 @njit(cache=True, fastmath=_FASTMATH)
 def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                  couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
-                 fs, lam_out, iters, conv, flags, rescue, none):
-    """After Newton on one cell: its flags, the continuation where needed, its outputs."""
+                 fl_lanes, fs, lam_out, iters, conv, flags, rescue, none):
+    """After Newton on one cell: its flags (``fl_lanes``, :func:`_post_lanes`), the
+    continuation where needed, its outputs."""
     s1 = fscale[m]
     s2 = fscale[m] * lscale[m]
     fl = 8
     if F > 0.0 and np.isfinite(F):
-        fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
-                   fscale, lscale, F, lam, none, none, none, none, False)
+        fl = fl_lanes
     # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
     # reverse_circles): neither the continuation nor the scan can replace it
     if (fl & 40) != 0 and not reverse[m]:
