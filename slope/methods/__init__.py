@@ -126,7 +126,8 @@ register_method(MethodOfSlices("spencer", _iterative(_spencer), options=("F_star
                                polylines=True))
 register_method(MethodOfSlices("morgenstern-price", _gle,
                                options=("F_start", "lam_start", "f_ends", "interslice_table"),
-                               polylines=True, aliases=("m-p", "mp", "gle", "morgenstern_price")))
+                               polylines=True, aliases=("m-p", "mp", "gle", "morgenstern_price"),
+                               checks_strengths=True))
 
 #: Every method's name, in registry order.
 METHOD_NAMES = tuple(METHODS)

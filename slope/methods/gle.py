@@ -936,15 +936,20 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
 
     Returns
     -------
-    dict with ``fs``, ``lam``, ``converged``, ``flags``, ``iterations`` and
+    dict with ``fs``, ``lam``, ``converged``, ``flags``, ``iterations``,
+    ``strengths_ok`` (True when the Bishop start found every strength finite
+    and >= 0, see :func:`slope.methods.bishop.solve_single_equation`) and
     optionally ``E``, ``X``, ``thrust_y``, ``normal_eff``.
     ``iterations`` counts Newton's steps, the continuation's and the lam
     scan's (neither is run on :func:`reverse_circles`).
     """
     S, M, N = c.shape
+    strengths_ok = False
     if F_start is None:
         from .bishop import bishop
-        F_start = bishop(terms, c, tan_phi, tol=1e-3, max_iter=20)["fs"]
+        start = bishop(terms, c, tan_phi, tol=1e-3, max_iter=20)
+        F_start = start["fs"]
+        strengths_ok = start["strengths_ok"]  # Bishop's kernel read and checked them all
     c = _dense(c, (S, M, N))
     tan_phi = _dense(tan_phi, (S, M, N))
     F_start = _dense(F_start, (S, M))
@@ -970,7 +975,8 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
         lam[si, mi] = lr[found]
         conv[si, mi] = True
         flags[si, mi] = flr[found]
-    out = {"fs": fs, "lam": lam, "converged": conv, "flags": flags, "iterations": iters}
+    out = {"fs": fs, "lam": lam, "converged": conv, "flags": flags, "iterations": iters,
+           "strengths_ok": strengths_ok}
     if return_forces:
         E = np.empty((S, M, N + 1))
         X = np.empty((S, M, N + 1))
