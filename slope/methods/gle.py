@@ -163,9 +163,9 @@ def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, m
 
 
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy")
-def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, G0m, s1, s2, tol, max_iter, F, lam,
+def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, max_iter, F, lam,
                   n_it, done):
-    """:func:`_newton` for every sample of surface ``m`` at once (interslice function ``f[m]``).
+    """:func:`_newton` for every sample of surface ``m`` at once (interslice function ``f[fr]``).
 
     ``ct``, ``tt`` are c and tan(phi) of the surface, shape (n, s): the sample
     axis is the inner, contiguous one, so each step of the force recursion
@@ -213,8 +213,8 @@ def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, G0m, s1, s2, tol, m
             uli = ul[m, i]
             dxi = dx[m, i]
             dyi = dy[m, i]
-            fi = f[m, i] if i > 0 else 0.0
-            fj = f[m, i + 1]
+            fi = f[fr, i] if i > 0 else 0.0
+            fj = f[fr, i + 1]
             for j in range(S):
                 t = tt[i, j]
                 Fj = F[j]
@@ -789,59 +789,65 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
     Cells that still miss a clean root are marked in ``rescue`` for the lam
     scan (:func:`_rescue_kernel`, run after this kernel on those cells only).
     """
-    S = fs.shape[0]
     M = fs.shape[1]
+    # one surface per task (_surface): the parallel loop's body stays one call, which
+    # keeps numba's parallel passes, and the kernel's compilation, short
+    for m in prange(M):
+        _surface(np.int64(m), c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
+                 couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
+                 fs, lam_out, iters, conv, flags, rescue)
+
+
+@njit(cache=True, fastmath=_FASTMATH)
+def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
+             couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
+             fs, lam_out, iters, conv, flags, rescue):
+    """Surface ``m`` of :func:`_gle_kernel`: Newton on all its samples at once
+    (:func:`_newton_lanes`), their flags (:func:`_post_lanes`), then each sample's
+    continuation where needed (:func:`_finish_cell`)."""
+    S = fs.shape[0]
     N = ca.shape[1]
     none = np.empty((1, 1, 1))
-    # one surface per task, Newton on all its samples at once (_newton_lanes), then
-    # each sample's checks and, where needed, its continuation
-    for m in prange(M):
-        if not valid[m]:
-            for s in range(S):
-                rescue[s, m] = False
-                fs[s, m] = np.nan
-                lam_out[s, m] = np.nan
-                conv[s, m] = False
-                iters[s, m] = 0
-            continue
-        s1 = fscale[m]
-        s2 = fscale[m] * lscale[m]
-        ct = np.empty((N, S))
-        tt = np.empty((N, S))
-        FL = np.empty(S)
-        lamL = np.empty(S)
-        F0L = np.empty(S)
-        itL = np.empty(S, dtype=np.int64)
-        doneL = np.empty(S, dtype=np.bool_)
-        for s in range(S):
-            for i in range(N):
-                ct[i, s] = c[s, m, i]
-                tt[i, s] = tp[s, m, i]
-            F0 = F_start[s, m]
-            if not (F0 > 0.0) or not np.isfinite(F0):
-                F0 = 1.0
-            lam0 = lam_start[s, m]
-            if not np.isfinite(lam0):
-                lam0 = 0.0
-            F0L[s] = F0
-            FL[s] = F0
-            lamL[s] = lam0
-        _newton_lanes(ct, tt, np.int64(m), ca, sa, l, A, B, ul, dx, dy, f, G0[m], s1, s2, tol, max_iter,
-                      FL, lamL, itL, doneL)
-        flL = np.empty(S, dtype=np.int64)
-        _post_lanes(ct, tt, np.int64(m), ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
-                    lscale, FL, lamL, flL)
+    if not valid[m]:
         for s in range(S):
             rescue[s, m] = False
-            F0 = F0L[s]
-            F = FL[s]
-            lam = lamL[s]
-            n_it = itL[s]
-            done = doneL[s]
-            _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-                         couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
-                         flL[s], fs, lam_out, iters, conv, flags, rescue, none)
-
+            fs[s, m] = np.nan
+            lam_out[s, m] = np.nan
+            conv[s, m] = False
+            iters[s, m] = 0
+        return
+    s1 = fscale[m]
+    s2 = fscale[m] * lscale[m]
+    ct = np.empty((N, S))
+    tt = np.empty((N, S))
+    FL = np.empty(S)
+    lamL = np.empty(S)
+    F0L = np.empty(S)
+    itL = np.empty(S, dtype=np.int64)
+    doneL = np.empty(S, dtype=np.bool_)
+    for s in range(S):
+        for i in range(N):
+            ct[i, s] = c[s, m, i]
+            tt[i, s] = tp[s, m, i]
+        F0 = F_start[s, m]
+        if not (F0 > 0.0) or not np.isfinite(F0):
+            F0 = 1.0
+        lam0 = lam_start[s, m]
+        if not np.isfinite(lam0):
+            lam0 = 0.0
+        F0L[s] = F0
+        FL[s] = F0
+        lamL[s] = lam0
+    _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, m, G0[m], s1, s2, tol,
+                  max_iter, FL, lamL, itL, doneL)
+    flL = np.empty(S, dtype=np.int64)
+    _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                lscale, FL, lamL, flL)
+    for s in range(S):
+        rescue[s, m] = False
+        _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
+                     couple, fscale, lscale, reverse, tol, max_iter, F0L[s], FL[s], lamL[s], itL[s],
+                     doneL[s], flL[s], fs, lam_out, iters, conv, flags, rescue, none)
 
 @njit(cache=True, fastmath=_FASTMATH)
 def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
