@@ -30,7 +30,7 @@ from ..search.dynamic_programming import DP_FAMILY, DPSettings, _spencer, _start
 from ..surfaces import family_of
 from .refinement import START_UNUSABLE, _grid_values, realisation_overrides, rejection_counts
 
-__all__ = ["MECHANISM_SEARCH", "mechanism_search", "max_vertices", "surface_families"]
+__all__ = ["MECHANISM_SEARCH", "mechanism_search", "surface_families"]
 
 MECHANISM_SEARCH = DP_FAMILY
 _CACHE: OrderedDict = OrderedDict()
@@ -44,11 +44,6 @@ def surface_families(problem) -> list:
         fam = [family_of(s) for s in problem.surfaces]
         problem._families = fam
     return fam
-
-
-def max_vertices(settings) -> int:
-    """Upper bound of the vertices of a path found with ``settings`` (for fixed-size storage)."""
-    return int(settings.columns) + 32  # columns plus the ground's vertices inside a band
 
 
 def _starts(problem, fs_row, ok_row, n_families):
