@@ -226,29 +226,40 @@ class SimulationResult:
         return out
 
     def failure_map(self, x_edges, y_edges):
-        """Density of failed critical surfaces.
+        """Density of the governing surfaces of failed realisations.
 
-        Fraction of realisations (over all n) whose critical surface has
+        Fraction of realisations (over all n) whose governing surface has
         FS < 1 and passes through each cell (a cell counts once per
-        realisation when any slice-base midpoint of that surface lies in it).
-        ``x_edges``, ``y_edges`` in the section frame (m).
+        realisation when any slice-base midpoint of that surface lies in it):
+        the per-realisation search's own polyline where it lowered FS
+        (:meth:`searched_surfaces`, sliced as
+        :func:`.failure_geometry.slice_searched` measures it), else the bank's
+        critical surface. ``x_edges``, ``y_edges`` in the section frame (m).
 
         Returns
         -------
         ndarray (len(x_edges)-1, len(y_edges)-1)
         """
+        from .failure_geometry import slice_searched
+
         if self.problem is None:
             raise InputError("failure_map needs the result of simulate() (problem attached)")
-        bank = self.problem.bank
         xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
         out = np.zeros((xe.size - 1, ye.size - 1))
         failed = np.isfinite(self.fs) & (self.fs < 1.0)
-        idx, counts = np.unique(self.critical_index[failed], return_counts=True)
-        for j, cnt in zip(idx, counts):
-            # slice positions are in the sliding frame (x' = direction * x):
-            # back to the section frame, or the map is mirrored for slopes facing -x
-            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
-            out += (h > 0) * cnt
+        searched = self.searched_surfaces()
+        own = [k for k in sorted(searched) if failed[k]]
+        failed[own] = False
+        banks = [(self.problem.bank, *np.unique(self.critical_index[failed], return_counts=True))]
+        if own:
+            banks.append((slice_searched(self.problem, [searched[k] for k in own]), np.arange(len(own)),
+                          np.ones(len(own), int)))
+        for bank, idx, counts in banks:
+            for j, cnt in zip(idx, counts):
+                # slice positions are in the sliding frame (x' = direction * x):
+                # back to the section frame, or the map is mirrored for slopes facing -x
+                h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+                out += (h > 0) * cnt
         return out / max(self.n, 1)
 
 

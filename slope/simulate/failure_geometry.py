@@ -29,7 +29,8 @@ from ..errors import InputError
 from ..surfaces import Circle, Polyline
 
 __all__ = ["sliding_mass_geometry", "surface_ends", "surface_xy", "GoverningSurfaces", "governing_surfaces",
-           "SURFACE_HEADER", "surface_columns", "read_surface_columns", "SurfaceGroup", "FailureMap", "failure_map"]
+           "SURFACE_HEADER", "surface_columns", "read_surface_columns", "SurfaceGroup", "FailureMap", "failure_map",
+           "slice_searched"]
 
 
 def _indices(bank, index) -> np.ndarray:
@@ -147,6 +148,24 @@ class GoverningSurfaces:
         return None if i < 0 else surface_xy(self.problem.bank, i)
 
 
+def slice_searched(problem, vertices):
+    """Slice bank of searched polylines (section frame vertices, m), for measuring and mapping them.
+
+    Sliced as the search's method of slices judged them, with a slice side at
+    every bend of the surface, the ground and the zones
+    (:func:`slope.bank.polyline_sides`), and enough slices for every bend:
+    Simpson's rule of :func:`sliding_mass_geometry` is then exact for the
+    area, and the depth is read at every vertex.
+    """
+    from ..bank import build_bank, zone_crossings
+
+    polys = [Polyline(xy) for xy in vertices]
+    sec = problem.section
+    bends = max(len(q.points) + len(sec.ground) + len(zone_crossings(sec, q, q.points[0, 0], q.points[-1, 0]))
+                for q in polys)
+    return build_bank(sec, polys, max(problem.n_slices, bends + 1))
+
+
 def governing_surfaces(result, which=None) -> GoverningSurfaces:
     """The governing surface of every realisation of a :class:`SimulationResult`, with its geometry.
 
@@ -184,16 +203,7 @@ def governing_surfaces(result, which=None) -> GoverningSurfaces:
             geo[key][rows] = v[inv]
     ks = [k for k in sorted(found) if want[k]]
     if ks:
-        from ..bank import build_bank, zone_crossings
-
-        polys = [Polyline(found[k]) for k in ks]
-        # sliced as the search's method judged them, with a slice side at every bend of the surface, the
-        # ground and the zones (bank.polyline_sides), enough slices for every bend: Simpson's rule of
-        # sliding_mass_geometry is then exact for the area and the depth is read at every vertex
-        sec = prob.section
-        bends = max(len(q.points) + len(sec.ground) + len(zone_crossings(sec, q, q.points[0, 0], q.points[-1, 0]))
-                    for q in polys)
-        fill(build_bank(sec, polys, max(prob.n_slices, bends + 1)), ks, np.arange(len(ks)))
+        fill(slice_searched(prob, [found[k] for k in ks]), ks, np.arange(len(ks)))
     return GoverningSurfaces(family=np.asarray(result.governing_families(), dtype=object), searched=searched,
                              bank_index=crit, vertices=found, problem=prob, **geo)
 

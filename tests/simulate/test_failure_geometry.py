@@ -137,3 +137,31 @@ def test_failure_map_receives_failures_of_both_kinds_with_their_own_surfaces(sea
     labels = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
     assert any("per-realisation search" in t for t in labels) and any("bank (circle)" in t for t in labels)
     plt.close(fig)
+
+
+def test_library_failure_map_places_a_searched_failure_on_its_own_polyline(searched):
+    # one failed realisation kept (the others set safe): its map lies between the searched polyline's
+    # own ends (every slice-base midpoint is strictly inside them), where its bank circle reaches beyond
+    import dataclasses
+
+    p, r = searched
+    ks, paths = _failed_by_search(r)
+    gov = governing_surfaces(r)
+    k = max(ks, key=lambda j: abs(gov.x_downslope[j] - _bank_ends(p, r, j)[1]))
+    fs = np.full(r.n, 2.0)
+    fs[k] = r.fs[k]
+    one = dataclasses.replace(r, fs=fs)
+    xa, xb = sorted((paths[k][0, 0], paths[k][-1, 0]))
+    sec = p.section
+    m = one.failure_map([sec.x_min - 1.0, xa, xb, sec.x_max + 1.0], [sec.base_y - 1.0, 1e3])
+    np.testing.assert_allclose(m[:, 0] * r.n, [0, 1, 0])
+    bank_ends = sorted(_bank_ends(p, r, k))
+    assert bank_ends[0] < xa - 0.5 or bank_ends[1] > xb + 0.5   # the bank circle would have spilled over
+
+
+def _bank_ends(p, r, k):
+    """Upslope and downslope end abscissae (m) of realisation k's bank surface."""
+    from slipfield.slope.simulate.failure_geometry import surface_ends
+
+    up, down = surface_ends(p.bank, [r.critical_index[k]])
+    return float(up[0]), float(down[0])
