@@ -291,7 +291,7 @@ class SimulationRun:
     shown: list = field(default_factory=list)
     mechanisms: Any = None  # MechanismSummary when other surface families or a per-realisation search ran
     result: Any = None      # the simulator's SimulationResult (mechanism maps and columns read it)
-    governing: Any = None   # GoverningSurfaces measured at the failures (failure map, area and depth)
+    governing: Any = None   # GoverningSurfaces of every realisation (failure map, area and depth, CSV columns)
     subset: dict | None = None  # subset-simulation block (spatial run only), when the estimator ran it
 
     @property

@@ -77,8 +77,8 @@ def _run_one(case, det, hyp, label, run, override, *, n, n_jobs, progress):
     from ..simulate.failure_geometry import governing_surfaces
     from ..simulate.mechanism_results import mechanism_summary
 
-    # the surface that failed: the per-realisation search's own polyline where it lowered FS, else the bank's
-    governing = governing_surfaces(res, which=failed)
+    # the surface that governs: the per-realisation search's own polyline where it lowered FS, else the bank's
+    governing = governing_surfaces(res)
 
     return SimulationRun(
         mechanisms=mechanism_summary(res), result=res,

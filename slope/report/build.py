@@ -56,11 +56,12 @@ def comparison_table(res) -> dict:
     return {"hypotheses": hyps, "quantities": QUANTITIES, "rows": out}
 
 
-def _mechanism_columns(result, mech: bool) -> list:
+def _mechanism_columns(run, mech: bool) -> list:
     """Per realisation: FS with circles alone (when other families or a search ran), then the governing surface."""
     from ..simulate.failure_geometry import governing_surfaces, surface_columns
 
-    gov = governing_surfaces(result)
+    result = run.result
+    gov = run.governing if run.governing is not None else governing_surfaces(result)
     fc = result.fs_circles_only
     return [([float(fc[k])] if mech else []) + surface_columns(gov, k) for k in range(result.n)]
 
@@ -104,7 +105,7 @@ def _csv_tables(stage: Path, res) -> list[dict]:
         if sp is None:
             continue
         a = sp.spatial
-        extra = _mechanism_columns(a.result, mech)
+        extra = _mechanism_columns(a, mech)
         rows += [[h, k, float(a.fs[k]), int(a.critical_index[k]), float(a.fs_fixed[k]), *extra[k]]
                  for k in range(len(a.fs))]
     from ..simulate.failure_geometry import SURFACE_HEADER

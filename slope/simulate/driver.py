@@ -76,6 +76,11 @@ class SimulationResult:
         lowered the FS, one row per vertex (fields ``realisation``, ``x``,
         ``y``, in realisation order; see :meth:`searched_surfaces`). Only
         those realisations hold rows, so memory grows with them, not with n.
+    searched_geometry : structured ndarray or None
+        One row per such realisation: ``realisation``, sliding-mass
+        ``area`` (m² per m), greatest ``depth`` (m), ``x_upslope``,
+        ``x_downslope`` (m), measured on the slices the search judged
+        (:mod:`.failure_geometry`).
     """
 
     fs: np.ndarray
@@ -96,6 +101,7 @@ class SimulationResult:
     fs_circles: np.ndarray | None = None
     searched_vertices: np.ndarray | None = None
     crit_circles: np.ndarray | None = None
+    searched_geometry: np.ndarray | None = None
 
     @property
     def n(self) -> int:
@@ -287,6 +293,8 @@ def _reduce(problem, fs, conv, adm):
 #: per-realisation search: the vertices of each surface it found where it lowered FS, one row per vertex
 #: (section frame, m), for those realisations only (a sparse store array: memory grows with them, not with n)
 SEARCHED_VERTICES = "sparse_searched_vertices"
+#: ... and their geometry, one row per such realisation (failure_geometry.GEOMETRY_DTYPE)
+SEARCHED_GEOMETRY = "sparse_searched_geometry"
 _VERTEX_DTYPE = np.dtype([("realisation", np.int64), ("x", float), ("y", float)])
 
 
@@ -314,15 +322,19 @@ def _run_block(problem, seed, start, stop, refine=None):
         dp = getattr(refine, "search", "nelder-mead") == "dynamic-programming"
         if dp:
             from .mechanisms import mechanism_search
-        found = []  # (realisation, vertices) of the searched surfaces that lowered FS
+        from .failure_geometry import GEOMETRY_DTYPE, measure, slice_searched
+
+        found = []  # (realisation, vertices, geometry) of the searched surfaces that lowered FS
 
         # one record per realisation (stores hold 1-D arrays): rejections by reason
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         # the window [above, below): below ``above`` (1 for case files) a realisation already fails
         near = np.isfinite(fs_c) & (fs_c < refine.below) & (fs_c >= refine.above) & (out["crit"] >= 0)
         for r in np.flatnonzero(near):
+            measured = {}
             if dp:
-                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine,
+                                                measured=measured)
             else:
                 f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
             out["refine_rejected"]["n"][r] = rej
@@ -330,8 +342,10 @@ def _run_block(problem, seed, start, stop, refine=None):
                 fs_c[r] = f
                 out["refined"][r] = True
                 if isinstance(surf, Polyline):  # a bank circle re-judged by the search's method is no new shape
-                    found.append((start + int(r), surf.points))
-        out[SEARCHED_VERTICES] = _vertex_rows(found)
+                    geo = measured.get("geometry") or measure(slice_searched(problem, [surf.points]), 0)
+                    found.append((start + int(r), surf.points, geo))
+        out[SEARCHED_VERTICES] = _vertex_rows([(k, xy) for k, xy, _ in found])
+        out[SEARCHED_GEOMETRY] = np.array([(k, *geo) for k, _, geo in found], dtype=GEOMETRY_DTYPE)
     _circles_only(problem, fs, conv, adm, out)
     return out
 
@@ -603,7 +617,8 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
                             fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
-                            searched_vertices=allr.get(SEARCHED_VERTICES))
+                            searched_vertices=allr.get(SEARCHED_VERTICES),
+                            searched_geometry=allr.get(SEARCHED_GEOMETRY))
 
 
 def realise_fields(problem, seed, k):

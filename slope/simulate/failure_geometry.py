@@ -3,12 +3,11 @@
 Where the per-realisation search lowered a realisation's FS with a polyline
 of its own, that polyline governs the realisation, not the bank surface the
 search started from. The simulator keeps its vertices (for those
-realisations only: :meth:`SimulationResult.searched_surfaces`), and
-:func:`governing_surfaces` measures it with the same functions as every bank
-surface: the polylines are sliced by :func:`slope.bank.build_bank` (a slice
-side at every bend, as the search's method of slices judged them, with
-enough slices for every bend), and :func:`sliding_mass_geometry` and
-:func:`surface_ends` read that slice bank.
+realisations only: :meth:`SimulationResult.searched_surfaces`) and measures
+it with the same functions as every bank surface, :func:`sliding_mass_geometry`
+and :func:`surface_ends`, on the slices the search's method of slices judged
+(:func:`measure`; no second slicing). :func:`governing_surfaces` gathers the
+surface and its geometry for every realisation.
 
 :func:`surface_columns` / :func:`read_surface_columns` write and read back
 the governing surface of each realisation in the per-realisation CSV files
@@ -30,7 +29,12 @@ from ..surfaces import Circle, Polyline
 
 __all__ = ["sliding_mass_geometry", "surface_ends", "surface_xy", "GoverningSurfaces", "governing_surfaces",
            "SURFACE_HEADER", "surface_columns", "read_surface_columns", "SurfaceGroup", "FailureMap", "failure_map",
-           "slice_searched"]
+           "slice_searched", "measure", "GEOMETRY_DTYPE"]
+
+
+#: the simulator's sparse rows of the searched surfaces' geometry (one per realisation the search lowered)
+GEOMETRY_DTYPE = np.dtype([("realisation", np.int64), ("area", float), ("depth", float), ("x_upslope", float),
+                           ("x_downslope", float)])
 
 
 def _indices(bank, index) -> np.ndarray:
@@ -83,6 +87,13 @@ def surface_ends(bank, index):
     idx = _indices(bank, index)
     d = bank.direction[idx]
     return d * bank.x_left[idx, 0], d * bank.x_right[idx, -1]
+
+
+def measure(bank, i: int) -> tuple:
+    """(area m² per m, greatest depth m, x upslope end m, x downslope end m) of bank surface ``i``."""
+    (a,), (d,) = sliding_mass_geometry(bank, [i])
+    (u,), (w,) = surface_ends(bank, [i])
+    return float(a), float(d), float(u), float(w)
 
 
 def surface_xy(bank, i: int) -> np.ndarray:
@@ -149,21 +160,16 @@ class GoverningSurfaces:
 
 
 def slice_searched(problem, vertices):
-    """Slice bank of searched polylines (section frame vertices, m), for measuring and mapping them.
+    """Slice bank of searched polylines (section frame vertices, m), sliced as the search judged them.
 
-    Sliced as the search's method of slices judged them, with a slice side at
-    every bend of the surface, the ground and the zones
-    (:func:`slope.bank.polyline_sides`), and enough slices for every bend:
-    Simpson's rule of :func:`sliding_mass_geometry` is then exact for the
-    area, and the depth is read at every vertex.
+    :func:`slope.bank.build_bank` with the problem's section and number of
+    slices (a side at every bend of the surface, the ground and the zones
+    while there are fewer bends than slices, :func:`slope.bank.polyline_sides`;
+    Simpson's rule of :func:`sliding_mass_geometry` is then exact).
     """
-    from ..bank import build_bank, zone_crossings
+    from ..bank import build_bank
 
-    polys = [Polyline(xy) for xy in vertices]
-    sec = problem.section
-    bends = max(len(q.points) + len(sec.ground) + len(zone_crossings(sec, q, q.points[0, 0], q.points[-1, 0]))
-                for q in polys)
-    return build_bank(sec, polys, max(problem.n_slices, bends + 1))
+    return build_bank(problem.section, [Polyline(xy) for xy in vertices], problem.n_slices)
 
 
 def governing_surfaces(result, which=None) -> GoverningSurfaces:
@@ -189,10 +195,6 @@ def governing_surfaces(result, which=None) -> GoverningSurfaces:
     searched[list(found)] = True
     geo = {k: np.full(n, np.nan) for k in ("area", "depth", "x_upslope", "x_downslope")}
 
-    def fill(bank, rows, idx):
-        geo["area"][rows], geo["depth"][rows] = sliding_mass_geometry(bank, idx)
-        geo["x_upslope"][rows], geo["x_downslope"][rows] = surface_ends(bank, idx)
-
     rows = np.flatnonzero(want & ~searched & (crit >= 0))
     if rows.size:  # each bank surface measured once, however many realisations it governs
         uniq, inv = np.unique(crit[rows], return_inverse=True)
@@ -201,9 +203,12 @@ def governing_surfaces(result, which=None) -> GoverningSurfaces:
         g["x_upslope"], g["x_downslope"] = surface_ends(prob.bank, uniq)
         for key, v in g.items():
             geo[key][rows] = v[inv]
-    ks = [k for k in sorted(found) if want[k]]
-    if ks:
-        fill(slice_searched(prob, [found[k] for k in ks]), ks, np.arange(len(ks)))
+    m = result.searched_geometry
+    if m is not None and m.size:  # measured by the simulator on the slices the search judged
+        ks = m["realisation"]
+        keep = want[ks]
+        for key in geo:
+            geo[key][ks[keep]] = m[key][keep]
     return GoverningSurfaces(family=np.asarray(result.governing_families(), dtype=object), searched=searched,
                              bank_index=crit, vertices=found, problem=prob, **geo)
 
@@ -335,10 +340,10 @@ def failure_map(gov: GoverningSurfaces, fs, x_edges, y_edges, *, max_drawn: int 
         idx, counts = np.unique(gov.bank_index[bank], return_counts=True)
         order = np.argsort(-counts, kind="stable")[:max_drawn]
         fams = ", ".join(dict.fromkeys(str(gov.family[k]) for k in bank))
-        groups.append(SurfaceGroup("bank", f"failed on a surface of the bank ({fams}): {bank.size}", bank,
+        groups.append(SurfaceGroup("bank", f"failed on a bank surface ({fams}): {bank.size}", bank,
                                    [surface_xy(gov.problem.bank, int(idx[j])) for j in order]))
     found = ks[gov.searched[ks]]
     if found.size:
-        groups.append(SurfaceGroup("search", f"failed on a surface the per-realisation search found: {found.size}",
+        groups.append(SurfaceGroup("search", f"failed on a surface of the per-realisation search: {found.size}",
                                    found, [gov.xy(int(k)) for k in found[:max_drawn]]))
     return FailureMap(xe, ye, dens / max(ks.size, 1), int(ks.size), gov.n, groups)

@@ -90,7 +90,7 @@ def _start_data(problem, section, index, st, reuse):
     return data
 
 
-def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
+def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict | None = None):
     """Search realisation k from the lowest surfaces of different families.
 
     Parameters
@@ -103,6 +103,10 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     settings : RefineSettings
         ``families`` start surfaces, ``columns``, ``nodes``, ``passes`` of
         the grids, ``method`` of the final judgement.
+    measured : dict, optional
+        Filled with the geometry of the returned surface (key ``geometry``:
+        :func:`.failure_geometry.measure` of the slices it was judged on, so
+        it costs no second slicing).
 
     Returns
     -------
@@ -157,4 +161,8 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     rej = rejection_counts(res.rejected) + rejection_counts({START_UNUSABLE: unusable} if unusable else {})
     if res.critical is None or not np.isfinite(res.fs_min):
         return float("nan"), None, rej
+    if measured is not None:
+        from .failure_geometry import measure
+
+        measured["geometry"] = measure(res.bank, res.critical_index)
     return float(res.fs_min), res.critical, rej

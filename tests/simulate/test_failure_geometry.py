@@ -30,9 +30,11 @@ SEED, N = 5, 16
 @pytest.fixture(scope="module")
 def searched():
     # Griffiths & Fenton (2004) slope, weaker than published (C = 0.2) so that several realisations fail;
-    # every realisation below bank FS 1.2 is searched by dynamic programming (Baker 1980)
+    # every realisation below bank FS 1.2 is searched by dynamic programming (Baker 1980) on grids of 8
+    # columns, so that every path has fewer bends than the problem's 20 slices: each bend is then a slice
+    # side, and Simpson's rule on the slices gives the polygon's area exactly
     p, _ = gf_problem(5.0, 0.5, mean_c=0.2)
-    r = simulate(p, N, SEED, refine=RefineSettings(below=1.2, search="dynamic-programming"))
+    r = simulate(p, N, SEED, refine=RefineSettings(below=1.2, search="dynamic-programming", columns=8, passes=1))
     return p, r
 
 
@@ -50,6 +52,7 @@ def _shoelace_and_depth(section, xy):
     assert section.ground_y(x0) == pytest.approx(xy[0, 1], abs=1e-9)
     assert section.ground_y(x1) == pytest.approx(xy[-1, 1], abs=1e-9)
     inner = g[(g[:, 0] > x0) & (g[:, 0] < x1)][::-1]       # the ground back from the far end
+    assert len(xy) + len(inner) < 20                           # fewer bends than slices (see the fixture)
     poly = np.vstack([xy, inner])
     x, y = poly[:, 0], poly[:, 1]
     area = 0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(np.roll(x, -1), y))
@@ -135,7 +138,7 @@ def test_failure_map_receives_failures_of_both_kinds_with_their_own_surfaces(sea
     fig = plot_failure_map(fm.x_edges, fm.y_edges, fm.density, sec.ground, n_failed=fm.n_failed,
                            n_total=fm.n_total, groups=[(g.kind, g.label, g.surfaces) for g in fm.groups])
     labels = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
-    assert any("per-realisation search" in t for t in labels) and any("bank (circle)" in t for t in labels)
+    assert any("per-realisation search" in t for t in labels) and any("bank surface (circle)" in t for t in labels)
     plt.close(fig)
 
 
@@ -165,3 +168,13 @@ def _bank_ends(p, r, k):
 
     up, down = surface_ends(p.bank, [r.critical_index[k]])
     return float(up[0]), float(down[0])
+
+
+def test_searched_surfaces_and_their_geometry_are_the_same_for_any_jobs_and_batch(searched):
+    p, r = searched
+    s = RefineSettings(below=1.2, search="dynamic-programming", columns=8, passes=1)
+    other = simulate(p, N, SEED, refine=s, n_jobs=2, batch=3)
+    np.testing.assert_array_equal(other.fs, r.fs)
+    np.testing.assert_array_equal(other.searched_vertices, r.searched_vertices)
+    np.testing.assert_array_equal(other.searched_geometry, r.searched_geometry)
+    assert r.searched_geometry.size == len(r.searched_surfaces()) > 0

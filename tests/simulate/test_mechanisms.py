@@ -117,6 +117,7 @@ def test_results_reproducible_for_any_batch_and_kept_terms():
     c = simulate(p, 8, 5, refine=s, batch=3)        # other batches, first bands kept from the run above
     np.testing.assert_array_equal(a.fs, c.fs)
     np.testing.assert_array_equal(a.searched_vertices, c.searched_vertices)
+    np.testing.assert_array_equal(a.searched_geometry, c.searched_geometry)
 
 
 def test_refine_settings_refuse_unknown_search_and_keep_old_description():

@@ -60,7 +60,7 @@ def plot_failure_geometry(area, depth, *, bins: int | str = "auto", axes=None, t
 #: line styles of failed surfaces by kind: the bank's in the colour of "failed surfaces" above, the
 #: per-realisation search's dashed in another colour of the palette (told apart in grey print too)
 _GROUP_STYLE = {"bank": dict(color=PALETTE["vermillion"], linewidth=0.7, alpha=0.8, linestyle="-"),
-                "search": dict(color=PALETTE["reddish_purple"], linewidth=0.9, alpha=0.9, linestyle="--")}
+                "search": dict(color=PALETTE["reddish_purple"], linewidth=1.1, alpha=1.0, linestyle="--")}
 
 
 def plot_failure_map(
@@ -141,7 +141,8 @@ def plot_failure_map(
         ax.set_xlabel("x (m)")
         ax.set_ylabel("elevation y (m)")
         ax.grid(False)
-        ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.01), ncols=2, borderaxespad=0.0)
+        # with groups the labels are long: one column at the right, clear of the count note at the left
+        ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.01), ncols=1 if len(groups) else 2, borderaxespad=0.0)
         if title:
             ax.set_title(title, pad=18)
     return fig
