@@ -290,23 +290,10 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
-#: per-realisation search: the vertices of each surface it found where it lowered FS, one row per vertex
-#: (section frame, m), for those realisations only (a sparse store array: memory grows with them, not with n)
-SEARCHED_VERTICES = "sparse_searched_vertices"
-#: ... and their geometry, one row per such realisation (failure_geometry.GEOMETRY_DTYPE)
-SEARCHED_GEOMETRY = "sparse_searched_geometry"
-_VERTEX_DTYPE = np.dtype([("realisation", np.int64), ("x", float), ("y", float)])
-
-
-def _vertex_rows(found) -> np.ndarray:
-    """[(realisation, (m, 2) vertices), ...] as rows of :data:`_VERTEX_DTYPE`, one per vertex."""
-    rows = np.zeros(sum(len(xy) for _, xy in found), dtype=_VERTEX_DTYPE)
-    i = 0
-    for k, xy in found:
-        j = i + len(xy)
-        rows["realisation"][i:j], rows["x"][i:j], rows["y"][i:j] = k, xy[:, 0], xy[:, 1]
-        i = j
-    return rows
+#: sparse store arrays of the per-realisation search: the vertices of each polyline it found where it
+#: lowered FS, and their geometry (rows of failure_geometry.VERTEX_DTYPE / GEOMETRY_DTYPE, for those
+#: realisations only: memory grows with them, not with n)
+SEARCHED_VERTICES, SEARCHED_GEOMETRY = "sparse_searched_vertices", "sparse_searched_geometry"
 
 
 def _run_block(problem, seed, start, stop, refine=None):
@@ -322,7 +309,7 @@ def _run_block(problem, seed, start, stop, refine=None):
         dp = getattr(refine, "search", "nelder-mead") == "dynamic-programming"
         if dp:
             from .mechanisms import mechanism_search
-        from .failure_geometry import GEOMETRY_DTYPE, measure, slice_searched
+        from .failure_geometry import GEOMETRY_DTYPE, measure, slice_searched, vertex_rows
 
         found = []  # (realisation, vertices, geometry) of the searched surfaces that lowered FS
 
@@ -344,7 +331,7 @@ def _run_block(problem, seed, start, stop, refine=None):
                 if isinstance(surf, Polyline):  # a bank circle re-judged by the search's method is no new shape
                     geo = measured.get("geometry") or measure(slice_searched(problem, [surf.points]), 0)
                     found.append((start + int(r), surf.points, geo))
-        out[SEARCHED_VERTICES] = _vertex_rows([(k, xy) for k, xy, _ in found])
+        out[SEARCHED_VERTICES] = vertex_rows([(k, xy) for k, xy, _ in found])
         out[SEARCHED_GEOMETRY] = np.array([(k, *geo) for k, _, geo in found], dtype=GEOMETRY_DTYPE)
     _circles_only(problem, fs, conv, adm, out)
     return out

@@ -29,12 +29,24 @@ from ..surfaces import Circle, Polyline
 
 __all__ = ["sliding_mass_geometry", "surface_ends", "surface_xy", "GoverningSurfaces", "governing_surfaces",
            "SURFACE_HEADER", "surface_columns", "read_surface_columns", "SurfaceGroup", "FailureMap", "failure_map",
-           "slice_searched", "measure", "GEOMETRY_DTYPE"]
+           "slice_searched", "measure", "GEOMETRY_DTYPE", "VERTEX_DTYPE", "vertex_rows"]
 
 
-#: the simulator's sparse rows of the searched surfaces' geometry (one per realisation the search lowered)
+#: the simulator's sparse rows of the searched surfaces: one per vertex, and one per realisation for the geometry
+VERTEX_DTYPE = np.dtype([("realisation", np.int64), ("x", float), ("y", float)])
 GEOMETRY_DTYPE = np.dtype([("realisation", np.int64), ("area", float), ("depth", float), ("x_upslope", float),
                            ("x_downslope", float)])
+
+
+def vertex_rows(found) -> np.ndarray:
+    """[(realisation, (m, 2) vertices), ...] as rows of :data:`VERTEX_DTYPE`, one per vertex."""
+    rows = np.zeros(sum(len(xy) for _, xy in found), dtype=VERTEX_DTYPE)
+    i = 0
+    for k, xy in found:
+        j = i + len(xy)
+        rows["realisation"][i:j], rows["x"][i:j], rows["y"][i:j] = k, xy[:, 0], xy[:, 1]
+        i = j
+    return rows
 
 
 def _indices(bank, index) -> np.ndarray:
