@@ -178,3 +178,25 @@ def test_searched_surfaces_and_their_geometry_are_the_same_for_any_jobs_and_batc
     np.testing.assert_array_equal(other.searched_vertices, r.searched_vertices)
     np.testing.assert_array_equal(other.searched_geometry, r.searched_geometry)
     assert r.searched_geometry.size == len(r.searched_surfaces()) > 0
+
+
+def test_report_failure_map_is_drawn_from_the_governing_surfaces(searched, monkeypatch):
+    # the report's catalogue entry hands the figure both kinds of failure, from the typed run result
+    from types import SimpleNamespace
+
+    from slipfield.slope.report.figures import catalogue
+
+    p, r = searched
+    ks, paths = _failed_by_search(r)
+    gov = governing_surfaces(r)
+    failed = np.flatnonzero(r.fs < 1.0)
+    run = SimpleNamespace(fs=r.fs, governing=gov, failed_area=gov.area[failed])
+    res = SimpleNamespace(spatial={"undrained": SimpleNamespace(spatial=run)})
+    got = {}
+    monkeypatch.setattr(catalogue, "plot_failure_map", lambda *a, **kw: got.update(kw) or "figure")
+    (drawn,) = catalogue._failure_map(SimpleNamespace(section=p.section), res)
+    groups = {kind: (label, surfaces) for kind, label, surfaces in got["groups"]}
+    assert set(groups) == {"bank", "search"} and got["n_failed"] == failed.size
+    assert groups["search"][0].endswith(f": {len(ks)}")
+    for xy, k in zip(groups["search"][1], ks):
+        np.testing.assert_array_equal(xy, paths[k])
