@@ -345,16 +345,18 @@ def failure_map(gov: GoverningSurfaces, fs, x_edges, y_edges, *, max_drawn: int 
     failed = np.isfinite(fs) & (fs < 1.0) & (gov.bank_index >= 0)
     ks = np.flatnonzero(failed)
     xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
-    dens = _density([gov.xy(int(k)) for k in ks], np.ones(ks.size, bool), xe, ye)
     groups = []
     bank = ks[~gov.searched[ks]]
+    found = ks[gov.searched[ks]]
+    # each bank surface once, weighted by the failures it governs; each searched polyline once
+    idx, counts = np.unique(gov.bank_index[bank], return_counts=True)
+    shapes = [surface_xy(gov.problem.bank, int(i)) for i in idx]
+    dens = _density(shapes + [gov.xy(int(k)) for k in found], np.r_[counts, np.ones(found.size, int)], xe, ye)
     if bank.size:
-        idx, counts = np.unique(gov.bank_index[bank], return_counts=True)
         order = np.argsort(-counts, kind="stable")[:max_drawn]
         fams = ", ".join(dict.fromkeys(str(gov.family[k]) for k in bank))
         groups.append(SurfaceGroup("bank", f"failed on a bank surface ({fams}): {bank.size}", bank,
-                                   [surface_xy(gov.problem.bank, int(idx[j])) for j in order]))
-    found = ks[gov.searched[ks]]
+                                   [shapes[j] for j in order]))
     if found.size:
         groups.append(SurfaceGroup("search", f"failed on a surface of the per-realisation search: {found.size}",
                                    found, [gov.xy(int(k)) for k in found[:max_drawn]]))

@@ -127,6 +127,7 @@ def accepted_surfaces(result, which="free") -> list:
 
 
 def _density(surfaces, fail, x_edges, y_edges):
+    """Cells each surface crosses, summed with the weights ``fail`` (bool: counted or not; int: how many times)."""
     dens = np.zeros((len(x_edges) - 1, len(y_edges) - 1))
     t = np.linspace(0.0, 1.0, 8, endpoint=False)
     for xy, f in zip(surfaces, fail):
@@ -135,7 +136,7 @@ def _density(surfaces, fail, x_edges, y_edges):
         # densified: a cell the surface crosses between two vertices still counts
         pts = np.vstack([xy[:-1] + (xy[1:] - xy[:-1]) * u for u in t] + [xy[-1:]])
         H, _, _ = np.histogram2d(pts[:, 0], pts[:, 1], bins=[x_edges, y_edges])
-        dens += H > 0
+        dens += (H > 0) * f
     return dens
 
 
