@@ -200,3 +200,22 @@ def test_report_failure_map_is_drawn_from_the_governing_surfaces(searched, monke
     assert groups["search"][0].endswith(f": {len(ks)}")
     for xy, k in zip(groups["search"][1], ks):
         np.testing.assert_array_equal(xy, paths[k])
+
+
+def test_subset_failure_map_lies_where_the_failed_surface_is_on_a_slope_facing_minus_x():
+    # the subset simulation's failure map binned slice positions in the sliding frame, so it was mirrored
+    # for slopes facing -x (SimulationResult.failure_map was corrected for this in issue 11). The cuts of
+    # the circle with the ground come from the circle itself (surfaces.cut_ground), not from the bank.
+    from types import SimpleNamespace
+
+    from slipfield.slope.simulate.rare_result import SubsetResult
+    from slipfield.slope.surfaces import cut_ground
+
+    p, _ = gf_problem(5.0, 0.5)
+    assert p.bank.direction[p.fixed_index] == -1
+    j = p.fixed_index
+    x1, x2 = cut_ground(p.section, p.surfaces[j])
+    held = SimpleNamespace(problem=p, failures={"crit": np.array([j, j, j]), "fs": np.full(3, 0.9)})
+    sec = p.section
+    m = SubsetResult.failure_map(held, [sec.x_min - 1.0, x1, x2, sec.x_max + 1.0], [sec.base_y - 1.0, 1e3])
+    np.testing.assert_allclose(m[:, 0], [0, 1, 0])
