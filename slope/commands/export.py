@@ -182,7 +182,11 @@ def write_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, i
                  "property's zones and outside each zone's field box (the cells the simulation generates)",
         "field_boxes": _field_boxes(problem),
         "time_value": "realisation index k" if fmt == "xdmf" else None,
-        "index": "realisations.csv", "properties": props,
+        "index": "realisations.csv",
+        "governing_surface": {"columns": SURFACE_HEADER, "frame": "section, m",
+                              "read_back": "slipfield.slope.simulate.failure_geometry.read_surface_columns(row) "
+                                           "gives the Circle or Polyline of a csv.DictReader row"},
+        "properties": props,
         "reproduce": "slipfield.slope.simulate.realise_fields(problem, seed, k) returns the same arrays (nx, ny)",
     }
     write_json(directory / "fields.json", manifest)

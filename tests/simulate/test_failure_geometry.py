@@ -98,6 +98,10 @@ def test_realisations_csv_gives_back_every_governing_surface(searched, tmp_path)
     with open(tmp_path / "ex" / "realisations.csv", newline="", encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
     assert len(rows) == N and set(SURFACE_HEADER) <= set(rows[0])
+    import json
+
+    manifest = json.loads((tmp_path / "ex" / "fields.json").read_text())
+    assert manifest["governing_surface"]["columns"] == SURFACE_HEADER
     gov = governing_surfaces(r)
     kinds = set()
     for k, row in enumerate(rows):
