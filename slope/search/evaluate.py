@@ -16,8 +16,10 @@ import numpy as np
 
 from ..bank import build_bank
 from ..errors import InputError
+from ..methods.result import THRUST_OUTSIDE
 from ..strength import base_strength
 from ..surfaces import Circle, Circles, Polyline
+from .interslice_retry import retry_label, retry_rows
 from .interslice_strength import INTERSLICE_REASON
 
 _TOLERABLE = {"negative-normal": 1, "small-m-alpha": 2, "thrust-outside": 4}
@@ -71,6 +73,14 @@ class SearchResult:
         Largest interslice shear needed over shear available of each trial
         (:mod:`slope.search.interslice_strength`); NaN where not checked
         (circles, invalid geometry), None when no trial was checked.
+    interslice_function : ndarray of object (n_trials,) or None
+        Trials counted with a Morgenstern-Price solution of another
+        interslice function after the first solution failed the interslice
+        shear-strength check or the thrust-line criterion: the function's
+        name ('' elsewhere; :mod:`slope.search.interslice_retry`). None when
+        no trial was checked.
+    retried : dict str -> int
+        Those trials counted, by method and interslice function.
     """
 
     search: str
@@ -89,6 +99,8 @@ class SearchResult:
     history: list = field(default_factory=list)
     trials_rejected: dict = field(default_factory=dict)
     interslice_ratio: np.ndarray = None
+    interslice_function: np.ndarray = None
+    retried: dict = field(default_factory=dict)
 
     def summary(self) -> str:
         rej = ", ".join(f"{k}: {v}" for k, v in sorted(self.rejected.items())) or "none"
@@ -142,8 +154,11 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         solved by Spencer or Morgenstern-Price against the strength across
         the slice boundaries (:mod:`slope.search.interslice_strength`): a
         counted solution needing more is no longer counted, under
-        :data:`INTERSLICE_REASON`. Circles are never judged this way (their
-        acceptance, and every result built on them, is unchanged).
+        :data:`INTERSLICE_REASON`. A non-circular solution refused by it, or
+        by a line of thrust outside the mass where ``tolerate`` does not
+        name it, is first solved again by Morgenstern-Price with the other
+        interslice functions (:mod:`slope.search.interslice_retry`). Circles are never judged this
+        way (their acceptance, and every result built on them, is unchanged).
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
 
@@ -161,6 +176,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         bank, surfaces, n_shallow = _drop_shallow(bank, surfaces, float(min_depth))
     m = bank.n_surfaces
     isr = None
+    function = None
+    retried = Counter()
     rejected = Counter(str(r) for r in bank.reason[~bank.valid])
     rejected[MIN_DEPTH_REASON] += n_shallow
     fs = np.full(m, np.nan)
@@ -175,14 +192,13 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         elif overrides is not None:
             ov = {k: np.broadcast_to(np.asarray(v, float), (m, bank.n_slices))[idx] for k, v in overrides.items()}
         c, tp = base_strength(sub, section.materials, hypothesis, ov)
-        check = (interslice_check and methods.method_spec(method).name in _INTERSLICE_METHODS
-                 and not np.all(np.isfinite(sub.centre_x)))
+        spec = methods.method_spec(method)
+        poly = ~np.isfinite(sub.centre_x)
+        check = interslice_check and spec.name in _INTERSLICE_METHODS and bool(poly.any())
         res = methods.factor_of_safety(sub, c, tp, method=method, return_forces=check, **method_opts)
         f = res.fs.reshape(-1, len(idx))[0]
         fl = np.asarray(res.flags).reshape(-1, len(idx))[0]
         conv = np.asarray(res.converged).reshape(-1, len(idx))[0]
-        fs[idx] = f
-        flags[idx] = fl
         # a negative effective normal force changes nothing where every base
         # of the surface is frictionless (phi = 0: strength c l alone)
         frictionless = np.all(np.broadcast_to(tp, res.fs.shape + (sub.n_slices,)).reshape(
@@ -190,16 +206,37 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         bad = fl & ~tol_mask & ~np.where(frictionless, _TOLERABLE["negative-normal"], 0)
         ok = conv & (bad == 0) & np.isfinite(f)
         if check:
-            ratio, fails = _interslice(section, sub, res, len(idx), hypothesis, overrides, ok)
+            # clean but for the line of thrust (where the search does not tolerate it outside the mass): judged
+            # for interslice shear too, and retried with another interslice function before being refused
+            # (slope.search.interslice_retry)
+            near = conv & ((bad & ~THRUST_OUTSIDE) == 0) & np.isfinite(f)
+            ratio, fails = _interslice(section, sub, res, len(idx), hypothesis, overrides, near)
+            refused = np.flatnonzero(near & poly & (fails | ((bad & THRUST_OUTSIDE) != 0)))
+            if refused.size:
+                used = str(method_opts.get("interslice", "constant")) if spec.name == "morgenstern-price" \
+                    else "constant"
+                judge = lambda part, r, good: _interslice(section, part, r, part.n_surfaces,  # noqa: E731
+                                                          hypothesis, overrides, good)
+                rf, rfl, rratio, rfun = retry_rows(section, sub, refused, c, tp, used=used, hypothesis=hypothesis,
+                                                   overrides=overrides, tolerated=tol_mask,
+                                                   frictionless=frictionless, judge=judge, F_start=f[refused])
+                got = refused[rfun != ""]
+                f, fl = f.copy(), fl.copy()
+                f[got], fl[got], ratio[got] = rf[rfun != ""], rfl[rfun != ""], rratio[rfun != ""]
+                bad[got], fails[got] = 0, False
+                function = np.full(m, "", dtype=object)
+                function[idx[got]] = rfun[rfun != ""]
+                for name in rfun[rfun != ""]:
+                    retried[retry_label(name)] += 1
             isr = np.full(m, np.nan)
             isr[idx] = ratio
-            rejected[INTERSLICE_REASON] += int(fails.sum())
-            ok = ok & ~fails
+            rejected[INTERSLICE_REASON] += int(fails.sum())    # judged on `near` rows only
+            ok = conv & (bad == 0) & np.isfinite(f) & ~fails
+        fs[idx] = f
+        flags[idx] = fl
         counted[idx] = ok
         rejected["not converged"] += int(np.sum(~conv))
         for bit, name in methods.FLAG_NAMES.items():
-            if bit & tol_mask:
-                continue
             rejected[name] += int(np.sum(conv & ((bad & bit) != 0)))
     rejected = {k: v for k, v in rejected.items() if v}
     if counted.any():
@@ -209,7 +246,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         i, crit, fmin, cflags = -1, None, float("nan"), 0
     return SearchResult(search=search, method=str(method), fs_min=fmin, critical=crit, critical_index=i,
                         critical_flags=cflags, surfaces=surfaces, fs=fs, counted=counted, flags=flags,
-                        rejected=rejected, n_trials=m + n_shallow, bank=bank, interslice_ratio=isr)
+                        rejected=rejected, n_trials=m + n_shallow, bank=bank, interslice_ratio=isr,
+                        interslice_function=function, retried=dict(retried))
 
 
 def _interslice(section, sub, res, k, hypothesis, overrides, ok):
