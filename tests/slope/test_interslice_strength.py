@@ -178,3 +178,32 @@ def test_a_searched_run_store_is_tied_to_the_acceptance_rules(tmp_path):
     BlockStore(tmp_path / "s", old).open(resume=False)
     with pytest.raises(Refused, match="refinement settings differ"):
         BlockStore(tmp_path / "s", new).check(resume=True)
+
+
+def test_refused_solution_is_retried_with_another_interslice_function():
+    # Invented 10 m cut (crest 0-10 m, toe at 25 m) with c' = 8 kPa, phi' = 25 deg clay down to y = 2 m over
+    # stiffer soil; blocks along the clay's bottom (the registry walk's section). Morgenstern-Price with the
+    # half-sine function (Morgenstern & Price 1965) asks more interslice shear than the clay carries on every
+    # block (ratios 1.13-4.6); Spencer's constant function (Spencer 1967; Morgenstern-Price with f = 1 is the
+    # same method) passes on one of them. Before the half-sine search refuses that block it solves it again
+    # with the other functions (slope.search.interslice_retry) and counts the first that passes: Spencer's F.
+    from slipfield.slope.search.block import block_polylines
+    from slipfield.slope.search.interslice_retry import retry_label
+
+    ground = [[0.0, 10.0], [10.0, 10.0], [25.0, 0.0], [40.0, 0.0]]
+    mats = {"clay": Material("clay", unit_weight=18.0, c=8.0, phi=25.0),
+            "stiff": Material("stiff", unit_weight=19.0, c=15.0, phi=30.0)}
+    sec = Section.from_layers(ground, [("upper", "clay", 2.0), ("lower", "stiff", None)], mats, base_y=-5.0)
+    blocks = block_polylines(sec, "upper", entry=(4.0, 10.0), exit=(16.0, 21.0), points=3)
+    spencer = evaluate_surfaces(sec, blocks, method="spencer", n_slices=10)
+    hs = evaluate_surfaces(sec, blocks, method="morgenstern-price", interslice="half-sine", n_slices=10)
+    assert spencer.counted.sum() == 1 and not spencer.retried     # Spencer passes on one block ...
+    i = spencer.critical_index
+    assert hs.counted.sum() == 1 and hs.critical_index == i         # ... the half-sine search counts it too,
+    assert hs.interslice_function[i] == "constant"                  # with the constant function's solution
+    assert hs.retried == {retry_label("constant"): 1}
+    assert hs.fs_min == pytest.approx(spencer.fs_min, rel=1e-5)
+    assert hs.interslice_ratio[i] <= 1 + RATIO_TOLERANCE
+    # every other block is refused whatever the function, under the check's reason
+    assert hs.rejected[INTERSLICE_REASON] == len(blocks) - 1
+    assert (hs.interslice_function[np.arange(len(blocks)) != i] == "").all()
