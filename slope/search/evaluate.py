@@ -210,13 +210,12 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
             # for interslice shear too, and retried with another interslice function before being refused
             # (slope.search.interslice_retry)
             near = conv & ((bad & ~THRUST_OUTSIDE) == 0) & np.isfinite(f)
-            ratio, fails = _interslice(section, sub, res, len(idx), hypothesis, overrides, near)
+            judge = _interslice_judge(section, sub, hypothesis, overrides)
+            ratio, fails = judge(np.arange(len(idx)), res, near)
             refused = np.flatnonzero(near & poly & (fails | ((bad & THRUST_OUTSIDE) != 0)))
             if refused.size:
                 used = str(method_opts.get("interslice", "constant")) if spec.name == "morgenstern-price" \
                     else "constant"
-                judge = lambda part, r, good: _interslice(section, part, r, part.n_surfaces,  # noqa: E731
-                                                          hypothesis, overrides, good)
                 rf, rfl, rratio, rfun = retry_rows(section, sub, refused, c, tp, used=used, hypothesis=hypothesis,
                                                    overrides=overrides, tolerated=tol_mask,
                                                    frictionless=frictionless, judge=judge, F_start=f[refused])
@@ -250,25 +249,46 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
                         interslice_function=function, retried=dict(retried))
 
 
-def _interslice(section, sub, res, k, hypothesis, overrides, ok):
-    """Largest interslice shear ratio of each surface of ``sub`` (NaN on circles) and which fail the check."""
-    from ..methods.terms import prepare_bank
-    from .interslice_strength import RATIO_TOLERANCE, boundary_strength, interslice_ratio
+def _interslice_judge(section, sub, hypothesis, overrides):
+    """``judge(rows, res, ok) -> (ratio, fails)``: the interslice check of solutions on rows of ``sub``.
 
-    poly = ~np.isfinite(sub.centre_x) & ok
-    ratio = np.full(k, np.nan)
-    if poly.any():
-        rows = np.flatnonzero(poly)
-        part = sub.subset(rows)
-        ov = overrides if callable(overrides) or overrides is None else {
-            key: np.asarray(v, float) for key, v in overrides.items()}
-        st = boundary_strength(section, part, hypothesis, ov)
-        E = np.asarray(res.E).reshape(-1, k, sub.n_slices + 1)[0][rows]
-        X = np.asarray(res.X).reshape(-1, k, sub.n_slices + 1)[0][rows]
-        F = np.asarray(res.fs).reshape(-1, k)[0][rows]
-        r = interslice_ratio(st, E, X, F, prepare_bank(part).force_scale)
-        ratio[rows] = r.max(axis=1) if r.shape[1] else 0.0
-    return ratio, np.nan_to_num(ratio, nan=0.0) > 1.0 + RATIO_TOLERANCE
+    ``res`` holds the solutions of the surfaces ``rows`` of ``sub`` (in that
+    order, with their forces); ``ok`` says which to judge (non-circular
+    ones only; NaN ratio elsewhere). The strength across each surface's
+    slice boundaries does not depend on the solution: it is computed once
+    per surface and kept, so a retry with another interslice function
+    (:mod:`slope.search.interslice_retry`) pays only for its forces.
+    """
+    from ..methods.terms import prepare_bank
+    from .interslice_strength import RATIO_TOLERANCE, BoundaryStrength, boundary_strength, interslice_ratio
+
+    ov = overrides if callable(overrides) or overrides is None else {
+        key: np.asarray(v, float) for key, v in overrides.items()}
+    held = {}
+
+    def judge(rows, res, ok):
+        rows = np.asarray(rows)
+        k = rows.size
+        ratio = np.full(k, np.nan)
+        sel = np.flatnonzero(~np.isfinite(sub.centre_x[rows]) & ok)
+        if sel.size:
+            need = np.asarray([r for r in rows[sel] if r not in held], dtype=int)
+            if need.size:
+                part = sub.subset(need)
+                st = boundary_strength(section, part, hypothesis, ov)
+                scale = prepare_bank(part).force_scale
+                for j, r in enumerate(need):
+                    held[r] = (st.cohesion[j], st.tan_phi[j], st.water[j], st.height[j], scale[j])
+            got = [held[r] for r in rows[sel]]
+            st = BoundaryStrength(*(np.stack([g[q] for g in got]) for q in range(4)))
+            E = np.asarray(res.E).reshape(-1, k, sub.n_slices + 1)[0][sel]
+            X = np.asarray(res.X).reshape(-1, k, sub.n_slices + 1)[0][sel]
+            F = np.asarray(res.fs).reshape(-1, k)[0][sel]
+            r = interslice_ratio(st, E, X, F, np.array([g[4] for g in got]))
+            ratio[sel] = r.max(axis=1) if r.shape[1] else 0.0
+        return ratio, np.nan_to_num(ratio, nan=0.0) > 1.0 + RATIO_TOLERANCE
+
+    return judge
 
 
 #: Methods whose solutions carry interslice forces E and X to judge.

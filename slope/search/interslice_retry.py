@@ -75,8 +75,9 @@ def retry_rows(section, sub, rows, c, tp, *, used, hypothesis, overrides, tolera
     frictionless : ndarray of bool (len(sub),)
         Surfaces whose every base is frictionless (a negative normal force changes nothing there).
     judge : callable
-        ``judge(part, res) -> (ratio, fails)``: largest interslice ratio of
-        each surface of bank ``part`` and whether it fails the check.
+        ``judge(rows, res, ok) -> (ratio, fails)``: largest interslice ratio
+        of the solutions ``res`` on the surfaces ``rows`` of ``sub`` (those
+        ``ok`` only) and whether they fail the check.
     F_start : ndarray (len(rows),), optional
         Starting factors of safety (e.g. the first solution's).
 
@@ -111,7 +112,7 @@ def retry_rows(section, sub, rows, c, tp, *, used, hypothesis, overrides, tolera
         bad = fl & ~tolerated & ~np.where(frictionless[r_rows], NEGATIVE_NORMAL, 0)
         ok = conv & (bad == 0) & np.isfinite(f)
         if ok.any():
-            rat, fails = judge(part, res, ok)
+            rat, fails = judge(r_rows, res, ok)
             ok &= ~fails
         else:
             rat = np.full(left.size, np.nan)

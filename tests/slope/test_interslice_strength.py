@@ -165,7 +165,9 @@ def test_a_searched_run_store_is_tied_to_the_acceptance_rules(tmp_path):
     from slipfield.slope.simulate.refinement import RefineSettings
     from slipfield.slope.simulate.store import BlockStore
 
-    class _Problem:  # store_header reads only the fingerprint
+    class _Problem:  # store_header reads the fingerprint, and the method and surfaces (bank checks)
+        method, surfaces = "spencer", []
+
         @staticmethod
         def fingerprint():
             return "same problem"
