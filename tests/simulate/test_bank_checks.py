@@ -68,3 +68,18 @@ def test_banks_of_circles_alone_are_not_judged():
     bishop = RandomProblem(prob.section, "drained", "bishop", prob.properties, prob.surfaces, 0,
                            n_slices=20, cell=1.0)
     assert simulate(bishop, 4, 3).bank_rejected is None
+
+
+def test_a_store_is_tied_to_the_bank_checks(tmp_path):
+    # A store written without the bank checks (its blocks counted unjudged) must not be continued with them.
+    from slipfield.slope.errors import InputError as Refused
+    from slipfield.slope.simulate.driver import store_header
+    from slipfield.slope.simulate.store import BlockStore
+
+    prob, _ = _problem()
+    new = store_header(prob, 3)
+    assert new["bank_checks"]["reasons"] and new["bank_checks"]["retry"]
+    old = {k: v for k, v in new.items() if k != "bank_checks"}
+    BlockStore(tmp_path / "s", old).open(resume=False)
+    with pytest.raises(Refused):
+        BlockStore(tmp_path / "s", new).check(resume=True)
