@@ -125,7 +125,7 @@ def _surface_of(surfaces, i):
 
 def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop", n_slices=40,
                       overrides=None, tolerate=("negative-normal", "thrust-outside"), search="given",
-                      min_depth=None, interslice_check=True, **method_opts) -> SearchResult:
+                      min_depth=None, interslice_check=True, bank=None, **method_opts) -> SearchResult:
     """Factor of safety of every trial surface for one set of strengths.
 
     Parameters
@@ -159,6 +159,10 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         name it, is first solved again by Morgenstern-Price with the other
         interslice functions (:mod:`slope.search.interslice_retry`). Circles are never judged this
         way (their acceptance, and every result built on them, is unchanged).
+    bank : SliceBank, optional
+        The slice bank of ``surfaces`` when already built (by
+        :func:`slope.bank.build_bank` with the same section and
+        ``n_slices``, e.g. rows of a simulator's bank); built here otherwise.
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
 
@@ -168,7 +172,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     """
     methods = _methods()
     tol_mask = _tolerated_mask(tolerate)
-    bank = build_bank(section, surfaces, n_slices=n_slices)
+    if bank is None:
+        bank = build_bank(section, surfaces, n_slices=n_slices)
     if isinstance(surfaces, (Circle, Polyline)):
         surfaces = [surfaces]
     n_shallow = 0

@@ -73,6 +73,7 @@ def check_bank_polylines(problem, seed, start, fs, conv, adm):
     from ..bank import section_with_unit_weights
     from ..methods import method_spec
     from ..search import evaluate_surfaces
+    from .engine import stencil
     from .refinement import REFINE_REASONS, _grid_values, realisation_overrides, rejection_counts
 
     s = fs.shape[0]
@@ -91,15 +92,20 @@ def check_bank_polylines(problem, seed, start, fs, conv, adm):
             done[i] = True
             if overrides is None:
                 k = start + r
+                held = None
                 values = _grid_values(problem, seed, k)
                 weights = {z: float(v.ravel()[0]) for (j, z), v in values.items()
                            if problem.properties[j].prop == "unit_weight"}
                 section = section_with_unit_weights(problem.section, weights) if weights else problem.section
                 overrides = realisation_overrides(problem, seed, k, section, values)
+                if not weights:    # the simulator's own slice bank of the surface (unit weights as built)
+                    st = stencil(problem)
+                    held = (st.bank, st.rows)
+            one = None if held is None else held[0].subset([int(np.searchsorted(held[1], i))])
             # the bank's tolerance (engine._scatter): a negative normal force and the line of thrust; the
             # iteration starts from the bank's root (no Bishop start to compute)
             res = evaluate_surfaces(section, [problem.surfaces[i]], hypothesis=problem.hypothesis,
-                                    method=problem.method, n_slices=problem.n_slices, overrides=overrides,
+                                    method=problem.method, n_slices=problem.n_slices, overrides=overrides, bank=one,
                                     tolerate=("negative-normal", "thrust-outside"), F_start=float(fs[r, i]), **opts)
             if res.counted[0]:
                 if res.retried:   # counted with another interslice function: that solution's F
