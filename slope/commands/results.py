@@ -330,6 +330,10 @@ class SimulationRun:
                     "n_refined": self.n_refined})
         if self.mechanisms is not None:
             out["mechanisms"] = self.mechanisms.to_json()
+        if getattr(self.result, "bank_rejected", None) is not None:
+            # non-circular bank surfaces judged per realisation (slope.simulate.bank_checks)
+            out["bank_checks"] = {"rejected": dict(self.result.bank_rejected),
+                                  "retried": int(self.result.bank_retried)}
         out.update({"failure_geometry": {"n_failed": self.n_failed_geometry,
                                          "n_failed_on_searched_surface": self.n_failed_on_searched_surface,
                                          "sliding_mass_area": _spread(self.failed_area),

@@ -10,6 +10,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
+from .bank_checks import bank_checks_apply, check_bank_polylines
 from .engine import batch_fs, prepare
 from .problem import RandomProblem
 from .executors import (SCHEDULER_TIMEOUT_S, SchedulerLost, _await_workers, _ship, _unship,  # noqa: F401
@@ -81,6 +82,14 @@ class SimulationResult:
         ``area`` (m² per m), greatest ``depth`` (m), ``x_upslope``,
         ``x_downslope`` (m), measured on the slices the search judged
         (:mod:`.failure_geometry`).
+    bank_rejected : dict or None
+        For banks holding non-circular surfaces solved by Spencer or
+        Morgenstern-Price: the surfaces that were the lowest of a realisation
+        and failed the checks of the searches with its fields, by reason,
+        over all realisations (:mod:`slope.simulate.bank_checks`); None for
+        other banks.
+    bank_retried : int
+        Those surfaces counted with another interslice function's solution.
     """
 
     fs: np.ndarray
@@ -102,6 +111,8 @@ class SimulationResult:
     searched_vertices: np.ndarray | None = None
     crit_circles: np.ndarray | None = None
     searched_geometry: np.ndarray | None = None
+    bank_rejected: dict | None = None
+    bank_retried: int = 0
 
     @property
     def n(self) -> int:
@@ -217,6 +228,8 @@ class SimulationResult:
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined, "n_searched": self.n_searched,
                 "refine_rejected": self.refine_rejected,
+                **({"bank_checks": {"rejected": self.bank_rejected, "retried": self.bank_retried}}
+                   if self.bank_rejected is not None else {}),
                 **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
 
@@ -298,7 +311,17 @@ SEARCHED_VERTICES, SEARCHED_GEOMETRY = "sparse_searched_vertices", "sparse_searc
 
 def _run_block(problem, seed, start, stop, refine=None):
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
+    checked = None
+    if bank_checks_apply(problem):
+        # the bank's non-circular surfaces pass the checks of the searches before they count
+        checked = check_bank_polylines(problem, seed, start, fs, conv, adm)
     out = _reduce(problem, fs, conv, adm)
+    if checked is not None:
+        from .refinement import REFINE_REASONS
+
+        out["bank_rejected"] = np.zeros(fs.shape[0], dtype=[("n", np.int64, (len(REFINE_REASONS),))])
+        out["bank_rejected"]["n"] = checked[0]
+        out["bank_retried"] = checked[1]
     if refine is not None:
         from ..surfaces import Polyline
         from .refinement import REFINE_REASONS, refine_realisation
@@ -337,12 +360,12 @@ def _run_block(problem, seed, start, stop, refine=None):
     return out
 
 
-def _refine_rejected(allr):
-    if "refine_rejected" not in allr:
+def _refine_rejected(allr, key="refine_rejected"):
+    if key not in allr:
         return None
     from .refinement import REFINE_REASONS
 
-    tot = np.asarray(allr["refine_rejected"]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
+    tot = np.asarray(allr[key]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
     return {k: int(v) for k, v in zip(REFINE_REASONS, tot) if v}
 
 
@@ -383,7 +406,17 @@ def store_header(problem, seed, refine=None, extra: dict | None = None) -> dict:
         ident["refine"] = _refine_settings(refine).describe()
         # the acceptance rules of the search (each has its reason; the stored counts are per reason):
         # a store written before the interslice shear-strength check existed is not continued with it
-        ident["refine"]["acceptance"] = list(REFINE_REASONS)
+        from ..search.interslice_retry import RETRY_FUNCTIONS
+
+        # and the interslice functions a refused path is solved again with before it is refused
+        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [f"retried: {', '.join(RETRY_FUNCTIONS)}"]
+    if bank_checks_apply(problem):
+        from ..search.interslice_retry import RETRY_FUNCTIONS
+        from .refinement import REFINE_REASONS
+
+        # the bank's non-circular surfaces are judged per realisation (slope.simulate.bank_checks):
+        # a store written before, or with other rules, is not continued
+        ident["bank_checks"] = {"reasons": list(REFINE_REASONS), "retry": list(RETRY_FUNCTIONS)}
     if extra:
         ident.update(extra)
     return ident
@@ -601,6 +634,8 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
                             refine_rejected=_refine_rejected(allr),
+                            bank_rejected=_refine_rejected(allr, "bank_rejected"),
+                            bank_retried=int(allr["bank_retried"].sum()) if "bank_retried" in allr else 0,
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
                             fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
