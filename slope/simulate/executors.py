@@ -272,8 +272,8 @@ def _warm_worker(parent=None, methods=()):
 
         warm_up(slices)
     if SIMULATOR in methods or not methods:
+        _warm_dynamic_programming()  # first: fused.warm_up may wait for Bishop's compile in the command
         fused.warm_up()
-        _warm_dynamic_programming()
     return os.getpid()
 
 

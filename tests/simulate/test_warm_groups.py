@@ -56,3 +56,30 @@ def test_the_simulator_task_compiles_the_search_kernel_with_the_real_types():
     assert got["warmed"] == 1  # compiled (or loaded) by the warm-up, before any search
     assert got["searched"] >= 1  # the simulation did call the search below
     assert got["after"] == 1  # the searches' real calls added no second specialisation
+
+
+def test_search_starts_are_the_lowest_clean_surface_of_each_family():
+    # the per-realisation search starts from the lowest clean surface of each family (issue 15),
+    # chosen with array operations (issue 17); the expected indices are read off by hand
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from slipfield.slope.simulate.mechanisms import _starts
+    from slipfield.slope.surfaces import Circle, Polyline
+
+    def poly(family):
+        return Polyline([[0.0, 1.0], [1.0, 0.0]], family=family)
+
+    surfaces = [Circle(0.0, 5.0, 5.0), poly("block"), Circle(1.0, 5.0, 5.0), poly("dynamic-programming"),
+                poly("block"), Circle(2.0, 5.0, 5.0), poly("block")]
+    problem = SimpleNamespace(surfaces=surfaces)
+    fs = np.array([1.30, 1.20, 1.05, np.nan, 1.10, 1.05, 0.90])
+    ok = np.array([True, True, True, True, True, True, False])
+    # index 6 (0.90) is not clean, 3 has no FS; circles 2 and 5 tie at 1.05: the bank's order keeps 2
+    assert _starts(problem, fs, ok, 3) == [2, 4]
+    assert _starts(problem, fs, ok, 1) == [2]
+    fs[3] = 1.00
+    assert _starts(problem, fs, ok, 3) == [3, 2, 4]
+    assert _starts(problem, fs, ok, 2) == [3, 2]
+    assert _starts(problem, fs, np.zeros(7, bool), 3) == []
