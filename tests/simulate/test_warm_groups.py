@@ -83,3 +83,35 @@ def test_search_starts_are_the_lowest_clean_surface_of_each_family():
     assert _starts(problem, fs, ok, 3) == [3, 2, 4]
     assert _starts(problem, fs, ok, 2) == [3, 2]
     assert _starts(problem, fs, np.zeros(7, bool), 3) == []
+
+
+def _alive(pid):
+    import os
+
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    try:  # a killed child not yet reaped is a zombie: gone for our purpose
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().split(")")[-1].split()[0] != "Z"
+    except OSError:
+        return False
+
+
+def test_stop_workers_ends_the_idle_pool_and_a_later_call_starts_another():
+    # `slipfield run` ends its idle pool once its outputs are written, instead of waiting at exit
+    # for every worker to tear down its interpreter (issue 17)
+    import os
+
+    from joblib import Parallel, delayed
+
+    from slipfield.slope.simulate.executors import stop_workers
+
+    pids = set(Parallel(n_jobs=2)(delayed(os.getpid)() for _ in range(4)))
+    assert os.getpid() not in pids
+    assert stop_workers() >= 1
+    assert not any(_alive(p) for p in pids)
+    again = set(Parallel(n_jobs=2)(delayed(os.getpid)() for _ in range(4)))
+    assert again and not again & pids  # a new pool serves the next call
+    stop_workers()
