@@ -33,6 +33,13 @@ def _averaging(sp) -> str:
     a, b = sp.spatial.searched, sp.single.searched
     if a.pf is None or b.pf is None:
         return ""
+    if a.pf == 0 and b.pf == 0:
+        # No failure either way says nothing about averaging: give what the two samples do bound.
+        bound = "" if None in (a.interval[1], b.interval[1]) else (
+            f"; with 95 % confidence pf is below {a.interval[1]:.3g} with θ as given and below "
+            f"{b.interval[1]:.3g} with θ → ∞")
+        return ("No realisation failed, either with θ as given or with θ → ∞, so this run cannot show how "
+                f"spatial averaging changes pf{bound}.")
     if a.pf == b.pf:
         return (f"Spatial averaging left pf unchanged at {a.pf:.3g} "
                 "(same count of failures with θ as given and with θ → ∞).")

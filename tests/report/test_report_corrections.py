@@ -79,3 +79,16 @@ def test_water_lines_never_look_like_a_critical_surface():
             assert (colour, str(dash)) not in water
     assert not set(HYPOTHESIS_COLOURS.values()) & {c for c, _ in WATER_STYLES}
     assert np.unique(list(HYPOTHESIS_COLOURS.values())).size == len(HYPOTHESIS_COLOURS)
+
+
+def test_no_failure_either_way_is_not_called_an_averaging_result():
+    # With no failure in either simulation the old sentence read "Spatial averaging left pf unchanged at 0":
+    # nothing was measured. The sentence must say so and give the 95 % upper bounds instead (the bound of
+    # 0 failures in n is 1 - 0.025**(1/n), Clopper & Pearson 1934; here invented bounds for 1000 and 300).
+    from slipfield.slope.report.findings import _averaging as averaging_sentence
+    sp = NS(spatial=NS(searched=_pf(0.0, 0.00368)), single=NS(searched=_pf(0.0, 0.0122)))
+    text = averaging_sentence(sp)
+    assert "unchanged" not in text and "No realisation failed" in text
+    assert "0.00368" in text and "0.0122" in text
+    sp.single.searched = _pf(0.02, 0.03)
+    assert "No realisation failed" not in averaging_sentence(sp)
