@@ -317,9 +317,14 @@ def stop_workers() -> int:
     executor = getattr(reusable_executor, "_executor", None)
     if executor is None:
         return 0
-    n = len(getattr(executor, "_processes", None) or {})
+    workers = list((getattr(executor, "_processes", None) or {}).values())
     executor.shutdown(wait=True, kill_workers=True)
-    return n
+    for p in workers:  # reaped: no zombies, and their CPU time is counted as this process's children's
+        try:
+            p.join(timeout=5.0)
+        except Exception:  # noqa: BLE001 - a worker already reaped by the pool
+            pass
+    return len(workers)
 
 
 def _ship(problem):
