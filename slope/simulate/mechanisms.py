@@ -95,7 +95,7 @@ def _start_data(problem, section, index, st, reuse):
     return data
 
 
-def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
+def mechanism_search(problem, seed, k, fs_row, ok_row, settings, found=None):
     """Search realisation k from the lowest surfaces of different families.
 
     Parameters
@@ -108,6 +108,10 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     settings : RefineSettings
         ``families`` start surfaces, ``columns``, ``nodes``, ``passes`` of
         the grids, ``method`` of the final judgement.
+    found : dict, optional
+        Filled with ``interslice_function``: the Morgenstern-Price
+        interslice function whose solution the accepted path counted with,
+        when its first solution was refused (:mod:`slope.search.interslice_retry`).
 
     Returns
     -------
@@ -162,4 +166,6 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     rej = rejection_counts(res.rejected) + rejection_counts({START_UNUSABLE: unusable} if unusable else {})
     if res.critical is None or not np.isfinite(res.fs_min):
         return float("nan"), None, rej
+    if found is not None and res.interslice_function is not None:
+        found["interslice_function"] = str(res.interslice_function[res.critical_index])
     return float(res.fs_min), res.critical, rej
