@@ -35,10 +35,14 @@ Parts (``--parts``, default all):
     Each tree is measured in a fresh process, the trees alternated.
 ``jobs``
     ``slipfield simulate`` of 16,000 realisations, ``--jobs 1`` against
-    ``--jobs 2`` (target ratio >= 1.6).
+    ``--jobs 2`` (target ratio >= 1.6), with the default per-realisation free
+    search and with ``--refine-search off``.
 ``run``
     ``slipfield run`` of the levee demo: cold (empty numba cache) and warm
-    (targets 15 s and 10 s).
+    (targets 15 s and 10 s), wall and CPU time (the command and its workers),
+    and the wall time of each phase read from the run's stage lines
+    (imports and case, deterministic search, single random variables, the
+    simulations, figures and report, exit).
 
 Usage: python scripts/bench_speed.py [--parts sim,memory,kernel,jobs,run] [--repeat 3] [--before TREE]
 
@@ -398,45 +402,110 @@ def _trees(args):
 
 
 def part_jobs(args):
+    """``--jobs 1`` against ``--jobs 2``, with the default per-realisation free search and without
+    it (``--refine-search off``): the wall ratio, and the CPU of both (the work added by the pool)."""
     rows = {}
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(args.repeat):
             for label, tree in _trees(args):  # alternated: both see the same load
-                for j in (1, 2):
-                    out = os.path.join(tmp, f"{label[:4]}_j{j}_{r}")
-                    rows.setdefault(label, {1: [], 2: []})[j].append(
-                        _cli_cpu(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
-                                  "--quiet", "--out", out], tree=tree))
-    for label, times in rows.items():
+                for search in ("default", "off"):
+                    for j in (1, 2):
+                        out = os.path.join(tmp, f"{label[:4]}_{search}_j{j}_{r}")
+                        extra = [] if search == "default" else ["--refine-search", "off"]
+                        rows.setdefault((label, search), {1: [], 2: [], "load": []})[j].append(
+                            _cli_cpu(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
+                                      "--quiet", "--out", out] + extra, tree=tree))
+                        rows[(label, search)]["load"].append(os.getloadavg()[0])
+    for (label, search), times in rows.items():
         w1, w2 = [w for w, _ in times[1]], [w for w, _ in times[2]]
         c1, c2 = [c for _, c in times[1]], [c for _, c in times[2]]
         ratio = [a / b for a, b in zip(w1, w2)]
-        print(f"[jobs] {label}: slipfield simulate levee, {args.n_jobs_run} realisations: --jobs 1 "
-              f"{spread(w1, '{:.1f}')} s wall ({spread(c1, '{:.1f}')} s CPU), --jobs 2 {spread(w2, '{:.1f}')} s wall "
-              f"({spread(c2, '{:.1f}')} s CPU); ratio {spread(ratio, '{:.2f}')} "
-              f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best)")
+        print(f"[jobs] {label}, free search {search}: slipfield simulate levee, {args.n_jobs_run} realisations: "
+              f"--jobs 1 {spread(w1, '{:.1f}')} s wall ({spread(c1, '{:.1f}')} s CPU), --jobs 2 "
+              f"{spread(w2, '{:.1f}')} s wall ({spread(c2, '{:.1f}')} s CPU); ratio {spread(ratio, '{:.2f}')} "
+              f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best); "
+              f"load average during {spread(times['load'], '{:.1f}')}")
     print(f"  (a wall ratio needs two idle cores; load average now {os.getloadavg()[0]:.1f} on {os.cpu_count()} "
           "cores. CPU of --jobs 2 equal to --jobs 1 means no work is added by the workers)")
 
 
+#: Phases of ``slipfield run`` read from its stage lines and progress bars on stderr (first line of each).
+RUN_PHASES = (("start, imports, case read", None),
+              ("deterministic search", "slipfield run · deterministic search"),
+              ("single random variables", "· single random variables"),
+              ("simulations (6, on the pool)", "spatial simulation ·"),
+              ("figures, tables, report", "slipfield run · figures, tables and report"),
+              ("exit (pool shut down)", "slipfield run · done"))
+
+
+def _run_phases(argv, env, tree):
+    """Wall time, CPU time (the command and the workers it reaped) and per-phase wall times of one
+    ``slipfield run`` with its stage lines on (``--quiet`` off), read from stderr as they come."""
+    env = _tree_env(tree, env)
+    t0 = time.perf_counter()
+    r0 = resource.getrusage(resource.RUSAGE_CHILDREN)
+    proc = subprocess.Popen([sys.executable, "-m", "slipfield.slope.cli"] + argv, env=env, stdout=subprocess.DEVNULL,
+                            stderr=subprocess.PIPE)
+    marks, buf, tail = {}, b"", []
+    while True:
+        ch = proc.stderr.read(1)
+        if not ch:
+            break
+        if ch in b"\r\n":
+            line = buf.decode("utf-8", "replace")
+            now = time.perf_counter() - t0
+            for name, key in RUN_PHASES[1:]:
+                if key in line and name not in marks:
+                    marks[name] = now
+            tail = (tail + [line])[-20:]
+            buf = b""
+        else:
+            buf += ch
+    rc = proc.wait()
+    wall = time.perf_counter() - t0
+    r1 = resource.getrusage(resource.RUSAGE_CHILDREN)
+    if rc:
+        raise RuntimeError("slipfield run failed:\n" + "\n".join(tail))
+    cpu = (r1.ru_utime - r0.ru_utime) + (r1.ru_stime - r0.ru_stime)
+    times = [0.0] + [marks.get(name, float("nan")) for name, _ in RUN_PHASES[1:]] + [wall]
+    phases = {name: times[i + 1] - times[i] for i, (name, _) in enumerate(RUN_PHASES)}
+    return wall, cpu, phases
+
+
 def part_run(args):
+    """``slipfield run`` of the levee demo, cold (empty numba cache) then warm, per tree, trees
+    alternated; wall and CPU beside the targets, and wall per phase."""
     rows = {}
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(args.repeat):
             for label, tree in _trees(args):  # alternated: both see the same load
                 env = dict(os.environ, NUMBA_CACHE_DIR=os.path.join(tmp, f"numba_{label[:4]}_{r}"))
-                row = rows.setdefault(label, {"cold": [], "warm": [], "cold cpu": [], "warm cpu": []})
-                row["cold"].append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_c{r}")],
-                                        env, tree))
-                row["cold cpu"].append(_cli.cpu)
-                row["warm"].append(_cli(["run", str(CASE), "--quiet", "--out", os.path.join(tmp, f"{label[:4]}_w{r}")],
-                                        env, tree))
-                row["warm cpu"].append(_cli.cpu)
-    for label, row in rows.items():
-        print(f"[run] {label}: slipfield run levee demo: cold (empty numba cache) {spread(row['cold'], '{:.1f}')} s "
-              f"wall, {spread(row['cold cpu'], '{:.1f}')} s CPU (target <= 15 s: {verdict(min(row['cold']) <= 15)} "
-              f"at best); warm {spread(row['warm'], '{:.1f}')} s wall, {spread(row['warm cpu'], '{:.1f}')} s CPU "
-              f"(target <= 10 s: {verdict(min(row['warm']) <= 10)} at best)")
+                row = rows.setdefault(label, {"cold": [], "warm": []})
+                for kind in ("cold", "warm"):
+                    out = os.path.join(tmp, f"{label[:4]}_{kind}{r}")
+                    row[kind].append(_run_phases(["run", str(CASE), "--out", out], env, tree))
+    labels = list(rows)
+    print(f"[run] slipfield run levee demo (--jobs from the case: 2), {args.repeat} pair(s), trees alternated; "
+          "min .. max")
+    head = "".join(f" {lab:>22}" for lab in labels)
+    print(f"  {'':<38}{head}  target, met by this tree?")
+    for kind, target in (("cold", 15.0), ("warm", 10.0)):
+        cells = "".join(f" {spread([w for w, _, _ in rows[lab][kind]], '{:.1f}') + ' s':>22}" for lab in labels)
+        ws = [w for w, _, _ in rows["this tree"][kind]]
+        print(f"  {kind + ' wall':<38}{cells}  <= {target:.0f} s: {verdict(min(ws) <= target)} at best, "
+              f"{verdict(max(ws) <= target)} at worst")
+        cells = "".join(f" {spread([c for _, c, _ in rows[lab][kind]], '{:.1f}') + ' s':>22}" for lab in labels)
+        print(f"  {kind + ' CPU (command and workers)':<38}{cells}")
+        for name, _ in RUN_PHASES:
+            cells = "".join(f" {spread([p[name] for _, _, p in rows[lab][kind]], '{:.1f}') + ' s':>22}"
+                            for lab in labels)
+            print(f"    {kind + ': ' + name:<36}{cells}")
+    if "before" in rows:
+        for kind in ("cold", "warm"):
+            ratio = [b[0] / a[0] for a, b in zip(rows["this tree"][kind], rows["before"][kind])]
+            print(f"  {kind} wall before / this tree, pair by pair: {spread(ratio, '{:.2f}')}x")
+    print(f"  (load average now {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores; the targets are for 2 idle "
+          "cores)")
 
 
 def main():

@@ -132,23 +132,41 @@ def zone_crossings(section, poly, x_lo, x_hi):
     to 1e-9 of the width; the zone is read just above the line, as the slice
     bases read it.
     """
-    x = np.linspace(x_lo, x_hi, _CROSSING_SAMPLES)
+    return zone_crossings_many(section, [poly], [x_lo], [x_hi])[0]
+
+
+def zone_crossings_many(section, polys, x_lo, x_hi):
+    """:func:`zone_crossings` of several polylines at once (one list of abscissae each).
+
+    The same sampling and bisection, point by point, with the zones of all
+    the lines' points read in one call per step (a bank of a few polylines
+    otherwise spends most of its time in these calls).
+    """
+    k = len(polys)
+    if k == 0:
+        return []
     eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
-
-    def zone(xv):
-        return section.zone_at(xv, poly.y(xv) + eps)
-
-    z = zone(x)
+    x = np.stack([np.linspace(lo, hi, _CROSSING_SAMPLES) for lo, hi in zip(x_lo, x_hi)])
+    y = np.stack([p.y(xv) for p, xv in zip(polys, x)])
+    z = section.zone_at(x, y + eps)
     # between two zones only: where the line meets the ground (zone -1 above it) is its end, not a crossing
-    j = np.flatnonzero((z[1:] != z[:-1]) & (z[1:] >= 0) & (z[:-1] >= 0))
+    line, j = np.nonzero((z[:, 1:] != z[:, :-1]) & (z[:, 1:] >= 0) & (z[:, :-1] >= 0))
     if not j.size:
-        return np.empty(0)
-    a, b, za = x[j], x[j + 1], z[j]
-    for _ in range(int(np.ceil(np.log2((x[1] - x[0]) / (1e-9 * max(1.0, x_hi - x_lo))))) + 1):
+        return [np.empty(0) for _ in range(k)]
+    a, b, za = x[line, j], x[line, j + 1], z[line, j]
+    steps = np.array([int(np.ceil(np.log2((x[i, 1] - x[i, 0]) / (1e-9 * max(1.0, hi - lo))))) + 1
+                      for i, (lo, hi) in enumerate(zip(x_lo, x_hi))])[line]
+    for step in range(int(steps.max())):
         m = 0.5 * (a + b)
-        same = zone(m) == za
-        a, b = np.where(same, m, a), np.where(same, b, m)
-    return 0.5 * (a + b)
+        ym = np.empty_like(m)
+        for i in np.unique(line):
+            on = line == i
+            ym[on] = polys[i].y(m[on])
+        same = section.zone_at(m, ym + eps) == za
+        go = step < steps  # each line's own number of steps
+        a, b = np.where(go & same, m, a), np.where(go & ~same, m, b)
+    mid = 0.5 * (a + b)
+    return [mid[line == i] for i in range(k)]
 
 
 def _surface_y(kind, data, rows, x):
@@ -246,11 +264,13 @@ def _assemble(section, x1, x2, reason, kind, data, n, nq) -> SliceBank:
             # slice base cuts across a bend (a thin seam's block would otherwise have bases
             # through the cover); circles keep equal widths
             gx = section.ground[:, 0]
-            for k, i in enumerate(rows):
-                if isinstance(data[i], Polyline):
-                    lo, hi = sorted((d[k, 0] * A[k, 0], d[k, 0] * B[k, 0]))
-                    brk = np.r_[data[i].points[:, 0], gx, zone_crossings(section, data[i], lo, hi)] * d[k, 0]
-                    sides[k] = polyline_sides(A[k, 0], B[k, 0], brk, n)
+            lines = [k for k, i in enumerate(rows) if isinstance(data[rows[k]], Polyline)]
+            ends = [sorted((d[k, 0] * A[k, 0], d[k, 0] * B[k, 0])) for k in lines]
+            crossings = zone_crossings_many(section, [data[rows[k]] for k in lines], [e[0] for e in ends],
+                                            [e[1] for e in ends])
+            for k, cross in zip(lines, crossings):
+                brk = np.r_[data[rows[k]].points[:, 0], gx, cross] * d[k, 0]
+                sides[k] = polyline_sides(A[k, 0], B[k, 0], brk, n)
         ys = _surface_y(kind, data, rows, d * sides)
         yt = section.ground_y(d * sides)
         # the downslope end lies on the ground; the upslope end too unless cracked

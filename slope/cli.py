@@ -75,6 +75,10 @@ def _cmd_run(args) -> int:
         from .caution import CAUTION
 
         print(f"  {CAUTION}")
+    sys.stdout.flush()
+    from .simulate.executors import stop_workers
+
+    stop_workers()  # the outputs are written: end the idle pool now rather than wait for it at exit
     return 0
 
 

@@ -12,7 +12,8 @@ import warnings
 
 from ..errors import InputError
 
-__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers"]
+__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers",
+           "stop_workers", "warm_groups"]
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
 # stored); joblib's advice about unused results is not for the user.
@@ -193,25 +194,55 @@ def start_workers(n_jobs, methods=()):
     loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
     run then uses the same pool (joblib's reusable executor). No effect for
     ``n_jobs`` 1. Results do not depend on it. ``methods``: methods of slices the
-    command will call (the workers compile their kernels meanwhile, see
-    :mod:`slope.methods.compiled`).
+    command will call, in the order it calls them; the workers compile their
+    kernels meanwhile (see :mod:`slope.methods.compiled`), one group of kernels
+    per task (:func:`warm_groups`), so that on a machine whose cache is empty
+    the workers compile *different* kernels at the same time instead of
+    queueing behind one compile lock.
     """
     global _WARMING
     if int(n_jobs) < 2 or _WARMING is not None:
         return
     import threading
 
+    groups = warm_groups(methods)
+
     def warm():
         try:
             from joblib import Parallel, delayed
 
             parent = os.getpid()
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent, tuple(methods)) for _ in range(int(n_jobs)))
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent, g) for g in groups)
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
     _WARMING = threading.Thread(target=warm, name="slipfield-start-workers", daemon=True)
     _WARMING.start()
+
+
+#: The task of :func:`warm_groups` that loads the simulator's own kernels (strength map, Bishop, the
+#: dynamic-programming search of the realisations).
+SIMULATOR = "simulator"
+
+
+def warm_groups(methods=()):
+    """Warm-up tasks of the pool: one per method of slices, then the simulator's kernels.
+
+    The command itself calls ``methods[0]`` first (its deterministic search),
+    so that method's compile is left to it and comes last among the workers'
+    tasks; the workers start on the methods the command needs next. Each
+    kernel is compiled by one process and loaded from numba's cache by the
+    others (:func:`slope.methods.compiled.first_call`), so with as many
+    tasks as kernels the compiles run side by side on the machine's cores.
+
+    Returns
+    -------
+    list of tuple of str
+        Each task's methods (``(SIMULATOR,)`` for the simulator).
+    """
+    names = list(dict.fromkeys(str(m) for m in methods))
+    order = names[1:] + names[:1]
+    return [(m,) for m in order] + [(SIMULATOR,)]
 
 
 def _await_workers():
@@ -221,10 +252,13 @@ def _await_workers():
 
 
 def _warm_worker(parent=None, methods=()):
-    """In a worker: import the simulator and load its compiled kernels (tiny calls).
+    """In a worker: import the simulator and load (or compile) the kernels of ``methods``.
 
-    The worker also starts watching ``parent`` (it ends if the run is killed
-    during the search, before any task reached it).
+    ``methods`` may hold :data:`SIMULATOR` (the strength map, Bishop's kernel
+    and the dynamic-programming search); with no methods at all the simulator
+    is loaded, as before the tasks were split. The worker also starts watching
+    ``parent`` (it ends if the run is killed during the search, before any
+    task reached it).
     """
     if parent is not None:
         _watch_parent(parent)
@@ -233,12 +267,59 @@ def _warm_worker(parent=None, methods=()):
 
     from . import fused
 
-    if methods:  # first: the command needs them after its search (which compiles Bishop)
+    slices = tuple(m for m in methods if m != SIMULATOR)
+    if slices:
         from ..methods.compiled import warm_up
 
-        warm_up(methods)
-    fused.warm_up()
+        warm_up(slices)
+    if SIMULATOR in methods or not methods:
+        _warm_dynamic_programming()  # first: fused.warm_up may wait for Bishop's compile in the command
+        fused.warm_up()
     return os.getpid()
+
+
+def _warm_dynamic_programming():
+    """Compile (or load) the dynamic-programming kernel of the per-realisation search with tiny
+    inputs of the types :func:`slope.search.dynamic_programming.least_path` passes (its
+    ``tan_phi`` is a read-only broadcast view, a type of its own for numba)."""
+    import numpy as np
+
+    from ..methods.compiled import first_call
+    from ..search.dynamic_programming import _dp
+
+    shape = (1, 2, 2)
+    tp = np.ascontiguousarray(np.broadcast_to(np.zeros(shape), shape), dtype=float)
+    arr = [np.zeros(shape) for _ in range(6)]
+    with first_call(_dp):
+        _dp(arr[0], arr[1], tp, arr[2], arr[3], arr[4], np.zeros(shape, np.bool_), 1.0, 0.0,
+            np.zeros(1, np.bool_), np.zeros(2, np.bool_))
+
+
+def stop_workers() -> int:
+    """End the local worker pool at once, when the command has no more work for it.
+
+    A command that is about to exit calls this after its outputs are
+    written: the workers are idle, so they are ended with SIGKILL instead of
+    each tearing down its interpreter (modules, numba, matplotlib, the run's
+    unpickled results) while the command waits for them at exit -- about a
+    second at the end of every run on 2 cores. Nothing of theirs is lost:
+    results come back with each task, and the files they read are the
+    command's (:func:`_ship`). Later calls start a new pool. Returns the
+    number of workers ended (0 without a pool).
+    """
+    global _WARMING
+    _await_workers()  # never while the warm-up still has tasks on the pool
+    _WARMING = None
+    try:
+        from joblib.externals.loky import reusable_executor
+    except ImportError:  # pragma: no cover - joblib without loky: the normal exit ends the pool
+        return 0
+    executor = getattr(reusable_executor, "_executor", None)
+    if executor is None:
+        return 0
+    n = len(getattr(executor, "_processes", None) or {})
+    executor.shutdown(wait=True, kill_workers=True)
+    return n
 
 
 def _ship(problem):

@@ -30,7 +30,7 @@ from ..search.dynamic_programming import DP_FAMILY, DPSettings, _spencer, _start
 from ..surfaces import family_of
 from .refinement import START_UNUSABLE, _grid_values, realisation_overrides, rejection_counts
 
-__all__ = ["MECHANISM_SEARCH", "mechanism_search", "max_vertices", "surface_families"]
+__all__ = ["MECHANISM_SEARCH", "mechanism_search", "surface_families"]
 
 MECHANISM_SEARCH = DP_FAMILY
 _CACHE: OrderedDict = OrderedDict()
@@ -46,25 +46,29 @@ def surface_families(problem) -> list:
     return fam
 
 
-def max_vertices(settings) -> int:
-    """Upper bound of the vertices of a path found with ``settings`` (for fixed-size storage)."""
-    return int(settings.columns) + 32  # columns plus the ground's vertices inside a band
+def _family_codes(problem) -> np.ndarray:
+    """Family of every bank surface as a small integer (kept on the problem, as the names)."""
+    codes = getattr(problem, "_family_codes", None)
+    if codes is None or codes.size != len(problem.surfaces):
+        fam = surface_families(problem)
+        number = {f: j for j, f in enumerate(dict.fromkeys(fam))}
+        codes = problem._family_codes = np.array([number[f] for f in fam], dtype=np.int64)
+    return codes
 
 
 def _starts(problem, fs_row, ok_row, n_families):
-    """Bank indices of the lowest clean surface of each family, lowest first, at most n_families."""
-    fam = surface_families(problem)
+    """Bank indices of the lowest clean surface of each family, lowest first, at most n_families.
+
+    Ties keep the bank's order (stable sort). Array operations only: this runs
+    once per searched realisation over the whole bank (a Python loop over it
+    cost about 2 ms each time).
+    """
+    codes = _family_codes(problem)
     good = np.where(ok_row & np.isfinite(fs_row), fs_row, np.inf)
-    best = {}
-    for i in np.argsort(good, kind="stable"):
-        if not np.isfinite(good[i]):
-            break
-        f = fam[int(i)]
-        if f not in best:
-            best[f] = int(i)
-            if len(best) == n_families:
-                break
-    return list(best.values())
+    order = np.argsort(good, kind="stable")
+    order = order[np.isfinite(good[order])]
+    _, first = np.unique(codes[order], return_index=True)  # where each family first appears, lowest FS first
+    return [int(i) for i in order[np.sort(first)[:n_families]]]
 
 
 def _key(problem):
@@ -95,7 +99,7 @@ def _start_data(problem, section, index, st, reuse):
     return data
 
 
-def mechanism_search(problem, seed, k, fs_row, ok_row, settings, found=None):
+def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict | None = None):
     """Search realisation k from the lowest surfaces of different families.
 
     Parameters
@@ -108,10 +112,13 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, found=None):
     settings : RefineSettings
         ``families`` start surfaces, ``columns``, ``nodes``, ``passes`` of
         the grids, ``method`` of the final judgement.
-    found : dict, optional
-        Filled with ``interslice_function``: the Morgenstern-Price
-        interslice function whose solution the accepted path counted with,
-        when its first solution was refused (:mod:`slope.search.interslice_retry`).
+    measured : dict, optional
+        Filled with the geometry of the returned surface (key ``geometry``:
+        :func:`.failure_geometry.measure` of the slices it was judged on, so
+        it costs no second slicing) and, when the accepted path's first
+        solution was refused, the Morgenstern-Price interslice function whose
+        solution it counted with (key ``interslice_function``,
+        :mod:`slope.search.interslice_retry`).
 
     Returns
     -------
@@ -166,6 +173,10 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, found=None):
     rej = rejection_counts(res.rejected) + rejection_counts({START_UNUSABLE: unusable} if unusable else {})
     if res.critical is None or not np.isfinite(res.fs_min):
         return float("nan"), None, rej
-    if found is not None and res.interslice_function is not None:
-        found["interslice_function"] = str(res.interslice_function[res.critical_index])
+    if measured is not None:
+        from .failure_geometry import measure
+
+        measured["geometry"] = measure(res.bank, res.critical_index)
+        if res.interslice_function is not None:
+            measured["interslice_function"] = str(res.interslice_function[res.critical_index])
     return float(res.fs_min), res.critical, rej

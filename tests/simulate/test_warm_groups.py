@@ -1,0 +1,117 @@
+"""The worker pool's warm-up: which kernels each task compiles, and that real calls reuse them.
+
+On a machine whose numba cache is empty (the first run after installing),
+each kernel is compiled by one process while the others wait for its lock
+(``slope.methods.compiled.first_call``). The pool's warm-up is therefore one
+task per kernel group (``executors.warm_groups``), so that the workers
+compile different kernels side by side; the per-realisation search's
+dynamic-programming kernel is one of them. These tests check the split and
+that the warm-up's tiny inputs have the types of the real calls (another
+type would make numba compile a second specialisation in every process).
+"""
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+from slipfield.slope.simulate.executors import SIMULATOR, warm_groups
+
+TESTS = Path(__file__).resolve().parents[1]
+
+
+def test_every_method_is_one_task_and_the_commands_first_method_comes_last():
+    methods = ["bishop", "spencer", "morgenstern-price"]
+    tasks = warm_groups(methods)
+    # the command compiles its first method itself (the deterministic search): the workers start
+    # on the others, so three processes compile three different kernels at once
+    assert tasks[0] == ("spencer",) and tasks[-2] == ("bishop",)
+    assert sorted(m for t in tasks[:-1] for m in t) == sorted(methods)
+    assert all(len(t) == 1 for t in tasks)
+    assert tasks[-1] == (SIMULATOR,)
+    assert warm_groups([]) == [(SIMULATOR,)]
+    assert warm_groups(["bishop", "bishop"]) == [("bishop",), (SIMULATOR,)]
+
+
+_CHILD = r"""
+import json, sys
+sys.path.insert(0, {tests!r})
+from slipfield.slope.search.dynamic_programming import _dp
+from slipfield.slope.simulate import RefineSettings, simulate
+from slipfield.slope.simulate.executors import SIMULATOR, _warm_worker
+from support.problems import gf_problem
+
+_warm_worker(None, (SIMULATOR,))  # what a pool task does (without watching a parent)
+warmed = len(_dp.signatures)
+p, _ = gf_problem(theta=4.0, cov=0.3, nx=4, ny=4, n_radii=3)
+r = simulate(p, 6, seed=3, refine=RefineSettings(below=5.0, search="dynamic-programming"))
+print(json.dumps({{"warmed": warmed, "after": len(_dp.signatures), "searched": int(r.n_searched)}}))
+"""
+
+
+def test_the_simulator_task_compiles_the_search_kernel_with_the_real_types():
+    # a fresh process: kernels compiled by other tests of this session would hide a missing warm-up
+    out = subprocess.run([sys.executable, "-c", _CHILD.format(tests=str(TESTS))], capture_output=True, text=True,
+                         check=True)
+    got = json.loads(out.stdout.strip().splitlines()[-1])
+    assert got["warmed"] == 1  # compiled (or loaded) by the warm-up, before any search
+    assert got["searched"] >= 1  # the simulation did call the search below
+    assert got["after"] == 1  # the searches' real calls added no second specialisation
+
+
+def test_search_starts_are_the_lowest_clean_surface_of_each_family():
+    # the per-realisation search starts from the lowest clean surface of each family (issue 15),
+    # chosen with array operations (issue 17); the expected indices are read off by hand
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from slipfield.slope.simulate.mechanisms import _starts
+    from slipfield.slope.surfaces import Circle, Polyline
+
+    def poly(family):
+        return Polyline([[0.0, 1.0], [1.0, 0.0]], family=family)
+
+    surfaces = [Circle(0.0, 5.0, 5.0), poly("block"), Circle(1.0, 5.0, 5.0), poly("dynamic-programming"),
+                poly("block"), Circle(2.0, 5.0, 5.0), poly("block")]
+    problem = SimpleNamespace(surfaces=surfaces)
+    fs = np.array([1.30, 1.20, 1.05, np.nan, 1.10, 1.05, 0.90])
+    ok = np.array([True, True, True, True, True, True, False])
+    # index 6 (0.90) is not clean, 3 has no FS; circles 2 and 5 tie at 1.05: the bank's order keeps 2
+    assert _starts(problem, fs, ok, 3) == [2, 4]
+    assert _starts(problem, fs, ok, 1) == [2]
+    fs[3] = 1.00
+    assert _starts(problem, fs, ok, 3) == [3, 2, 4]
+    assert _starts(problem, fs, ok, 2) == [3, 2]
+    assert _starts(problem, fs, np.zeros(7, bool), 3) == []
+
+
+def _alive(pid):
+    import os
+
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    try:  # a killed child not yet reaped is a zombie: gone for our purpose
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().split(")")[-1].split()[0] != "Z"
+    except OSError:
+        return False
+
+
+def test_stop_workers_ends_the_idle_pool_and_a_later_call_starts_another():
+    # `slipfield run` ends its idle pool once its outputs are written, instead of waiting at exit
+    # for every worker to tear down its interpreter (issue 17)
+    import os
+
+    from joblib import Parallel, delayed
+
+    from slipfield.slope.simulate.executors import stop_workers
+
+    pids = set(Parallel(n_jobs=2)(delayed(os.getpid)() for _ in range(4)))
+    assert os.getpid() not in pids
+    assert stop_workers() >= 1
+    assert not any(_alive(p) for p in pids)
+    again = set(Parallel(n_jobs=2)(delayed(os.getpid)() for _ in range(4)))
+    assert again and not again & pids  # a new pool serves the next call
+    stop_workers()
