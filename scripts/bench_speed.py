@@ -35,7 +35,8 @@ Parts (``--parts``, default all):
     Each tree is measured in a fresh process, the trees alternated.
 ``jobs``
     ``slipfield simulate`` of 16,000 realisations, ``--jobs 1`` against
-    ``--jobs 2`` (target ratio >= 1.6).
+    ``--jobs 2`` (target ratio >= 1.6), with the default per-realisation free
+    search and with ``--refine-search off``.
 ``run``
     ``slipfield run`` of the levee demo: cold (empty numba cache) and warm
     (targets 15 s and 10 s), wall and CPU time (the command and its workers),
@@ -401,23 +402,29 @@ def _trees(args):
 
 
 def part_jobs(args):
+    """``--jobs 1`` against ``--jobs 2``, with the default per-realisation free search and without
+    it (``--refine-search off``): the wall ratio, and the CPU of both (the work added by the pool)."""
     rows = {}
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(args.repeat):
             for label, tree in _trees(args):  # alternated: both see the same load
-                for j in (1, 2):
-                    out = os.path.join(tmp, f"{label[:4]}_j{j}_{r}")
-                    rows.setdefault(label, {1: [], 2: []})[j].append(
-                        _cli_cpu(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
-                                  "--quiet", "--out", out], tree=tree))
-    for label, times in rows.items():
+                for search in ("default", "off"):
+                    for j in (1, 2):
+                        out = os.path.join(tmp, f"{label[:4]}_{search}_j{j}_{r}")
+                        extra = [] if search == "default" else ["--refine-search", "off"]
+                        rows.setdefault((label, search), {1: [], 2: [], "load": []})[j].append(
+                            _cli_cpu(["simulate", str(CASE), "--realisations", str(args.n_jobs_run), "--jobs", str(j),
+                                      "--quiet", "--out", out] + extra, tree=tree))
+                        rows[(label, search)]["load"].append(os.getloadavg()[0])
+    for (label, search), times in rows.items():
         w1, w2 = [w for w, _ in times[1]], [w for w, _ in times[2]]
         c1, c2 = [c for _, c in times[1]], [c for _, c in times[2]]
         ratio = [a / b for a, b in zip(w1, w2)]
-        print(f"[jobs] {label}: slipfield simulate levee, {args.n_jobs_run} realisations: --jobs 1 "
-              f"{spread(w1, '{:.1f}')} s wall ({spread(c1, '{:.1f}')} s CPU), --jobs 2 {spread(w2, '{:.1f}')} s wall "
-              f"({spread(c2, '{:.1f}')} s CPU); ratio {spread(ratio, '{:.2f}')} "
-              f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best)")
+        print(f"[jobs] {label}, free search {search}: slipfield simulate levee, {args.n_jobs_run} realisations: "
+              f"--jobs 1 {spread(w1, '{:.1f}')} s wall ({spread(c1, '{:.1f}')} s CPU), --jobs 2 "
+              f"{spread(w2, '{:.1f}')} s wall ({spread(c2, '{:.1f}')} s CPU); ratio {spread(ratio, '{:.2f}')} "
+              f"(target >= 1.6: {verdict(min(ratio) >= 1.6)} in every pair, {verdict(max(ratio) >= 1.6)} in the best); "
+              f"load average during {spread(times['load'], '{:.1f}')}")
     print(f"  (a wall ratio needs two idle cores; load average now {os.getloadavg()[0]:.1f} on {os.cpu_count()} "
           "cores. CPU of --jobs 2 equal to --jobs 1 means no work is added by the workers)")
 

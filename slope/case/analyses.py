@@ -75,6 +75,10 @@ def _search_dict(res, section) -> dict:
         "n_trials": int(res.n_trials),
         "n_counted": int(np.sum(res.counted)),
         "not_counted": {k: int(v) for k, v in res.rejected.items()},
+        # non-circular trials counted only with another interslice function (slope.search.interslice_retry)
+        **({"counted_with_another_interslice_function": {k: int(v) for k, v in res.retried.items()},
+            "critical_interslice_function": (str(res.interslice_function[res.critical_index]) or None) if ok else None}
+           if res.retried else {}),
         "status": "ok" if ok else "no admissible, converged trial surface",
         "surface_xy_m": surface_xy(res.bank, res.critical_index).round(4).tolist() if ok else None,
     }

@@ -113,7 +113,8 @@ def write_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, i
     from slipfield.fields.io import NpzSeriesWriter, XdmfSeriesWriter, grid_mesh, write_vtu
 
     from ..report import write_csv
-    from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
+    from ..simulate.failure_geometry import SURFACE_HEADER, governing_surfaces, surface_columns
+    from ..simulate.mechanism_results import mechanism_summary
     from ..simulate import realise_fields
 
     n = int(result.n)
@@ -156,10 +157,12 @@ def write_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, i
              None if statuses is None else statuses[k]] for k in idx]
     header = ["realisation", "FS critical (-)", "critical surface index", "FS fixed surface (-)",
               "fixed surface ok", "status"]
-    if mechanism_summary(result) is not None:  # other families or a per-realisation search: the shapes too
-        fams, surfs = result.governing_families(), accepted_surfaces(result)
-        rows = [r + [float(result.fs_circles_only[k]), str(fams[k]), surface_text(surfs[k])] for r, k in zip(rows, idx)]
-        header += ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+    if mechanism_summary(result) is not None:  # other families or a per-realisation search
+        rows = [r + [float(result.fs_circles_only[k])] for r, k in zip(rows, idx)]
+        header += ["FS circles alone (-)"]
+    gov = governing_surfaces(result, which=idx)  # the surface that governs, read back by read_surface_columns
+    rows = [r + surface_columns(gov, k) for r, k in zip(rows, idx)]
+    header += SURFACE_HEADER
     write_csv(directory / "realisations.csv", header, rows)
     props = []
     for p in problem.properties:
@@ -179,7 +182,11 @@ def write_realisations(problem, result, seed, directory, fmt: str = "xdmf", *, i
                  "property's zones and outside each zone's field box (the cells the simulation generates)",
         "field_boxes": _field_boxes(problem),
         "time_value": "realisation index k" if fmt == "xdmf" else None,
-        "index": "realisations.csv", "properties": props,
+        "index": "realisations.csv",
+        "governing_surface": {"columns": SURFACE_HEADER, "frame": "section, m",
+                              "read_back": "slipfield.slope.simulate.failure_geometry.read_surface_columns(row) "
+                                           "gives the Circle or Polyline of a csv.DictReader row"},
+        "properties": props,
         "reproduce": "slipfield.slope.simulate.realise_fields(problem, seed, k) returns the same arrays (nx, ny)",
     }
     write_json(directory / "fields.json", manifest)

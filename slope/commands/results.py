@@ -291,6 +291,7 @@ class SimulationRun:
     shown: list = field(default_factory=list)
     mechanisms: Any = None  # MechanismSummary when other surface families or a per-realisation search ran
     result: Any = None      # the simulator's SimulationResult (mechanism maps and columns read it)
+    governing: Any = None   # GoverningSurfaces of every realisation (failure map, area and depth, CSV columns)
     subset: dict | None = None  # subset-simulation block (spatial run only), when the estimator ran it
 
     @property
@@ -300,6 +301,13 @@ class SimulationRun:
     @property
     def n_failed_geometry(self) -> int:
         return int(self.failed_area.size)
+
+    @property
+    def n_failed_on_searched_surface(self) -> int:
+        """Failed realisations whose geometry is the per-realisation search's own polyline."""
+        if self.governing is None:
+            return 0
+        return int(np.sum(self.governing.searched & np.isfinite(self.fs) & (self.fs < 1.0)))
 
     def to_json(self) -> dict:
         n, s = int(self.realisations), self.searched
@@ -322,7 +330,15 @@ class SimulationRun:
                     "n_refined": self.n_refined})
         if self.mechanisms is not None:
             out["mechanisms"] = self.mechanisms.to_json()
+        if getattr(self.result, "refine_functions", None):
+            # realisations lowered by a path counted with another interslice function (slope.search.interslice_retry)
+            out["refine_interslice_functions"] = dict(self.result.refine_functions)
+        if getattr(self.result, "bank_rejected", None) is not None:
+            # non-circular bank surfaces judged per realisation (slope.simulate.bank_checks)
+            out["bank_checks"] = {"rejected": dict(self.result.bank_rejected),
+                                  "retried": int(self.result.bank_retried)}
         out.update({"failure_geometry": {"n_failed": self.n_failed_geometry,
+                                         "n_failed_on_searched_surface": self.n_failed_on_searched_surface,
                                          "sliding_mass_area": _spread(self.failed_area),
                                          "max_depth": _spread(self.failed_depth)}})
         if self.subset is not None:

@@ -34,44 +34,13 @@ from .results import (CAUTION, RESULTS_VERSION, DeterministicResult, PfCount, Qu
                       SimulationRun, SingleVariableResult, SpatialResult, results_json)
 from .risk import risk_points
 from .slice_table import slice_table
+from ..simulate.failure_geometry import sliding_mass_geometry  # noqa: F401  (public here since issue 11)
 
 __all__ = ["run_case", "analyse_case", "write_run", "sliding_mass_geometry", "RESULTS_VERSION", "CAUTION",
            "FIGURE_FORMATS"]
 
 #: Figure file formats ``run`` can write (PNG is always written: the report embeds it).
 FIGURE_FORMATS = ("png", "svg")
-
-
-def sliding_mass_geometry(bank, index):
-    """Cross-sectional area and greatest depth of the sliding mass above bank surfaces.
-
-    Parameters
-    ----------
-    bank : slope.slices.SliceBank
-        The surface bank.
-    index : array_like of int
-        Surfaces of the bank (one per failed realisation, repeats allowed).
-
-    Returns
-    -------
-    area : ndarray
-        Area between the ground line and each surface, m² per metre run,
-        by Simpson's rule on every slice (sides and midpoint), which is
-        exact for a straight base under a straight ground within a slice.
-    depth : ndarray
-        Greatest vertical depth of each surface below the ground line, m,
-        over slice sides and midpoints.
-    """
-    idx = np.asarray(index, dtype=int).ravel()
-    if idx.size and (idx.min() < 0 or idx.max() >= bank.n_surfaces):
-        raise ValueError(f"index: surface indices must lie in [0, {bank.n_surfaces}); got "
-                         f"{idx.min()}..{idx.max()} (realisations without a valid surface have -1; drop them)")
-    h_l = np.clip(bank.y_top_left[idx] - bank.y_base_left[idx], 0.0, None)
-    h_m = np.clip(bank.y_top[idx] - bank.y_base[idx], 0.0, None)
-    h_r = np.clip(bank.y_top_right[idx] - bank.y_base_right[idx], 0.0, None)
-    area = (bank.width[idx] * (h_l + 4.0 * h_m + h_r) / 6.0).sum(axis=1)
-    depth = np.maximum(np.maximum(h_l, h_r), h_m).max(axis=1)
-    return area, depth
 
 
 class _Progress:
@@ -105,8 +74,11 @@ def _run_one(case, det, hyp, label, run, override, *, n, n_jobs, progress):
     fixed_valid = np.asarray(res.fixed_ok, bool) & np.isfinite(fixed)
     crit = np.asarray(res.critical_index)
     failed = np.flatnonzero(np.isfinite(fs) & (fs < 1.0) & (crit >= 0))
-    area, depth = sliding_mass_geometry(prob.bank, crit[failed])
+    from ..simulate.failure_geometry import governing_surfaces
     from ..simulate.mechanism_results import mechanism_summary
+
+    # the surface that governs: the per-realisation search's own polyline where it lowered FS, else the bank's
+    governing = governing_surfaces(res)
 
     return SimulationRun(
         mechanisms=mechanism_summary(res), result=res,
@@ -117,7 +89,8 @@ def _run_one(case, det, hyp, label, run, override, *, n, n_jobs, progress):
         fixed=PfCount.from_stats(estimate_pf(fixed, valid=fixed_valid)) if fixed_valid.any() else None,
         n_nonconverged=int(res.n_nonconverged), n_inadmissible=int(res.n_inadmissible),
         n_no_valid=int(res.n_no_valid), refine=res.refine, n_refined=int(res.n_refined),
-        fs=fs, fs_fixed=fixed, critical_index=crit, problem=prob, failed_area=area, failed_depth=depth)
+        fs=fs, fs_fixed=fixed, critical_index=crit, problem=prob, failed_area=governing.area[failed],
+        failed_depth=governing.depth[failed], governing=governing)
 
 
 def _shown(fs, crit):

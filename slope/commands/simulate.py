@@ -24,7 +24,8 @@ import numpy as np
 
 from ..case.preflight import preflight
 from ..errors import InputError
-from ..simulate.mechanism_results import accepted_surfaces, mechanism_summary, surface_text
+from ..simulate.failure_geometry import SURFACE_HEADER, governing_surfaces, surface_columns
+from ..simulate.mechanism_results import mechanism_summary
 from ._shared import RESULTS_VERSION, parse_theta_list, problem_of, settings, summary, write_json
 from .export import EXPORT_FORMATS, export_realisations, write_realisations
 from .folders import OutputFolder
@@ -257,10 +258,12 @@ def simulate_case(case_path, out_dir, *, realisations=None, jobs=None, batch=Non
                  bool(res.fixed_ok[k])] for k in range(n)]
         header = ["realisation", "FS critical (-)", "critical surface index", "status", "FS fixed surface (-)",
                   "fixed surface ok"]
-        if mechanism_summary(res) is not None:  # other families or a per-realisation search: the shapes too
-            fams, surfs = res.governing_families(), accepted_surfaces(res)
-            rows = [r + [float(res.fs_circles_only[k]), str(fams[k]), surface_text(surfs[k])] for k, r in enumerate(rows)]
-            header += ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+        if mechanism_summary(res) is not None:  # other families or a per-realisation search
+            rows = [r + [float(res.fs_circles_only[k])] for k, r in enumerate(rows)]
+            header += ["FS circles alone (-)"]
+        gov = governing_surfaces(res)  # the surface that governs, read back by read_surface_columns
+        rows = [r + surface_columns(gov, k) for k, r in enumerate(rows)]
+        header += SURFACE_HEADER
         write_csv(stage / "fs_realisations.csv", header, rows)
         if exp_folder is not None:
             exp_stage = exp_folder.stage()

@@ -73,6 +73,11 @@ class MethodOfSlices:
         equilibrium, or moment equilibrium not tied to a circle's centre).
     aliases : tuple of str
         Other names accepted by :func:`factor_of_safety`.
+    checks_strengths : bool
+        ``run`` checks that ``c`` and ``tan_phi`` are finite and >= 0 while
+        it reads them, and says so with ``strengths_ok`` in its dict
+        (:func:`factor_of_safety` then skips its own passes over them, and
+        makes them, with their messages, whenever ``strengths_ok`` is not True).
     """
 
     name: str
@@ -80,6 +85,7 @@ class MethodOfSlices:
     options: tuple = ()
     polylines: bool = False
     aliases: tuple = ()
+    checks_strengths: bool = False
 
 
 #: name -> MethodOfSlices; the case schema, the command line and the refinement read their lists here.
@@ -112,14 +118,16 @@ def _gle(terms, c, tp, *, tol, max_iter, return_forces, interslice, f_ends=(0.5,
 
 
 register_method(MethodOfSlices("ordinary", _ordinary, aliases=("fellenius",)))
-register_method(MethodOfSlices("bishop", _iterative(_bishop), options=("m_alpha_min",)))
+register_method(MethodOfSlices("bishop", _iterative(_bishop), options=("m_alpha_min",),
+                               checks_strengths=True))
 register_method(MethodOfSlices("janbu", _iterative(_janbu), options=("m_alpha_min", "correction"),
-                               polylines=True))
+                               polylines=True, checks_strengths=True))
 register_method(MethodOfSlices("spencer", _iterative(_spencer), options=("F_start", "lam_start"),
                                polylines=True))
 register_method(MethodOfSlices("morgenstern-price", _gle,
                                options=("F_start", "lam_start", "f_ends", "interslice_table"),
-                               polylines=True, aliases=("m-p", "mp", "gle", "morgenstern_price")))
+                               polylines=True, aliases=("m-p", "mp", "gle", "morgenstern_price"),
+                               checks_strengths=True))
 
 #: Every method's name, in registry order.
 METHOD_NAMES = tuple(METHODS)
@@ -141,7 +149,7 @@ def method_spec(method) -> MethodOfSlices:
     return METHODS[key]
 
 
-def _strength(name, value, m, n):
+def _strength(name, value, m, n, check_values=True):
     arr = np.asarray(value, dtype=float)
     if arr.ndim > 3:
         raise InputError(f"{name}: {arr.ndim}-D array; give an array broadcastable to "
@@ -153,6 +161,13 @@ def _strength(name, value, m, n):
         raise InputError(f"{name}: shape {arr.shape} does not broadcast to "
                          f"(n_samples, n_surfaces={m}, n_slices={n}); give one value per "
                          "slice base, per surface or a scalar") from None
+    if check_values:
+        _check_strength_values(name, arr)
+    return out
+
+
+def _check_strength_values(name, arr):
+    """InputError naming ``name`` if ``arr`` holds NaN, infinite or negative values."""
     # two reductions without temporaries: this check runs on every kernel call
     # (arrays of millions of values), where isfinite/any cost a quarter of Bishop
     lo, hi = (float(arr.min()), float(arr.max())) if arr.size else (0.0, 0.0)
@@ -161,7 +176,6 @@ def _strength(name, value, m, n):
                          "finite strength")
     if lo < 0:
         raise InputError(f"{name}: negative values (min {lo:g}); strengths must be >= 0")
-    return out
 
 
 def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant",
@@ -226,8 +240,10 @@ def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant"
         raise InputError(f"tol: {tol!r}; give a relative tolerance between 0 and 0.1, e.g. 1e-6")
     if int(max_iter) < 1:
         raise InputError(f"max_iter: {max_iter!r}; give at least 1 iteration")
-    cc = _strength("c", c, m, n)
-    tp = _strength("tan_phi", tan_phi, m, n)
+    # a method that checks the strengths in its own pass over them (checks_strengths) is
+    # trusted with that only when it says it read them all; else they are checked here
+    cc = _strength("c", c, m, n, check_values=not spec.checks_strengths)
+    tp = _strength("tan_phi", tan_phi, m, n, check_values=not spec.checks_strengths)
     s = max(cc.shape[0], tp.shape[0])
     cc = np.broadcast_to(cc, (s, m, n))
     tp = np.broadcast_to(tp, (s, m, n))
@@ -238,6 +254,9 @@ def factor_of_safety(bank, c, tan_phi, method="bishop", *, interslice="constant"
                          f"its options are {', '.join(sorted(spec.options)) or 'none'}")
     out = spec.run(terms, cc, tp, tol=tol, max_iter=max_iter, return_forces=return_forces,
                    interslice=interslice, **opts)
+    if spec.checks_strengths and not out.get("strengths_ok", False):
+        _check_strength_values("c", cc)
+        _check_strength_values("tan_phi", tp)
 
     flags = out["flags"] | np.where(terms.valid, 0, INVALID_SURFACE)[None, :]
     fs = np.where(terms.valid[None, :], out["fs"], np.nan)

@@ -29,6 +29,8 @@ from .result import NEGATIVE_NORMAL, NONPOSITIVE, SMALL_M_ALPHA
 __all__ = ["bishop", "solve_single_equation"]
 
 _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
+#: the largest finite float: ``0 <= x <= _FMAX`` is False for NaN, inf and negatives
+_FMAX = float(np.finfo(float).max)
 
 
 @njit(parallel=True, cache=True, fastmath=_FASTMATH)
@@ -48,6 +50,10 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
     mc_all = c.shape[1] > 1
     st_all = tp.shape[0] > 1
     mt_all = tp.shape[1] > 1
+    # strengths read that are negative, NaN or infinite (the caller names them, see
+    # solve_single_equation): checked here, in the pass that reads them anyway, instead of
+    # in passes of their own over the arrays (a fifth of the whole call)
+    n_bad = 0
     for k in prange(S * M):
         s = k // M
         m = k - s * M
@@ -67,6 +73,14 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
         num = 0.0
         for i in range(N):
             num += (wb[m, i] * c[cs, cm, i] + wa[m, i] * tp[ts, tm, i]) * inv_ca[m, i]
+        # a loop of its own (the row is in cache): inside the sum above it changed
+        # how the sum is vectorised, hence its round-off
+        bad = False
+        for i in range(N):
+            cc = c[cs, cm, i]
+            t = tp[ts, tm, i]
+            bad |= ~((cc >= 0.0) & (cc <= _FMAX) & (t >= 0.0) & (t <= _FMAX))
+        n_bad += 1 if bad else 0
         den = den0[m]
         if not circ:
             for i in range(N):
@@ -146,6 +160,7 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
             for i in range(N):
                 ma = ca[m, i] + sa[m, i] * tp[ts, tm, i] * inv
                 neff[s, m, i] = (A[m, i] - ub[m, i] - c[cs, cm, i] * l[m, i] * sa[m, i] * inv) / ma
+    return n_bad
 
 
 def _compact(x, N):
@@ -231,7 +246,9 @@ def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
 
     Returns
     -------
-    dict with ``fs``, ``converged``, ``flags``, ``iterations`` (s, m) and
+    dict with ``fs``, ``converged``, ``flags``, ``iterations`` (s, m),
+    ``strengths_ok`` (True: every value of ``c`` and ``tan_phi`` was read and
+    is finite and >= 0; False: some may not be, the caller checks them) and
     optionally ``normal_eff`` (s, m, n).
     """
     S, M, N = c.shape
@@ -242,10 +259,12 @@ def solve_single_equation(terms, c, tan_phi, w, den0, use_mn, *, tol, max_iter,
     neff = np.empty((S, M, N) if return_forces else (1, 1, 1))
     geo = _kernel_terms(terms, w, den0, use_mn, cache_key)
     with first_call(_single_equation_kernel):
-        _single_equation_kernel(_compact(c, N), _compact(tan_phi, N), *geo, float(tol), int(max_iter),
-                                float(m_alpha_min), fs, iters, conv, flags, neff,
-                                bool(return_forces))
-    out = {"fs": fs, "converged": conv, "flags": flags, "iterations": iters}
+        n_bad = _single_equation_kernel(_compact(c, N), _compact(tan_phi, N), *geo, float(tol), int(max_iter),
+                                        float(m_alpha_min), fs, iters, conv, flags, neff,
+                                        bool(return_forces))
+    # every strength was read (and found finite, >= 0) when every surface is valid
+    out = {"fs": fs, "converged": conv, "flags": flags, "iterations": iters,
+           "strengths_ok": bool(n_bad == 0 and np.all(geo[-1]))}
     if return_forces:
         out["normal_eff"] = neff
     return out

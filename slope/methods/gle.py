@@ -162,6 +162,137 @@ def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, m
     return F, lam, n_it, done
 
 
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")
+def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, G0m, s1, s2, tol, max_iter, F, lam,
+                  n_it, done):
+    """:func:`_newton` for every sample of surface ``m`` at once (interslice function ``f[m]``).
+
+    ``ct``, ``tt`` are c and tan(phi) of the surface, shape (n, s): the sample
+    axis is the inner, contiguous one, so each step of the force recursion
+    runs on all samples in SIMD lanes (the recursion is sequential along the
+    slices; one sample alone is a chain of dependent operations). Each
+    sample's arithmetic and stopping rule are those of :func:`_newton`; a
+    sample that has stopped keeps its values while the others go on.
+    ``F``, ``lam`` (s,) hold the starts and receive the results; ``n_it``,
+    ``done`` (s,) receive the iterations and convergence.
+
+    Compiled with numpy's error model: a division by zero gives inf or NaN
+    (the sample then stops, F NaN, as in _newton's non-finite step) instead of
+    Python's check before every division, which kept the lanes from being
+    vectorised.
+    """
+    N = ca.shape[1]
+    S = F.shape[0]
+    active = np.ones(S, dtype=np.bool_)
+    E = np.empty(S)
+    EF = np.empty(S)
+    El = np.empty(S)
+    g2 = np.empty(S)
+    g2F = np.empty(S)
+    g2l = np.empty(S)
+    for j in range(S):
+        n_it[j] = 0
+        done[j] = False
+    n_active = S
+    for it in range(max_iter):
+        if n_active == 0:
+            break
+        for j in range(S):
+            E[j] = 0.0
+            EF[j] = 0.0
+            El[j] = 0.0
+            g2[j] = G0m
+            g2F[j] = 0.0
+            g2l[j] = 0.0
+        for i in range(N):
+            cai = ca[m, i]
+            sai = sa[m, i]
+            Ai = A[m, i]
+            Bi = B[m, i]
+            li = l[m, i]
+            uli = ul[m, i]
+            dxi = dx[m, i]
+            dyi = dy[m, i]
+            fi = f[m, i] if i > 0 else 0.0
+            fj = f[m, i + 1]
+            for j in range(S):
+                t = tt[i, j]
+                Fj = F[j]
+                lj = lam[j]
+                Ej = E[j]
+                EFj = EF[j]
+                Elj = El[j]
+                R = ct[i, j] * li - uli * t + (Ai * cai - Bi * sai) * t
+                T = Bi * cai + Ai * sai
+                Phi = Fj * cai + t * sai
+                Psi = t * cai - Fj * sai
+                D = Phi - lj * fi * Psi
+                G = Phi - lj * fj * Psi
+                invG = 1.0 / G
+                En = (Ej * D + Fj * T - R) * invG
+                DF = cai + lj * fi * sai
+                GF = cai + lj * fj * sai
+                EnF = (EFj * D + Ej * DF + T - En * GF) * invG
+                Enl = (Elj * D - Ej * fi * Psi + En * fj * Psi) * invG
+                dE = Ej - En
+                dEF_ = EFj - EnF
+                dEl_ = Elj - Enl
+                q = fj * En - fi * Ej
+                dX = lj * q
+                dXF = lj * (fj * EnF - fi * EFj)
+                dXl = q + lj * (fj * Enl - fi * Elj)
+                g2[j] -= dxi * dX - dyi * dE
+                g2F[j] -= dxi * dXF - dyi * dEF_
+                g2l[j] -= dxi * dXl - dyi * dEl_
+                E[j] = En
+                EF[j] = EnF
+                El[j] = Enl
+        for j in range(S):
+            if not active[j]:
+                continue
+            n_it[j] = it + 1
+            Fj = F[j]
+            lj = lam[j]
+            # scaled residuals and Jacobian, the steps of _newton
+            r1 = E[j] / s1
+            r2 = g2[j] / s2
+            j11 = EF[j] / s1
+            j12 = El[j] / s1
+            j21 = g2F[j] / s2
+            j22 = g2l[j] / s2
+            det = j11 * j22 - j12 * j21
+            lam_col = abs(j12) + abs(j22)
+            F_col = abs(j11) + abs(j21)
+            if (lam_col > 1e-9 * F_col and abs(det) > 1e-10 * (abs(j11 * j22) + abs(j12 * j21))
+                    and np.isfinite(det)):
+                dF = (-r1 * j22 + r2 * j12) / det
+                dl = (-r2 * j11 + r1 * j21) / det
+            elif j11 != 0.0:
+                dF = -r1 / j11
+                dl = 0.0
+            else:
+                F[j] = np.nan
+                active[j] = False
+                n_active -= 1
+                continue
+            if not (np.isfinite(dF) and np.isfinite(dl)):
+                F[j] = np.nan
+                active[j] = False
+                n_active -= 1
+                continue
+            small = abs(dF) <= tol * Fj and abs(dl) <= tol * max(1.0, abs(lj))
+            if abs(dF) > 0.5 * Fj:
+                dF = 0.5 * Fj * (1.0 if dF > 0 else -1.0)
+            if abs(dl) > 0.5:
+                dl = 0.5 * (1.0 if dl > 0 else -1.0)
+            F[j] = Fj + dF
+            lam[j] = lj + dl
+            if small:
+                done[j] = True
+                active[j] = False
+                n_active -= 1
+
+
 #: interslice force inclinations (degrees) of the lam scan that brackets the
 #: roots Newton missed: both signs, 2 degree steps to 80 degrees, lam = tan
 #: of the inclination (Spencer's theta; for Morgenstern-Price lam scales f)
@@ -383,6 +514,99 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     return fl
 
 
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")
+def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale, lscale,
+                F, lam, fl_out):
+    """:func:`_post`'s flags (no forces) for every sample of surface ``m`` at once.
+
+    ``ct``, ``tt`` (n, s) as for :func:`_newton_lanes`; ``F``, ``lam`` (s,)
+    the solutions; ``fl_out`` (s,) receives the flags. The same arithmetic
+    and tests as :func:`_post`, written without branches inside the sample
+    loop so that it is vectorised (numpy's error model: a division by zero
+    gives inf or NaN where _post would not divide, and the test it feeds is
+    then off as in _post).
+    """
+    N = ca.shape[1]
+    S = F.shape[0]
+    E_next = np.empty((N, S))
+    E = np.zeros(S)
+    Emax = np.zeros(S)
+    ZE = np.zeros(S)
+    s_pos = np.zeros(S)
+    s_neg = np.zeros(S)
+    fl = np.zeros(S, dtype=np.int64)
+    # the forces are marched once and kept: the checks below need the largest E first
+    for i in range(N):
+        cai = ca[m, i]
+        sai = sa[m, i]
+        fi = f[m, i] if i > 0 else 0.0
+        fj = f[m, i + 1]
+        R0 = A[m, i] * cai - B[m, i] * sai
+        T = B[m, i] * cai + A[m, i] * sai
+        li = l[m, i]
+        uli = ul[m, i]
+        last = i == N - 1
+        for j in range(S):
+            t = tt[i, j]
+            Fj = F[j]
+            lj = lam[j]
+            Phi = Fj * cai + t * sai
+            Psi = t * cai - Fj * sai
+            R = ct[i, j] * li - uli * t + R0 * t
+            En = (E[j] * (Phi - lj * fi * Psi) + Fj * T - R) / (Phi - lj * fj * Psi)
+            E_next[i, j] = En
+            Emax[j] = En if (not last and En > Emax[j]) else Emax[j]
+            E[j] = En
+    for j in range(S):
+        E[j] = 0.0
+    for i in range(N):
+        cai = ca[m, i]
+        sai = sa[m, i]
+        Ai = A[m, i]
+        Bi = B[m, i]
+        uli = ul[m, i]
+        li = l[m, i]
+        fi = f[m, i] if i > 0 else 0.0
+        fj = f[m, i + 1]
+        ybi = yb[m, i]
+        xbi = xb[m, i] - xm[m, i]
+        xbn = xb[m, i + 1] - xm[m, i]
+        cpl = couple[m, i]
+        thr_ne = -1e-9 * abs(Ai)
+        inner = i < N - 1
+        lo = yb_b[m, i + 1] - 1e-9 * lscale[m] if inner else 0.0
+        hi = yt_b[m, i + 1] + 1e-9 * lscale[m] if inner else 0.0
+        e_floor = 1e-9 * fscale[m]
+        for j in range(S):
+            t = tt[i, j]
+            Fj = F[j]
+            lj = lam[j]
+            Ej = E[j]
+            En = E_next[i, j]
+            Xi = lj * fi * Ej
+            Xn = lj * fj * En
+            dE = Ej - En
+            dX = Xn - Xi
+            ne = (Ai - dX) * cai - (Bi + dE) * sai - uli
+            bits = 1 if ne < thr_ne else 0
+            if Fj * cai + t * sai - lj * fj * (t * cai - Fj * sai) <= 0.0:
+                bits |= 64
+            strength = ct[i, j] * li + ne * t
+            s_pos[j] += strength if strength > 0.0 else 0.0
+            s_neg[j] -= strength if not (strength > 0.0) else 0.0
+            m_left = xbi * (-Xi) - (ZE[j] - ybi * Ej)
+            ZEn = ybi * En - cpl - m_left - xbn * Xn
+            if inner:
+                y = ZEn / En
+                if (En > THRUST_E_FRACTION * Emax[j] and Emax[j] > e_floor) and (y < lo or y > hi):
+                    bits |= 4
+            fl[j] |= bits
+            E[j] = En
+            ZE[j] = ZEn
+    for j in range(S):
+        fl_out[j] = fl[j] | (32 if s_neg[j] > NEGATIVE_STRENGTH_FRACTION * s_pos[j] else 0)
+
+
 @njit(cache=True, fastmath=_FASTMATH)
 def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple,
             fscale, lscale, tol, max_iter, F0, lams, E_out, X_out, yt_out, neff_out):
@@ -567,72 +791,110 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
     """
     S = fs.shape[0]
     M = fs.shape[1]
+    N = ca.shape[1]
     none = np.empty((1, 1, 1))
-    for k in prange(S * M):
-        s = k // M
-        m = k - s * M
-        rescue[s, m] = False
+    # one surface per task, Newton on all its samples at once (_newton_lanes), then
+    # each sample's checks and, where needed, its continuation
+    for m in prange(M):
         if not valid[m]:
-            fs[s, m] = np.nan
-            lam_out[s, m] = np.nan
-            conv[s, m] = False
-            iters[s, m] = 0
+            for s in range(S):
+                rescue[s, m] = False
+                fs[s, m] = np.nan
+                lam_out[s, m] = np.nan
+                conv[s, m] = False
+                iters[s, m] = 0
             continue
-        F0 = F_start[s, m]
-        if not (F0 > 0.0) or not np.isfinite(F0):
-            F0 = 1.0
-        lam0 = lam_start[s, m]
-        if not np.isfinite(lam0):
-            lam0 = 0.0
         s1 = fscale[m]
         s2 = fscale[m] * lscale[m]
-        F, lam, n_it, done = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0[m],
-                                     s1, s2, tol, max_iter, F0, lam0)
-        fl = 8
-        if F > 0.0 and np.isfinite(F):
-            fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
-                       fscale, lscale, F, lam, none, none, none, none, False)
-        # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
-        # reverse_circles): neither the continuation nor the scan can replace it
-        if (fl & 40) != 0 and not reverse[m]:
-            # Newton from (Bishop's F, lam = 0) diverged or reached a spurious
-            # root (negative base strength): continuation from Spencer's
-            # constant function, whose root is found reliably from that start,
-            # to f in two steps, each started from the root of the previous
-            # one. Not retried when Newton merely ran out of iterations: on the
-            # demo and benchmark banks the continuation rescued none of those
-            # and cost a fifth of the M-P throughput.
-            F2 = F0
-            lam2 = 0.0
-            ok = True
-            ft = np.empty((1, f.shape[1]))
-            for step in range(3):
-                tw = 0.5 * step
-                for i in range(f.shape[1]):
-                    ft[0, i] = (1.0 - tw) + tw * f[m, i]
-                F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, 0,
-                                           G0[m], s1, s2, tol, max_iter, F2, lam2)
-                n_it += k2
-                if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
-                    ok = False
-                    break
-            if ok:
-                fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
-                            couple, fscale, lscale, F2, lam2, none, none, none, none, False)
-                if (fl2 & 32) == 0:
-                    F = F2
-                    lam = lam2
-                    done = True
-                    fl = fl2
-        # Newton from lam = 0 (and the continuation) missed, or reached a
-        # root across a pole of the recursion: the lam scan over both signs
-        # looks for a root on the physical branch (after this kernel)
-        rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
-        fs[s, m] = F
-        lam_out[s, m] = lam
-        iters[s, m] = n_it
-        conv[s, m] = done
-        flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
+        ct = np.empty((N, S))
+        tt = np.empty((N, S))
+        FL = np.empty(S)
+        lamL = np.empty(S)
+        F0L = np.empty(S)
+        itL = np.empty(S, dtype=np.int64)
+        doneL = np.empty(S, dtype=np.bool_)
+        for s in range(S):
+            for i in range(N):
+                ct[i, s] = c[s, m, i]
+                tt[i, s] = tp[s, m, i]
+            F0 = F_start[s, m]
+            if not (F0 > 0.0) or not np.isfinite(F0):
+                F0 = 1.0
+            lam0 = lam_start[s, m]
+            if not np.isfinite(lam0):
+                lam0 = 0.0
+            F0L[s] = F0
+            FL[s] = F0
+            lamL[s] = lam0
+        _newton_lanes(ct, tt, np.int64(m), ca, sa, l, A, B, ul, dx, dy, f, G0[m], s1, s2, tol, max_iter,
+                      FL, lamL, itL, doneL)
+        flL = np.empty(S, dtype=np.int64)
+        _post_lanes(ct, tt, np.int64(m), ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                    lscale, FL, lamL, flL)
+        for s in range(S):
+            rescue[s, m] = False
+            F0 = F0L[s]
+            F = FL[s]
+            lam = lamL[s]
+            n_it = itL[s]
+            done = doneL[s]
+            _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
+                         couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
+                         flL[s], fs, lam_out, iters, conv, flags, rescue, none)
+
+
+@njit(cache=True, fastmath=_FASTMATH)
+def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
+                 couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
+                 fl_lanes, fs, lam_out, iters, conv, flags, rescue, none):
+    """After Newton on one cell: its flags (``fl_lanes``, :func:`_post_lanes`), the
+    continuation where needed, its outputs."""
+    s1 = fscale[m]
+    s2 = fscale[m] * lscale[m]
+    fl = 8
+    if F > 0.0 and np.isfinite(F):
+        fl = fl_lanes
+    # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
+    # reverse_circles): neither the continuation nor the scan can replace it
+    if (fl & 40) != 0 and not reverse[m]:
+        # Newton from (Bishop's F, lam = 0) diverged or reached a spurious
+        # root (negative base strength): continuation from Spencer's
+        # constant function, whose root is found reliably from that start,
+        # to f in two steps, each started from the root of the previous
+        # one. Not retried when Newton merely ran out of iterations: on the
+        # demo and benchmark banks the continuation rescued none of those
+        # and cost a fifth of the M-P throughput.
+        F2 = F0
+        lam2 = 0.0
+        ok = True
+        ft = np.empty((1, f.shape[1]))
+        for step in range(3):
+            tw = 0.5 * step
+            for i in range(f.shape[1]):
+                ft[0, i] = (1.0 - tw) + tw * f[m, i]
+            F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, 0,
+                                       G0[m], s1, s2, tol, max_iter, F2, lam2)
+            n_it += k2
+            if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
+                ok = False
+                break
+        if ok:
+            fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
+                        couple, fscale, lscale, F2, lam2, none, none, none, none, False)
+            if (fl2 & 32) == 0:
+                F = F2
+                lam = lam2
+                done = True
+                fl = fl2
+    # Newton from lam = 0 (and the continuation) missed, or reached a
+    # root across a pole of the recursion: the lam scan over both signs
+    # looks for a root on the physical branch (after this kernel)
+    rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
+    fs[s, m] = F
+    lam_out[s, m] = lam
+    iters[s, m] = n_it
+    conv[s, m] = done
+    flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
 
 
 @njit(cache=True, fastmath=_FASTMATH)
@@ -674,15 +936,20 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
 
     Returns
     -------
-    dict with ``fs``, ``lam``, ``converged``, ``flags``, ``iterations`` and
+    dict with ``fs``, ``lam``, ``converged``, ``flags``, ``iterations``,
+    ``strengths_ok`` (True when the Bishop start found every strength finite
+    and >= 0, see :func:`slope.methods.bishop.solve_single_equation`) and
     optionally ``E``, ``X``, ``thrust_y``, ``normal_eff``.
     ``iterations`` counts Newton's steps, the continuation's and the lam
     scan's (neither is run on :func:`reverse_circles`).
     """
     S, M, N = c.shape
+    strengths_ok = False
     if F_start is None:
         from .bishop import bishop
-        F_start = bishop(terms, c, tan_phi, tol=1e-3, max_iter=20)["fs"]
+        start = bishop(terms, c, tan_phi, tol=1e-3, max_iter=20)
+        F_start = start["fs"]
+        strengths_ok = start["strengths_ok"]  # Bishop's kernel read and checked them all
     c = _dense(c, (S, M, N))
     tan_phi = _dense(tan_phi, (S, M, N))
     F_start = _dense(F_start, (S, M))
@@ -708,7 +975,8 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
         lam[si, mi] = lr[found]
         conv[si, mi] = True
         flags[si, mi] = flr[found]
-    out = {"fs": fs, "lam": lam, "converged": conv, "flags": flags, "iterations": iters}
+    out = {"fs": fs, "lam": lam, "converged": conv, "flags": flags, "iterations": iters,
+           "strengths_ok": strengths_ok}
     if return_forces:
         E = np.empty((S, M, N + 1))
         X = np.empty((S, M, N + 1))

@@ -56,17 +56,14 @@ def comparison_table(res) -> dict:
     return {"hypotheses": hyps, "quantities": QUANTITIES, "rows": out}
 
 
-_MECHANISM_HEADER = ["FS circles alone (-)", "governing family", "governing surface x y (m)"]
+def _mechanism_columns(run, mech: bool) -> list:
+    """Per realisation: FS with circles alone (when other families or a search ran), then the governing surface."""
+    from ..simulate.failure_geometry import governing_surfaces, surface_columns
 
-
-def _mechanism_columns(result) -> list:
-    """Per realisation: FS with circles alone, the family that governed, the governing surface's vertices."""
-    from ..simulate.mechanism_results import accepted_surfaces, surface_text
-
-    fams = result.governing_families()
-    surfs = accepted_surfaces(result)
+    result = run.result
+    gov = run.governing if run.governing is not None else governing_surfaces(result)
     fc = result.fs_circles_only
-    return [[float(fc[k]), str(fams[k]), surface_text(surfs[k])] for k in range(result.n)]
+    return [([float(fc[k])] if mech else []) + surface_columns(gov, k) for k in range(result.n)]
 
 
 def _csv_tables(stage: Path, res) -> list[dict]:
@@ -108,11 +105,14 @@ def _csv_tables(stage: Path, res) -> list[dict]:
         if sp is None:
             continue
         a = sp.spatial
-        extra = _mechanism_columns(a.result) if mech else [[] for _ in range(len(a.fs))]
+        extra = _mechanism_columns(a, mech)
         rows += [[h, k, float(a.fs[k]), int(a.critical_index[k]), float(a.fs_fixed[k]), *extra[k]]
                  for k in range(len(a.fs))]
+    from ..simulate.failure_geometry import SURFACE_HEADER
+
     write_csv(stage / "fs_realisations.csv", ["hypothesis", "realisation", "FS critical (-)", "bank index",
-                                               "FS fixed surface (-)"] + (_MECHANISM_HEADER if mech else []), rows)
+                                               "FS fixed surface (-)"] + (["FS circles alone (-)"] if mech else [])
+              + SURFACE_HEADER, rows)
     slices = []
     for h, ms in res.deterministic.items():
         for m, d in ms.items():

@@ -87,6 +87,11 @@ def exclusion_table(res) -> dict:
                                n - (run.fixed.n_valid if run.fixed is not None else 0))):
                 if k:
                     rows.append(_row(f"{h} · {name}", "realisations", reason, int(k), n))
+            # the bank's non-circular surfaces judged per realisation (slope.simulate.bank_checks)
+            for reason, k in (getattr(run.result, "bank_rejected", None) or {}).items():
+                if k:
+                    rows.append(_row(f"{h} · {name}", "lowest non-circular bank surfaces of a realisation",
+                                     reason, int(k), None))
         q = sp.quick
         if q.realisations - q.n_valid:
             rows.append(_row(f"{h} · quick σ√γ estimate", "realisations",

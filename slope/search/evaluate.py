@@ -16,8 +16,10 @@ import numpy as np
 
 from ..bank import build_bank
 from ..errors import InputError
+from ..methods.result import THRUST_OUTSIDE
 from ..strength import base_strength
 from ..surfaces import Circle, Circles, Polyline
+from .interslice_retry import retry_label, retry_rows
 from .interslice_strength import INTERSLICE_REASON
 
 _TOLERABLE = {"negative-normal": 1, "small-m-alpha": 2, "thrust-outside": 4}
@@ -71,6 +73,14 @@ class SearchResult:
         Largest interslice shear needed over shear available of each trial
         (:mod:`slope.search.interslice_strength`); NaN where not checked
         (circles, invalid geometry), None when no trial was checked.
+    interslice_function : ndarray of object (n_trials,) or None
+        Trials counted with a Morgenstern-Price solution of another
+        interslice function after the first solution failed the interslice
+        shear-strength check or the thrust-line criterion: the function's
+        name ('' elsewhere; :mod:`slope.search.interslice_retry`). None when
+        no trial was checked.
+    retried : dict str -> int
+        Those trials counted, by method and interslice function.
     """
 
     search: str
@@ -89,6 +99,8 @@ class SearchResult:
     history: list = field(default_factory=list)
     trials_rejected: dict = field(default_factory=dict)
     interslice_ratio: np.ndarray = None
+    interslice_function: np.ndarray = None
+    retried: dict = field(default_factory=dict)
 
     def summary(self) -> str:
         rej = ", ".join(f"{k}: {v}" for k, v in sorted(self.rejected.items())) or "none"
@@ -113,7 +125,7 @@ def _surface_of(surfaces, i):
 
 def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop", n_slices=40,
                       overrides=None, tolerate=("negative-normal", "thrust-outside"), search="given",
-                      min_depth=None, interslice_check=True, **method_opts) -> SearchResult:
+                      min_depth=None, interslice_check=True, bank=None, **method_opts) -> SearchResult:
     """Factor of safety of every trial surface for one set of strengths.
 
     Parameters
@@ -142,8 +154,15 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         solved by Spencer or Morgenstern-Price against the strength across
         the slice boundaries (:mod:`slope.search.interslice_strength`): a
         counted solution needing more is no longer counted, under
-        :data:`INTERSLICE_REASON`. Circles are never judged this way (their
-        acceptance, and every result built on them, is unchanged).
+        :data:`INTERSLICE_REASON`. A non-circular solution refused by it, or
+        by a line of thrust outside the mass where ``tolerate`` does not
+        name it, is first solved again by Morgenstern-Price with the other
+        interslice functions (:mod:`slope.search.interslice_retry`). Circles are never judged this
+        way (their acceptance, and every result built on them, is unchanged).
+    bank : SliceBank, optional
+        The slice bank of ``surfaces`` when already built (by
+        :func:`slope.bank.build_bank` with the same section and
+        ``n_slices``, e.g. rows of a simulator's bank); built here otherwise.
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
 
@@ -153,7 +172,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     """
     methods = _methods()
     tol_mask = _tolerated_mask(tolerate)
-    bank = build_bank(section, surfaces, n_slices=n_slices)
+    if bank is None:
+        bank = build_bank(section, surfaces, n_slices=n_slices)
     if isinstance(surfaces, (Circle, Polyline)):
         surfaces = [surfaces]
     n_shallow = 0
@@ -161,6 +181,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         bank, surfaces, n_shallow = _drop_shallow(bank, surfaces, float(min_depth))
     m = bank.n_surfaces
     isr = None
+    function = None
+    retried = Counter()
     rejected = Counter(str(r) for r in bank.reason[~bank.valid])
     rejected[MIN_DEPTH_REASON] += n_shallow
     fs = np.full(m, np.nan)
@@ -175,14 +197,13 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         elif overrides is not None:
             ov = {k: np.broadcast_to(np.asarray(v, float), (m, bank.n_slices))[idx] for k, v in overrides.items()}
         c, tp = base_strength(sub, section.materials, hypothesis, ov)
-        check = (interslice_check and methods.method_spec(method).name in _INTERSLICE_METHODS
-                 and not np.all(np.isfinite(sub.centre_x)))
+        spec = methods.method_spec(method)
+        poly = ~np.isfinite(sub.centre_x)
+        check = interslice_check and spec.name in _INTERSLICE_METHODS and bool(poly.any())
         res = methods.factor_of_safety(sub, c, tp, method=method, return_forces=check, **method_opts)
         f = res.fs.reshape(-1, len(idx))[0]
         fl = np.asarray(res.flags).reshape(-1, len(idx))[0]
         conv = np.asarray(res.converged).reshape(-1, len(idx))[0]
-        fs[idx] = f
-        flags[idx] = fl
         # a negative effective normal force changes nothing where every base
         # of the surface is frictionless (phi = 0: strength c l alone)
         frictionless = np.all(np.broadcast_to(tp, res.fs.shape + (sub.n_slices,)).reshape(
@@ -190,16 +211,36 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         bad = fl & ~tol_mask & ~np.where(frictionless, _TOLERABLE["negative-normal"], 0)
         ok = conv & (bad == 0) & np.isfinite(f)
         if check:
-            ratio, fails = _interslice(section, sub, res, len(idx), hypothesis, overrides, ok)
+            # clean but for the line of thrust (where the search does not tolerate it outside the mass): judged
+            # for interslice shear too, and retried with another interslice function before being refused
+            # (slope.search.interslice_retry)
+            near = conv & ((bad & ~THRUST_OUTSIDE) == 0) & np.isfinite(f)
+            judge = _interslice_judge(section, sub, hypothesis, overrides)
+            ratio, fails = judge(np.arange(len(idx)), res, near)
+            refused = np.flatnonzero(near & poly & (fails | ((bad & THRUST_OUTSIDE) != 0)))
+            if refused.size:
+                used = str(method_opts.get("interslice", "constant")) if spec.name == "morgenstern-price" \
+                    else "constant"
+                rf, rfl, rratio, rfun = retry_rows(section, sub, refused, c, tp, used=used, hypothesis=hypothesis,
+                                                   overrides=overrides, tolerated=tol_mask,
+                                                   frictionless=frictionless, judge=judge, F_start=f[refused])
+                got = refused[rfun != ""]
+                f, fl = f.copy(), fl.copy()
+                f[got], fl[got], ratio[got] = rf[rfun != ""], rfl[rfun != ""], rratio[rfun != ""]
+                bad[got], fails[got] = 0, False
+                function = np.full(m, "", dtype=object)
+                function[idx[got]] = rfun[rfun != ""]
+                for name in rfun[rfun != ""]:
+                    retried[retry_label(name)] += 1
             isr = np.full(m, np.nan)
             isr[idx] = ratio
-            rejected[INTERSLICE_REASON] += int(fails.sum())
-            ok = ok & ~fails
+            rejected[INTERSLICE_REASON] += int(fails.sum())    # judged on `near` rows only
+            ok = conv & (bad == 0) & np.isfinite(f) & ~fails
+        fs[idx] = f
+        flags[idx] = fl
         counted[idx] = ok
         rejected["not converged"] += int(np.sum(~conv))
         for bit, name in methods.FLAG_NAMES.items():
-            if bit & tol_mask:
-                continue
             rejected[name] += int(np.sum(conv & ((bad & bit) != 0)))
     rejected = {k: v for k, v in rejected.items() if v}
     if counted.any():
@@ -209,28 +250,50 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         i, crit, fmin, cflags = -1, None, float("nan"), 0
     return SearchResult(search=search, method=str(method), fs_min=fmin, critical=crit, critical_index=i,
                         critical_flags=cflags, surfaces=surfaces, fs=fs, counted=counted, flags=flags,
-                        rejected=rejected, n_trials=m + n_shallow, bank=bank, interslice_ratio=isr)
+                        rejected=rejected, n_trials=m + n_shallow, bank=bank, interslice_ratio=isr,
+                        interslice_function=function, retried=dict(retried))
 
 
-def _interslice(section, sub, res, k, hypothesis, overrides, ok):
-    """Largest interslice shear ratio of each surface of ``sub`` (NaN on circles) and which fail the check."""
+def _interslice_judge(section, sub, hypothesis, overrides):
+    """``judge(rows, res, ok) -> (ratio, fails)``: the interslice check of solutions on rows of ``sub``.
+
+    ``res`` holds the solutions of the surfaces ``rows`` of ``sub`` (in that
+    order, with their forces); ``ok`` says which to judge (non-circular
+    ones only; NaN ratio elsewhere). The strength across each surface's
+    slice boundaries does not depend on the solution: it is computed once
+    per surface and kept, so a retry with another interslice function
+    (:mod:`slope.search.interslice_retry`) pays only for its forces.
+    """
     from ..methods.terms import prepare_bank
-    from .interslice_strength import RATIO_TOLERANCE, boundary_strength, interslice_ratio
+    from .interslice_strength import RATIO_TOLERANCE, BoundaryStrength, boundary_strength, interslice_ratio
 
-    poly = ~np.isfinite(sub.centre_x) & ok
-    ratio = np.full(k, np.nan)
-    if poly.any():
-        rows = np.flatnonzero(poly)
-        part = sub.subset(rows)
-        ov = overrides if callable(overrides) or overrides is None else {
-            key: np.asarray(v, float) for key, v in overrides.items()}
-        st = boundary_strength(section, part, hypothesis, ov)
-        E = np.asarray(res.E).reshape(-1, k, sub.n_slices + 1)[0][rows]
-        X = np.asarray(res.X).reshape(-1, k, sub.n_slices + 1)[0][rows]
-        F = np.asarray(res.fs).reshape(-1, k)[0][rows]
-        r = interslice_ratio(st, E, X, F, prepare_bank(part).force_scale)
-        ratio[rows] = r.max(axis=1) if r.shape[1] else 0.0
-    return ratio, np.nan_to_num(ratio, nan=0.0) > 1.0 + RATIO_TOLERANCE
+    ov = overrides if callable(overrides) or overrides is None else {
+        key: np.asarray(v, float) for key, v in overrides.items()}
+    held = {}
+
+    def judge(rows, res, ok):
+        rows = np.asarray(rows)
+        k = rows.size
+        ratio = np.full(k, np.nan)
+        sel = np.flatnonzero(~np.isfinite(sub.centre_x[rows]) & ok)
+        if sel.size:
+            need = np.asarray([r for r in rows[sel] if r not in held], dtype=int)
+            if need.size:
+                part = sub.subset(need)
+                st = boundary_strength(section, part, hypothesis, ov)
+                scale = prepare_bank(part).force_scale
+                for j, r in enumerate(need):
+                    held[r] = (st.cohesion[j], st.tan_phi[j], st.water[j], st.height[j], scale[j])
+            got = [held[r] for r in rows[sel]]
+            st = BoundaryStrength(*(np.stack([g[q] for g in got]) for q in range(4)))
+            E = np.asarray(res.E).reshape(-1, k, sub.n_slices + 1)[0][sel]
+            X = np.asarray(res.X).reshape(-1, k, sub.n_slices + 1)[0][sel]
+            F = np.asarray(res.fs).reshape(-1, k)[0][sel]
+            r = interslice_ratio(st, E, X, F, np.array([g[4] for g in got]))
+            ratio[sel] = r.max(axis=1) if r.shape[1] else 0.0
+        return ratio, np.nan_to_num(ratio, nan=0.0) > 1.0 + RATIO_TOLERANCE
+
+    return judge
 
 
 #: Methods whose solutions carry interslice forces E and X to judge.

@@ -59,6 +59,9 @@ RATIO_TOLERANCE = 0.01
 INTERSLICE_REASON = "interslice shear above the strength across a slice boundary"
 
 _N_GAUSS = 3
+#: Gauss-Legendre points and weights on [0, 1] (computed once: a call costs as much as a small bank's check)
+_GAUSS = tuple(np.polynomial.legendre.leggauss(_N_GAUSS))
+_GAUSS = (0.5 * (_GAUSS[0] + 1.0), 0.5 * _GAUSS[1])
 
 
 @dataclass
@@ -142,8 +145,7 @@ def boundary_strength(section, bank, hypothesis="drained", overrides=None) -> Bo
     br = np.concatenate([np.where(np.isnan(ye), lo[..., None], ye)] + extra, axis=-1)
     br = np.sort(np.clip(br, lo[..., None], hi[..., None]), axis=-1)
     a, b = br[..., :-1], br[..., 1:]                            # pieces, (m, n-1, P)
-    tq, wq = np.polynomial.legendre.leggauss(_N_GAUSS)
-    tq, wq = 0.5 * (tq + 1.0), 0.5 * wq
+    tq, wq = _GAUSS
     y = a[..., None] + (b - a)[..., None] * tq                  # (m, n-1, P, q)
     dz = (b - a)[..., None] * wq
     x = np.broadcast_to(xb[..., None, None], y.shape)

@@ -10,11 +10,12 @@ import numpy as np
 
 from ..errors import InputError
 from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
+from .bank_checks import bank_checks_apply, check_bank_polylines
 from .engine import batch_fs, prepare
 from .problem import RandomProblem
 from .executors import (SCHEDULER_TIMEOUT_S, SchedulerLost, _await_workers, _ship, _unship,  # noqa: F401
                         _unship_orphans, connect_scheduler, run_tasks, start_workers)
-from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing
+from .store import BLOCK, BlockStore, StoreRepairWarning, open_existing, take_realisations
 
 __all__ = ["SimulationResult", "simulate", "realise_fields", "store_header", "load_store", "BLOCK", "start_workers",
            "connect_scheduler", "SchedulerLost"]
@@ -70,10 +71,29 @@ class SimulationResult:
         random numbers with ``fs``).
     crit_circles : ndarray of int (n,) or None
         The bank index of that circle (-1 where none qualified).
-    refined_xy : ndarray (n, v, 2) or None
-        With the dynamic-programming search: vertices (section frame, m) of
-        each realisation's accepted surface where the search lowered its FS,
-        NaN-padded (NaN rows elsewhere).
+    searched_vertices : structured ndarray or None
+        With a per-realisation search: the vertices (section frame, m) of
+        the polyline it found, for each realisation where that polyline
+        lowered the FS, one row per vertex (fields ``realisation``, ``x``,
+        ``y``, in realisation order; see :meth:`searched_surfaces`). Only
+        those realisations hold rows, so memory grows with them, not with n.
+    searched_geometry : structured ndarray or None
+        One row per such realisation: ``realisation``, sliding-mass
+        ``area`` (m² per m), greatest ``depth`` (m), ``x_upslope``,
+        ``x_downslope`` (m), measured on the slices the search judged
+        (:mod:`.failure_geometry`).
+    bank_rejected : dict or None
+        For banks holding non-circular surfaces solved by Spencer or
+        Morgenstern-Price: the surfaces that were the lowest of a realisation
+        and failed the checks of the searches with its fields, by reason,
+        over all realisations (:mod:`slope.simulate.bank_checks`); None for
+        other banks.
+    bank_retried : int
+        Those surfaces counted with another interslice function's solution.
+    refine_functions : dict
+        With the dynamic-programming search: realisations whose lowered FS
+        is a Morgenstern-Price solution with another interslice function
+        (the path's first solution was refused), by method and function.
     """
 
     fs: np.ndarray
@@ -92,8 +112,12 @@ class SimulationResult:
     flags: dict | None = None
     store_notices: list = field(default_factory=list)
     fs_circles: np.ndarray | None = None
-    refined_xy: np.ndarray | None = None
+    searched_vertices: np.ndarray | None = None
     crit_circles: np.ndarray | None = None
+    searched_geometry: np.ndarray | None = None
+    bank_rejected: dict | None = None
+    bank_retried: int = 0
+    refine_functions: dict = field(default_factory=dict)
 
     @property
     def n(self) -> int:
@@ -124,17 +148,35 @@ class SimulationResult:
         return int(np.sum(np.isfinite(fb) & (fb >= lo) & (fb < float(self.refine["below"]))
                           & (self.critical_index >= 0)))
 
+    def searched_surfaces(self) -> dict:
+        """{realisation: vertices (m, 2), section frame, m} of the polylines the per-realisation search found.
+
+        Only realisations whose FS the search lowered with a polyline of its
+        own; every other realisation is governed by its bank surface
+        (``critical_index``).
+        """
+        v = self.searched_vertices
+        if v is None or v.size == 0:
+            return {}
+        cut = np.flatnonzero(np.diff(v["realisation"])) + 1
+        return {int(g["realisation"][0]): np.c_[g["x"], g["y"]] for g in np.split(v, cut)}
+
+    @property
+    def searched_family(self) -> str | None:
+        """Family name of the surfaces the per-realisation search found (None without a search)."""
+        return None if self.refine is None else f"{self.refine.get('search', 'nelder-mead')} (per realisation)"
+
     def governing_families(self) -> np.ndarray:
-        """Family that governed each realisation (its critical surface's; the search's where it lowered FS)."""
+        """Family that governed each realisation (its critical surface's; the search's where its polyline lowered FS)."""
         from ..surfaces import family_of
 
         if self.problem is None:
             raise InputError("governing_families needs the result of simulate() (problem attached)")
         fam = np.array([family_of(s) for s in self.problem.surfaces] + ["none"], dtype=object)
         out = fam[np.where(self.critical_index >= 0, self.critical_index, len(fam) - 1)]
-        if self.refine is not None and self.refine.get("search") == "dynamic-programming":
-            refined = np.isfinite(self.fs) & np.isfinite(self.fs_bank) & (self.fs < self.fs_bank)
-            out = np.where(refined, "dynamic-programming (per realisation)", out)
+        searched = list(self.searched_surfaces())
+        if searched:
+            out[searched] = self.searched_family
         return out
 
     def family_counts(self) -> dict:
@@ -191,6 +233,9 @@ class SimulationResult:
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined, "n_searched": self.n_searched,
                 "refine_rejected": self.refine_rejected,
+                **({"refine_interslice_functions": dict(self.refine_functions)} if self.refine_functions else {}),
+                **({"bank_checks": {"rejected": self.bank_rejected, "retried": self.bank_retried}}
+                   if self.bank_rejected is not None else {}),
                 **self._mechanism_dict(),
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
 
@@ -206,29 +251,40 @@ class SimulationResult:
         return out
 
     def failure_map(self, x_edges, y_edges):
-        """Density of failed critical surfaces.
+        """Density of the governing surfaces of failed realisations.
 
-        Fraction of realisations (over all n) whose critical surface has
+        Fraction of realisations (over all n) whose governing surface has
         FS < 1 and passes through each cell (a cell counts once per
-        realisation when any slice-base midpoint of that surface lies in it).
-        ``x_edges``, ``y_edges`` in the section frame (m).
+        realisation when any slice-base midpoint of that surface lies in it):
+        the per-realisation search's own polyline where it lowered FS
+        (:meth:`searched_surfaces`, sliced as
+        :func:`.failure_geometry.slice_searched` measures it), else the bank's
+        critical surface. ``x_edges``, ``y_edges`` in the section frame (m).
 
         Returns
         -------
         ndarray (len(x_edges)-1, len(y_edges)-1)
         """
+        from .failure_geometry import slice_searched
+
         if self.problem is None:
             raise InputError("failure_map needs the result of simulate() (problem attached)")
-        bank = self.problem.bank
         xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
         out = np.zeros((xe.size - 1, ye.size - 1))
         failed = np.isfinite(self.fs) & (self.fs < 1.0)
-        idx, counts = np.unique(self.critical_index[failed], return_counts=True)
-        for j, cnt in zip(idx, counts):
-            # slice positions are in the sliding frame (x' = direction * x):
-            # back to the section frame, or the map is mirrored for slopes facing -x
-            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
-            out += (h > 0) * cnt
+        searched = self.searched_surfaces()
+        own = [k for k in sorted(searched) if failed[k]]
+        failed[own] = False
+        banks = [(self.problem.bank, *np.unique(self.critical_index[failed], return_counts=True))]
+        if own:
+            banks.append((slice_searched(self.problem, [searched[k] for k in own]), np.arange(len(own)),
+                          np.ones(len(own), int)))
+        for bank, idx, counts in banks:
+            for j, cnt in zip(idx, counts):
+                # slice positions are in the sliding frame (x' = direction * x):
+                # back to the section frame, or the map is mirrored for slopes facing -x
+                h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+                out += (h > 0) * cnt
         return out / max(self.n, 1)
 
 
@@ -253,52 +309,88 @@ def _reduce(problem, fs, conv, adm):
             "nonconv": nonconv, "inadm": inadm, "none": none}
 
 
+#: sparse store arrays of the per-realisation search: the vertices of each polyline it found where it
+#: lowered FS, and their geometry (rows of failure_geometry.VERTEX_DTYPE / GEOMETRY_DTYPE, for those
+#: realisations only: memory grows with them, not with n)
+SEARCHED_VERTICES, SEARCHED_GEOMETRY = "sparse_searched_vertices", "sparse_searched_geometry"
+
+
 def _run_block(problem, seed, start, stop, refine=None):
     fs, conv, adm = batch_fs(problem, seed, range(start, stop))
+    checked = None
+    if bank_checks_apply(problem):
+        # the bank's non-circular surfaces pass the checks of the searches before they count
+        checked = check_bank_polylines(problem, seed, start, fs, conv, adm)
     out = _reduce(problem, fs, conv, adm)
+    if checked is not None:
+        from .refinement import REFINE_REASONS
+
+        out["bank_rejected"] = np.zeros(fs.shape[0], dtype=[("n", np.int64, (len(REFINE_REASONS),))])
+        out["bank_rejected"]["n"] = checked[0]
+        out["bank_retried"] = checked[1]
     if refine is not None:
-        from .refinement import refine_realisation
+        from ..surfaces import Polyline
+        from .refinement import REFINE_REASONS, refine_realisation
 
         fs_c = out["fs"]
         out["fs_bank"] = fs_c.copy()
         out["refined"] = np.zeros(fs_c.size, bool)
         dp = getattr(refine, "search", "nelder-mead") == "dynamic-programming"
         if dp:
-            from .mechanisms import max_vertices, mechanism_search
+            from .mechanisms import mechanism_search
+        from .failure_geometry import GEOMETRY_DTYPE, measure, slice_searched, vertex_rows
 
-            # one record per realisation (stores hold 1-D arrays): the accepted surface's vertices, NaN-padded
-            xy = np.zeros(fs_c.size, dtype=[("xy", float, (max_vertices(refine), 2))])
-            xy["xy"] = np.nan
-        from .refinement import REFINE_REASONS
+        found = []  # (realisation, vertices, geometry) of the searched surfaces that lowered FS
 
         # one record per realisation (stores hold 1-D arrays): rejections by reason
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         # the window [above, below): below ``above`` (1 for case files) a realisation already fails
         near = np.isfinite(fs_c) & (fs_c < refine.below) & (fs_c >= refine.above) & (out["crit"] >= 0)
+        if dp:
+            from ..search.interslice_retry import RETRY_FUNCTIONS
+
+            # which interslice function gave a lowered realisation's FS when the path's first solution was
+            # refused (0: the first solution; i + 1: RETRY_FUNCTIONS[i])
+            out["refine_function"] = np.zeros(fs_c.size, np.int8)
         for r in np.flatnonzero(near):
+            measured = {}
             if dp:
-                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine)
+                f, surf, rej = mechanism_search(problem, seed, start + int(r), fs[r], conv[r] & adm[r], refine,
+                                                measured=measured)
             else:
                 f, surf, rej = refine_realisation(problem, seed, start + int(r), int(out["crit"][r]), refine)
             out["refine_rejected"]["n"][r] = rej
             if np.isfinite(f) and f < fs_c[r]:
                 fs_c[r] = f
                 out["refined"][r] = True
-                if dp and hasattr(surf, "points") and len(surf.points) <= xy["xy"].shape[1]:
-                    xy["xy"][r, :len(surf.points)] = surf.points
-        if dp:
-            out["refined_xy"] = xy
+                if isinstance(surf, Polyline):  # a bank circle re-judged by the search's method is no new shape
+                    geo = measured.get("geometry") or measure(slice_searched(problem, [surf.points]), 0)
+                    found.append((start + int(r), surf.points, geo))
+                if measured.get("interslice_function"):
+                    out["refine_function"][r] = RETRY_FUNCTIONS.index(measured["interslice_function"]) + 1
+        out[SEARCHED_VERTICES] = vertex_rows([(k, xy) for k, xy, _ in found])
+        out[SEARCHED_GEOMETRY] = np.array([(k, *geo) for k, _, geo in found], dtype=GEOMETRY_DTYPE)
     _circles_only(problem, fs, conv, adm, out)
     return out
 
 
-def _refine_rejected(allr):
-    if "refine_rejected" not in allr:
+def _refine_rejected(allr, key="refine_rejected"):
+    if key not in allr:
         return None
     from .refinement import REFINE_REASONS
 
-    tot = np.asarray(allr["refine_rejected"]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
+    tot = np.asarray(allr[key]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
     return {k: int(v) for k, v in zip(REFINE_REASONS, tot) if v}
+
+
+def _refine_functions(allr):
+    """{method and interslice function: realisations whose lowered FS came from it after a retry}."""
+    if "refine_function" not in allr:
+        return {}
+    from ..search.interslice_retry import RETRY_FUNCTIONS, retry_label
+
+    code = np.asarray(allr["refine_function"])
+    return {retry_label(f): int(np.sum(code == i + 1)) for i, f in enumerate(RETRY_FUNCTIONS) if np.any(code == i + 1)}
 
 
 def _circles_only(problem, fs, conv, adm, out):
@@ -338,7 +430,17 @@ def store_header(problem, seed, refine=None, extra: dict | None = None) -> dict:
         ident["refine"] = _refine_settings(refine).describe()
         # the acceptance rules of the search (each has its reason; the stored counts are per reason):
         # a store written before the interslice shear-strength check existed is not continued with it
-        ident["refine"]["acceptance"] = list(REFINE_REASONS)
+        from ..search.interslice_retry import RETRY_FUNCTIONS
+
+        # and the interslice functions a refused path is solved again with before it is refused
+        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [f"retried: {', '.join(RETRY_FUNCTIONS)}"]
+    if bank_checks_apply(problem):
+        from ..search.interslice_retry import RETRY_FUNCTIONS
+        from .refinement import REFINE_REASONS
+
+        # the bank's non-circular surfaces are judged per realisation (slope.simulate.bank_checks):
+        # a store written before, or with other rules, is not continued
+        ident["bank_checks"] = {"reasons": list(REFINE_REASONS), "retry": list(RETRY_FUNCTIONS)}
     if extra:
         ident.update(extra)
     return ident
@@ -351,9 +453,16 @@ def load_store(store) -> dict:
     -------
     dict key -> ndarray (n_stored,)
         ``fs``, ``crit``, ``fs_fixed``, ``fixed_ok``, ``nonconv``, ``inadm``,
-        ``none`` (and ``fs_bank``, ``refined`` with refinement), from
-        realisation 0 up to the first missing or rejected block; empty dict
-        for an empty or missing store. Blocks are checked as on resume.
+        ``none`` (and ``fs_bank``, ``refined`` with refinement; and the
+        sparse ``sparse_searched_vertices``, one row per vertex of the
+        searched surfaces), from realisation 0 up to the first missing or
+        rejected block; empty dict for an empty or missing store. Blocks are
+        checked as on resume.
+
+    Raises
+    ------
+    InputError
+        The store was written in another store format version.
     """
     st = open_existing(store)
     return {} if st is None else st.load()
@@ -540,7 +649,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
         if bar is not None:
             bar.close()
     allr = _concat([{k: v for k, v in parts[b].items() if k != "_stop"} for b in sorted(parts)])
-    allr = {k: v[:n] for k, v in allr.items()}
+    allr = take_realisations(allr, 0, n)
     flags = {k: allr[k].astype(bool) for k in ("nonconv", "inadm", "none", "refined") if k in allr}
     return SimulationResult(fs=allr["fs"], critical_index=allr["crit"].astype(int), fs_fixed=allr["fs_fixed"],
                             fixed_ok=allr["fixed_ok"].astype(bool), n_nonconverged=int(allr["nonconv"].sum()),
@@ -549,10 +658,14 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             fs_bank=allr.get("fs_bank"),
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
                             refine_rejected=_refine_rejected(allr),
+                            bank_rejected=_refine_rejected(allr, "bank_rejected"),
+                            refine_functions=_refine_functions(allr),
+                            bank_retried=int(allr["bank_retried"].sum()) if "bank_retried" in allr else 0,
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],
                             fs_circles=allr.get("fs_circles"), crit_circles=allr.get("crit_circles"),
-                            refined_xy=allr["refined_xy"]["xy"] if "refined_xy" in allr else None)
+                            searched_vertices=allr.get(SEARCHED_VERTICES),
+                            searched_geometry=allr.get(SEARCHED_GEOMETRY))
 
 
 def realise_fields(problem, seed, k):

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["MechanismSummary", "mechanism_summary", "accepted_surfaces", "surface_text", "mechanism_maps"]
+__all__ = ["MechanismSummary", "mechanism_summary", "accepted_surfaces", "mechanism_maps"]
 
 
 @dataclass
@@ -89,13 +89,6 @@ def mechanism_summary(result) -> MechanismSummary | None:
                                                                 float(result.refine["below"])))
 
 
-def _bank_xy(bank, i):
-    d = bank.direction[i]
-    x = np.r_[bank.x_left[i], bank.x_right[i, -1]] * d
-    y = np.r_[bank.y_base_left[i], bank.y_base_right[i, -1]]
-    return np.c_[x, y]
-
-
 def accepted_surfaces(result, which="free") -> list:
     """The surface of each realisation as [x, y] vertices (section frame, m); None where none qualified.
 
@@ -103,9 +96,11 @@ def accepted_surfaces(result, which="free") -> list:
     ----------
     which : {"free", "circles"}
         ``free``: the surface that governs (the per-realisation search's
-        where it lowered FS, else the bank's critical surface);
+        polyline where it lowered FS, else the bank's critical surface);
         ``circles``: the critical circle of the bank's circles alone.
     """
+    from .failure_geometry import surface_xy
+
     if which not in ("free", "circles"):
         raise InputError(f"accepted_surfaces: which={which!r}; use 'free' or 'circles'")
     if result.problem is None:
@@ -115,30 +110,24 @@ def accepted_surfaces(result, which="free") -> list:
         crit = result.crit_circles if result.crit_circles is not None else result.critical_index
     else:
         crit = result.critical_index
+    searched = result.searched_surfaces() if which == "free" else {}
     cache, out = {}, []
     for k in range(result.n):
-        if which == "free" and result.refined_xy is not None and np.isfinite(result.refined_xy[k, 0, 0]):
-            xy = result.refined_xy[k]
-            out.append(xy[np.isfinite(xy[:, 0])])
+        if k in searched:
+            out.append(searched[k])
             continue
         i = int(crit[k])
         if i < 0:
             out.append(None)
             continue
         if i not in cache:
-            cache[i] = _bank_xy(bank, i)
+            cache[i] = surface_xy(bank, i)
         out.append(cache[i])
     return out
 
 
-def surface_text(xy) -> str:
-    """Vertices as text for a CSV cell: ``x y; x y; ...`` (m, 3 decimals); empty for None."""
-    if xy is None:
-        return ""
-    return "; ".join(f"{x:.3f} {y:.3f}" for x, y in np.asarray(xy, float))
-
-
 def _density(surfaces, fail, x_edges, y_edges):
+    """Cells each surface crosses, summed with the weights ``fail`` (bool: counted or not; int: how many times)."""
     dens = np.zeros((len(x_edges) - 1, len(y_edges) - 1))
     t = np.linspace(0.0, 1.0, 8, endpoint=False)
     for xy, f in zip(surfaces, fail):
@@ -147,7 +136,7 @@ def _density(surfaces, fail, x_edges, y_edges):
         # densified: a cell the surface crosses between two vertices still counts
         pts = np.vstack([xy[:-1] + (xy[1:] - xy[:-1]) * u for u in t] + [xy[-1:]])
         H, _, _ = np.histogram2d(pts[:, 0], pts[:, 1], bins=[x_edges, y_edges])
-        dens += H > 0
+        dens += (H > 0) * f
     return dens
 
 

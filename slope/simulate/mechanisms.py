@@ -30,7 +30,7 @@ from ..search.dynamic_programming import DP_FAMILY, DPSettings, _spencer, _start
 from ..surfaces import family_of
 from .refinement import START_UNUSABLE, _grid_values, realisation_overrides, rejection_counts
 
-__all__ = ["MECHANISM_SEARCH", "mechanism_search", "max_vertices", "surface_families"]
+__all__ = ["MECHANISM_SEARCH", "mechanism_search", "surface_families"]
 
 MECHANISM_SEARCH = DP_FAMILY
 _CACHE: OrderedDict = OrderedDict()
@@ -44,11 +44,6 @@ def surface_families(problem) -> list:
         fam = [family_of(s) for s in problem.surfaces]
         problem._families = fam
     return fam
-
-
-def max_vertices(settings) -> int:
-    """Upper bound of the vertices of a path found with ``settings`` (for fixed-size storage)."""
-    return int(settings.columns) + 32  # columns plus the ground's vertices inside a band
 
 
 def _family_codes(problem) -> np.ndarray:
@@ -104,7 +99,7 @@ def _start_data(problem, section, index, st, reuse):
     return data
 
 
-def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
+def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict | None = None):
     """Search realisation k from the lowest surfaces of different families.
 
     Parameters
@@ -117,6 +112,13 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     settings : RefineSettings
         ``families`` start surfaces, ``columns``, ``nodes``, ``passes`` of
         the grids, ``method`` of the final judgement.
+    measured : dict, optional
+        Filled with the geometry of the returned surface (key ``geometry``:
+        :func:`.failure_geometry.measure` of the slices it was judged on, so
+        it costs no second slicing) and, when the accepted path's first
+        solution was refused, the Morgenstern-Price interslice function whose
+        solution it counted with (key ``interslice_function``,
+        :mod:`slope.search.interslice_retry`).
 
     Returns
     -------
@@ -171,4 +173,10 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings):
     rej = rejection_counts(res.rejected) + rejection_counts({START_UNUSABLE: unusable} if unusable else {})
     if res.critical is None or not np.isfinite(res.fs_min):
         return float("nan"), None, rej
+    if measured is not None:
+        from .failure_geometry import measure
+
+        measured["geometry"] = measure(res.bank, res.critical_index)
+        if res.interslice_function is not None:
+            measured["interslice_function"] = str(res.interslice_function[res.critical_index])
     return float(res.fs_min), res.critical, rej

@@ -154,7 +154,9 @@ class SubsetResult:
         crit = self.failures["crit"]
         idx, cnt = np.unique(crit[crit >= 0], return_counts=True)
         for j, c in zip(idx, cnt):
-            h, _, _ = np.histogram2d(bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+            # slice positions are in the sliding frame (x' = direction * x): back to the section frame, or the
+            # map is mirrored for slopes facing -x (as SimulationResult.failure_map since issue 11)
+            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
             out += (h > 0) * c
         return out / max(crit.size, 1)
 

@@ -31,6 +31,19 @@ is there with :meth:`BlockStore.read_blocks`, and write each finished block
 with :meth:`BlockStore.write_block`. Per-realisation arrays must be 1-D with
 one row per realisation and a fixed dtype; the block size must not depend on
 jobs or batch size.
+
+*Sparse arrays* hold rows for some realisations only (e.g. the vertices of
+the surfaces a per-realisation search found, kept for the few realisations
+it lowered, so a store and a result grow with those, not with every
+realisation): their key starts with :data:`SPARSE_PREFIX` and they are 1-D
+structured arrays with an integer field ``realisation`` (global number,
+ascending, inside the block's range; several rows may share one). A block
+must hold at least one ordinary array, which gives its range.
+
+Format versions: 3 added sparse arrays (the per-realisation search's
+vertices moved from a fixed-size record of every realisation into one);
+a store of another version is never resumed (:meth:`BlockStore.check` says
+so and how to continue).
 """
 from __future__ import annotations
 
@@ -47,14 +60,40 @@ from ..errors import InputError
 from ..files import atomic_write_bytes
 
 __all__ = ["BlockStore", "StoreRepairWarning", "FORMAT", "VERSION", "BLOCK", "identity_digest",
-           "read_header"]
+           "read_header", "SPARSE_PREFIX", "is_sparse", "take_realisations"]
 
 FORMAT = "slipfield-block-store"
-VERSION = 2
+VERSION = 3
 BLOCK = 100  # realisations per on-disk block (fixed, independent of jobs and batch)
 HEADER = "header.json"
 _NAME = re.compile(r"^block_(\d{6})\.npz$")
 _META = ("_start", "_stop", "_store", "_checksum")
+
+
+#: key prefix of a sparse array (rows for some realisations only, see the module notes)
+SPARSE_PREFIX = "sparse_"
+
+
+def is_sparse(key: str) -> bool:
+    """Whether the array stored under ``key`` is sparse (rows tagged by ``realisation``)."""
+    return str(key).startswith(SPARSE_PREFIX)
+
+
+def take_realisations(arrays: dict, lo: int, hi: int) -> dict:
+    """Realisations ``lo .. hi-1`` of block arrays whose first ordinary row is realisation ``lo``.
+
+    Ordinary arrays are cut at ``hi - lo`` rows; sparse arrays keep the rows
+    whose ``realisation`` is below ``hi``.
+    """
+    return {k: (v[v["realisation"] < hi] if is_sparse(k) else v[:hi - lo]) for k, v in arrays.items()}
+
+
+def _sparse_ok(v, a: int, b: int) -> bool:
+    """A sparse array of a block of realisations a .. b-1: 1-D, tagged, ascending, inside the range."""
+    if v.ndim != 1 or v.dtype.names is None or "realisation" not in v.dtype.names:
+        return False
+    r = v["realisation"]
+    return bool(np.all((r >= a) & (r < b)) and np.all(np.diff(r) >= 0))
 
 
 class StoreRepairWarning(UserWarning):
@@ -203,8 +242,11 @@ class BlockStore:
         if a != start or not start < b <= start + self.block:
             return self._bad(path.name, f"holds realisations {a}..{b - 1}, not those of its position "
                                         f"({start}..{start + self.block - 1})")
-        if not arrays or any(v.shape != (b - a,) for v in arrays.values()):
+        dense = [v for k, v in arrays.items() if not is_sparse(k)]
+        if not dense or any(v.shape != (b - a,) for v in dense):
             return self._bad(path.name, "is truncated (arrays shorter than its range)")
+        if not all(_sparse_ok(v, a, b) for k, v in arrays.items() if is_sparse(k)):
+            return self._bad(path.name, "holds rows of realisations outside its range")
         if _checksum(arrays, a, b, store) != check:
             return self._bad(path.name, "does not match its checksum (edited or damaged)")
         return b, arrays
@@ -232,22 +274,27 @@ class BlockStore:
             if got is not None:
                 stop, arrays = got
                 stop = min(stop, n)
-                out[start] = (stop, {k: v[:stop - start] for k, v in arrays.items()})
+                out[start] = (stop, take_realisations(arrays, start, stop))
         return out
 
     def write_block(self, start: int, arrays: dict) -> Path:
         """Write the block starting at ``start`` (atomically, checksummed).
 
         ``arrays``: key -> 1-D array of the block's realisations
-        ``start .. start + len - 1`` (at most ``block``).
+        ``start .. start + len - 1`` (at most ``block``), and sparse arrays
+        (:data:`SPARSE_PREFIX`) of rows tagged with realisations in that range.
         """
         arrays = {k: np.ascontiguousarray(v) for k, v in arrays.items()}
-        sizes = {v.shape for v in arrays.values()}
+        sizes = {v.shape for k, v in arrays.items() if not is_sparse(k)}
         if start % self.block or len(sizes) != 1 or len(next(iter(sizes))) != 1:
             raise ValueError("write_block: start must be a block boundary and arrays 1-D of one length")
         stop = start + next(iter(sizes))[0]
         if not start < stop <= start + self.block:
             raise ValueError(f"write_block: {stop - start} rows do not fit a block of {self.block}")
+        bad = [k for k, v in arrays.items() if is_sparse(k) and not _sparse_ok(v, start, stop)]
+        if bad:
+            raise ValueError(f"write_block: sparse arrays {bad} need ascending 'realisation' rows in "
+                             f"{start}..{stop - 1}")
         meta = {"_start": np.int64(start), "_stop": np.int64(stop), "_store": np.str_(self.digest),
                 "_checksum": np.str_(_checksum(arrays, start, stop, self.digest))}
         buf = io.BytesIO()
@@ -276,10 +323,17 @@ class BlockStore:
 
 
 def open_existing(folder) -> BlockStore | None:
-    """The store in ``folder`` with the identity its header records (for reading); None if none."""
+    """The store in ``folder`` with the identity its header records (for reading); None if none.
+
+    A store of another format version is refused (InputError), never read as this one.
+    """
     head = read_header(folder)
     if head is None:
         return None
+    if head.get("version") != VERSION:
+        raise InputError(f"store {folder} was written by another version of slipfield's store "
+                         f"(version {head.get('version')}, this is {VERSION}); its arrays are laid out "
+                         "differently: run it again into a new folder")
     ident = dict(head.get("identity") or {})
     task, block = ident.pop("task", "rlem"), ident.pop("block", BLOCK)
     return BlockStore(folder, ident, task=task, block=block)

@@ -87,7 +87,8 @@ def test_homogeneous_realisations_share_one_path_at_or_below_the_circle():
     np.testing.assert_allclose(scaled, scaled[0], rtol=1e-6)
     assert scaled[0] <= 1.47 * 1.01
     assert np.all(r.fs < r.fs_bank)
-    np.testing.assert_allclose(r.refined_xy[0], r.refined_xy[5], atol=1e-9)
+    paths = r.searched_surfaces()
+    np.testing.assert_allclose(paths[0], paths[5], atol=1e-9)
 
 
 def test_accepted_surfaces_are_stored_and_clean():
@@ -96,10 +97,10 @@ def test_accepted_surfaces_are_stored_and_clean():
     b = simulate(p, 12, 5, refine=settings)
     refined = np.flatnonzero(b.fs < b.fs_bank)
     assert refined.size
-    assert np.all(np.isnan(b.refined_xy[np.setdiff1d(np.arange(12), refined)]))
+    paths = b.searched_surfaces()
+    assert sorted(paths) == refined.tolist()      # a polyline kept for every lowered realisation, none else
     for k in refined[:3]:
-        xy = b.refined_xy[k]
-        xy = xy[np.isfinite(xy[:, 0])]
+        xy = paths[int(k)]
         e = evaluate_surfaces(p.section, Polyline(xy), hypothesis=p.hypothesis, method=settings.method,
                               n_slices=p.n_slices, overrides=realisation_overrides(p, 5, int(k)))
         assert e.counted[0]                       # converged, no intolerable flag
@@ -115,7 +116,8 @@ def test_results_reproducible_for_any_batch_and_kept_terms():
     a = simulate(p, 8, 5, refine=s)                 # first bands built as the starts come
     c = simulate(p, 8, 5, refine=s, batch=3)        # other batches, first bands kept from the run above
     np.testing.assert_array_equal(a.fs, c.fs)
-    np.testing.assert_array_equal(a.refined_xy, c.refined_xy)
+    np.testing.assert_array_equal(a.searched_vertices, c.searched_vertices)
+    np.testing.assert_array_equal(a.searched_geometry, c.searched_geometry)
 
 
 def test_refine_settings_refuse_unknown_search_and_keep_old_description():
@@ -161,7 +163,8 @@ def test_mechanism_results_maps_and_export(tmp_path):
     surfs = accepted_surfaces(r)
     for k, row in enumerate(rows):
         assert float(row["FS circles alone (-)"]) == pytest.approx(plain.fs[k])
-        xy = np.array([[float(v) for v in pt.split()] for pt in row["governing surface x y (m)"].split(";")])
-        np.testing.assert_allclose(xy, surfs[k], atol=5e-4)   # 3 decimals in the file
+        if r.fs[k] < r.fs_bank[k]:   # the searched polyline itself, at full precision
+            xy = np.array([[float(v) for v in pt.split()] for pt in row["polyline vertices x y (m)"].split(";")])
+            np.testing.assert_array_equal(xy, surfs[k])
         want = "dynamic-programming (per realisation)" if r.fs[k] < r.fs_bank[k] else "circle"
         assert row["governing family"] == want

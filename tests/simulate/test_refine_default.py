@@ -122,7 +122,7 @@ def test_search_region_holds_every_accepted_path():
     st = RefineSettings(below=1.2, search="dynamic-programming")
     r = simulate(p, 10, 5, refine=st)
     x0, x1, y0, y1 = search_region(p, st)
-    xy = r.refined_xy[np.isfinite(r.refined_xy[:, :, 0])]
+    xy = np.vstack(list(r.searched_surfaces().values()))
     assert xy.size and r.n_refined > 0
     assert np.all((xy[:, 0] >= x0) & (xy[:, 0] <= x1) & (xy[:, 1] >= y0) & (xy[:, 1] <= y1))
     sec = p.section

@@ -61,6 +61,8 @@ def test_refinement_lowers_fs_only_below_the_threshold_and_is_reproducible():
     assert np.all(b.fs[~above] <= a.fs[~above])
     assert b.n_refined == int(np.sum(b.fs < b.fs_bank)) > 0
     np.testing.assert_array_equal(b.fs, c.fs)
+    np.testing.assert_array_equal(b.searched_vertices, c.searched_vertices)
+    np.testing.assert_array_equal(b.searched_geometry, c.searched_geometry)
     assert b.pf >= a.pf
 
 

@@ -137,3 +137,44 @@ def test_blocks_record_range_and_checksum(stored):
         assert len(str(d["_checksum"])) == 64
     with zipfile.ZipFile(stored / "block_000000.npz") as z:
         assert z.testzip() is None
+
+
+def test_a_store_of_the_previous_format_is_refused_not_mixed(problem, stored, tmp_path):
+    # format 2 kept the search's vertices in a fixed-size record of every realisation; format 3 keeps
+    # them for the searched realisations only: a store of format 2 is neither resumed nor read as 3
+    import json
+
+    from slipfield.slope.errors import InputError
+
+    store = tmp_path / "run"
+    shutil.copytree(stored, store)
+    head = json.loads((store / "header.json").read_text())
+    head["version"] = 2
+    (store / "header.json").write_text(json.dumps(head))
+    with pytest.raises(InputError, match="another version of slipfield's store.*version 2"):
+        simulate(problem, N, seed=4, store=store, resume=True)
+    with pytest.raises(InputError, match="version 2"):
+        load_store(store)
+
+
+def test_searched_surfaces_resume_bit_identical_across_a_cut_block(tmp_path):
+    # the searched polylines are sparse rows tagged by realisation: a run stopped inside a block and
+    # resumed must give the same rows as one uninterrupted run, for any batch size
+    from slipfield.slope.simulate import RefineSettings
+
+    from support.problems import gf_problem
+
+    p, _ = gf_problem(5.0, 0.5, mean_c=0.2, nx=4, ny=4, n_radii=3)
+    s = RefineSettings(below=1.1, above=1.0, search="dynamic-programming")
+    n = 130
+    whole = simulate(p, n, 8, refine=s, batch=n)
+    assert len(whole.searched_surfaces()) >= 2
+    store = tmp_path / "run"
+    simulate(p, 115, 8, refine=s, batch=40, store=store)          # stops inside block 1
+    res = simulate(p, n, 8, refine=s, batch=7, store=store, resume=True)
+    np.testing.assert_array_equal(res.searched_vertices, whole.searched_vertices)
+    np.testing.assert_array_equal(res.fs, whole.fs)
+    short = simulate(p, 110, 8, refine=s, store=store, resume=True)   # a shorter run reads fewer rows
+    assert set(short.searched_surfaces()) == {k for k in whole.searched_surfaces() if k < 110}
+    stored = load_store(store)["sparse_searched_vertices"]
+    np.testing.assert_array_equal(stored, whole.searched_vertices)

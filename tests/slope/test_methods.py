@@ -521,6 +521,58 @@ def test_bad_input_names_the_item(kwargs, word):
         factor_of_safety(bank, **args)
 
 
+@pytest.mark.parametrize("method", ALL_METHODS)
+@pytest.mark.parametrize("name,bad", [("c", np.nan), ("c", -0.5), ("tan_phi", np.inf), ("tan_phi", -1e-3)])
+@pytest.mark.parametrize("where", ["valid surface", "rejected surface"])
+def test_one_bad_strength_anywhere_is_refused(method, name, bad, where):
+    # one value of one sample on one slice base: Bishop and Janbu check the strengths in
+    # their kernel's own pass, which skips surfaces the bank rejected; a value there must
+    # be refused all the same
+    bank = _mixed_bank()
+    if where == "rejected surface":
+        bank.valid = bank.valid.copy()
+        bank.valid[3] = False
+    s, m, n = 3, bank.n_surfaces, bank.n_slices
+    args = {"c": np.full((s, m, n), 10.0), "tan_phi": np.full((s, m, n), 0.5)}
+    args[name][1, 3, n // 2] = bad
+    with pytest.raises(InputError, match=name):
+        factor_of_safety(bank, method=method, **args)
+    # broadcast inputs (one row for every sample) are checked as well
+    args = {"c": np.full((1, m, n), 10.0), "tan_phi": 0.5}
+    if name == "c":
+        args["c"][0, 3, 0] = bad
+    else:
+        args["tan_phi"] = np.full(n, 0.5)
+        args["tan_phi"][-1] = bad
+    with pytest.raises(InputError, match=name):
+        factor_of_safety(bank, method=method, **args)
+
+
+@pytest.mark.parametrize("method,interslice", [("bishop", "constant"), ("morgenstern-price", "constant"),
+                                                ("morgenstern-price", "half-sine")])
+def test_a_sample_does_not_depend_on_the_others_in_the_call(method, interslice):
+    # The kernels solve the samples of one surface together (Morgenstern-Price: all of them
+    # in SIMD lanes, each stopping at its own iteration). Each sample's result must be the
+    # one it has alone, bit for bit, or the simulator's results would depend on the batch
+    # size and the number of jobs (DEVELOPERS.md, "Seeds").
+    bank = _mixed_bank(kh=0.05, crack=5.0)
+    rng = np.random.default_rng(17)
+    s, m, n = 23, bank.n_surfaces, bank.n_slices
+    # invented strengths, a factor per sample so that the samples' FS spread widely
+    c = rng.uniform(0.5, 25.0, (s, m, n)) * rng.lognormal(0.0, 1.0, (s, 1, 1))
+    tp = np.tan(np.radians(rng.uniform(5.0, 40.0, (s, m, n))))
+    kw = {"interslice": interslice} if method == "morgenstern-price" else {}
+    whole = factor_of_safety(bank, c, tp, method=method, **kw)
+    # on some surface the samples stop at different iterations (lanes that wait for others)
+    assert any(np.unique(whole.iterations[:, j]).size > 1 for j in range(m))
+    for lo, hi in ((0, 1), (4, 5), (22, 23), (3, 10), (5, 22)):
+        part = factor_of_safety(bank, c[lo:hi], tp[lo:hi], method=method, **kw)
+        for key in ("fs", "lam", "iterations", "flags", "converged"):
+            a, b = getattr(whole, key), getattr(part, key)
+            if a is not None:
+                np.testing.assert_array_equal(a[lo:hi], b, err_msg=f"{key}, samples {lo}-{hi}")
+
+
 def test_result_type():
     r = factor_of_safety(_mixed_bank(), 10.0, 0.5)
     assert isinstance(r, FSResult) and r.method == "bishop"

@@ -326,33 +326,22 @@ def _averaging(case, res):
 
 # --------------------------------------------------------------------------- failure
 def _failure_map(case, res):
-    from ...case.analyses import surface_xy
+    from ...simulate.failure_geometry import failure_map
 
     sec = case.section
     out = []
     for h, sp in _hyps(res, "spatial"):
         run = sp.spatial
-        fs, crit, bank = run.fs, run.critical_index, run.problem.bank
-        failed = np.flatnonzero(np.isfinite(fs) & (fs < 1.0) & (crit >= 0))
-        cap = f"Failure map: where the critical surfaces of failed realisations lie, {h}"
-        if failed.size == 0:
+        cap = f"Failure map: where the governing surfaces of failed realisations lie, {h}"
+        if run.failed_area.size == 0:
             out.append(Drawn(f"failure_map_{h}", cap, None,
-                             f"No realisation failed (FS < 1) among {len(fs)}: there is no failure to map; pf is "
-                             "bounded above by its 95 % interval only."))
+                             f"No realisation failed (FS < 1) among {len(run.fs)}: there is no failure to map; pf "
+                             "is bounded above by its 95 % interval only."))
             continue
-        x_edges = np.linspace(sec.x_min, sec.x_max, 81)
-        y_edges = np.linspace(sec.base_y, float(sec.ground[:, 1].max()), 41)
-        dens = np.zeros((80, 40))
-        idx, counts = np.unique(crit[failed], return_counts=True)
-        t = np.linspace(0.0, 1.0, 8, endpoint=False)
-        for j, cnt in zip(idx, counts):
-            xy = surface_xy(bank, int(j))
-            # Densified so that a cell the surface crosses between two slice sides still counts.
-            pts = np.vstack([xy[:-1] + (xy[1:] - xy[:-1]) * u for u in t] + [xy[-1:]])
-            H, _, _ = np.histogram2d(pts[:, 0], pts[:, 1], bins=[x_edges, y_edges])
-            dens += (H > 0) * cnt
-        fig = plot_failure_map(x_edges, y_edges, dens / failed.size, sec.ground, n_failed=int(failed.size),
-                               n_total=int(len(fs)))
+        fm = failure_map(run.governing, run.fs, np.linspace(sec.x_min, sec.x_max, 81),
+                         np.linspace(sec.base_y, float(sec.ground[:, 1].max()), 41))
+        fig = plot_failure_map(fm.x_edges, fm.y_edges, fm.density, sec.ground, n_failed=fm.n_failed,
+                               n_total=fm.n_total, groups=[(g.kind, g.label, g.surfaces) for g in fm.groups])
         out.append(Drawn(f"failure_map_{h}", cap, fig))
     return out
 
@@ -385,7 +374,7 @@ def _failure_geometry(case, res):
         if sp.spatial.failed_area.size:
             fig = plot_failure_geometry(sp.spatial.failed_area, sp.spatial.failed_depth)
             out.append(Drawn(f"failure_geometry_{h}", "Failure geometry: sliding-mass area and greatest depth of the "
-                                                      f"failed critical surfaces, {h}", fig))
+                                                      f"failed governing surfaces, {h}", fig))
     return out
 
 
@@ -433,7 +422,7 @@ CATALOGUE: tuple[FigureEntry, ...] = (
     FigureEntry("site_data", "spatial", "spatial[h].site_data (pf with and without [[site_data]])", _site_data),
     FigureEntry("field", "fields", "spatial[h].spatial.shown and its problem (fields regenerated)", _fields),
     FigureEntry("variance_reduction", "averaging", "spatial[h].quick.properties and the case's models", _averaging),
-    FigureEntry("failure_map", "failure", "spatial[h].spatial (critical surfaces of failed realisations)",
+    FigureEntry("failure_map", "failure", "spatial[h].spatial.governing (governing surfaces of failed realisations)",
                 _failure_map),
     FigureEntry("mechanism_maps", "failure", "spatial[h].spatial.mechanisms and its simulation result", _mechanisms),
     FigureEntry("failure_geometry", "failure", "spatial[h].spatial.failed_area / failed_depth", _failure_geometry),

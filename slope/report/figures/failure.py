@@ -57,6 +57,12 @@ def plot_failure_geometry(area, depth, *, bins: int | str = "auto", axes=None, t
 
 
 # --------------------------------------------------------------------------- failure map
+#: line styles of failed surfaces by kind: the bank's in the colour of "failed surfaces" above, the
+#: per-realisation search's dashed in another colour of the palette (told apart in grey print too)
+_GROUP_STYLE = {"bank": dict(color=PALETTE["vermillion"], linewidth=0.7, alpha=0.8, linestyle="-"),
+                "search": dict(color=PALETTE["reddish_purple"], linewidth=1.1, alpha=1.0, linestyle="--")}
+
+
 def plot_failure_map(
     x_edges,
     y_edges,
@@ -66,6 +72,7 @@ def plot_failure_map(
     n_failed: int | None = None,
     n_total: int | None = None,
     surfaces: Sequence = (),
+    groups: Sequence = (),
     ax=None,
     title: str | None = None,
 ):
@@ -85,6 +92,13 @@ def plot_failure_map(
         Counts for the annotation (failed realisations out of all).
     surfaces : sequence of (n, 2) arrays, optional
         A few failed surfaces drawn thinly on top.
+    groups : sequence of (kind, label, surfaces), optional
+        Failed surfaces drawn thinly on top by kind, each kind in its own
+        colour and line style with ``label`` in the legend: ``"bank"``
+        (surfaces of the bank, solid vermillion like ``surfaces``) and
+        ``"search"`` (polylines the per-realisation search found, dashed
+        reddish purple); e.g. the groups of
+        :func:`slope.simulate.failure_geometry.failure_map`.
     ax : Axes, optional
     title : str, optional
 
@@ -114,6 +128,12 @@ def plot_failure_map(
             s = _xy(s, f"surfaces[{k}]")
             ax.plot(s[:, 0], s[:, 1], color=PALETTE["vermillion"], linewidth=0.7, alpha=0.8,
                     label="failed surfaces (examples)" if k == 0 else None)
+        for kind, label, drawn in groups:
+            if kind not in _GROUP_STYLE:
+                raise InputError(f"groups: kind {kind!r}; use one of {', '.join(_GROUP_STYLE)}")
+            for k, s in enumerate(drawn):
+                s = _xy(s, f"groups[{kind}][{k}]")
+                ax.plot(s[:, 0], s[:, 1], **_GROUP_STYLE[kind], label=label if k == 0 else None)
         if n_failed is not None:
             note = f"{int(n_failed)} failed realisations" + (f" of {int(n_total)}" if n_total is not None else "")
             ax.text(0.0, 1.01, note, transform=ax.transAxes, ha="left", va="bottom", fontsize=8, gid="failed-note")
@@ -121,7 +141,8 @@ def plot_failure_map(
         ax.set_xlabel("x (m)")
         ax.set_ylabel("elevation y (m)")
         ax.grid(False)
-        ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.01), ncols=2, borderaxespad=0.0)
+        # with groups the labels are long: one column at the right, clear of the count note at the left
+        ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.01), ncols=1 if len(groups) else 2, borderaxespad=0.0)
         if title:
             ax.set_title(title, pad=18)
     return fig

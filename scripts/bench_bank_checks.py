@@ -1,0 +1,95 @@
+"""Benchmark: the checks of the bank's non-circular surfaces and the Morgenstern-Price retry, side by side.
+
+Part 1 (slope.simulate.bank_checks): an invented 10 m cut (c' = 8 kPa with
+COV 0.2, phi' = 25 deg clay over stiffer soil) whose bank holds one circle
+and blocks along the clay's bottom, so a block is the lowest surface in
+most realisations (the worst case: every realisation is judged). The same
+realisations are simulated with the checks and without, alternated; CPU
+ms per realisation of this process, one numba thread.
+
+Part 2 (slope.search.interslice_retry): the dam demo's undrained
+simulation (cases/dam_layered_foundation.toml, its settings, per-realisation
+search on) with the retry and without (no function to retry with),
+alternated: CPU seconds, pf, realisations lowered.
+
+Run: NUMBA_NUM_THREADS=1 python scripts/bench_bank_checks.py [n_realisations] [repeats]
+"""
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+from slipfield.fields.marginals import make_marginal
+from slipfield.slope.search.block import block_polylines
+from slipfield.slope.section import Section
+from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
+from slipfield.slope.strength import Material
+from slipfield.slope.surfaces import Circle
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def _block_bank():
+    ground = [[0.0, 10.0], [10.0, 10.0], [25.0, 0.0], [40.0, 0.0]]
+    mats = {"clay": Material("clay", unit_weight=18.0, c=8.0, phi=25.0),
+            "stiff": Material("stiff", unit_weight=19.0, c=15.0, phi=30.0)}
+    sec = Section.from_layers(ground, [("upper", "clay", 2.0), ("lower", "stiff", None)], mats, base_y=-5.0)
+    blocks = block_polylines(sec, "upper", entry=(0.0, 10.0), exit=(16.0, 21.0), points=3)
+    prop = RandomProperty("clay", "c", make_marginal("lognormal", mean=8.0, cov=0.2), 10.0, 2.0)
+    return RandomProblem(sec, "drained", "spencer", [prop], [Circle(24.0, 16.0, 13.0)] + blocks, 0,
+                         n_slices=20, cell=1.0)
+
+
+def part1(n, repeats):
+    import slipfield.slope.simulate.driver as driver
+
+    prob = _block_bank()
+    on = driver.bank_checks_apply
+    simulate(prob, 10, 1)   # compile
+    rows = []
+    for _ in range(repeats):
+        for name, fn in (("checks on", on), ("checks off", lambda p: False)):
+            driver.bank_checks_apply = fn
+            t = time.process_time()
+            r = simulate(prob, n, 7)
+            rows.append((name, 1e3 * (time.process_time() - t) / n, r.bank_rejected, r.bank_retried))
+    driver.bank_checks_apply = on
+    print(f"Part 1: block bank, {n} realisations, CPU ms per realisation")
+    for name, ms, rej, ret in rows:
+        print(f"  {name:10s} {ms:7.2f}  refused {rej}  retried {ret}")
+    a = [ms for name, ms, *_ in rows if name == "checks on"]
+    b = [ms for name, ms, *_ in rows if name == "checks off"]
+    print(f"  ratio on/off: {min(a) / max(b):.1f}-{max(a) / min(b):.1f}")
+
+
+def part2(repeats):
+    import slipfield.slope.search.interslice_retry as retry
+    from slipfield.slope import load_case
+    from slipfield.slope.case.analyses import deterministic, random_problem
+    from slipfield.slope.simulate.refinement import RefineSettings
+
+    case = load_case(ROOT / "cases" / "dam_layered_foundation.toml")
+    sim = case.data["simulation"]
+    prob = random_problem(case, deterministic(case), "undrained")
+    st = RefineSettings.from_case(sim)
+    funcs = retry.RETRY_FUNCTIONS
+    simulate(prob, 10, 1, refine=st)
+    print(f"Part 2: dam demo, undrained, {sim['realisations']} realisations, per-realisation search on")
+    for _ in range(repeats):
+        for name, fs in (("retry on", funcs), ("retry off", ())):
+            retry.RETRY_FUNCTIONS = fs
+            t = time.process_time()
+            r = simulate(prob, int(sim["realisations"]), int(sim["seed"]), refine=st)
+            print(f"  {name:9s} CPU {time.process_time() - t:6.2f} s  pf {r.pf:.4f}  lowered {r.n_refined}")
+    retry.RETRY_FUNCTIONS = funcs
+
+
+if __name__ == "__main__":
+    n = int(sys.argv[1]) if len(sys.argv) > 1 else 100
+    reps = int(sys.argv[2]) if len(sys.argv) > 2 else 2
+    np.seterr(all="ignore")
+    part1(n, reps)
+    part2(reps)
