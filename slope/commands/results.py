@@ -330,6 +330,9 @@ class SimulationRun:
                     "n_refined": self.n_refined})
         if self.mechanisms is not None:
             out["mechanisms"] = self.mechanisms.to_json()
+        if getattr(self.result, "refine_functions", None):
+            # realisations lowered by a path counted with another interslice function (slope.search.interslice_retry)
+            out["refine_interslice_functions"] = dict(self.result.refine_functions)
         if getattr(self.result, "bank_rejected", None) is not None:
             # non-circular bank surfaces judged per realisation (slope.simulate.bank_checks)
             out["bank_checks"] = {"rejected": dict(self.result.bank_rejected),

@@ -90,6 +90,10 @@ class SimulationResult:
         other banks.
     bank_retried : int
         Those surfaces counted with another interslice function's solution.
+    refine_functions : dict
+        With the dynamic-programming search: realisations whose lowered FS
+        is a Morgenstern-Price solution with another interslice function
+        (the path's first solution was refused), by method and function.
     """
 
     fs: np.ndarray
@@ -113,6 +117,7 @@ class SimulationResult:
     searched_geometry: np.ndarray | None = None
     bank_rejected: dict | None = None
     bank_retried: int = 0
+    refine_functions: dict = field(default_factory=dict)
 
     @property
     def n(self) -> int:
@@ -228,6 +233,7 @@ class SimulationResult:
                 "n_no_valid_surface": self.n_no_valid,
                 "refine": self.refine, "n_refined": self.n_refined, "n_searched": self.n_searched,
                 "refine_rejected": self.refine_rejected,
+                **({"refine_interslice_functions": dict(self.refine_functions)} if self.refine_functions else {}),
                 **({"bank_checks": {"rejected": self.bank_rejected, "retried": self.bank_retried}}
                    if self.bank_rejected is not None else {}),
                 **self._mechanism_dict(),
@@ -340,6 +346,12 @@ def _run_block(problem, seed, start, stop, refine=None):
         out["refine_rejected"] = np.zeros(fs_c.size, dtype=[("n", np.int64, (len(REFINE_REASONS),))])
         # the window [above, below): below ``above`` (1 for case files) a realisation already fails
         near = np.isfinite(fs_c) & (fs_c < refine.below) & (fs_c >= refine.above) & (out["crit"] >= 0)
+        if dp:
+            from ..search.interslice_retry import RETRY_FUNCTIONS
+
+            # which interslice function gave a lowered realisation's FS when the path's first solution was
+            # refused (0: the first solution; i + 1: RETRY_FUNCTIONS[i])
+            out["refine_function"] = np.zeros(fs_c.size, np.int8)
         for r in np.flatnonzero(near):
             measured = {}
             if dp:
@@ -354,6 +366,8 @@ def _run_block(problem, seed, start, stop, refine=None):
                 if isinstance(surf, Polyline):  # a bank circle re-judged by the search's method is no new shape
                     geo = measured.get("geometry") or measure(slice_searched(problem, [surf.points]), 0)
                     found.append((start + int(r), surf.points, geo))
+                if measured.get("interslice_function"):
+                    out["refine_function"][r] = RETRY_FUNCTIONS.index(measured["interslice_function"]) + 1
         out[SEARCHED_VERTICES] = vertex_rows([(k, xy) for k, xy, _ in found])
         out[SEARCHED_GEOMETRY] = np.array([(k, *geo) for k, _, geo in found], dtype=GEOMETRY_DTYPE)
     _circles_only(problem, fs, conv, adm, out)
@@ -367,6 +381,16 @@ def _refine_rejected(allr, key="refine_rejected"):
 
     tot = np.asarray(allr[key]["n"]).reshape(-1, len(REFINE_REASONS)).sum(axis=0)
     return {k: int(v) for k, v in zip(REFINE_REASONS, tot) if v}
+
+
+def _refine_functions(allr):
+    """{method and interslice function: realisations whose lowered FS came from it after a retry}."""
+    if "refine_function" not in allr:
+        return {}
+    from ..search.interslice_retry import RETRY_FUNCTIONS, retry_label
+
+    code = np.asarray(allr["refine_function"])
+    return {retry_label(f): int(np.sum(code == i + 1)) for i, f in enumerate(RETRY_FUNCTIONS) if np.any(code == i + 1)}
 
 
 def _circles_only(problem, fs, conv, adm, out):
@@ -635,6 +659,7 @@ def simulate(problem, n, seed, *, n_jobs=1, batch=100, store=None, resume=False,
                             n_refined=int(allr["refined"].sum()) if "refined" in allr else 0,
                             refine_rejected=_refine_rejected(allr),
                             bank_rejected=_refine_rejected(allr, "bank_rejected"),
+                            refine_functions=_refine_functions(allr),
                             bank_retried=int(allr["bank_retried"].sum()) if "bank_retried" in allr else 0,
                             refine=None if refine is None else refine.describe(), flags=flags,
                             store_notices=list(st.notices) if st is not None else [],

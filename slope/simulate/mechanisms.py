@@ -115,7 +115,10 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict 
     measured : dict, optional
         Filled with the geometry of the returned surface (key ``geometry``:
         :func:`.failure_geometry.measure` of the slices it was judged on, so
-        it costs no second slicing).
+        it costs no second slicing) and, when the accepted path's first
+        solution was refused, the Morgenstern-Price interslice function whose
+        solution it counted with (key ``interslice_function``,
+        :mod:`slope.search.interslice_retry`).
 
     Returns
     -------
@@ -174,4 +177,6 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict 
         from .failure_geometry import measure
 
         measured["geometry"] = measure(res.bank, res.critical_index)
+        if res.interslice_function is not None:
+            measured["interslice_function"] = str(res.interslice_function[res.critical_index])
     return float(res.fs_min), res.critical, rej
