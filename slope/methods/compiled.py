@@ -21,7 +21,23 @@ try:  # POSIX; elsewhere every process compiles for itself, as before
 except ImportError:  # pragma: no cover - Windows
     fcntl = None
 
-__all__ = ["first_call", "warm_up"]
+__all__ = ["first_call", "lock_path", "warm_up"]
+
+
+def lock_path(kernel) -> str:
+    """The lock file of ``kernel``: one per user, kernel and cache it compiles into.
+
+    numba's cache of a kernel belongs to its source file (and to
+    ``NUMBA_CACHE_DIR`` when set), so two installations of slipfield keep two
+    caches; a lock named after the kernel alone made one installation's runs
+    wait for the other's compilation, which fills a cache they never read.
+    """
+    import hashlib
+
+    name = f"{kernel.py_func.__module__}.{kernel.py_func.__qualname__}"
+    where = f"{os.path.realpath(kernel.py_func.__code__.co_filename)}\0{os.environ.get('NUMBA_CACHE_DIR', '')}"
+    tag = hashlib.sha256(where.encode()).hexdigest()[:12]
+    return os.path.join(tempfile.gettempdir(), f"slipfield-compile-{os.getuid()}-{name}-{tag}.lock")
 
 
 @contextlib.contextmanager
@@ -31,8 +47,7 @@ def first_call(kernel):
     if fcntl is None or kernel.signatures:
         yield
         return
-    name = f"{kernel.py_func.__module__}.{kernel.py_func.__qualname__}"
-    path = os.path.join(tempfile.gettempdir(), f"slipfield-compile-{os.getuid()}-{name}.lock")
+    path = lock_path(kernel)
     try:
         fh = open(path, "a")
     except OSError:  # no lock, no harm: the call compiles as it would have

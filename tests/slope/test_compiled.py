@@ -44,3 +44,38 @@ def test_real_calls_reuse_the_warmed_up_kernels():
                             np.ones((m, bank.n_slices + 1)), (np.zeros(1, int), np.zeros(1, int)), np.ones(1))
     assert [len(k.signatures) for k in kernels] == before
 
+
+
+
+def _load_kernel(src):
+    """Kernel ``k`` of module ``kmod`` loaded from the source file ``src`` (a fresh module object each time)."""
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location("kmod", src)
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod.k
+
+
+def _source_in(folder):
+    folder.mkdir()
+    src = folder / "kmod.py"
+    src.write_text("from numba import njit\n\n\n@njit\ndef k(x):\n    return x + 1.0\n")
+    return src
+
+
+def test_two_installations_do_not_share_a_compile_lock(tmp_path, monkeypatch):
+    # The lock was named after module and function only: a run of one installation waited for another
+    # installation's compilation of the same kernel into a cache it never reads (numba keeps its cache
+    # per source file; numba documentation, "Notes on caching").
+    from slipfield.slope.methods.compiled import lock_path
+
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    src_a, src_b = _source_in(tmp_path / "tree_a"), _source_in(tmp_path / "tree_b")
+    a, b = _load_kernel(src_a), _load_kernel(src_b)
+    assert (a.py_func.__module__, a.py_func.__qualname__) == (b.py_func.__module__, b.py_func.__qualname__)
+    assert lock_path(a) != lock_path(b)
+    assert lock_path(_load_kernel(src_a)) == lock_path(a)  # the same source: the same cache, the same lock
+    before = lock_path(a)
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "elsewhere"))
+    assert lock_path(a) != before
