@@ -24,19 +24,15 @@ import numpy as np
 
 from slipfield.fields.marginals import make_marginal
 from slipfield.slope.search.block import block_polylines
-from slipfield.slope.section import Section
+from slipfield.slope.examples import clay_over_stiff_cut
 from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
-from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle
 
 ROOT = Path(__file__).resolve().parent.parent
 
 
 def _block_bank():
-    ground = [[0.0, 10.0], [10.0, 10.0], [25.0, 0.0], [40.0, 0.0]]
-    mats = {"clay": Material("clay", unit_weight=18.0, c=8.0, phi=25.0),
-            "stiff": Material("stiff", unit_weight=19.0, c=15.0, phi=30.0)}
-    sec = Section.from_layers(ground, [("upper", "clay", 2.0), ("lower", "stiff", None)], mats, base_y=-5.0)
+    sec = clay_over_stiff_cut()
     blocks = block_polylines(sec, "upper", entry=(0.0, 10.0), exit=(16.0, 21.0), points=3)
     prop = RandomProperty("clay", "c", make_marginal("lognormal", mean=8.0, cov=0.2), 10.0, 2.0)
     return RandomProblem(sec, "drained", "spencer", [prop], [Circle(24.0, 16.0, 13.0)] + blocks, 0,

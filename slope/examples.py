@@ -11,7 +11,7 @@ from .section import Section, Zone
 from .strength import Material
 from .water import Water
 
-__all__ = ["simple_slope", "two_zone_section", "layered_weak_section"]
+__all__ = ["simple_slope", "two_zone_section", "layered_weak_section", "clay_over_stiff_cut"]
 
 
 def simple_slope(height=10.0, cot_beta=2.0, depth_factor=2.0, crest=None, toe=None,
@@ -81,3 +81,18 @@ def layered_weak_section() -> Section:
     ground = [[0.0, 10.0], [25.0, 10.0], [45.0, 0.0], [75.0, 0.0]]
     layers = [("upper", "stiff clay", -0.4), ("seam", "seam", -1.0), ("lower", "stiff clay", None)]
     return Section.from_layers(ground, layers, {"stiff clay": stiff, "seam": seam}, base_y=-12.0)
+
+
+def clay_over_stiff_cut() -> Section:
+    """A 10 m high cut (crest 0-10 m, toe at 25 m) in clay down to y = 2 m over stiffer soil (invented).
+
+    Clay c' = 8 kPa, φ' = 25°, γ = 18 kN/m³ (zone ``upper``); stiff soil
+    c' = 15 kPa, φ' = 30°, γ = 19 kN/m³ (zone ``lower``); dry. Blocks along
+    the clay's bottom need more interslice shear than the clay carries when
+    they enter near the crest's end: the section of the interslice-strength
+    tests and of ``scripts/bench_bank_checks.py``.
+    """
+    mats = {"clay": Material("clay", unit_weight=18.0, c=8.0, phi=25.0),
+            "stiff": Material("stiff", unit_weight=19.0, c=15.0, phi=30.0)}
+    ground = [[0.0, 10.0], [10.0, 10.0], [25.0, 0.0], [40.0, 0.0]]
+    return Section.from_layers(ground, [("upper", "clay", 2.0), ("lower", "stiff", None)], mats, base_y=-5.0)

@@ -13,19 +13,15 @@ from slipfield.fields.marginals import make_marginal
 from slipfield.slope.search import evaluate_surfaces
 from slipfield.slope.search.block import block_polylines
 from slipfield.slope.search.interslice_strength import INTERSLICE_REASON, RATIO_TOLERANCE
-from slipfield.slope.section import Section
+from slipfield.slope.examples import clay_over_stiff_cut
 from slipfield.slope.simulate import RandomProblem, RandomProperty, simulate
 from slipfield.slope.simulate.refinement import realisation_overrides
-from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Circle
 
 
 def _problem():
     """Invented 10 m cut, c' = 8 kPa (COV 0.2) / phi' = 25 deg clay over stiffer soil; one circle and blocks."""
-    ground = [[0.0, 10.0], [10.0, 10.0], [25.0, 0.0], [40.0, 0.0]]
-    mats = {"clay": Material("clay", unit_weight=18.0, c=8.0, phi=25.0),
-            "stiff": Material("stiff", unit_weight=19.0, c=15.0, phi=30.0)}
-    sec = Section.from_layers(ground, [("upper", "clay", 2.0), ("lower", "stiff", None)], mats, base_y=-5.0)
+    sec = clay_over_stiff_cut()
     blocks = block_polylines(sec, "upper", entry=(0.0, 10.0), exit=(16.0, 21.0), points=3)
     prop = RandomProperty("clay", "c", make_marginal("lognormal", mean=8.0, cov=0.2), 10.0, 2.0)
     # a shallow circle far above the blocks' FS (5.8 at the mean): the blocks govern wherever one counts

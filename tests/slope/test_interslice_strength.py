@@ -189,13 +189,11 @@ def test_refused_solution_is_retried_with_another_interslice_function():
     # block (ratios 1.13-4.6); Spencer's constant function (Spencer 1967; Morgenstern-Price with f = 1 is the
     # same method) passes on one of them. Before the half-sine search refuses that block it solves it again
     # with the other functions (slope.search.interslice_retry) and counts the first that passes: Spencer's F.
+    from slipfield.slope.examples import clay_over_stiff_cut
     from slipfield.slope.search.block import block_polylines
     from slipfield.slope.search.interslice_retry import retry_label
 
-    ground = [[0.0, 10.0], [10.0, 10.0], [25.0, 0.0], [40.0, 0.0]]
-    mats = {"clay": Material("clay", unit_weight=18.0, c=8.0, phi=25.0),
-            "stiff": Material("stiff", unit_weight=19.0, c=15.0, phi=30.0)}
-    sec = Section.from_layers(ground, [("upper", "clay", 2.0), ("lower", "stiff", None)], mats, base_y=-5.0)
+    sec = clay_over_stiff_cut()
     blocks = block_polylines(sec, "upper", entry=(4.0, 10.0), exit=(16.0, 21.0), points=3)
     spencer = evaluate_surfaces(sec, blocks, method="spencer", n_slices=10)
     hs = evaluate_surfaces(sec, blocks, method="morgenstern-price", interslice="half-sine", n_slices=10)
