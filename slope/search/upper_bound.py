@@ -1,0 +1,563 @@
+"""Kinematic (upper-bound) factor of safety of a polyline slip surface as a mechanism of rigid blocks.
+
+A limit-equilibrium factor of safety is not a bound: on a free non-circular
+path its statical assumptions (the interslice force inclination) can put F
+well below that of any mechanism the soil could actually follow. The upper
+bound theorem of plasticity (Drucker & Prager 1952; Chen 1975, *Limit
+Analysis and Soil Plasticity*) gives one that is: for any kinematically
+admissible mechanism with associated flow, the factor by which the strength
+must be divided for the work of the loads to equal the energy dissipated is
+not below the true factor of safety.
+
+The mechanism here is that of Sarma (1979) and Donald & Chen (1997, Slope
+stability analysis by the upper bound approach: fundamentals and methods,
+Can. Geotech. J. 34, 853-862): one rigid block per segment of the polyline,
+a straight interface from every interior vertex up to the ground line, its
+inclination free. With the strength reduced by F (``c_d = c / F``,
+``tan φ_d = tan φ / F``), associated flow makes every velocity jump -- of a
+block over the ground below its base, or of one block against the next
+across an interface -- inclined at φ_d to the line it crosses, opening it.
+That fixes each block's direction of motion (its base tangent turned by φ_d
+away from the ground) and, block after block, the size of every velocity
+and jump (a 2 x 2 system per interface). The work equation
+
+    Σ_blocks (W_k + Q_k) · v_k  +  Σ_lines U |Δv| sin φ_d  =  Σ_lines C_d |Δv| cos φ_d
+
+(weights W and loads Q on the block; U = ∫ u dL the pore-water thrust on a
+line of effective-stress strength, whose opening does work; C = ∫ c dL)
+is solved for F by fixed-point iteration (one step when φ = 0, where the
+velocities do not depend on F), and F is minimised over the interface
+inclinations, coordinate by coordinate over a table of inclinations that is
+refined about the best (each table value is exact, so every F returned is a
+true upper bound for its mechanism, up to the quadrature below).
+
+Limits (stated, not hidden):
+- φ must be one value along each line for the flow rule to hold everywhere
+  on it. Where a line crosses zones of different φ the line's
+  length-weighted mean tan φ is used: an approximation, not a bound. Lines
+  in φ = 0 (undrained) zones, and homogeneous zones, are exact.
+- Strengths are sampled at Gauss points on equal parts of each line (the
+  same law in depth, elevation or σ'v as on slice bases, and the same
+  random-field overrides); pore pressure counts only where tan φ > 0
+  (total-stress undrained zones take none).
+- Block weights are exact column integrals of the section's unit weights
+  (moist above the phreatic surface, saturated below), integrated in x
+  between the vertices of the surface, the ground and the zone edges.
+- Strip surcharges, ponded water (normal to the ground) and the
+  pseudo-static coefficient kh are loads. A tension crack is not modelled:
+  :func:`upper_bound_fs` refuses a section that has one.
+
+Units: m, kN/m, kPa, degrees at the user level.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numba import njit
+
+from ..bank import _column_weight, point_stresses
+from ..errors import InputError
+from ..strength import base_strength
+
+__all__ = ["BlockMechanism", "upper_bound_fs", "mechanism_xy", "KINEMATIC_REASON"]
+
+#: Reason under which a free path is not counted: its kinematic factor is above its start surface's.
+KINEMATIC_REASON = "less critical than its start surface as a mechanism of rigid blocks"
+
+_GAUSS = tuple(np.polynomial.legendre.leggauss(3))
+_GAUSS = (0.5 * (_GAUSS[0] + 1.0), 0.5 * _GAUSS[1])
+_LINE_PARTS = 6            # equal parts of each base and interface for the strength quadrature
+#: interface inclinations from the vertical (degrees, + leaning toward +x at the top), refined about the best
+_STEEPEST = 80.0   # degrees from the vertical
+_NORMAL_TABLE = np.linspace(-6.0, 6.0, 7)
+_TABLES = (np.linspace(-60.0, 60.0, 25), np.linspace(-4.0, 4.0, 9), np.linspace(-0.75, 0.75, 7))
+
+
+@dataclass
+class BlockMechanism:
+    """The least upper bound found for one polyline.
+
+    Attributes
+    ----------
+    fs : float
+        Kinematic factor of safety (-); inf when no admissible mechanism was found.
+    inclination : ndarray (n - 1,), degrees
+        Inclination of each interface from the vertical (+ top toward +x).
+    top : ndarray (n - 1, 2), m
+        Where each interface meets the ground (section frame).
+    """
+
+    fs: float
+    inclination: np.ndarray
+    top: np.ndarray
+
+
+def mechanism_xy(section, surface, n_segments):
+    """A surface as polyline vertices (section frame) for :func:`upper_bound_fs`.
+
+    A circle becomes ``n_segments`` chords between points equally spaced in
+    x (ends on the ground); a polyline keeps its own vertices.
+    """
+    from .dp_grid import start_xy
+    from ..surfaces import Circle
+
+    if isinstance(surface, Circle):
+        return start_xy(section, surface, int(n_segments) + 1)
+    return np.asarray(surface.points, float)
+
+
+class _LinePoints:
+    """Quadrature points on lines, shaped as slice bases of zero length for the strength functions
+    (as :class:`slope.search.interslice_strength._BoundaryPoints`): a random field's overrides read
+    the points themselves."""
+
+    def __init__(self, section, x, y, zone, depth, sigma_v_eff):
+        from ..slices import SliceBank
+
+        self.direction = np.ones(1)
+        self.x_left = self.x_right = self.x_mid = x
+        self.y_base_left = self.y_base_right = self.y_base = y
+        self.zone, self.depth, self.sigma_v_eff = zone, depth, sigma_v_eff
+        self.zone_names, self.zone_materials = section.zone_names, section.zone_materials
+        self._bpf = SliceBank.base_points_section_frame
+
+    def base_points_section_frame(self, n_per_base: int = 1):
+        return self._bpf(self, n_per_base)
+
+    @property
+    def n_surfaces(self) -> int:
+        return 1
+
+
+def _line_terms(section, p0, p1, hypothesis, overrides):
+    """∫c dL, mean tan φ, ∫u dL (where tan φ > 0) and length of lines p0 -> p1 (arrays (..., 2))."""
+    shp = p0.shape[:-1]
+    t = (np.arange(_LINE_PARTS)[:, None] + _GAUSS[0][None, :]).ravel() / _LINE_PARTS   # (q,)
+    w = np.tile(_GAUSS[1], _LINE_PARTS) / _LINE_PARTS
+    x = p0[..., 0, None] + (p1[..., 0] - p0[..., 0])[..., None] * t
+    y = p0[..., 1, None] + (p1[..., 1] - p0[..., 1])[..., None] * t
+    L = np.hypot(p1[..., 0] - p0[..., 0], p1[..., 1] - p0[..., 1])
+    zone, sig_eff, u = point_stresses(section, x, y)
+    depth = section.ground_y(x) - y
+    flat = lambda v: np.ascontiguousarray(v, float).reshape(1, -1)   # noqa: E731 - points as bases
+    pts = _LinePoints(section, flat(x), flat(y), np.where(zone >= 0, zone, 0).reshape(1, -1), flat(depth),
+                      flat(sig_eff))
+    if callable(overrides):
+        ov = overrides(pts)
+    else:    # single numbers only: per-slice arrays belong to slice bases, not to these lines
+        from .interslice_strength import _scalar_overrides
+
+        ov = _scalar_overrides(overrides)
+    c, tp = base_strength(pts, section.materials, hypothesis, ov)
+    c = np.asarray(c, float).reshape((-1,) + x.shape)[0]
+    tp = np.asarray(tp, float).reshape((-1,) + x.shape)[0]
+    inside = zone >= 0
+    c, tp = np.where(inside, c, 0.0), np.where(inside, tp, 0.0)
+    uw = np.where(inside & (tp > 0), u, 0.0)
+    return (c * w).sum(-1) * L, (tp * w).sum(-1), (uw * w).sum(-1) * L, L
+
+
+def _breaks(section, x0, x1):
+    """Abscissae in [x0, x1] where the integrands may bend: ground and zone-edge vertices, strip ends."""
+    v = [section.ground[:, 0]] + [z.polygon[:, 0] for z in section.zones]
+    loads = section.loads
+    if loads is not None:
+        v += [np.array([s.x1, s.x2], float) for s in loads.strips]
+    v = np.concatenate(v)
+    return np.unique(v[(v > x0) & (v < x1)])
+
+
+def _pieces(a, b, brk):
+    """Gauss points (..., P*3) and weights over [a, b] split at the breakpoints ``brk`` (sorted)."""
+    a, b = np.asarray(a, float), np.asarray(b, float)
+    br = np.concatenate([a[..., None], np.clip(np.broadcast_to(brk, a.shape + brk.shape), a[..., None],
+                                               b[..., None]), b[..., None]], axis=-1)
+    br = np.sort(br, axis=-1)
+    lo, hi = br[..., :-1], br[..., 1:]
+    x = (lo[..., None] + (hi - lo)[..., None] * _GAUSS[0]).reshape(a.shape + (-1,))
+    w = ((hi - lo)[..., None] * _GAUSS[1]).reshape(a.shape + (-1,))
+    return x, w
+
+
+def _surface_loads(section, x):
+    """Vertical surcharge and ponded water on the ground per unit x at abscissae x: (fx, fy), kN/m per m."""
+    fx = np.zeros_like(x)
+    fy = np.zeros_like(x)
+    loads, water = section.loads, section.water
+    if loads is not None and loads.strips:
+        fy -= loads.surcharge(x)
+    if water is not None and water.phreatic is not None:
+        p = water.gamma_w * np.maximum(water.phreatic_y(x) - section.ground_y(x), 0.0)
+        fx += p * section.ground_slope(x)     # pressure normal to the ground: p (g', -1) per unit x
+        fy -= p
+    return fx, fy
+
+
+def _right_of(section, xy, top, brk):
+    """Weight (kN/m) and surface load vector (kN/m) of the mass to the right of each interface.
+
+    ``top`` (..., 2) are the interfaces' ground ends, ``xy`` the polyline; the interface from vertex
+    i is the line from ``xy[i]`` to ``top[i]`` (shape (n - 1, K, 2)).
+    """
+    xb, yb = xy[1:-1, 0][:, None], xy[1:-1, 1][:, None]
+    xt, yt = top[..., 0], top[..., 1]
+    xn = xy[-1, 0]
+    lean_right = xt >= xb
+    a, b = np.minimum(xb, xt), np.maximum(xb, xt)
+    allb = np.unique(np.r_[xy[:, 0], brk])
+    # the wedge between the interface and the vertical through its farther end
+    xq, wq = _pieces(a, b, allb)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        yl = yb[..., None] + (xq - xb[..., None]) * np.where(xt != xb, (yt - yb) / (xt - xb), 0.0)[..., None]
+    ybase = np.interp(xq, xy[:, 0], xy[:, 1])
+    ygr = section.ground_y(xq)
+    lo = np.where(lean_right[..., None], ybase, yl)
+    hi = np.where(lean_right[..., None], yl, ygr)
+    W = (_column_weight(section, xq, lo, hi) * wq).sum(-1)
+    # whole columns from that end to the mass's right end: exact integrals between breakpoints, summed
+    # from the right, plus the part of the piece the end falls in
+    col = lambda x: _column_weight(section, x, np.interp(x, xy[:, 0], xy[:, 1]), section.ground_y(x))  # noqa: E731
+    xs = allb[(allb >= xy[0, 0]) & (allb <= xn)]
+    xq, wq = _pieces(xs[:-1], xs[1:], np.zeros(0))
+    right = np.r_[np.cumsum((col(xq) * wq).sum(-1)[::-1])[::-1], 0.0]     # ∫ from xs[j] to xn
+    j = np.clip(np.searchsorted(xs, b, side="right"), 1, len(xs) - 1)    # b lies in [xs[j-1], xs[j]]
+    xq, wq = _pieces(b, xs[j], np.zeros(0))
+    W = W + right[j] + (col(xq) * wq).sum(-1)
+    xq, wq = _pieces(xt, np.broadcast_to(xn, xt.shape), allb)
+    fx, fy = _surface_loads(section, xq)
+    return W, (fx * wq).sum(-1), (fy * wq).sum(-1)
+
+
+def _tops(section, xy, incl_deg):
+    """Ground ends of interfaces from the interior vertices at inclinations (n - 1, K) from the vertical.
+
+    Returns (top (n-1, K, 2), ok (n-1, K)): ok where the line meets the ground inside the mass's
+    span and stays above the polyline on the way.
+    """
+    g = section.ground
+    d = np.radians(incl_deg)
+    s = np.stack([np.sin(d), np.cos(d)], -1)                       # (n-1, K, 2) upward along the line
+    P = xy[1:-1][:, None, :]
+    g0, g1 = g[:-1], g[1:]
+    e = g1 - g0                                                   # (G, 2)
+    r = g0[None, None] - P[..., None, :]                          # (n-1, K, G, 2)
+    S = s[..., None, :]
+    den = S[..., 0] * e[:, 1] - S[..., 1] * e[:, 0]               # cross(s, e)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        tt = (r[..., 0] * e[:, 1] - r[..., 1] * e[:, 0]) / den     # along the interface
+        uu = (r[..., 0] * S[..., 1] - r[..., 1] * S[..., 0]) / den  # along the ground segment
+    hit = (np.abs(den) > 1e-12) & (uu >= -1e-12) & (uu <= 1 + 1e-12) & (tt > 1e-9)
+    tt = np.where(hit, tt, np.inf)
+    t = tt.min(-1)
+    top = P + np.where(np.isfinite(t), t, 0.0)[..., None] * s
+    ok = np.isfinite(t) & (top[..., 0] > xy[0, 0]) & (top[..., 0] < xy[-1, 0])
+    # the interface must not pass below the polyline between its ends
+    xv, yv = xy[:, 0], xy[:, 1]
+    lo, hi = np.minimum(P[..., 0], top[..., 0]), np.maximum(P[..., 0], top[..., 0])
+    between = (xv > lo[..., None] + 1e-9) & (xv < hi[..., None] - 1e-9)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        yline = P[..., 1, None] + (xv - P[..., 0, None]) * (s[..., 1] / s[..., 0])[..., None]
+    ok &= ~np.any(between & (yv >= yline - 1e-9), axis=-1)
+    return top, ok
+
+
+@njit(cache=True)
+def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
+    """Work of the loads (incl. pore water) and dissipation (undivided by F) at trial F; (ok, drive, diss)."""
+    n = tb.shape[0]
+    tpsi = Tb[0] / F
+    cs = 1.0 / np.sqrt(1.0 + tpsi * tpsi)
+    sn = tpsi * cs
+    vx = cs * tb[0, 0] + sn * nb[0, 0]
+    vy = cs * tb[0, 1] + sn * nb[0, 1]
+    drive = Ftot[0] * vx + Ftot[1] * vy + Ub[0] * sn
+    diss = Cb[0] * cs
+    for i in range(1, n):
+        k = idx[i - 1]
+        tb_ = Tb[i] / F
+        ce = 1.0 / np.sqrt(1.0 + tb_ * tb_)
+        se = tb_ * ce
+        ex = ce * tb[i, 0] + se * nb[i, 0]
+        ey = ce * tb[i, 1] + se * nb[i, 1]
+        ti = Ti[i - 1, k] / F
+        cg = 1.0 / np.sqrt(1.0 + ti * ti)
+        sg = ti * cg
+        best_a, best_b = -1.0, np.inf
+        for sgn in (1.0, -1.0):        # the sense of shear on the interface
+            gx = sgn * cg * si[i - 1, k, 0] + sg * mi[i - 1, k, 0]
+            gy = sgn * cg * si[i - 1, k, 1] + sg * mi[i - 1, k, 1]
+            det = gx * ey - ex * gy
+            if abs(det) < 1e-14:
+                continue
+            a = (gx * vy - gy * vx) / det      # v_i = a e_i,  v_i - v_(i-1) = b g
+            b = (ex * vy - ey * vx) / det
+            if a > 0.0 and b >= -1e-12 and b < best_b:
+                best_a, best_b = a, max(b, 0.0)
+        if best_a <= 0.0:
+            return False, 0.0, 0.0
+        dvx, dvy = best_a * ex - vx, best_a * ey - vy
+        vx, vy = best_a * ex, best_a * ey
+        drive += Fr[i - 1, k, 0] * dvx + Fr[i - 1, k, 1] * dvy + Ui[i - 1, k] * best_b * sg + Ub[i] * best_a * se
+        diss += Ci[i - 1, k] * best_b * cg + Cb[i] * best_a * ce
+    return True, drive, diss
+
+
+@njit(cache=True)
+def _solve_f(idx, F0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
+    """F of the work equation F·drive(F) = diss(F) for one set of interfaces; inf without a mechanism.
+
+    With φ = 0 on every line the velocities do not depend on F and F = diss / drive. Otherwise
+    g(F) = F·drive - diss is solved by the Illinois variant of false position on a bracket in
+    [1e-3, 1e3] (a trial F at which the mechanism is not admissible counts as below the root: the
+    jumps' inclination φ_d grows as F falls).
+    """
+    frictional = Tb.max() > 0.0
+    if not frictional:
+        for i in range(idx.shape[0]):
+            if Ti[i, idx[i]] > 0.0:
+                frictional = True
+                break
+    if not frictional:
+        ok, drive, diss = _work(idx, 1.0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+        if not ok or not drive > 0.0:
+            return np.inf
+        return diss / drive
+    lo, hi = 1e-3, 1e3
+    ok, drive, diss = _work(idx, hi, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+    ghi = hi * drive - diss
+    if not ok or not ghi > 0.0:
+        return np.inf
+    ok, drive, diss = _work(idx, lo, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+    glo = lo * drive - diss if ok else np.nan
+    if ok and glo >= 0.0:
+        return lo
+    side = 0
+    for _ in range(200):
+        if np.isfinite(glo):
+            F = hi - ghi * (hi - lo) / (ghi - glo)
+            if not (lo < F < hi):
+                F = np.sqrt(lo * hi)
+        else:
+            F = np.sqrt(lo * hi)
+        ok, drive, diss = _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+        g = F * drive - diss if ok else np.nan
+        if ok and g > 0.0:
+            hi, ghi = F, g
+            if side == 1 and np.isfinite(glo):
+                glo *= 0.5
+            side = 1
+        else:
+            lo, glo = F, g
+            if side == -1:
+                ghi *= 0.5
+            side = -1
+        if hi - lo <= 1e-11 * hi:
+            break
+    # a root, not a pole: near a singular interface the speeds (and g) jump across zero
+    ok, drive, diss = _work(idx, hi, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+    if not ok or abs(hi * drive - diss) > 1e-6 * abs(diss):
+        return np.inf
+    return hi
+
+
+@njit(cache=True)
+def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
+    """min over the table of interface inclinations of G = diss - F·drive (first block's speed 1).
+
+    At a fixed trial F every jump's inclination is fixed, so the mechanism is linear: interface i
+    turns the speed a_(i-1) of the block before it into a_i = ρ_i a_(i-1) and a jump b_i = β_i a_(i-1),
+    both depending on that interface's inclination only, and G = h_0 + Σ a_(i-1) h_i. That is a chain
+    whose suffix scales with the speed entering it, so the least G is found exactly by dynamic
+    programming from the last interface back (the only coupling left is that neighbouring
+    interfaces may not cross: their ground ends stay in order). Returns (G, idx).
+    """
+    n = tb.shape[0]
+    m, K = ok.shape
+    E = np.empty((n, 2))
+    for i in range(n):
+        t = Tb[i] / F
+        c = 1.0 / np.sqrt(1.0 + t * t)
+        E[i, 0] = c * tb[i, 0] + t * c * nb[i, 0]
+        E[i, 1] = c * tb[i, 1] + t * c * nb[i, 1]
+    t0 = Tb[0] / F
+    c0 = 1.0 / np.sqrt(1.0 + t0 * t0)
+    h0 = Cb[0] * c0 - F * (Ftot[0] * E[0, 0] + Ftot[1] * E[0, 1] + Ub[0] * t0 * c0)
+    rho = np.zeros((m, K))
+    h = np.full((m, K), np.inf)
+    for i in range(1, n):
+        ce = 1.0 / np.sqrt(1.0 + (Tb[i] / F) ** 2)
+        se = (Tb[i] / F) * ce
+        ex, ey = E[i, 0], E[i, 1]
+        vx, vy = E[i - 1, 0], E[i - 1, 1]
+        for k in range(K):
+            if not ok[i - 1, k]:
+                continue
+            ti = Ti[i - 1, k] / F
+            cg = 1.0 / np.sqrt(1.0 + ti * ti)
+            sg = ti * cg
+            best_a, best_b = -1.0, np.inf
+            for sgn in (1.0, -1.0):        # the sense of shear on the interface
+                gx = sgn * cg * si[i - 1, k, 0] + sg * mi[i - 1, k, 0]
+                gy = sgn * cg * si[i - 1, k, 1] + sg * mi[i - 1, k, 1]
+                det = gx * ey - ex * gy
+                if abs(det) < 1e-14:
+                    continue
+                a = (gx * vy - gy * vx) / det      # v_i = a e_i,  v_i - v_(i-1) = b g
+                b = (ex * vy - ey * vx) / det
+                if a > 0.0 and b >= -1e-12 and b < best_b:
+                    best_a, best_b = a, max(b, 0.0)
+            if best_a <= 0.0:
+                continue
+            dvx, dvy = best_a * ex - vx, best_a * ey - vy
+            drive = Fr[i - 1, k, 0] * dvx + Fr[i - 1, k, 1] * dvy + Ui[i - 1, k] * best_b * sg + Ub[i] * best_a * se
+            diss = Ci[i - 1, k] * best_b * cg + Cb[i] * best_a * ce
+            rho[i - 1, k] = best_a
+            h[i - 1, k] = diss - F * drive
+    V = np.full((m, K), np.inf)
+    nxt = np.full((m, K), -1, np.int64)
+    for k in range(K):
+        V[m - 1, k] = h[m - 1, k]
+    for i in range(m - 2, -1, -1):
+        for k in range(K):
+            if not np.isfinite(h[i, k]):
+                continue
+            best, arg = np.inf, -1
+            for k2 in range(K):
+                if np.isfinite(V[i + 1, k2]) and xt[i + 1, k2] > xt[i, k] and V[i + 1, k2] < best:
+                    best, arg = V[i + 1, k2], k2
+            if arg >= 0:
+                V[i, k] = h[i, k] + rho[i, k] * best
+                nxt[i, k] = arg
+    idx = np.full(m, -1, np.int64)
+    best, arg = np.inf, -1
+    for k in range(K):
+        if V[0, k] < best:
+            best, arg = V[0, k], k
+    if arg < 0:
+        return np.inf, idx
+    idx[0] = arg
+    for i in range(1, m):
+        idx[i] = nxt[i - 1, idx[i - 1]]
+    return h0 + best, idx
+
+
+@njit(cache=True)
+def _least_f(F0, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
+    """Least F over the table: the least trial F at which some mechanism of the table has G <= 0.
+
+    Any F at which a mechanism's work of the loads reaches its dissipation with the strength
+    divided by F is an upper bound. From such an F the least-G mechanism's own root is a lower
+    one (Dinkelbach 1967); when that root is not genuine (a pole of the speeds), the bracket is
+    halved instead. Returns (F, idx); inf when no mechanism reaches G <= 0 by F = 1e3.
+    """
+    m = ok.shape[0]
+    hi = F0
+    G, idx = _least_g(hi, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+    if not (idx[0] >= 0 and G <= 0.0):
+        hi = 1e3
+        G, idx = _least_g(hi, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+        if not (idx[0] >= 0 and G <= 0.0):
+            return np.inf, np.full(m, -1, np.int64)
+    lo = 1e-3
+    for _ in range(200):
+        Fn = _solve_f(idx, hi, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+        if Fn >= hi * (1.0 - 1e-10) and np.isfinite(Fn):
+            break                           # no mechanism of the table below hi
+        trial = Fn if (np.isfinite(Fn) and Fn > lo) else np.sqrt(lo * hi)
+        Gt, it = _least_g(trial, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
+        if it[0] >= 0 and Gt <= 1e-12 * abs(Gt) + 0.0:
+            hi, idx = trial, it
+        else:
+            lo = trial
+        if hi - lo <= 1e-10 * hi:
+            break
+    return hi, idx
+
+
+def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None) -> BlockMechanism:
+    """Least kinematic factor of safety of a polyline as a mechanism of rigid blocks.
+
+    Parameters
+    ----------
+    section : Section
+    xy : ndarray (n + 1, 2), m
+        Vertices of the slip surface, section frame, x increasing, ends on
+        the ground (one block per segment).
+    hypothesis : {"drained", "undrained"}
+    overrides : callable or dict, optional
+        As for :func:`slope.strength.base_strength`; a callable gets the
+        quadrature points of the lines as slice bases of zero length (so a
+        realisation's random fields are sampled along the bases and the
+        interfaces alike).
+
+    Returns
+    -------
+    BlockMechanism
+
+    Raises
+    ------
+    InputError
+        A section with a tension crack (not modelled), or fewer than two vertices.
+    """
+    xy = np.asarray(xy, float)
+    if xy.ndim != 2 or xy.shape[0] < 2 or np.any(np.diff(xy[:, 0]) <= 0):
+        raise InputError("upper-bound evaluation: give at least two vertices with x increasing")
+    loads = section.loads
+    if loads is not None and loads.crack is not None:
+        raise InputError("upper-bound evaluation: a tension crack is not modelled by the rigid-block mechanism; "
+                         "remove [loads.crack] or judge non-circular paths by limit equilibrium only")
+    kh = 0.0 if loads is None else float(loads.kh)
+    d = 1.0 if section.ground_y(xy[0, 0]) > section.ground_y(xy[-1, 0]) else -1.0   # direction of motion in x
+    seg = np.diff(xy, axis=0)
+    Lb = np.hypot(seg[:, 0], seg[:, 1])
+    tb = d * seg / Lb[:, None]
+    nb = np.c_[-seg[:, 1], seg[:, 0]] / Lb[:, None]          # upward normal of each base
+    Cb, Tb, Ub, _ = _line_terms(section, xy[:-1], xy[1:], hypothesis, overrides)
+    brk = _breaks(section, xy[0, 0], xy[-1, 0])
+    xq, wq = _pieces(np.array(xy[0, 0]), np.array(xy[-1, 0]), np.unique(np.r_[xy[:, 0], brk]))
+    Wt = float((_column_weight(section, xq, np.interp(xq, xy[:, 0], xy[:, 1]), section.ground_y(xq)) * wq).sum())
+    fx, fy = _surface_loads(section, xq)
+    Ftot = np.array([kh * d * Wt + float((fx * wq).sum()), -Wt + float((fy * wq).sum())])
+    n = len(Lb)
+    if n == 1:
+        F = _solve_f(np.zeros(0, np.int64), 1.0, tb, nb, Cb, Tb, Ub, Ftot, np.zeros((0, 1, 2)), np.zeros((0, 1, 2)),
+                     np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1, 2)))
+        return _result(section, F, xy, np.zeros(0))
+    # tables of inclinations: the first spans ±60° from the vertical; each next one is finer, about
+    # the previous optimum. Every table is searched exactly (_least_g), so F never rises from one to
+    # the next (the previous optimum is in the next table).
+    # the first table also holds, at every vertex, inclinations about the normal to the mean direction
+    # of its two bases (the radii, for chords of a circle: the rigid rotation's own jumps), which a
+    # coarse table of absolute inclinations cannot hold for close vertices without crossing
+    beta = np.degrees(np.arctan2(seg[:, 1], seg[:, 0]))
+    normal = -0.5 * (beta[:-1] + beta[1:])
+    F, centre = np.inf, np.zeros(n - 1)
+    for level, table in enumerate(_TABLES):
+        incl = centre[:, None] + table[None, :]
+        if level == 0:
+            incl = np.concatenate([incl, normal[:, None] + _NORMAL_TABLE[None, :]], axis=1)
+        incl = np.clip(incl, -_STEEPEST, _STEEPEST)
+        ok, xt, tabs = _interface_tables(section, xy, incl, hypothesis, overrides, brk, kh, d)
+        Fk, idx = _least_f(F if np.isfinite(F) else 1e3, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, *tabs)
+        if not (np.isfinite(Fk) and Fk <= F):
+            break
+        F, centre = Fk, incl[np.arange(n - 1), idx]
+    return _result(section, F, xy, centre)
+
+
+def _interface_tables(section, xy, incl, hypothesis, overrides, brk, kh, d):
+    """Admissibility, top abscissae and the work-equation terms of interfaces at inclinations (n - 1, K)."""
+    top, ok = _tops(section, xy, incl)
+    dr = np.radians(incl)
+    si = np.stack([np.sin(dr), np.cos(dr)], -1)
+    mi = np.stack([np.cos(dr), -np.sin(dr)], -1)          # opening normal, toward +x
+    Ci, Ti, Ui, _ = _line_terms(section, np.broadcast_to(xy[1:-1, None, :], top.shape), top, hypothesis, overrides)
+    Wr, Qx, Qy = _right_of(section, xy, top, brk)
+    Fr = np.ascontiguousarray(np.stack([kh * d * Wr + Qx, -Wr + Qy], -1))
+    return ok, np.ascontiguousarray(top[..., 0]), (si, mi, Ci, Ti, Ui, Fr)
+
+
+def _result(section, F, xy, incl):
+    top, _ = _tops(section, xy, incl[:, None]) if len(incl) else (np.zeros((0, 1, 2)), None)
+    return BlockMechanism(float(F), np.asarray(incl, float), top[:, 0, :])
