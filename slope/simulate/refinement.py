@@ -38,9 +38,10 @@ def _reasons():
     from ..methods import FLAG_NAMES
     from ..search import SHAPE_REJECTED
     from ..search.interslice_strength import INTERSLICE_REASON
+    from ..search.path_acceptance import KINEMATIC_REASON, UNSUPPORTED_REASON
 
     return ((SHAPE_REJECTED, START_UNUSABLE, "not converged") + tuple(FLAG_NAMES.values())
-            + (INTERSLICE_REASON, "other geometry"))
+            + (INTERSLICE_REASON, KINEMATIC_REASON, UNSUPPORTED_REASON, "other geometry"))
 
 
 #: reasons a refinement trial or candidate is rejected, in the order of the
