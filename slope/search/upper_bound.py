@@ -60,7 +60,7 @@ from ..bank import _column_weight, point_stresses
 from ..errors import InputError
 from ..strength import base_strength
 
-__all__ = ["BlockMechanism", "upper_bound_fs", "mechanism_xy", "KINEMATIC_REASON"]
+__all__ = ["BlockMechanism", "upper_bound_fs", "fixed_interfaces_fs", "mechanism_xy", "KINEMATIC_REASON"]
 
 #: Reason under which a free path is not counted: its kinematic factor is above its start surface's.
 KINEMATIC_REASON = "less critical than its start surface as a mechanism of rigid blocks"
@@ -475,6 +475,60 @@ def _least_f(F0, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # p
     return hi, idx
 
 
+def _setup(section, xy, hypothesis, overrides):
+    """Checks, direction of motion, bases' terms, total weight and loads of a polyline mechanism."""
+    xy = np.asarray(xy, float)
+    if xy.ndim != 2 or xy.shape[0] < 2 or np.any(np.diff(xy[:, 0]) <= 0):
+        raise InputError("upper-bound evaluation: give at least two vertices with x increasing")
+    loads = section.loads
+    if loads is not None and loads.crack is not None:
+        raise InputError("upper-bound evaluation: a tension crack is not modelled by the rigid-block mechanism; "
+                         "remove [loads.crack] or judge non-circular paths by limit equilibrium only")
+    kh = 0.0 if loads is None else float(loads.kh)
+    d = 1.0 if section.ground_y(xy[0, 0]) > section.ground_y(xy[-1, 0]) else -1.0   # direction of motion in x
+    seg = np.diff(xy, axis=0)
+    Lb = np.hypot(seg[:, 0], seg[:, 1])
+    tb = d * seg / Lb[:, None]
+    nb = np.c_[-seg[:, 1], seg[:, 0]] / Lb[:, None]          # upward normal of each base
+    Cb, Tb, Ub, _ = _line_terms(section, xy[:-1], xy[1:], hypothesis, overrides)
+    brk = _breaks(section, xy[0, 0], xy[-1, 0])
+    xq, wq = _pieces(np.array(xy[0, 0]), np.array(xy[-1, 0]), np.unique(np.r_[xy[:, 0], brk]))
+    Wt = float((_column_weight(section, xq, np.interp(xq, xy[:, 0], xy[:, 1]), section.ground_y(xq)) * wq).sum())
+    fx, fy = _surface_loads(section, xq)
+    Ftot = np.array([kh * d * Wt + float((fx * wq).sum()), -Wt + float((fy * wq).sum())])
+    return xy, d, kh, brk, tb, nb, Cb, Tb, Ub, Ftot
+
+
+def fixed_interfaces_fs(section, xy, inclinations, *, hypothesis="drained", overrides=None) -> float:
+    """Kinematic factor of safety of a polyline with given interface inclinations (no optimisation).
+
+    Parameters
+    ----------
+    section, xy, hypothesis, overrides
+        As for :func:`upper_bound_fs`.
+    inclinations : array_like (n - 1,), degrees
+        Inclination of the interface at each interior vertex from the vertical (+ top toward +x).
+
+    Returns
+    -------
+    float
+        F; inf when the interfaces are not admissible (crossing, leaving the mass) or no
+        admissible velocity field exists.
+    """
+    xy, d, kh, brk, tb, nb, Cb, Tb, Ub, Ftot = _setup(section, xy, hypothesis, overrides)
+    incl = np.asarray(inclinations, float).reshape(-1, 1)
+    if incl.shape[0] != len(xy) - 2:
+        raise InputError(f"upper-bound evaluation: {incl.shape[0]} inclinations for {len(xy) - 2} interior vertices")
+    if len(xy) == 2:
+        return float(_solve_f(np.zeros(0, np.int64), 1.0, tb, nb, Cb, Tb, Ub, Ftot, np.zeros((0, 1, 2)),
+                              np.zeros((0, 1, 2)), np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1)),
+                              np.zeros((0, 1, 2))))
+    ok, xt, tabs = _interface_tables(section, xy, incl, hypothesis, overrides, brk, kh, d)
+    if not (ok.all() and np.all(np.diff(xt[:, 0]) > 0)):
+        return np.inf
+    return float(_solve_f(np.zeros(len(incl), np.int64), 1.0, tb, nb, Cb, Tb, Ub, Ftot, *tabs))
+
+
 def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None) -> BlockMechanism:
     """Least kinematic factor of safety of a polyline as a mechanism of rigid blocks.
 
@@ -500,25 +554,9 @@ def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None) -> Bloc
     InputError
         A section with a tension crack (not modelled), or fewer than two vertices.
     """
-    xy = np.asarray(xy, float)
-    if xy.ndim != 2 or xy.shape[0] < 2 or np.any(np.diff(xy[:, 0]) <= 0):
-        raise InputError("upper-bound evaluation: give at least two vertices with x increasing")
-    loads = section.loads
-    if loads is not None and loads.crack is not None:
-        raise InputError("upper-bound evaluation: a tension crack is not modelled by the rigid-block mechanism; "
-                         "remove [loads.crack] or judge non-circular paths by limit equilibrium only")
-    kh = 0.0 if loads is None else float(loads.kh)
-    d = 1.0 if section.ground_y(xy[0, 0]) > section.ground_y(xy[-1, 0]) else -1.0   # direction of motion in x
+    xy, d, kh, brk, tb, nb, Cb, Tb, Ub, Ftot = _setup(section, xy, hypothesis, overrides)
     seg = np.diff(xy, axis=0)
     Lb = np.hypot(seg[:, 0], seg[:, 1])
-    tb = d * seg / Lb[:, None]
-    nb = np.c_[-seg[:, 1], seg[:, 0]] / Lb[:, None]          # upward normal of each base
-    Cb, Tb, Ub, _ = _line_terms(section, xy[:-1], xy[1:], hypothesis, overrides)
-    brk = _breaks(section, xy[0, 0], xy[-1, 0])
-    xq, wq = _pieces(np.array(xy[0, 0]), np.array(xy[-1, 0]), np.unique(np.r_[xy[:, 0], brk]))
-    Wt = float((_column_weight(section, xq, np.interp(xq, xy[:, 0], xy[:, 1]), section.ground_y(xq)) * wq).sum())
-    fx, fy = _surface_loads(section, xq)
-    Ftot = np.array([kh * d * Wt + float((fx * wq).sum()), -Wt + float((fy * wq).sum())])
     n = len(Lb)
     if n == 1:
         F = _solve_f(np.zeros(0, np.int64), 1.0, tb, nb, Cb, Tb, Ub, Ftot, np.zeros((0, 1, 2)), np.zeros((0, 1, 2)),
