@@ -67,11 +67,11 @@ KINEMATIC_REASON = "less critical than its start surface as a mechanism of rigid
 
 _GAUSS = tuple(np.polynomial.legendre.leggauss(3))
 _GAUSS = (0.5 * (_GAUSS[0] + 1.0), 0.5 * _GAUSS[1])
-_LINE_PARTS = 6            # equal parts of each base and interface for the strength quadrature
+_LINE_PARTS = 4            # equal parts of each base and interface for the strength quadrature
 #: interface inclinations from the vertical (degrees, + leaning toward +x at the top), refined about the best
 _STEEPEST = 80.0   # degrees from the vertical
 _NORMAL_TABLE = np.linspace(-6.0, 6.0, 7)
-_TABLES = (np.linspace(-60.0, 60.0, 25), np.linspace(-4.0, 4.0, 9), np.linspace(-0.75, 0.75, 7))
+_TABLES = (np.linspace(-60.0, 60.0, 13), np.linspace(-5.0, 5.0, 11), np.linspace(-0.5, 0.5, 5))
 
 
 @dataclass
@@ -171,8 +171,13 @@ def _breaks(section, x0, x1):
 def _pieces(a, b, brk):
     """Gauss points (..., P*3) and weights over [a, b] split at the breakpoints ``brk`` (sorted)."""
     a, b = np.asarray(a, float), np.asarray(b, float)
-    br = np.concatenate([a[..., None], np.clip(np.broadcast_to(brk, a.shape + brk.shape), a[..., None],
-                                               b[..., None]), b[..., None]], axis=-1)
+    if brk.size:   # only the breakpoints inside each interval (sorted, so a window from the first one)
+        lo_i = np.searchsorted(brk, a, side="right")
+        m = int(np.max(np.searchsorted(brk, b, side="left") - lo_i, initial=0))
+        inner = brk[np.minimum(lo_i[..., None] + np.arange(max(m, 0)), brk.size - 1)]
+    else:
+        inner = np.zeros(a.shape + (0,))
+    br = np.concatenate([a[..., None], np.clip(inner, a[..., None], b[..., None]), b[..., None]], axis=-1)
     br = np.sort(br, axis=-1)
     lo, hi = br[..., :-1], br[..., 1:]
     x = (lo[..., None] + (hi - lo)[..., None] * _GAUSS[0]).reshape(a.shape + (-1,))
@@ -206,8 +211,12 @@ def _right_of(section, xy, top, brk):
     lean_right = xt >= xb
     a, b = np.minimum(xb, xt), np.maximum(xb, xt)
     allb = np.unique(np.r_[xy[:, 0], brk])
-    # the wedge between the interface and the vertical through its farther end
-    xq, wq = _pieces(a, b, allb)
+    # the wedge between the interface and the vertical through its farther end, split where its
+    # bounding lines bend (the surface's and the ground's vertices; zone edges crossing it only put a
+    # kink in the integrand, left to the Gauss points)
+    g = section.ground[:, 0]
+    wb = np.unique(np.r_[xy[:, 0], g[(g > xy[0, 0]) & (g < xn)]])
+    xq, wq = _pieces(a, b, wb)
     with np.errstate(divide="ignore", invalid="ignore"):
         yl = yb[..., None] + (xq - xb[..., None]) * np.where(xt != xb, (yt - yb) / (xt - xb), 0.0)[..., None]
     ybase = np.interp(xq, xy[:, 0], xy[:, 1])
