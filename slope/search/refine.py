@@ -86,8 +86,11 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
         ``critical`` is never worse than the start surface: a polyline of a
         few chords inscribed in a circle lies above the arc and starts with
         a higher FS than the circle (about 1 % with 6 vertices), which a
-        small optimisation budget may not win back.  ``history`` holds the
-        best FS of the polyline after each improvement.
+        small optimisation budget may not win back.  The refined polyline is
+        a candidate only when it is at least as critical as ``start`` as a
+        mechanism of rigid blocks (:mod:`slope.search.path_acceptance`); if
+        not it is counted in ``rejected`` under that reason.  ``history``
+        holds the best FS of the polyline after each improvement.
     """
     from scipy.optimize import minimize
 

@@ -9,7 +9,10 @@ from the realisation's fields by the same mapping as the bank's
 toward the realisation's weak cells. Every path and every start surface is
 then judged by the method of slices (``method``), and only clean solutions
 count: converged and no flag at all, the rule of the Nelder-Mead refinement
-(:func:`slope.simulate.refinement.refine_realisation`). The realisation's FS is the lower
+(:func:`slope.simulate.refinement.refine_realisation`). A path below the starts must also be
+at least as critical as its own start surface as a mechanism of rigid blocks with the
+realisation's strengths (:mod:`slope.search.path_acceptance`; the lowest such path is judged
+first, and a refused one is counted and the next judged). The realisation's FS is the lower
 of the bank's and the search's.
 
 The first band of each start surface depends on the geometry only, so its

@@ -174,3 +174,15 @@ def test_mechanism_results_maps_and_export(tmp_path):
             np.testing.assert_array_equal(xy, surfs[k])
         want = "dynamic-programming (per realisation)" if r.fs[k] < r.fs_bank[k] else "circle"
         assert row["governing family"] == want
+
+
+def test_rigid_block_refusals_are_counted_reported_and_tie_stores():
+    # The rule's reasons are among the per-realisation counts (so a store's identity, which lists them,
+    # changes with the rule) and the report says what each means.
+    from slipfield.slope.report.exclusions import MEANINGS
+    from slipfield.slope.search.path_acceptance import KINEMATIC_REASON, UNSUPPORTED_REASON
+    from slipfield.slope.simulate.refinement import REFINE_REASONS
+
+    for reason in (KINEMATIC_REASON, UNSUPPORTED_REASON):
+        assert reason in REFINE_REASONS and reason in MEANINGS
+    assert REFINE_REASONS[-1] == "other geometry"     # unknown reasons still land in the last column
