@@ -51,7 +51,19 @@ import numpy as np
 from ..surfaces import Circle
 from .upper_bound import KINEMATIC_REASON, mechanism_xy, upper_bound_fs
 
-__all__ = ["KINEMATIC_REASON", "UNSUPPORTED_REASON", "kinematic_reasons", "accepted_paths", "StartBound"]
+__all__ = ["KINEMATIC_REASON", "UNSUPPORTED_REASON", "RULE_ID", "kinematic_reasons", "accepted_paths", "StartBound"]
+
+def _rule_id() -> str:
+    from . import upper_bound as ub
+
+    tables = "; ".join(f"{t[0]:g}..{t[-1]:g} in {len(t)}" for t in ub._TABLES)
+    return (f"rigid-block rule: F_kin(path) <= F_kin(start), circle as chords of the path's count; "
+            f"inclination tables {tables}, normals {ub._NORMAL_TABLE[0]:g}..{ub._NORMAL_TABLE[-1]:g} in "
+            f"{len(ub._NORMAL_TABLE)}; {ub._LINE_PARTS} x 3 Gauss points per line")
+
+
+#: What a stored result of a search under this rule is tied to (its settings change which paths count).
+RULE_ID = _rule_id()
 
 #: Reason under which a path is not counted on a section the rigid-block evaluation does not model.
 UNSUPPORTED_REASON = "no rigid-block evaluation with a tension crack"

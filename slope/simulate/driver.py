@@ -433,7 +433,9 @@ def store_header(problem, seed, refine=None, extra: dict | None = None) -> dict:
         from ..search.interslice_retry import RETRY_FUNCTIONS
 
         # and the interslice functions a refused path is solved again with before it is refused
-        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [f"retried: {', '.join(RETRY_FUNCTIONS)}"]
+        from ..search.path_acceptance import RULE_ID
+
+        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [f"retried: {', '.join(RETRY_FUNCTIONS)}", RULE_ID]
     if bank_checks_apply(problem):
         from ..search.interslice_retry import RETRY_FUNCTIONS
         from .refinement import REFINE_REASONS

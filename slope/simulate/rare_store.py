@@ -38,7 +38,10 @@ def subset_store_identity(problem, seed, settings, refine, extra=None) -> dict:
     if refine is not None:
         from .refinement import REFINE_REASONS
 
-        ident["refine"]["acceptance"] = list(REFINE_REASONS)  # as driver.store_header: the search's acceptance rules
+        from ..search.path_acceptance import RULE_ID
+
+        # as driver.store_header: the search's acceptance rules
+        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [RULE_ID]
     if extra:
         ident.update(extra)
     return ident

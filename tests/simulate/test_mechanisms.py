@@ -186,3 +186,21 @@ def test_rigid_block_refusals_are_counted_reported_and_tie_stores():
     for reason in (KINEMATIC_REASON, UNSUPPORTED_REASON):
         assert reason in REFINE_REASONS and reason in MEANINGS
     assert REFINE_REASONS[-1] == "other geometry"     # unknown reasons still land in the last column
+
+
+def test_a_store_is_tied_to_the_rigid_block_rule(tmp_path):
+    # A store written by the per-realisation search before the rule (its paths counted unjudged as
+    # mechanisms) must not be continued with it.
+    from slipfield.slope.errors import InputError as Refused
+    from slipfield.slope.search.path_acceptance import KINEMATIC_REASON, RULE_ID
+    from slipfield.slope.simulate.driver import store_header
+    from slipfield.slope.simulate.store import BlockStore
+
+    p, _ = gf_problem(5.0, 0.5)
+    new = store_header(p, 3, refine=RefineSettings(below=1.3, **DP))
+    assert RULE_ID in new["refine"]["acceptance"] and KINEMATIC_REASON in new["refine"]["acceptance"]
+    old = {**new, "refine": {**new["refine"], "acceptance": [a for a in new["refine"]["acceptance"]
+                                                             if a not in (RULE_ID, KINEMATIC_REASON)]}}
+    BlockStore(tmp_path / "s", old).open(resume=False)
+    with pytest.raises(Refused):
+        BlockStore(tmp_path / "s", new).check(resume=True)
