@@ -120,8 +120,12 @@ def kinematic_reasons(section, paths, start, *, hypothesis, overrides=None, boun
     for p in paths:
         xy = np.asarray(p.points, float)
         n = len(xy) - 1
-        fp = upper_bound_fs(section, xy, hypothesis=hypothesis, overrides=overrides).fs
         fstart = bound.fs(n)
+        # refining the path's tables stops once it is at least as critical as its start (an infinite
+        # start: once it has a mechanism at all): finer
+        # tables never raise F, so the decision is the one the full refinement would give
+        fp = upper_bound_fs(section, xy, hypothesis=hypothesis, overrides=overrides,
+                            enough=fstart).fs
         out.append("" if np.isfinite(fp) and fp <= fstart else KINEMATIC_REASON)
     return out
 

@@ -130,9 +130,8 @@ class _LinePoints:
         return 1
 
 
-def _line_terms(section, p0, p1, hypothesis, overrides):
-    """∫c dL, mean tan φ, ∫u dL (where tan φ > 0) and length of lines p0 -> p1 (arrays (..., 2))."""
-    shp = p0.shape[:-1]
+def _line_geometry(section, p0, p1):
+    """Quadrature points, weights, lengths and stresses on lines p0 -> p1: what does not depend on strengths."""
     t = (np.arange(_LINE_PARTS)[:, None] + _GAUSS[0][None, :]).ravel() / _LINE_PARTS   # (q,)
     w = np.tile(_GAUSS[1], _LINE_PARTS) / _LINE_PARTS
     x = p0[..., 0, None] + (p1[..., 0] - p0[..., 0])[..., None] * t
@@ -140,6 +139,15 @@ def _line_terms(section, p0, p1, hypothesis, overrides):
     L = np.hypot(p1[..., 0] - p0[..., 0], p1[..., 1] - p0[..., 1])
     zone, sig_eff, u = point_stresses(section, x, y)
     depth = section.ground_y(x) - y
+    return w, x, y, L, zone, sig_eff, u, depth
+
+
+def _line_terms(section, p0, p1, hypothesis, overrides, geometry=None):
+    """∫c dL, mean tan φ, ∫u dL (where tan φ > 0) and length of lines p0 -> p1 (arrays (..., 2)).
+
+    ``geometry`` is :func:`_line_geometry` of the same lines when already computed.
+    """
+    w, x, y, L, zone, sig_eff, u, depth = _line_geometry(section, p0, p1) if geometry is None else geometry
     flat = lambda v: np.ascontiguousarray(v, float).reshape(1, -1)   # noqa: E731 - points as bases
     pts = _LinePoints(section, flat(x), flat(y), np.where(zone >= 0, zone, 0).reshape(1, -1), flat(depth),
                       flat(sig_eff))
@@ -271,6 +279,26 @@ def _tops(section, xy, incl_deg):
     return top, ok
 
 
+#: Geometry of mechanisms met before (strength-free: tops, weights, loads, lines' points and stresses),
+#: keyed by the section and the vertices (and the interfaces' inclinations): a start surface is judged
+#: again in every realisation that searches from it, with the same vertices and, at the first table,
+#: the same inclinations. Exact reuse of the same arrays, so results do not change.
+_GEOMETRY: dict = {}
+_GEOMETRY_MAX = 256
+
+
+def _kept(key, section, build):
+    """The value ``build()`` kept under ``key`` for ``section`` (built and kept when new)."""
+    hit = _GEOMETRY.get(key)
+    if hit is not None and hit[0] is section:
+        return hit[1]
+    value = build()
+    if len(_GEOMETRY) >= _GEOMETRY_MAX:
+        _GEOMETRY.pop(next(iter(_GEOMETRY)))    # the oldest first
+    _GEOMETRY[key] = (section, value)
+    return value
+
+
 def _setup(section, xy, hypothesis, overrides):
     """Checks, direction of motion, bases' terms, total weight and loads of a polyline mechanism."""
     xy = np.asarray(xy, float)
@@ -280,19 +308,28 @@ def _setup(section, xy, hypothesis, overrides):
     if loads is not None and loads.crack is not None:
         raise InputError("upper-bound evaluation: a tension crack is not modelled by the rigid-block mechanism; "
                          "remove [loads.crack] or judge non-circular paths by limit equilibrium only")
+    xy = np.ascontiguousarray(xy)
+    kh, d, brk, tb, nb, geo, Ftot = _kept((id(section), "setup", xy.tobytes(), xy.shape), section,
+                                          lambda: _setup_geometry(section, xy))
+    Cb, Tb, Ub, _ = _line_terms(section, xy[:-1], xy[1:], hypothesis, overrides, geo)
+    return xy, d, kh, brk, tb, nb, Cb, Tb, Ub, Ftot
+
+
+def _setup_geometry(section, xy):
+    loads = section.loads
     kh = 0.0 if loads is None else float(loads.kh)
     d = 1.0 if section.ground_y(xy[0, 0]) > section.ground_y(xy[-1, 0]) else -1.0   # direction of motion in x
     seg = np.diff(xy, axis=0)
     Lb = np.hypot(seg[:, 0], seg[:, 1])
     tb = d * seg / Lb[:, None]
     nb = np.c_[-seg[:, 1], seg[:, 0]] / Lb[:, None]          # upward normal of each base
-    Cb, Tb, Ub, _ = _line_terms(section, xy[:-1], xy[1:], hypothesis, overrides)
+    geo = _line_geometry(section, xy[:-1], xy[1:])
     brk = _breaks(section, xy[0, 0], xy[-1, 0])
     xq, wq = _pieces(np.array(xy[0, 0]), np.array(xy[-1, 0]), np.unique(np.r_[xy[:, 0], brk]))
     Wt = float((_column_weight(section, xq, np.interp(xq, xy[:, 0], xy[:, 1]), section.ground_y(xq)) * wq).sum())
     fx, fy = _surface_loads(section, xq)
     Ftot = np.array([kh * d * Wt + float((fx * wq).sum()), -Wt + float((fy * wq).sum())])
-    return xy, d, kh, brk, tb, nb, Cb, Tb, Ub, Ftot
+    return kh, d, brk, tb, nb, geo, Ftot
 
 
 def fixed_interfaces_fs(section, xy, inclinations, *, hypothesis="drained", overrides=None) -> float:
@@ -325,7 +362,7 @@ def fixed_interfaces_fs(section, xy, inclinations, *, hypothesis="drained", over
     return float(_solve_f(np.zeros(len(incl), np.int64), 1.0, tb, nb, Cb, Tb, Ub, Ftot, *tabs))
 
 
-def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None) -> BlockMechanism:
+def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None, enough=None) -> BlockMechanism:
     """Least kinematic factor of safety of a polyline as a mechanism of rigid blocks.
 
     Parameters
@@ -340,6 +377,11 @@ def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None) -> Bloc
         quadrature points of the lines as slice bases of zero length (so a
         realisation's random fields are sampled along the bases and the
         interfaces alike).
+    enough : float, optional
+        Stop refining the tables once F <= ``enough`` (-): the F returned is
+        then that of the mechanism found so far, an upper bound not above
+        ``enough`` but not the least (for a yes/no comparison with
+        ``enough``, which the finer tables, never raising F, cannot change).
 
     Returns
     -------
@@ -377,19 +419,29 @@ def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None) -> Bloc
         if not (np.isfinite(Fk) and Fk <= F):
             break
         F, centre = Fk, incl[np.arange(n - 1), idx]
+        if enough is not None and F <= enough:
+            break
     return _result(section, F, xy, centre)
 
 
 def _interface_tables(section, xy, incl, hypothesis, overrides, brk, kh, d):
     """Admissibility, top abscissae and the work-equation terms of interfaces at inclinations (n - 1, K)."""
+    incl = np.ascontiguousarray(incl, float)
+    key = (id(section), "interfaces", xy.tobytes(), xy.shape, incl.tobytes(), incl.shape, kh, d)
+    ok, xt, si, mi, geo, Fr = _kept(key, section, lambda: _interface_geometry(section, xy, incl, brk, kh, d))
+    Ci, Ti, Ui, _ = _line_terms(section, None, None, hypothesis, overrides, geo)
+    return ok, xt, (si, mi, Ci, Ti, Ui, Fr)
+
+
+def _interface_geometry(section, xy, incl, brk, kh, d):
     top, ok = _tops(section, xy, incl)
     dr = np.radians(incl)
     si = np.stack([np.sin(dr), np.cos(dr)], -1)
     mi = np.stack([np.cos(dr), -np.sin(dr)], -1)          # opening normal, toward +x
-    Ci, Ti, Ui, _ = _line_terms(section, np.broadcast_to(xy[1:-1, None, :], top.shape), top, hypothesis, overrides)
+    geo = _line_geometry(section, np.broadcast_to(xy[1:-1, None, :], top.shape), top)
     Wr, Qx, Qy = _right_of(section, xy, top, brk)
     Fr = np.ascontiguousarray(np.stack([kh * d * Wr + Qx, -Wr + Qy], -1))
-    return ok, np.ascontiguousarray(top[..., 0]), (si, mi, Ci, Ti, Ui, Fr)
+    return ok, np.ascontiguousarray(top[..., 0]), si, mi, geo, Fr
 
 
 def _result(section, F, xy, incl):
