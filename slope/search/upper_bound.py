@@ -231,19 +231,33 @@ def _right_of(section, xy, top, brk):
     ygr = section.ground_y(xq)
     lo = np.where(lean_right[..., None], ybase, yl)
     hi = np.where(lean_right[..., None], yl, ygr)
-    W = (_column_weight(section, xq, lo, hi) * wq).sum(-1)
+    # the wedges are split at every breakpoint any of them holds, so most of their Gauss points lie on
+    # pieces of zero width (weight exactly 0): the columns are weighed only where the weight is not
+    # zero, the rest count 0, the same sums as weighing them all
+    live = wq != 0.0
+    cw = np.zeros(xq.shape)
+    cw[live] = _column_weight(section, xq[live], lo[live], hi[live])
+    W = (cw * wq).sum(-1)
     # whole columns from that end to the mass's right end: exact integrals between breakpoints, summed
     # from the right, plus the part of the piece the end falls in
     col = lambda x: _column_weight(section, x, np.interp(x, xy[:, 0], xy[:, 1]), section.ground_y(x))  # noqa: E731
-    xs = allb[(allb >= xy[0, 0]) & (allb <= xn)]
-    xq, wq = _pieces(xs[:-1], xs[1:], np.zeros(0))
-    right = np.r_[np.cumsum((col(xq) * wq).sum(-1)[::-1])[::-1], 0.0]     # ∫ from xs[j] to xn
+    xs, right = _kept((id(section), "columns", xy.tobytes(), xy.shape, allb.tobytes()), section,
+                      lambda: _columns_right(xy, allb, col))
     j = np.clip(np.searchsorted(xs, b, side="right"), 1, len(xs) - 1)    # b lies in [xs[j-1], xs[j]]
     xq, wq = _pieces(b, xs[j], np.zeros(0))
     W = W + right[j] + (col(xq) * wq).sum(-1)
     xq, wq = _pieces(xt, np.broadcast_to(xn, xt.shape), allb)
-    fx, fy = _surface_loads(section, xq)
+    live = wq != 0.0
+    fx, fy = np.zeros(xq.shape), np.zeros(xq.shape)
+    fx[live], fy[live] = _surface_loads(section, xq[live])
     return W, (fx * wq).sum(-1), (fy * wq).sum(-1)
+
+
+def _columns_right(xy, allb, col):
+    """Breakpoints ``xs`` of the mass and the weight of the columns from each to its right end (kN/m)."""
+    xs = allb[(allb >= xy[0, 0]) & (allb <= xy[-1, 0])]
+    xq, wq = _pieces(xs[:-1], xs[1:], np.zeros(0))
+    return xs, np.r_[np.cumsum((col(xq) * wq).sum(-1)[::-1])[::-1], 0.0]     # ∫ from xs[j] to xn
 
 
 def _tops(section, xy, incl_deg):
