@@ -31,7 +31,9 @@ dynamic-programming search with the rule and without it, side by side on the sam
 per searched realisation (the rule's added cost), realisations whose FS changed, paths refused.
 
 Run: python scripts/bench_mechanisms.py [n_bank] [n_refined] [n_window]
-     python scripts/bench_mechanisms.py --kinematic [n_bank] [n_refined]   (fourth part only)
+     python scripts/bench_mechanisms.py --kinematic [n_bank] [n_refined] [--before TREE] [--repeat R]
+         (fourth part only; with --before, this tree and another source tree (its .dev shim, e.g. a
+         worktree of an older commit) each in fresh processes, alternated R times, side by side)
 """
 import os
 import sys
@@ -184,8 +186,8 @@ def interslice(n_bank=200, n_refined=20):
               f"{n1} candidates left out by the check")
 
 
-def kinematic(n_bank=200, n_refined=20):
-    """CPU and FS of the per-realisation search with and without the rigid-block rule for free paths."""
+def kinematic_measure(n_bank=200, n_refined=20):
+    """CPU and FS of the per-realisation search with and without the rigid-block rule (a dict)."""
     from slipfield.slope.search.path_acceptance import KINEMATIC_REASON
     from slipfield.slope.simulate import mechanisms as mech
     from slipfield.slope.simulate.refinement import REFINE_REASONS
@@ -209,19 +211,63 @@ def kinematic(n_bank=200, n_refined=20):
             cpu = (time.process_time() - t0) / len(res)
         finally:
             mech._judge_kinematically = judge
-        f = np.array([min(r[0], fs_c[k]) if np.isfinite(r[0]) else fs_c[k] for r, k in zip(res, order[1:])])
-        out[label] = (cpu, f, int(sum(r[2][col] for r in res)))
-    (c0, f0, _), (c1, f1, n1) = out["without"], out["with"]
+        f = [float(min(r[0], fs_c[k]) if np.isfinite(r[0]) else fs_c[k]) for r, k in zip(res, order[1:])]
+        out[label] = {"cpu": cpu, "fs": f, "refused": int(sum(r[2][col] for r in res))}
+    return out
+
+
+def _kinematic_child(tree, n_bank, n_refined):
+    """:func:`kinematic_measure` in a fresh process of ``tree`` (None: this tree)."""
+    import json
+    import subprocess
+
+    sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+    from bench_speed import _tree_env
+
+    code = (f"import sys, json; sys.path.insert(0, {os.path.dirname(os.path.abspath(__file__))!r}); "
+            f"import bench_mechanisms as b; print(json.dumps(b.kinematic_measure({n_bank}, {n_refined})))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=_tree_env(tree))
+    if out.returncode:
+        raise RuntimeError(out.stderr[-2000:])
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def kinematic(n_bank=200, n_refined=20, before=None, repeat=1):
+    """Print the rule's cost: this tree alone, or beside ``before`` (another source tree), each in fresh
+    processes, alternated ``repeat`` times; the searched FS of both must agree number for number."""
+    trees = [("this tree", None)] + ([("before", before)] if before else [])
+    rows = {}
+    for _ in range(repeat):
+        for label, tree in trees:
+            rows.setdefault(label, []).append(kinematic_measure(n_bank, n_refined) if before is None
+                                              else _kinematic_child(tree, n_bank, n_refined))
     print(f"\nrigid-block rule for free paths, levee demo undrained, {n_refined} realisations with the lowest bank "
-          f"FS of {n_bank}, one process (CPU per searched realisation):")
-    print(f"  dynamic programming  without {1e3 * c0:7.1f} ms, with {1e3 * c1:7.1f} ms (adds {1e3 * (c1 - c0):.1f} ms, "
-          f"ratio {c1 / c0:.2f}); mean FS {np.mean(f0):.4f} -> {np.mean(f1):.4f}, "
-          f"{int(np.sum(f1 != f0))} realisations changed, {n1} paths refused")
+          f"FS of {n_bank}, one process (CPU ms per searched realisation, each run):")
+    print(f"  {'':<34} " + " ".join(f"{label:>24}" for label, _ in trees))
+    cell = lambda vals: "/".join(f"{v:.1f}" for v in vals)  # noqa: E731
+    for name, fn in (("search without the rule", lambda r: 1e3 * r["without"]["cpu"]),
+                     ("search with the rule", lambda r: 1e3 * r["with"]["cpu"]),
+                     ("the rule adds", lambda r: 1e3 * (r["with"]["cpu"] - r["without"]["cpu"]))):
+        print(f"  {name:<34} " + " ".join(f"{cell([fn(r) for r in rows[label]]):>24}" for label, _ in trees))
+    for label, _ in trees:
+        r = rows[label][0]
+        f0, f1 = np.array(r["without"]["fs"]), np.array(r["with"]["fs"])
+        print(f"  {label}: mean FS {np.mean(f0):.4f} -> {np.mean(f1):.4f} with the rule, "
+              f"{int(np.sum(f1 != f0))} realisations changed, {r['with']['refused']} paths refused")
+    if before:
+        same = all(r["with"]["fs"] == rows["before"][0]["with"]["fs"] for r in rows["this tree"])
+        print(f"  searched FS with the rule, this tree vs before: {'identical' if same else 'DIFFERENT'}, "
+              f"realisation by realisation")
 
 
 if __name__ == "__main__":
     if sys.argv[1:2] == ["--kinematic"]:
-        kinematic(*(int(a) for a in sys.argv[2:4]))
+        args = sys.argv[2:]
+        before = args[args.index("--before") + 1] if "--before" in args else None
+        repeat = int(args[args.index("--repeat") + 1]) if "--repeat" in args else 1
+        flagged = {i + 1 for i, a in enumerate(args) if a in ("--before", "--repeat")}
+        nums = [int(a) for i, a in enumerate(args) if i not in flagged and not a.startswith("--")]
+        kinematic(*nums[:2], before=before, repeat=repeat)
         sys.exit(0)
     main(*(int(a) for a in sys.argv[1:3]))
     window(*(int(a) for a in sys.argv[3:4]))
