@@ -123,3 +123,39 @@ def test_a_tension_crack_is_refused_by_name():
     sec.loads = Loads(crack=TensionCrack(depth=2.0))
     with pytest.raises(InputError, match="tension crack"):
         upper_bound_fs(sec, np.array([[0.0, 0.0], [30.0, 10.0]]), hypothesis="undrained")
+
+
+def test_kept_geometry_carries_no_strength_and_undrained_f_scales_with_su():
+    # A φ = 0 mechanism's velocities do not depend on F, so its work equation gives F = Σ c L |Δv| / work
+    # of the weights (Chen 1975, the upper bound of a purely cohesive soil): F is proportional to su
+    # on every line. The geometry kept between evaluations (tops, weights, points) must carry no
+    # strength: the same chain judged with su 50, then 80, then 50 again gives F(80) = 1.6 F(50),
+    # and the repeat is the first value to the last bit.
+    from slipfield.slope.search import upper_bound as ub
+
+    sec = simple_slope(10.0, 2.0, 4.0, material=CLAY)
+    xy = np.array([[-2.0, 0.0], [6.0, -3.0], [16.0, -2.5], [26.0, 4.0], [31.0, 10.0]])
+    ub._GEOMETRY.clear()
+    f50 = upper_bound_fs(sec, xy, hypothesis="undrained", overrides={"su": 50.0}).fs
+    f80 = upper_bound_fs(sec, xy, hypothesis="undrained", overrides={"su": 80.0}).fs
+    f50_again = upper_bound_fs(sec, xy, hypothesis="undrained", overrides={"su": 50.0}).fs
+    assert np.isfinite(f50)
+    assert f80 == pytest.approx(1.6 * f50, rel=1e-9)    # Dinkelbach's stop: 1e-10 relative per solve
+    assert f50_again == f50
+
+
+def test_refinement_stops_once_enough_and_never_above_it():
+    # The tables only refine about the best entry, so F never rises from one table to the next (the
+    # previous optimum is in the next table): stopping once F <= `enough` gives an F between the full
+    # refinement's and `enough`, so a yes/no comparison with `enough` is unchanged. Checked on a
+    # drained chain (F by false position) against the full refinement.
+    mat = Material("soil", unit_weight=19.0, c=8.0, phi=25.0)
+    sec = simple_slope(10.0, 2.0, 4.0, material=mat)
+    xy = np.array([[-2.0, 0.0], [6.0, -3.0], [16.0, -2.5], [26.0, 4.0], [31.0, 10.0]])
+    full = upper_bound_fs(sec, xy, hypothesis="drained").fs
+    coarse = upper_bound_fs(sec, xy, hypothesis="drained", enough=10.0).fs    # stops after the first table
+    assert coarse > full                       # the first table alone is coarser (else the test says nothing)
+    for enough in (full, 0.5 * (full + coarse), coarse, 10.0):
+        f = upper_bound_fs(sec, xy, hypothesis="drained", enough=enough).fs
+        assert full <= f <= enough
+    assert upper_bound_fs(sec, xy, hypothesis="drained", enough=0.5 * full).fs == full   # never reached
