@@ -230,6 +230,9 @@ def _counts(case, realisations, jobs):
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
     preflight(case, realisations=None if realisations is None else n)
+    from ..simulate.executors import limit_threads
+
+    limit_threads(n_jobs)  # --jobs N: N cores in all, this process's kernel threads included
     return int(n), int(n_jobs)
 
 

@@ -13,7 +13,7 @@ import warnings
 from ..errors import InputError
 
 __all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers",
-           "stop_workers"]
+           "stop_workers", "limit_threads"]
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
 # stored); joblib's advice about unused results is not for the user.
@@ -105,6 +105,38 @@ def _in_worker(parent, fn, *args):
 
 
 SCHEDULER_TIMEOUT_S = 5.0
+
+
+def limit_threads(n_jobs: int) -> int:
+    """Bound the compute threads of this process by the jobs a command was given.
+
+    ``--jobs N`` is the number of cores a command may use: its worker
+    processes run their compiled kernels on one thread each (joblib gives
+    each of N workers ``cores // N`` threads, and :func:`_run_shipped_block`
+    sets one), and this process -- which runs the deterministic search, the
+    single-variable analyses and, with ``--jobs 1``, the whole simulation --
+    uses at most ``N`` threads for numba's parallel kernels and the BLAS and
+    OpenMP pools loaded so far. Without it ``--jobs 1`` ran the kernels on
+    every core, so ``--jobs 2`` against ``--jobs 1`` measured two processes
+    against two threads. Results do not depend on the thread count.
+
+    Parameters
+    ----------
+    n_jobs : int
+        Jobs the command was given (>= 1).
+
+    Returns
+    -------
+    int
+        Threads now used by this process's parallel kernels.
+    """
+    import numba
+    from threadpoolctl import threadpool_limits
+
+    n = max(1, min(int(n_jobs), int(numba.config.NUMBA_NUM_THREADS)))
+    numba.set_num_threads(n)
+    threadpool_limits(n)  # BLAS/OpenMP pools already loaded (numpy's, scipy's)
+    return n
 
 
 def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
