@@ -353,8 +353,11 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         from ..simulate.driver import start_workers
 
         pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
-        # the pool starts while the search runs, and compiles the other methods' kernels meanwhile
-        start_workers(n_jobs, methods=case.analysis["methods"])
+        # The pool starts while the case's checks run the search, which compiles (first run) or loads the
+        # search method's kernel in this process: the workers take the other methods' kernels first
+        # instead of waiting behind that kernel's compile lock, and load it from the cache last.
+        search = case.analysis["method"]
+        start_workers(n_jobs, methods=[m for m in case.analysis["methods"] if m != search] + [search])
 
     try:
         case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
