@@ -26,7 +26,12 @@ Third part, the interslice shear-strength check of non-circular solutions
 without it, side by side on the same realisations: CPU per searched
 realisation, mean FS, realisations whose FS changed, candidates left out.
 
+Fourth part, the rigid-block rule for free paths (slope.search.path_acceptance): the per-realisation
+dynamic-programming search with the rule and without it, side by side on the same realisations: CPU
+per searched realisation (the rule's added cost), realisations whose FS changed, paths refused.
+
 Run: python scripts/bench_mechanisms.py [n_bank] [n_refined] [n_window]
+     python scripts/bench_mechanisms.py --kinematic [n_bank] [n_refined]   (fourth part only)
 """
 import os
 import sys
@@ -179,7 +184,46 @@ def interslice(n_bank=200, n_refined=20):
               f"{n1} candidates left out by the check")
 
 
+def kinematic(n_bank=200, n_refined=20):
+    """CPU and FS of the per-realisation search with and without the rigid-block rule for free paths."""
+    from slipfield.slope.search.path_acceptance import KINEMATIC_REASON
+    from slipfield.slope.simulate import mechanisms as mech
+    from slipfield.slope.simulate.refinement import REFINE_REASONS
+
+    case, prob = _problem()
+    seed = int(case.simulation["seed"])
+    fs, conv, adm = batch_fs(prob, seed, range(n_bank))
+    ok = conv & adm & np.isfinite(fs)
+    fs_c = np.where(ok, fs, np.inf).min(axis=1)
+    order = np.argsort(fs_c)[:n_refined + 1]
+    st = RefineSettings(below=10.0, search="dynamic-programming")
+    col = REFINE_REASONS.index(KINEMATIC_REASON)
+    judge = mech._judge_kinematically
+    out = {}
+    for label, fn in (("without", lambda *a, **k: {}), ("with", judge)):
+        mech._judge_kinematically = fn
+        try:
+            mechanism_search(prob, seed, int(order[0]), fs[order[0]], ok[order[0]], st)  # warm-up (numba)
+            t0 = time.process_time()
+            res = [mechanism_search(prob, seed, int(k), fs[k], ok[k], st) for k in order[1:]]
+            cpu = (time.process_time() - t0) / len(res)
+        finally:
+            mech._judge_kinematically = judge
+        f = np.array([min(r[0], fs_c[k]) if np.isfinite(r[0]) else fs_c[k] for r, k in zip(res, order[1:])])
+        out[label] = (cpu, f, int(sum(r[2][col] for r in res)))
+    (c0, f0, _), (c1, f1, n1) = out["without"], out["with"]
+    print(f"\nrigid-block rule for free paths, levee demo undrained, {n_refined} realisations with the lowest bank "
+          f"FS of {n_bank}, one process (CPU per searched realisation):")
+    print(f"  dynamic programming  without {1e3 * c0:7.1f} ms, with {1e3 * c1:7.1f} ms (adds {1e3 * (c1 - c0):.1f} ms, "
+          f"ratio {c1 / c0:.2f}); mean FS {np.mean(f0):.4f} -> {np.mean(f1):.4f}, "
+          f"{int(np.sum(f1 != f0))} realisations changed, {n1} paths refused")
+
+
 if __name__ == "__main__":
+    if sys.argv[1:2] == ["--kinematic"]:
+        kinematic(*(int(a) for a in sys.argv[2:4]))
+        sys.exit(0)
     main(*(int(a) for a in sys.argv[1:3]))
     window(*(int(a) for a in sys.argv[3:4]))
     interslice(*(int(a) for a in sys.argv[1:3]))
+    kinematic(*(int(a) for a in sys.argv[1:3]))

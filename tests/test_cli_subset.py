@@ -155,3 +155,24 @@ def test_sweep_with_subset_simulation(tmp_path):
     for r in (spatial, single):
         assert r["estimator"] == "subset" and r["pf_low"] < r["pf"] < r["pf_high"]
     assert spatial["pf_high"] < single["pf_low"]
+
+
+def test_resume_from_a_checkpoint_of_the_old_format_exits_2_naming_both_versions(auto_run, tmp_path, capsys):
+    # level checkpoints of format version 1 (no version in the store's identity) carry no searched surfaces;
+    # continuing them would mix bank surfaces into the chains where the search's polylines governed
+    import shutil
+
+    from slipfield.slope.simulate.rare_store import CHECKPOINT_VERSION
+
+    case, out = auto_run
+    old = tmp_path / "o"
+    shutil.copytree(out, old)
+    head = json.loads((old / "store" / "header.json").read_text())
+    del head["identity"]["checkpoint_version"]
+    (old / "store" / "header.json").write_text(json.dumps(head))
+    before = {p: p.stat().st_mtime_ns for p in old.rglob("*")}
+    rc = main(["simulate", case, "--out", str(old), "--quiet", "--resume"])
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert "format version 1" in err and f"version {CHECKPOINT_VERSION}" in err and "--overwrite" in err
+    assert {p: p.stat().st_mtime_ns for p in old.rglob("*")} == before

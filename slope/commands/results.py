@@ -333,6 +333,10 @@ class SimulationRun:
         if getattr(self.result, "refine_functions", None):
             # realisations lowered by a path counted with another interslice function (slope.search.interslice_retry)
             out["refine_interslice_functions"] = dict(self.result.refine_functions)
+        if getattr(self.result, "refine_rejected", None):
+            # paths of the per-realisation search not accepted, by reason (slope.simulate.mechanisms,
+            # refinement; the rigid-block rule of slope.search.path_acceptance among them)
+            out["search_rejected"] = {str(k): int(v) for k, v in self.result.refine_rejected.items()}
         if getattr(self.result, "bank_rejected", None) is not None:
             # non-circular bank surfaces judged per realisation (slope.simulate.bank_checks)
             out["bank_checks"] = {"rejected": dict(self.result.bank_rejected),

@@ -57,26 +57,38 @@ def resolve_auto(name, first_batch_fs) -> tuple[str, int | None]:
 
 
 def subset_summary(res) -> dict:
-    """JSON-ready summary of a SubsetResult with the failure samples' sliding-mass size."""
+    """JSON-ready summary of a SubsetResult with the failure samples' sliding-mass size.
+
+    The size is that of each failure's governing surface: the per-realisation
+    search's own polyline where it governed (as Monte Carlo's failure
+    geometry), else the bank's critical surface.
+    """
     from .results import _spread
-    from .run import sliding_mass_geometry
 
     d = res.to_dict()
     crit = res.failures["crit"]
     ok = crit[crit >= 0]
-    area, depth = sliding_mass_geometry(res.problem.bank, ok) if ok.size else (np.zeros(0), np.zeros(0))
+    gov = res.governing()
+    on = crit >= 0
+    area, depth = gov.area[on], gov.depth[on]
     typ = res.typical_failure()
     d["failure_samples"] = {
         "n": int(crit.size), "fs": res.failures["fs"].tolist(), "critical_surface_index": crit.tolist(),
+        "n_failed_on_searched_surface": int(gov.searched.sum()),
+        "governing_family": {str(f): int(np.sum(gov.family == f)) for f in dict.fromkeys(gov.family.tolist())},
         "sliding_mass_area": _spread(area), "max_depth": _spread(depth),
         "distinct_critical_surfaces": int(np.unique(ok).size),
         "note": "samples of the last level with FS below the failure threshold: conditional on failure, "
-                "approximately distributed as the failures themselves"}
+                "approximately distributed as the failures themselves; area and depth are those of the surface "
+                "that governed each (the per-realisation search's polyline where it lowered the FS)"}
     d["typical_failure"] = (None if typ is None else
                             {"position": typ, "fs": float(res.failures["fs"][typ]),
                              "critical_surface_index": int(crit[typ]),
-                             "rule": "on the most frequent critical surface among the failure samples, FS "
-                                     "nearest their median"})
+                             "governing_family": str(gov.family[typ]),
+                             "on_searched_surface": bool(gov.searched[typ]),
+                             "rule": "on the most frequent critical bank surface among the failure samples (with "
+                                     "the per-realisation search: the bank surface it started from), FS nearest "
+                                     "their median"})
     d["units"] = dict(d["units"], sliding_mass_area="m2 per m run", max_depth="m")
     return d
 
@@ -84,7 +96,7 @@ def subset_summary(res) -> dict:
 def write_subset_outputs(res, folder: Path, title: str) -> list[str]:
     """Levels table, failure samples, failure map figure and the typical failure's fields into ``folder``."""
     from .. import report as rp
-    from ..case.analyses import surface_xy
+    from ..simulate.failure_geometry import SURFACE_HEADER, failure_map, surface_columns
 
     folder = Path(folder)
     files = []
@@ -95,15 +107,21 @@ def write_subset_outputs(res, folder: Path, title: str) -> list[str]:
                    lv["n_failed"]] for lv in res.levels])
     files.append("subset_levels.csv")
     fail = res.failures
-    rp.write_csv(folder / "subset_failures.csv", ["sample of last level", "FS (-)", "critical surface index"],
-                 [[int(s), float(f), int(c)] for s, f, c in zip(fail["sample"], fail["fs"], fail["crit"])])
+    gov = res.governing()  # the surface that governs each failure, read back by read_surface_columns
+    rp.write_csv(folder / "subset_failures.csv", ["sample of last level", "FS (-)", "critical surface index"]
+                 + SURFACE_HEADER,
+                 [[int(s), float(f), int(c)] + surface_columns(gov, i)
+                  for i, (s, f, c) in enumerate(zip(fail["sample"], fail["fs"], fail["crit"]))])
     files.append("subset_failures.csv")
     if fail["fs"].size:
         sec = res.problem.section
         xe = np.linspace(sec.x_min, sec.x_max, 81)
         ye = np.linspace(sec.base_y, float(np.asarray(sec.ground)[:, 1].max()), 41)
-        fig = rp.plot_failure_map(xe, ye, res.failure_map(xe, ye), sec.ground, n_failed=int(fail["fs"].size),
+        # as Monte Carlo's failure map: bank failures solid, failures on searched polylines dashed
+        fm = failure_map(gov, fail["fs"], xe, ye, threshold=res.settings.threshold)
+        fig = rp.plot_failure_map(fm.x_edges, fm.y_edges, fm.density, sec.ground, n_failed=int(fail["fs"].size),
                                   n_total=int(res.final_fs.size),
+                                  groups=[(g.kind, g.label, g.surfaces) for g in fm.groups],
                                   title=f"{title}: failure map at pf ≈ {res.pf:.2g} (subset simulation)")
         rp.save_figure(fig, folder / "figures", "subset_failure_map", formats=("png",))
         files.append("figures/subset_failure_map.png")
@@ -111,14 +129,16 @@ def write_subset_outputs(res, folder: Path, title: str) -> list[str]:
         k = res.typical_failure()
         arrays = {"field_" + "".join(ch if ch.isalnum() else "_" for ch in key): v for key, v in fields.items()}
         np.savez(folder / "subset_typical_failure.npz", x=grid.x, y=grid.y,
-                 surface_xy=surface_xy(res.problem.bank, int(fail["crit"][k])), fs=float(fail["fs"][k]),
+                 surface_xy=gov.xy(k), fs=float(fail["fs"][k]),
                  noise=res.failure_noise(k), **arrays)
         (folder / "subset_typical_failure.json").write_text(json.dumps({
             "format": "slipfield-subset-failure", "version": 1, "fs": float(fail["fs"][k]),
-            "critical_surface_index": int(fail["crit"][k]), "grid": {"x0": grid.x0, "y0": grid.y0, "nx": grid.nx,
+            "critical_surface_index": int(fail["crit"][k]), "governing_family": str(gov.family[k]),
+            "on_searched_surface": bool(gov.searched[k]), "grid": {"x0": grid.x0, "y0": grid.y0, "nx": grid.nx,
                                                                      "ny": grid.ny, "dx": grid.dx, "dy": grid.dy},
             "arrays": {"field_<material_property>": "values (nx, ny) at cell centres, NaN outside the zones",
-                       "surface_xy": "critical surface [x, y] (m)",
+                       "surface_xy": "governing surface [x, y] (m): the per-realisation search's polyline "
+                                     "where it governed, else the bank's critical surface",
                        "noise": "the sample's standard-normal input (slope.simulate.rare.NoiseLayout order)"},
             "problem_fingerprint": res.problem.fingerprint()}, indent=2))
         files += ["subset_typical_failure.npz", "subset_typical_failure.json"]

@@ -8,6 +8,8 @@ still listed, with its own words as its meaning.
 """
 from __future__ import annotations
 
+from ..search.path_acceptance import KINEMATIC_REASON, UNSUPPORTED_REASON
+
 __all__ = ["exclusion_table", "MEANINGS", "NOT_SLIP_SURFACES"]
 
 #: Reason → what it means, one line each.
@@ -43,6 +45,12 @@ MEANINGS = {
     "realisations without a valid FS on the fixed surface":
         "the fixed deterministic surface gave no valid FS in that realisation; left out of its pf",
     "evaluations not converged or inadmissible": "samples whose FS is not a valid solution; left out of the estimate",
+    KINEMATIC_REASON:
+        "a free non-circular path whose lower limit-equilibrium FS is not backed by a mechanism: as a chain of "
+        "rigid blocks (upper bound, Donald & Chen 1997) it is less critical than the surface it started from, "
+        "which is kept",
+    UNSUPPORTED_REASON: "free paths are not judged as rigid blocks where a tension crack is modelled, so they are "
+                        "refused and their start surface is kept",
 }
 
 
@@ -87,6 +95,11 @@ def exclusion_table(res) -> dict:
                                n - (run.fixed.n_valid if run.fixed is not None else 0))):
                 if k:
                     rows.append(_row(f"{h} · {name}", "realisations", reason, int(k), n))
+            # paths of the per-realisation search not accepted (slope.simulate.mechanisms, refinement)
+            for reason, k in (getattr(run.result, "refine_rejected", None) or {}).items():
+                if k:
+                    rows.append(_row(f"{h} · {name}", "paths and trial shapes of the per-realisation search",
+                                     reason, int(k), None))
             # the bank's non-circular surfaces judged per realisation (slope.simulate.bank_checks)
             for reason, k in (getattr(run.result, "bank_rejected", None) or {}).items():
                 if k:

@@ -394,8 +394,11 @@ def dynamic_programming(section, *, start=None, settings: DPSettings | None = No
     Returns
     -------
     SearchResult
-        The path of every pass and the start surface, so the critical
-        surface is never above the start.
+        The path of every pass that may replace the start and the start
+        surface, so the critical surface is never above the start. A path
+        less critical than the start as a mechanism of rigid blocks
+        (:mod:`slope.search.path_acceptance`) is not evaluated and is counted
+        in ``rejected`` under its reason.
     """
     from .circles import centre_lattice
     from .evaluate import evaluate_surfaces
@@ -406,8 +409,13 @@ def dynamic_programming(section, *, start=None, settings: DPSettings | None = No
             raise InputError("dynamic-programming search: the centre-lattice search found no usable circle to "
                              "start from; give start=")
         start = first.critical
+    from .path_acceptance import accepted_paths, add_refused
+
     ov = evaluate_opts.get("overrides")
     paths = dp_surface(section, start, hypothesis=hypothesis, overrides=ov if callable(ov) else None,
                        settings=settings, n_slices=n_slices)
-    return evaluate_surfaces(section, paths + [start], search=DP_FAMILY, method=method, hypothesis=hypothesis,
-                             n_slices=n_slices, **evaluate_opts)
+    # a path replaces the start only if it is at least as critical as a mechanism of rigid blocks
+    paths, refused = accepted_paths(section, paths, start, hypothesis=hypothesis, overrides=ov)
+    res = evaluate_surfaces(section, paths + [start], search=DP_FAMILY, method=method, hypothesis=hypothesis,
+                            n_slices=n_slices, **evaluate_opts)
+    return add_refused(res, refused)

@@ -125,7 +125,8 @@ def _surface_of(surfaces, i):
 
 def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop", n_slices=40,
                       overrides=None, tolerate=("negative-normal", "thrust-outside"), search="given",
-                      min_depth=None, interslice_check=True, bank=None, **method_opts) -> SearchResult:
+                      min_depth=None, interslice_check=True, bank=None, boundary_cache=None,
+                      **method_opts) -> SearchResult:
     """Factor of safety of every trial surface for one set of strengths.
 
     Parameters
@@ -163,6 +164,13 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         The slice bank of ``surfaces`` when already built (by
         :func:`slope.bank.build_bank` with the same section and
         ``n_slices``, e.g. rows of a simulator's bank); built here otherwise.
+    boundary_cache : dict, optional
+        Kept by a caller that judges the same ``bank`` on the same section
+        (geometry, water, unit weights) again and again with other strengths
+        (e.g. a surface in every realisation of a random field): the
+        geometry of its slice boundaries for the interslice check
+        (:func:`slope.search.interslice_strength.boundary_geometry`) is
+        stored in it on the first call and reused after.
     **method_opts
         Passed to :func:`slope.methods.factor_of_safety`.
 
@@ -190,7 +198,7 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
     counted = np.zeros(m, bool)
     idx = np.nonzero(bank.valid)[0]
     if len(idx):
-        sub = bank.subset(idx)
+        sub, terms = _valid_rows(bank, idx, boundary_cache, "moment_point" in method_opts)
         ov = None
         if callable(overrides):
             ov = overrides(sub)  # strengths that depend on where the bases lie (random fields)
@@ -200,7 +208,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
         spec = methods.method_spec(method)
         poly = ~np.isfinite(sub.centre_x)
         check = interslice_check and spec.name in _INTERSLICE_METHODS and bool(poly.any())
-        res = methods.factor_of_safety(sub, c, tp, method=method, return_forces=check, **method_opts)
+        res = methods.factor_of_safety(sub if terms is None else terms, c, tp, method=method, return_forces=check,
+                                       **method_opts)
         f = res.fs.reshape(-1, len(idx))[0]
         fl = np.asarray(res.flags).reshape(-1, len(idx))[0]
         conv = np.asarray(res.converged).reshape(-1, len(idx))[0]
@@ -215,7 +224,7 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
             # for interslice shear too, and retried with another interslice function before being refused
             # (slope.search.interslice_retry)
             near = conv & ((bad & ~THRUST_OUTSIDE) == 0) & np.isfinite(f)
-            judge = _interslice_judge(section, sub, hypothesis, overrides)
+            judge = _interslice_judge(section, sub, hypothesis, overrides, boundary_cache)
             ratio, fails = judge(np.arange(len(idx)), res, near)
             refused = np.flatnonzero(near & poly & (fails | ((bad & THRUST_OUTSIDE) != 0)))
             if refused.size:
@@ -223,7 +232,8 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
                     else "constant"
                 rf, rfl, rratio, rfun = retry_rows(section, sub, refused, c, tp, used=used, hypothesis=hypothesis,
                                                    overrides=overrides, tolerated=tol_mask,
-                                                   frictionless=frictionless, judge=judge, F_start=f[refused])
+                                                   frictionless=frictionless, judge=judge, F_start=f[refused],
+                                                   terms=terms)
                 got = refused[rfun != ""]
                 f, fl = f.copy(), fl.copy()
                 f[got], fl[got], ratio[got] = rf[rfun != ""], rfl[rfun != ""], rratio[rfun != ""]
@@ -254,7 +264,26 @@ def evaluate_surfaces(section, surfaces, *, hypothesis="drained", method="bishop
                         interslice_function=function, retried=dict(retried))
 
 
-def _interslice_judge(section, sub, hypothesis, overrides):
+def _valid_rows(bank, idx, cache, own_moment_point):
+    """(bank of the rows ``idx``, its BankTerms or None): kept in ``cache`` (evaluate_surfaces' boundary_cache).
+
+    The terms depend on the geometry only (:func:`slope.methods.prepare_bank`
+    with the default moment point), so a caller judging the same bank again
+    keeps them; without a cache, or with a moment point of the caller's, the
+    method prepares them itself as always.
+    """
+    if cache is None or own_moment_point:
+        return bank.subset(idx), None
+    kept = cache.get("valid rows")
+    if kept is None or not np.array_equal(kept[0], idx):
+        from ..methods.terms import prepare_bank
+
+        sub = bank.subset(idx)
+        kept = cache["valid rows"] = (idx.copy(), sub, prepare_bank(sub))
+    return kept[1], kept[2]
+
+
+def _interslice_judge(section, sub, hypothesis, overrides, boundary_cache=None):
     """``judge(rows, res, ok) -> (ratio, fails)``: the interslice check of solutions on rows of ``sub``.
 
     ``res`` holds the solutions of the surfaces ``rows`` of ``sub`` (in that
@@ -262,10 +291,12 @@ def _interslice_judge(section, sub, hypothesis, overrides):
     ones only; NaN ratio elsewhere). The strength across each surface's
     slice boundaries does not depend on the solution: it is computed once
     per surface and kept, so a retry with another interslice function
-    (:mod:`slope.search.interslice_retry`) pays only for its forces.
+    (:mod:`slope.search.interslice_retry`) pays only for its forces; its
+    geometry is kept in ``boundary_cache`` when the caller gives one.
     """
     from ..methods.terms import prepare_bank
-    from .interslice_strength import RATIO_TOLERANCE, BoundaryStrength, boundary_strength, interslice_ratio
+    from .interslice_strength import (RATIO_TOLERANCE, BoundaryStrength, boundary_geometry, boundary_strength,
+                                      interslice_ratio)
 
     ov = overrides if callable(overrides) or overrides is None else {
         key: np.asarray(v, float) for key, v in overrides.items()}
@@ -279,9 +310,15 @@ def _interslice_judge(section, sub, hypothesis, overrides):
         if sel.size:
             need = np.asarray([r for r in rows[sel] if r not in held], dtype=int)
             if need.size:
-                part = sub.subset(need)
-                st = boundary_strength(section, part, hypothesis, ov)
-                scale = prepare_bank(part).force_scale
+                key = tuple(need.tolist())
+                kept = None if boundary_cache is None else boundary_cache.get(key)
+                if kept is None:  # the rows' geometry: the same for any strengths
+                    part = sub.subset(need)
+                    kept = (boundary_geometry(section, part), prepare_bank(part).force_scale)
+                    if boundary_cache is not None:
+                        boundary_cache[key] = kept
+                st = boundary_strength(section, None, hypothesis, ov, geometry=kept[0])
+                scale = kept[1]
                 for j, r in enumerate(need):
                     held[r] = (st.cohesion[j], st.tan_phi[j], st.water[j], st.height[j], scale[j])
             got = [held[r] for r in rows[sel]]

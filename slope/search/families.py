@@ -19,6 +19,7 @@ from ..methods import POLYLINE_METHOD_NAMES
 from .evaluate import evaluate_surfaces
 from .block import BLOCK_FAMILY, block_polylines
 from .dynamic_programming import DP_FAMILY, DPSettings, dp_surface
+from .path_acceptance import accepted_paths, add_refused
 from ..surfaces import Circle, family_of
 
 __all__ = ["FAMILY_NAMES", "family_tables", "add_families", "family_counts", "best_of_families",
@@ -108,13 +109,21 @@ def add_families(section, circles, table: dict, *, hypothesis, method, n_slices,
     if dp_spec is None:
         return first
     st = dp_settings(dp_spec)
-    paths = []
+    paths, refused = [], {}
+    ov = evaluate_opts.get("overrides")
     for fam, i in best_of_families(first).items():
-        paths += dp_surface(section, first.surfaces[i], hypothesis=hypothesis, settings=st, n_slices=n_slices)
+        found = dp_surface(section, first.surfaces[i], hypothesis=hypothesis, settings=st, n_slices=n_slices)
+        # a path joins the bank only if it is at least as critical as its start as a mechanism of rigid
+        # blocks (slope.search.path_acceptance); the others are counted under their reason
+        found, why = accepted_paths(section, found, first.surfaces[i], hypothesis=hypothesis, overrides=ov)
+        paths += found
+        for k, v in why.items():
+            refused[k] = refused.get(k, 0) + v
     if not paths:
-        return first
+        return add_refused(first, refused)
     names.append(DP_FAMILY)
-    return evaluate_surfaces(section, list(first.surfaces) + paths, search=" + ".join(names), **opts)
+    res = evaluate_surfaces(section, list(first.surfaces) + paths, search=" + ".join(names), **opts)
+    return add_refused(res, refused)
 
 
 def family_counts(surfaces, index) -> dict:

@@ -53,7 +53,7 @@ def _rows_of(value, m, n, rows):
 
 
 def retry_rows(section, sub, rows, c, tp, *, used, hypothesis, overrides, tolerated, frictionless, judge,
-               F_start=None):
+               F_start=None, terms=None):
     """Solve surfaces ``rows`` of ``sub`` by Morgenstern-Price with the other interslice functions.
 
     Parameters
@@ -80,6 +80,9 @@ def retry_rows(section, sub, rows, c, tp, *, used, hypothesis, overrides, tolera
         ``ok`` only) and whether they fail the check.
     F_start : ndarray (len(rows),), optional
         Starting factors of safety (e.g. the first solution's).
+    terms : BankTerms, optional
+        :func:`slope.methods.prepare_bank` of ``sub`` when kept by the caller
+        (used when every row of ``sub`` is retried).
 
     Returns
     -------
@@ -102,7 +105,8 @@ def retry_rows(section, sub, rows, c, tp, *, used, hypothesis, overrides, tolera
         if name == used or not left.size:
             continue
         r_rows = np.asarray(rows)[left]
-        part = sub.subset(r_rows)
+        whole = terms is not None and np.array_equal(r_rows, np.arange(sub.n_surfaces))
+        part = terms if whole else sub.subset(r_rows)
         opts = {} if F_start is None else {"F_start": np.asarray(F_start, float)[left][None, :]}
         res = factor_of_safety(part, _rows_of(c, m, n, r_rows), _rows_of(tp, m, n, r_rows),
                                method="morgenstern-price", interslice=name, return_forces=True, **opts)

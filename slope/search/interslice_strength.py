@@ -47,8 +47,8 @@ from ..bank import point_stresses
 from ..slices import SliceBank
 from ..strength import base_strength
 
-__all__ = ["BoundaryStrength", "boundary_strength", "interslice_ratio", "RATIO_TOLERANCE",
-           "INTERSLICE_REASON"]
+__all__ = ["BoundaryStrength", "BoundaryGeometry", "boundary_geometry", "boundary_strength", "interslice_ratio",
+           "RATIO_TOLERANCE", "INTERSLICE_REASON"]
 
 #: A boundary fails the check when ``|X| F / available > 1 + RATIO_TOLERANCE``. The forces and
 #: strengths are both exact for the slices (no discretisation between them); 1 % leaves room for
@@ -109,27 +109,28 @@ class _BoundaryPoints:
         return int(self.zone.shape[0])
 
 
-def boundary_strength(section, bank, hypothesis="drained", overrides=None) -> BoundaryStrength:
-    """Cohesive strength, mean friction and water thrust on every interior slice boundary.
+@dataclass
+class BoundaryGeometry:
+    """What the check needs of the slice boundaries that depends on the surfaces and the section only.
 
-    Parameters
-    ----------
-    section : Section
-        The section the bank was built from.
-    bank : SliceBank
-        Valid surfaces (the rows are used as they are).
-    hypothesis : {"drained", "undrained"}
-    overrides : callable or dict, optional
-        As for :func:`slope.search.evaluate_surfaces`: a function of a bank
-        returning per-base overrides (called here with the boundary points,
-        so a random field is sampled on the boundaries), or a dict of
-        values that must be single numbers (per-slice arrays belong to the
-        bases and cannot be placed on the boundaries).
-
-    Returns
-    -------
-    BoundaryStrength
+    The integration points on the boundaries (as bases, ``points``), their
+    zone, effective vertical stress and pore pressure (kPa), the Gauss
+    weights of the pieces inside a zone (``weights``, m) and the boundary
+    heights (m). Computed once per surface by :func:`boundary_geometry`, it
+    serves every set of strengths on the same section (unit weights and
+    water included): e.g. each realisation of a random field
+    (:mod:`slope.simulate.bank_checks`).
     """
+
+    points: _BoundaryPoints
+    zone: np.ndarray
+    pore_pressure: np.ndarray
+    weights: np.ndarray
+    height: np.ndarray
+
+
+def boundary_geometry(section, bank) -> BoundaryGeometry:
+    """:class:`BoundaryGeometry` of every interior slice boundary of ``bank`` (built from ``section``)."""
     m, n = bank.width.shape
     xb = bank.x_right[:, :-1]                                   # interior boundaries, sliding frame
     xs = bank.direction[:, None] * xb                           # section frame
@@ -155,12 +156,42 @@ def boundary_strength(section, bank, hypothesis="drained", overrides=None) -> Bo
     depth = section.ground_y(xsec) - y
     flat = lambda v: np.ascontiguousarray(v).reshape(m, -1)    # noqa: E731 - points as bases
     pts = _BoundaryPoints(bank, flat(x), flat(y), flat(np.where(zone >= 0, zone, 0)), flat(depth), flat(sig_eff))
+    w = np.where(zone >= 0, dz, 0.0)                            # pieces outside every zone carry nothing
+    return BoundaryGeometry(points=pts, zone=zone, pore_pressure=u, weights=w, height=hi - lo)
+
+
+def boundary_strength(section, bank, hypothesis="drained", overrides=None, geometry=None) -> BoundaryStrength:
+    """Cohesive strength, mean friction and water thrust on every interior slice boundary.
+
+    Parameters
+    ----------
+    section : Section
+        The section the bank was built from.
+    bank : SliceBank
+        Valid surfaces (the rows are used as they are; not read when
+        ``geometry`` is given).
+    hypothesis : {"drained", "undrained"}
+    overrides : callable or dict, optional
+        As for :func:`slope.search.evaluate_surfaces`: a function of a bank
+        returning per-base overrides (called here with the boundary points,
+        so a random field is sampled on the boundaries), or a dict of
+        values that must be single numbers (per-slice arrays belong to the
+        bases and cannot be placed on the boundaries).
+    geometry : BoundaryGeometry, optional
+        :func:`boundary_geometry` of ``bank`` on ``section``, when kept from
+        an earlier call (the strengths alone are computed).
+
+    Returns
+    -------
+    BoundaryStrength
+    """
+    g = boundary_geometry(section, bank) if geometry is None else geometry
+    pts, u, w, h = g.points, g.pore_pressure, g.weights, g.height
+    shp = g.zone.shape
     ov = overrides(pts) if callable(overrides) else _scalar_overrides(overrides)
     c, tp = base_strength(pts, section.materials, hypothesis, ov)
     c = np.asarray(c).reshape((-1,) + shp)[0]                   # one strength sample
     tp = np.asarray(tp).reshape((-1,) + shp)[0]
-    w = np.where(zone >= 0, dz, 0.0)                            # pieces outside every zone carry nothing
-    h = hi - lo
     with np.errstate(invalid="ignore", divide="ignore"):
         tan_mean = np.where(h > 0, (tp * w).sum(axis=(-1, -2)) / np.where(h > 0, h, 1.0), 0.0)
     return BoundaryStrength(cohesion=(c * w).sum(axis=(-1, -2)), tan_phi=tan_mean,

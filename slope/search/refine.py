@@ -86,8 +86,11 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
         ``critical`` is never worse than the start surface: a polyline of a
         few chords inscribed in a circle lies above the arc and starts with
         a higher FS than the circle (about 1 % with 6 vertices), which a
-        small optimisation budget may not win back.  ``history`` holds the
-        best FS of the polyline after each improvement.
+        small optimisation budget may not win back.  The refined polyline is
+        a candidate only when it is at least as critical as ``start`` as a
+        mechanism of rigid blocks (:mod:`slope.search.path_acceptance`); if
+        not it is counted in ``rejected`` under that reason.  ``history``
+        holds the best FS of the polyline after each improvement.
     """
     from scipy.optimize import minimize
 
@@ -137,11 +140,17 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
         )
     minimize(objective, p0, method="Nelder-Mead",
              options={"maxfev": int(max_evaluations), "xatol": 1e-3, "fatol": 1e-5, "initial_simplex": None})
+    from .path_acceptance import accepted_paths, add_refused
+
     xs, ys = shape(best["p"])
     start_poly = Polyline(np.c_[xs0, ys0])
     final = Polyline(np.c_[xs, ys])
-    candidates = [start_poly, final] + ([start] if isinstance(start, Circle) else [])
-    res = evaluate_surfaces(section, candidates, search="refine", **opts)
+    # the optimised polyline replaces the start only if it is at least as critical as a mechanism of
+    # rigid blocks (slope.search.path_acceptance); the start polyline is its start's own chords
+    kept, refused = accepted_paths(section, [final], start, hypothesis=hypothesis, overrides=overrides) \
+        if best["p"] is not None and np.any(best["p"] != 0) else ([final], {})
+    candidates = [start_poly] + kept + ([start] if isinstance(start, Circle) else [])
+    res = add_refused(evaluate_surfaces(section, candidates, search="refine", **opts), refused)
     res.history = history
     res.trials_rejected = dict(trials_rejected)
     return res

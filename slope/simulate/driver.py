@@ -168,16 +168,11 @@ class SimulationResult:
 
     def governing_families(self) -> np.ndarray:
         """Family that governed each realisation (its critical surface's; the search's where its polyline lowered FS)."""
-        from ..surfaces import family_of
+        from .failure_geometry import governing_families
 
         if self.problem is None:
             raise InputError("governing_families needs the result of simulate() (problem attached)")
-        fam = np.array([family_of(s) for s in self.problem.surfaces] + ["none"], dtype=object)
-        out = fam[np.where(self.critical_index >= 0, self.critical_index, len(fam) - 1)]
-        searched = list(self.searched_surfaces())
-        if searched:
-            out[searched] = self.searched_family
-        return out
+        return governing_families(self.problem, self.critical_index, self.searched_surfaces(), self.searched_family)
 
     def family_counts(self) -> dict:
         """{family: realisations it governed}, in order of first appearance."""
@@ -433,7 +428,9 @@ def store_header(problem, seed, refine=None, extra: dict | None = None) -> dict:
         from ..search.interslice_retry import RETRY_FUNCTIONS
 
         # and the interslice functions a refused path is solved again with before it is refused
-        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [f"retried: {', '.join(RETRY_FUNCTIONS)}"]
+        from ..search.path_acceptance import RULE_ID
+
+        ident["refine"]["acceptance"] = list(REFINE_REASONS) + [f"retried: {', '.join(RETRY_FUNCTIONS)}", RULE_ID]
     if bank_checks_apply(problem):
         from ..search.interslice_retry import RETRY_FUNCTIONS
         from .refinement import REFINE_REASONS

@@ -249,6 +249,9 @@ def _warm_worker(parent=None, methods=()):
         warm_up(methods)
     fused.warm_up()
     _warm_dynamic_programming()
+    from ..search.upper_bound import warm_up as warm_rigid_blocks
+
+    warm_rigid_blocks()  # the rule for free paths of the same search (slope.search.path_acceptance)
     return os.getpid()
 
 

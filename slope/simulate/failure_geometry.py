@@ -28,6 +28,7 @@ from ..errors import InputError
 from ..surfaces import Circle, Polyline
 
 __all__ = ["sliding_mass_geometry", "surface_ends", "surface_xy", "GoverningSurfaces", "governing_surfaces",
+           "governing_families", "gather_governing",
            "SURFACE_HEADER", "surface_columns", "read_surface_columns", "SurfaceGroup", "FailureMap", "failure_map",
            "slice_searched", "measure", "GEOMETRY_DTYPE", "VERTEX_DTYPE", "vertex_rows"]
 
@@ -198,11 +199,48 @@ def governing_surfaces(result, which=None) -> GoverningSurfaces:
     prob = result.problem
     if prob is None:
         raise InputError("governing_surfaces needs the result of simulate() (problem attached)")
-    n = result.n
-    crit = np.asarray(result.critical_index, int)
+    return gather_governing(prob, result.critical_index, result.searched_surfaces(), result.searched_geometry,
+                            result.governing_families(), which)
+
+
+def governing_families(problem, critical_index, searched, searched_family) -> np.ndarray:
+    """Family that governed each sample: its bank surface's, or ``searched_family`` at ``searched`` (positions).
+
+    ``"none"`` where no surface qualified (``critical_index`` -1).
+    """
+    from ..surfaces import family_of
+
+    crit = np.asarray(critical_index, int)
+    fam = np.array([family_of(s) for s in problem.surfaces] + ["none"], dtype=object)
+    out = fam[np.where(crit >= 0, crit, len(fam) - 1)]
+    searched = list(searched)
+    if searched:
+        out[searched] = searched_family
+    return out
+
+
+def gather_governing(problem, critical_index, found, geometry, families, which=None) -> GoverningSurfaces:
+    """:class:`GoverningSurfaces` of samples from their bank surfaces and searched polylines.
+
+    Parameters
+    ----------
+    problem : RandomProblem
+    critical_index : array_like of int (n,)
+        Each sample's bank surface (-1: none qualified).
+    found : dict int -> ndarray (m, 2)
+        The searched polylines' vertices (section frame, m), by sample.
+    geometry : structured ndarray or None
+        Their measured geometry, rows of :data:`GEOMETRY_DTYPE` by sample.
+    families : array_like of str (n,)
+        :func:`governing_families`.
+    which : sequence of int, optional
+        Samples whose geometry is measured (default all).
+    """
+    prob = problem
+    crit = np.asarray(critical_index, int)
+    n = crit.size
     want = np.zeros(n, bool)
     want[np.arange(n) if which is None else np.asarray(which, int)] = True
-    found = result.searched_surfaces()
     searched = np.zeros(n, bool)
     searched[list(found)] = True
     geo = {k: np.full(n, np.nan) for k in ("area", "depth", "x_upslope", "x_downslope")}
@@ -215,13 +253,13 @@ def governing_surfaces(result, which=None) -> GoverningSurfaces:
         g["x_upslope"], g["x_downslope"] = surface_ends(prob.bank, uniq)
         for key, v in g.items():
             geo[key][rows] = v[inv]
-    m = result.searched_geometry
+    m = geometry
     if m is not None and m.size:  # measured by the simulator on the slices the search judged
         ks = m["realisation"]
         keep = want[ks]
         for key in geo:
             geo[key][ks[keep]] = m[key][keep]
-    return GoverningSurfaces(family=np.asarray(result.governing_families(), dtype=object), searched=searched,
+    return GoverningSurfaces(family=np.asarray(families, dtype=object), searched=searched,
                              bank_index=crit, vertices=found, problem=prob, **geo)
 
 
@@ -325,8 +363,9 @@ class FailureMap:
     groups: list
 
 
-def failure_map(gov: GoverningSurfaces, fs, x_edges, y_edges, *, max_drawn: int = 60) -> FailureMap:
-    """The failure map of a simulation from its governing surfaces (FS < 1 fails).
+def failure_map(gov: GoverningSurfaces, fs, x_edges, y_edges, *, max_drawn: int = 60,
+                threshold: float = 1.0) -> FailureMap:
+    """The failure map of a simulation from its governing surfaces (FS < ``threshold`` fails, 1 for pf).
 
     Parameters
     ----------
@@ -338,11 +377,13 @@ def failure_map(gov: GoverningSurfaces, fs, x_edges, y_edges, *, max_drawn: int 
         Cell edges of the map.
     max_drawn : int
         Surfaces drawn per group at most.
+    threshold : float, -
+        FS below which a sample failed (a subset simulation's threshold).
     """
     from .mechanism_results import _density
 
     fs = np.asarray(fs, float)
-    failed = np.isfinite(fs) & (fs < 1.0) & (gov.bank_index >= 0)
+    failed = np.isfinite(fs) & (fs < threshold) & (gov.bank_index >= 0)
     ks = np.flatnonzero(failed)
     xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
     groups = []

@@ -9,7 +9,10 @@ from the realisation's fields by the same mapping as the bank's
 toward the realisation's weak cells. Every path and every start surface is
 then judged by the method of slices (``method``), and only clean solutions
 count: converged and no flag at all, the rule of the Nelder-Mead refinement
-(:func:`slope.simulate.refinement.refine_realisation`). The realisation's FS is the lower
+(:func:`slope.simulate.refinement.refine_realisation`). A path below the starts must also be
+at least as critical as its own start surface as a mechanism of rigid blocks with the
+realisation's strengths (:mod:`slope.search.path_acceptance`; the lowest such path is judged
+first, and a refused one is counted and the next judged). The realisation's FS is the lower
 of the bank's and the search's.
 
 The first band of each start surface depends on the geometry only, so its
@@ -145,7 +148,7 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict 
     # cells); the paths are judged with the problem's own averaging
     grid_overrides = realisation_overrides(problem, seed, k, section, values, n_per_base=1)
     st = DPSettings(columns=settings.columns, nodes=settings.nodes, passes=settings.passes, theta_rounds=1)
-    candidates = []
+    candidates, origin = [], []
     thetas, unusable = [], 0
     for i in starts:
         start = problem.surfaces[i]
@@ -159,6 +162,7 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict 
             unusable += 1  # a start the grid cannot follow (no depth): the others still run
             continue
         candidates += paths  # the start is the bank's own surface: its FS is already in the bank
+        origin += [i] * len(paths)
         thetas.append(theta)
     if not candidates:
         return float("nan"), None, rejection_counts({START_UNUSABLE: max(unusable, 1)})
@@ -170,7 +174,10 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict 
     res = evaluate_surfaces(section, candidates, hypothesis=problem.hypothesis, method=settings.method,
                             n_slices=problem.n_slices, overrides=overrides, search=MECHANISM_SEARCH, tolerate=(),
                             **opts)
-    rej = rejection_counts(res.rejected) + rejection_counts({START_UNUSABLE: unusable} if unusable else {})
+    refused = _judge_kinematically(problem, section, res, origin, float(np.min(np.asarray(fs_row)[starts])),
+                                   overrides)
+    rej = (rejection_counts(res.rejected) + rejection_counts(refused)
+           + rejection_counts({START_UNUSABLE: unusable} if unusable else {}))
     if res.critical is None or not np.isfinite(res.fs_min):
         return float("nan"), None, rej
     if measured is not None:
@@ -180,3 +187,39 @@ def mechanism_search(problem, seed, k, fs_row, ok_row, settings, measured: dict 
         if res.interslice_function is not None:
             measured["interslice_function"] = str(res.interslice_function[res.critical_index])
     return float(res.fs_min), res.critical, rej
+
+
+def _judge_kinematically(problem, section, res, origin, fs_start, overrides) -> dict:
+    """Refuse, lowest first, the counted paths below the starts that are less critical than their own
+    start as a mechanism of rigid blocks with the realisation's strengths
+    (:mod:`slope.search.path_acceptance`); updates ``res`` (counted, critical) in place.
+
+    Only paths that could lower the realisation's FS are judged (limit-equilibrium FS below the
+    lowest start's): a path above it changes nothing, so it costs nothing. Returns the refusals by
+    reason.
+    """
+    from ..search.path_acceptance import StartBound, kinematic_reasons
+
+    refused, bounds = {}, {}
+    fs = np.where(res.counted, res.fs, np.inf)
+    for j in np.argsort(fs, kind="stable"):
+        if not fs[j] < fs_start:
+            break
+        i = origin[j]
+        if i not in bounds:
+            bounds[i] = StartBound(section, problem.surfaces[i], hypothesis=problem.hypothesis, overrides=overrides)
+        why = kinematic_reasons(section, [res.surfaces[j]], problem.surfaces[i], hypothesis=problem.hypothesis,
+                                overrides=overrides, bound=bounds[i])[0]
+        if not why:
+            break
+        res.counted[j] = False
+        refused[why] = refused.get(why, 0) + 1
+    left = np.where(res.counted, res.fs, np.inf)
+    if np.isfinite(left).any():
+        res.critical_index = int(np.argmin(left))
+        res.fs_min = float(left[res.critical_index])
+        res.critical = res.surfaces[res.critical_index]
+        res.critical_flags = int(res.flags[res.critical_index])
+    else:
+        res.critical_index, res.fs_min, res.critical = -1, float("nan"), None
+    return refused

@@ -46,6 +46,14 @@ level's threshold and λ, so they are spread over processes (local or a dask
 cluster) in any grouping and batch with bit-identical results. Memory: the
 seeds of one level and the chains in flight (the states of a level are
 never all held: the next seeds are rebuilt by replaying their chains).
+
+Governing surfaces (issue 15): with the per-realisation search on, a sample
+whose FS the search lowered is governed by the search's own polyline. The
+chains carry it with their state (:mod:`.rare_surfaces`): the seeds of a
+level, its samples and its checkpoint hold the polyline and its measured
+geometry wherever one governs, so the failures of the last level are
+measured, drawn and exported on the surfaces that governed them, as Monte
+Carlo's are (:mod:`.failure_geometry`).
 """
 from __future__ import annotations
 
@@ -60,10 +68,11 @@ from slipfield.fields.seeding import realisation_rng
 from ..errors import InputError
 from .estimators import AUTO_MIN_FAILURES, ESTIMATORS
 from ..reliability.subset import _gamma
-from .driver import _concat, _run_block, simulate
+from .driver import SEARCHED_GEOMETRY, SEARCHED_VERTICES, _concat, _run_block, simulate
 from .engine import stencil
 from .problem import RandomProblem
 from .rare_store import LevelStore, subset_store_identity
+from .rare_surfaces import shift_rows, surfaces_of_rows, take
 
 __all__ = ["SubsetSettings", "NoiseLayout", "GivenNoise", "subset_simulate", "ESTIMATORS",
            "AUTO_MIN_FAILURES", "STREAM"]
@@ -230,7 +239,8 @@ def _evaluate(problem, layout, U, keys, refine, batch):
     parts = []
     for a in range(0, U.shape[0], batch):
         src = GivenNoise(layout, U[a:a + batch], keys[a:a + batch])
-        parts.append(_run_block(problem, src, 0, src.U.shape[0], refine))
+        # the searched surfaces' sparse rows are numbered within the batch: renumbered as rows of U
+        parts.append(shift_rows(_run_block(problem, src, 0, src.U.shape[0], refine), a))
     return _concat(parts)
 
 
@@ -268,17 +278,24 @@ def _worker_problem(problem):
     return held
 
 
-def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, b, rho, sigma, n_steps, refine, batch):
+def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, s0, b, rho, sigma, n_steps, refine, batch):
     """Advance chains ``chains`` (global numbers) from their seeds ``u0`` for ``n_steps`` steps.
 
     ``problem`` is the RandomProblem or the path it was shipped to (local
-    processes). Returns dict: ``fs``, ``crit`` (n_steps + 1, k) (row 0: the
-    seeds), ``accepted`` (n_steps, k) bool, ``counts`` of the evaluations.
+    processes); ``s0`` the seeds' searched surfaces (:mod:`.rare_surfaces`;
+    None where a bank surface governs). Returns dict: ``fs``, ``crit``
+    (n_steps + 1, k) (row 0: the seeds), ``accepted`` (n_steps, k) bool,
+    ``surfaces`` {(step, position in ``chains``): searched surface} of the
+    states a searched surface governs (step 0: the seeds), ``counts`` of the
+    evaluations.
     """
     problem = _worker_problem(problem)
     rngs = _rngs(seed, level, chains)
     u, y, c = np.array(u0, float), np.array(y0, float), np.array(c0, int)
     fs, crit, acc = [y.copy()], [c.copy()], []
+    # a chain keeps its state's surface while it stays put and takes the candidate's when it moves
+    cur = list(s0)
+    surf = {(0, j): s for j, s in enumerate(cur) if s is not None}
     counts = {"n": 0, "nonconv": 0, "inadm": 0, "none": 0, "refined": 0}
     keys = np.asarray(chains, np.int64)
     for _ in range(n_steps):
@@ -292,11 +309,15 @@ def _run_chains(problem, layout, seed, level, chains, u0, y0, c0, b, rho, sigma,
         yv = _fs_rank(ev["fs"])
         ok = yv <= b
         u[ok], y[ok], c[ok] = v[ok], yv[ok], ev["crit"][ok]
+        found = surfaces_of_rows(ev.get(SEARCHED_VERTICES), ev.get(SEARCHED_GEOMETRY))
+        for j in np.flatnonzero(ok):
+            cur[j] = found.get(int(j))
+        surf.update({(len(fs), j): s for j, s in enumerate(cur) if s is not None})
         fs.append(y.copy())
         crit.append(c.copy())
         acc.append(ok)
     return {"fs": np.array(fs), "crit": np.array(crit),
-            "accepted": np.array(acc, bool).reshape(n_steps, len(chains)), "counts": counts}
+            "accepted": np.array(acc, bool).reshape(n_steps, len(chains)), "surfaces": surf, "counts": counts}
 
 
 def _replay(layout, seed, level, chain, u0, rho, sigma, accepted, step):
@@ -457,6 +478,8 @@ def _levels(problem, shipped, st, seed, layout, ckpt, state, levels, lam, counts
                       store=None if ckpt is None else ckpt.level0_dir(), resume=resume,
                       store_identity=store_identity)
         fs, crit = _fs_rank(mc.fs), mc.critical_index.copy()
+        # the searched surfaces of the level's samples (by flat sample number), carried to the seeds
+        surfaces = surfaces_of_rows(mc.searched_vertices, mc.searched_geometry)
         level0_fs.append(np.asarray(mc.fs, float))
         counts.update(n=N, nonconv=mc.n_nonconverged, inadm=mc.n_inadmissible, none=mc.n_no_valid,
                       refined=mc.n_refined)
@@ -475,14 +498,16 @@ def _levels(problem, shipped, st, seed, layout, ckpt, state, levels, lam, counts
             info.update(gen_stats)
             if info["final"]:
                 levels.append(info)
-                final = {"fs": fs, "crit": crit, "chains_shape": chains_shape, "replay": replay}
+                final = {"fs": fs, "crit": crit, "chains_shape": chains_shape, "replay": replay,
+                         "surfaces": surfaces}
                 break
             # the seeds' noise: Monte Carlo streams at level 0, replayed chains above
             if replay is None:
                 U = layout.draw(problem, seed, seeds_idx)
             else:
                 U = np.stack([_replay(layout, seed, level, *replay.locate(k)) for k in seeds_idx])
-            seeds = {"u": U, "fs": fs[seeds_idx], "crit": crit[seeds_idx], "threshold": info["threshold"]}
+            seeds = {"u": U, "fs": fs[seeds_idx], "crit": crit[seeds_idx], "threshold": info["threshold"],
+                     "surfaces": take(surfaces, seeds_idx)}
             levels.append(info)
             if ckpt is not None:
                 ckpt.save(levels, lam, counts, seeds)
@@ -497,20 +522,24 @@ def _levels(problem, shipped, st, seed, layout, ckpt, state, levels, lam, counts
         b = seeds["threshold"]
         perm = realisation_rng(seed, level, STREAM, 1).permutation(nc)
         U0, Y0, C0 = seeds["u"][perm], seeds["fs"][perm], seeds["crit"][perm]
+        S0 = [seeds["surfaces"].get(int(i)) for i in perm]
         spread = U0.std(axis=0, ddof=1)
         n_a = max(_ADAPT_MIN, int(round(_ADAPT_FRACTION * nc)))
         res_fs = np.empty((ns, nc))
         res_crit = np.empty((ns, nc), int)
         res_acc = np.empty((ns - 1, nc), bool)
         lams, accs = [], []
+        surfaces = {}
         for r, a in enumerate(range(0, nc, n_a), start=1):
             sigma = np.minimum(1.0, lam * spread)
             rho = np.sqrt(1.0 - sigma * sigma)
             grp = np.arange(a, min(a + n_a, nc))
-            calls = [(shipped, layout, seed, level, g, U0[g], Y0[g], C0[g], b, rho, sigma, ns - 1, refine, batch)
-                     for g in _split(grp, n_jobs if scheduler is None else len(grp))]
+            calls = [(shipped, layout, seed, level, g, U0[g], Y0[g], C0[g], [S0[j] for j in g], b, rho, sigma,
+                      ns - 1, refine, batch) for g in _split(grp, n_jobs if scheduler is None else len(grp))]
             for g, out in zip([c[4] for c in calls], _map(_run_chains, calls, n_jobs, scheduler)):
                 res_fs[:, g], res_crit[:, g], res_acc[:, g] = out["fs"], out["crit"], out["accepted"]
+                # chain j state t is sample t*nc + j of the new level (as fs below)
+                surfaces.update({t * nc + int(g[j]): srf for (t, j), srf in out["surfaces"].items()})
                 for k in counts:
                     counts[k] += out["counts"][k]
             a_hat = float(res_acc[:, grp].mean())
@@ -542,55 +571,5 @@ class _Replay:
         return _replay(layout, seed, level, *self.locate(flat))
 
 
-def theta_sweep_rare(problem, theta_h, theta_v, n, seed, settings, estimator="subset", *, n_jobs=1, batch=100,
-                     scheduler=None, refine=None) -> list:
-    """:func:`slope.simulate.theta_sweep` with subset simulation at each grid point.
-
-    Same grid rules and common random numbers (the same seed and streams at
-    every point). ``estimator="auto"``: Monte Carlo with ``n`` realisations
-    at a point whose first ``batch`` realisations see at least
-    :data:`AUTO_MIN_FAILURES` failures, subset simulation elsewhere.
-
-    Returns
-    -------
-    list of dict rows as :func:`theta_sweep`'s (``lo``/``hi`` the 95 %
-    interval of the estimator used), plus ``estimator``, ``cov`` (-),
-    ``status`` and ``n`` = FS evaluations.
-    """
-    from .studies import _summary, _with_thetas
-
-    rows, done = [], {}
-    for th in theta_h:
-        for tv in theta_v:
-            th, tv = float(th), float(tv)
-            eff = (math.inf, math.inf) if math.isinf(th) or math.isinf(tv) else (th, tv)
-            if eff not in done:
-                prob = _with_thetas(problem, [eff] * len(problem.properties))
-                use = estimator
-                if estimator == "auto":
-                    first = simulate(prob, batch, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler,
-                                     refine=refine)
-                    k = int((np.isfinite(first.fs) & (first.fs < 1.0)).sum())
-                    use = "subset" if k < AUTO_MIN_FAILURES else "monte-carlo"
-                if use == "subset":
-                    r = subset_simulate(prob, settings, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler,
-                                        refine=refine)
-                    lo, hi = r.interval_95
-                    f0 = r.level0_fs[np.isfinite(r.level0_fs)]  # level 0: N Monte Carlo realisations
-                    done[eff] = {"estimator": "subset", "pf": r.pf, "lo": lo, "hi": hi, "cov": r.cov,
-                                 "status": r.status, "mean_fs": float(f0.mean()) if f0.size else float("nan"),
-                                 "std_fs": float(f0.std(ddof=1)) if f0.size > 1 else float("nan"),
-                                 "n": r.n_evaluations, "n_valid": r.n_evaluations - r.counts["none"],
-                                 "n_nonconverged": r.counts["nonconv"], "n_inadmissible": r.counts["inadm"],
-                                 "n_no_valid_surface": r.counts["none"]}
-                else:
-                    res = simulate(prob, n, seed, n_jobs=n_jobs, batch=batch, scheduler=scheduler, refine=refine)
-                    s = _summary(res)
-                    done[eff] = {"estimator": "monte-carlo", "pf": s["pf"], "lo": s["lo"], "hi": s["hi"],
-                                 "cov": (math.sqrt((1 - s["pf"]) / (s["pf"] * res.n)) if s["pf"] else float("nan")),
-                                 "status": "ok", "mean_fs": s["mean_fs"], "std_fs": s["std_fs"], "n": res.n,
-                                 "n_valid": int(np.isfinite(res.fs).sum()), "n_nonconverged": res.n_nonconverged,
-                                 "n_inadmissible": res.n_inadmissible, "n_no_valid_surface": res.n_no_valid}
-            rows.append({"theta_h": th, "theta_v": tv, "theta_h_run": eff[0], "theta_v_run": eff[1],
-                         **done[eff]})
-    return rows
+# the θ sweep with subset simulation lives in rare_sweep (kept importable from here)
+from .rare_sweep import theta_sweep_rare  # noqa: E402,F401

@@ -57,7 +57,13 @@ class SubsetResult:
     message : str
     failures : dict of ndarray
         Last-level samples with FS < threshold: ``fs``, ``crit`` (bank index
-        of the critical surface), ``sample`` (flat index in the level).
+        of the critical surface; with the per-realisation search, the bank
+        surface it started from), ``sample`` (flat index in the level), and
+        the polylines the per-realisation search found where they govern:
+        ``searched_vertices`` / ``searched_geometry``, the simulator's sparse
+        rows (:data:`~.failure_geometry.VERTEX_DTYPE`,
+        :data:`~.failure_geometry.GEOMETRY_DTYPE`) numbered by position in
+        ``failures`` (see :meth:`governing`).
     level0_fs : ndarray or None
         Critical FS of level 0 (the first N Monte Carlo realisations; NaN
         without a valid surface); None when level 0 came from a checkpoint.
@@ -111,13 +117,20 @@ class SubsetResult:
             cov_up = float(sum(deltas))
         else:
             cov = cov_up = float("nan")
+        from .rare_surfaces import empty_rows, rows_of_surfaces, take
+
         if final is not None:
             fs, crit = final["fs"], final["crit"]
             fail = np.flatnonzero(fs < t)
-            failures = {"fs": fs[fail], "crit": crit[fail], "sample": fail}
+            found = take(final.get("surfaces") or {}, fail)
+            vert, geo = rows_of_surfaces(found) if found else empty_rows()
+            failures = {"fs": fs[fail], "crit": crit[fail], "sample": fail, "searched_vertices": vert,
+                        "searched_geometry": geo}
             final_fs, replay = fs, final["replay"]
         else:
-            failures = {"fs": np.zeros(0), "crit": np.zeros(0, int), "sample": np.zeros(0, int)}
+            vert, geo = empty_rows()
+            failures = {"fs": np.zeros(0), "crit": np.zeros(0, int), "sample": np.zeros(0, int),
+                        "searched_vertices": vert, "searched_geometry": geo}
             final_fs, replay = np.zeros(0), None
         return cls(pf=pf, cov=cov, cov_upper=cov_up, interval_95=lognormal_interval(pf, cov),
                    beta=float(beta_from_pf(pf)) if pf else float("nan"), pf_upper=reached, levels=levels,
@@ -137,27 +150,61 @@ class SubsetResult:
         return (1.0 - self.pf) / (self.pf * self.cov ** 2)
 
     # ------------------------------------------------------ failure samples
+    @property
+    def searched_family(self) -> str | None:
+        """Family name of the surfaces the per-realisation search found (None without a search)."""
+        return None if self.refine is None else f"{getattr(self.refine, 'search', 'nelder-mead')} (per realisation)"
+
+    def failure_surfaces(self) -> dict:
+        """{position in ``failures``: vertices (m, 2), section frame, m} of the failures a searched polyline governs."""
+        return _searched(self.failures)
+
+    def governing(self):
+        """The governing surface of every failure sample, with its geometry (:class:`~.failure_geometry.GoverningSurfaces`).
+
+        Entry i is ``failures`` position i: the per-realisation search's own
+        polyline where it governed the sample (measured by the simulator on
+        the slices the search judged), else the bank's critical surface.
+        """
+        from .failure_geometry import gather_governing, governing_families
+
+        found = self.failure_surfaces()
+        crit = self.failures["crit"]
+        return gather_governing(self.problem, crit, found, self.failures["searched_geometry"],
+                                governing_families(self.problem, crit, found, self.searched_family))
+
     def failure_map(self, x_edges, y_edges):
-        """Where the failure samples' critical surfaces pass, given failure.
+        """Where the failure samples' governing surfaces pass, given failure.
 
         Fraction of the last level's failed samples (FS < threshold) whose
-        critical surface has a slice-base midpoint in each cell; multiply by
-        ``pf`` for the unconditional density.
+        governing surface has a slice-base midpoint in each cell (the
+        per-realisation search's polyline where it governed, sliced as
+        :func:`.failure_geometry.slice_searched` measures it; else the bank's
+        critical surface), as :meth:`SimulationResult.failure_map`; multiply
+        by ``pf`` for the unconditional density.
 
         Returns
         -------
         ndarray (len(x_edges)-1, len(y_edges)-1)
         """
-        bank = self.problem.bank
+        from .failure_geometry import slice_searched
+
         xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
         out = np.zeros((xe.size - 1, ye.size - 1))
         crit = self.failures["crit"]
-        idx, cnt = np.unique(crit[crit >= 0], return_counts=True)
-        for j, c in zip(idx, cnt):
-            # slice positions are in the sliding frame (x' = direction * x): back to the section frame, or the
-            # map is mirrored for slopes facing -x (as SimulationResult.failure_map since issue 11)
-            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
-            out += (h > 0) * c
+        found = _searched(self.failures)
+        on_bank = (crit >= 0) & ~np.isin(np.arange(crit.size), list(found))
+        banks = [(self.problem.bank, *np.unique(crit[on_bank], return_counts=True))]
+        if found:
+            own = sorted(found)
+            banks.append((slice_searched(self.problem, [found[k] for k in own]), np.arange(len(own)),
+                          np.ones(len(own), int)))
+        for bank, idx, cnt in banks:
+            for j, c in zip(idx, cnt):
+                # slice positions are in the sliding frame (x' = direction * x): back to the section frame, or
+                # the map is mirrored for slopes facing -x (as SimulationResult.failure_map since issue 11)
+                h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
+                out += (h > 0) * c
         return out / max(crit.size, 1)
 
     def typical_failure(self) -> int | None:
@@ -218,6 +265,7 @@ class SubsetResult:
                 "thresholds": self.thresholds, "n_evaluations": self.n_evaluations,
                 "crude_mc_equivalent": self.mc_equivalent,
                 "n_failure_samples": int(self.failures["fs"].size),
+                "n_failed_on_searched_surface": len(self.failure_surfaces()),
                 "n_nonconverged": int(self.counts["nonconv"]), "n_inadmissible": int(self.counts["inadm"]),
                 "n_no_valid_surface": int(self.counts["none"]), "n_refined": int(self.counts["refined"]),
                 "level0_mean_fs": self._level0("mean"), "level0_std_fs": self._level0("std"),
@@ -226,3 +274,11 @@ class SubsetResult:
                 "method": "subset simulation (Au & Beck 2001), adaptive conditional sampling "
                           "(Papaioannou et al. 2015) in the fields' white noise",
                 "units": {"fs": "-", "pf": "probability (fraction)"}}
+
+
+def _searched(failures) -> dict:
+    """{position: vertices} of the failures a searched polyline governs (none in failures that lack the rows)."""
+    from .rare_surfaces import surfaces_of_rows
+
+    found = surfaces_of_rows(failures.get("searched_vertices"), failures.get("searched_geometry"))
+    return {k: xy for k, (xy, _) in found.items()}

@@ -23,7 +23,7 @@ from ..errors import InputError
 from ..methods import POLYLINE_METHOD_NAMES
 from ..search import refine
 from ..surfaces import Circle
-from .engine import _correlated, bilinear, deterministic_value, strength_overrides
+from .engine import _correlated, bilinear_weights, deterministic_value, strength_overrides
 from .problem import AVERAGING
 from .refine_names import (DEFAULT_REFINE_BELOW, DEFAULT_REFINE_SEARCH, FAILURE_FS, REFINE_OFF,
                            REFINE_SEARCHES)
@@ -38,9 +38,10 @@ def _reasons():
     from ..methods import FLAG_NAMES
     from ..search import SHAPE_REJECTED
     from ..search.interslice_strength import INTERSLICE_REASON
+    from ..search.path_acceptance import KINEMATIC_REASON, UNSUPPORTED_REASON
 
     return ((SHAPE_REJECTED, START_UNUSABLE, "not converged") + tuple(FLAG_NAMES.values())
-            + (INTERSLICE_REASON, "other geometry"))
+            + (INTERSLICE_REASON, KINEMATIC_REASON, UNSUPPORTED_REASON, "other geometry"))
 
 
 #: reasons a refinement trial or candidate is rejected, in the order of the
@@ -231,7 +232,7 @@ def _grid_values(problem, seed, k):
     return out
 
 
-def realisation_overrides(problem, seed, k, section=None, values=None, n_per_base=None):
+def realisation_overrides(problem, seed, k, section=None, values=None, n_per_base=None, kept=None):
     """Strength overrides of realisation k for any slice bank.
 
     ``section``: the section the banks are built from (default the
@@ -239,6 +240,10 @@ def realisation_overrides(problem, seed, k, section=None, values=None, n_per_bas
     material names). ``values``: the realisation's grid values if already
     generated (``_grid_values``). ``n_per_base``: points averaged along a
     base (default the problem's averaging; a search grid may take fewer).
+    ``kept``: a dict of the caller's that keeps, for each bank it is called
+    with, where its bases read the grid (points, zones, bilinear cells and
+    weights: geometry only), so a caller that passes the same bank again in
+    other realisations (:mod:`slope.simulate.bank_checks`) computes them once.
 
     Returns
     -------
@@ -253,22 +258,51 @@ def realisation_overrides(problem, seed, k, section=None, values=None, n_per_bas
     mats = (problem.section if section is None else section).materials
 
     def overrides(bank):
-        xb, yb = bank.base_points_section_frame(npb)
-        zone = np.asarray(bank.zone)
+        where = _where_bases_read(bank, grid, npb, kept)
+        zone = where["zone"]
         per_key = {p.key: np.full(zone.shape, np.nan) for p in problem.properties}
         for (i, z), v in values.items():
-            mask = zone == z
+            mask, cells, w = where.get(z) or where.setdefault(z, _zone_cells(where, z, grid))
             if not mask.any():
                 continue
             p = problem.properties[i]
             if v.size == 1:
                 per_key[p.key][mask] = float(v.ravel()[0])
             else:
-                per_key[p.key][mask] = bilinear(grid, v, xb[mask], yb[mask])[0].mean(axis=-1)
+                # engine.bilinear with the kept cells and weights (the same operations, the same bits)
+                per_key[p.key][mask] = (np.asarray(v).reshape(v.shape[0], -1)[:, cells] * w).sum(axis=-1)[0].mean(
+                    axis=-1)
         # unit weights are in the section's materials, not strengths (skipped here)
-        return strength_overrides(problem, per_key, lambda prop: deterministic_value(bank, mats, prop))
+        return strength_overrides(problem, per_key, lambda prop: _deterministic(where, bank, mats, prop))
 
     return overrides
+
+
+def _where_bases_read(bank, grid, npb, kept):
+    """The points of ``bank``'s bases and their zones, kept in ``kept`` for that bank object (or computed)."""
+    got = None if kept is None else kept.get(id(bank))
+    if got is not None and got["bank"] is bank:  # the dict holds the bank, so its id is not reused
+        return got
+    xb, yb = bank.base_points_section_frame(npb)
+    got = {"bank": bank, "zone": np.asarray(bank.zone), "xb": xb, "yb": yb}
+    if kept is not None:
+        kept[id(bank)] = got
+    return got
+
+
+def _deterministic(where, bank, mats, prop):
+    """:func:`deterministic_value` of ``bank``, kept with its points (it depends on the bank and materials only)."""
+    key = ("deterministic", prop, id(mats))
+    if key not in where or where[key][0] is not mats:
+        where[key] = (mats, deterministic_value(bank, mats, prop))
+    return where[key][1]
+
+
+def _zone_cells(where, z, grid):
+    """(bases in zone z, bilinear cells and weights of their points) of :func:`_where_bases_read`."""
+    mask = where["zone"] == z
+    cells, w = bilinear_weights(grid, where["xb"][mask], where["yb"][mask]) if mask.any() else (None, None)
+    return mask, cells, w
 
 
 def refine_realisation(problem, seed, k, start, settings: RefineSettings):

@@ -79,3 +79,28 @@ def test_a_store_is_tied_to_the_bank_checks(tmp_path):
     BlockStore(tmp_path / "s", old).open(resume=False)
     with pytest.raises(Refused):
         BlockStore(tmp_path / "s", new).check(resume=True)
+
+
+def test_geometry_kept_per_surface_gives_the_same_bits_as_computing_it_per_realisation(monkeypatch):
+    # what depends on a surface alone (its slice row and terms, the geometry of its slice boundaries,
+    # where its points read the grid) is computed once per surface and kept between realisations;
+    # the realisations must not see the difference, refused and retried blocks included
+    from slipfield.slope.search import interslice_strength
+    from slipfield.slope.simulate import bank_checks
+
+    n, seed = 12, 3
+    monkeypatch.setattr(bank_checks, "KEEP_SURFACE_GEOMETRY", False)
+    before = simulate(_problem()[0], n, seed)
+    monkeypatch.setattr(bank_checks, "KEEP_SURFACE_GEOMETRY", True)
+    made = []
+    geometry = interslice_strength.boundary_geometry
+    monkeypatch.setattr(interslice_strength, "boundary_geometry", lambda *a: made.append(1) or geometry(*a))
+    prob = _problem()[0]
+    after = simulate(prob, n, seed)
+    np.testing.assert_array_equal(after.fs, before.fs)
+    np.testing.assert_array_equal(after.critical_index, before.critical_index)
+    assert after.bank_rejected == before.bank_rejected and after.bank_rejected
+    assert after.bank_retried == before.bank_retried > 0
+    # one boundary geometry per surface judged, however many realisations judged it
+    judged = len(prob._bank_check_parts)
+    assert 0 < len(made) == judged < n
