@@ -304,7 +304,7 @@ def _warm_dynamic_programming():
             np.zeros(1, np.bool_), np.zeros(2, np.bool_))
 
 
-def stop_workers() -> int:
+def stop_workers(*, wait: bool = True) -> int:
     """End the local worker pool at once, when the command has no more work for it.
 
     A command that is about to exit calls this after its outputs are
@@ -314,11 +314,23 @@ def stop_workers() -> int:
     second at the end of every run on 2 cores. Nothing of theirs is lost:
     results come back with each task, and the files they read are the
     command's (:func:`_ship`). Later calls start a new pool. Returns the
-    number of workers ended (0 without a pool).
+    number of workers ended (0 without a pool). ``wait=False``: a command that failed (e.g. its
+    case checks, which run while the pool warms up) ends the pool at once, without waiting for the
+    warm-up's kernels to compile; the warm-up then stops with its workers (it only saves time).
     """
     global _WARMING
-    _await_workers()  # never while the warm-up still has tasks on the pool
-    _WARMING = None
+    if wait:
+        _await_workers()  # never while the warm-up still has tasks on the pool
+    warming, _WARMING = _WARMING, None
+    ended = _end_pool()
+    while warming is not None and warming.is_alive():  # wait=False: its pool may start after the first kill
+        warming.join(timeout=0.1)
+        ended += _end_pool()
+    return ended
+
+
+def _end_pool() -> int:
+    """Kill and reap the workers of joblib's reusable executor; how many there were."""
     try:
         from joblib.externals.loky import reusable_executor
     except ImportError:  # pragma: no cover - joblib without loky: the normal exit ends the pool
