@@ -112,6 +112,46 @@ _ALIASES = {
 }
 
 
+class _DistRecipe:
+    """A scipy.stats frozen distribution, rebuilt from its name and arguments on first use.
+
+    What a pickled :class:`Marginal` carries instead of the frozen
+    distribution: unpickling one then needs no ``scipy.stats`` (a second of
+    import in every simulation worker, whose lognormal and normal marginals
+    never call it). The rebuilt distribution is the same object
+    (``getattr(scipy.stats, name)(*args, **kwds)``), so its values are too.
+    """
+
+    def __init__(self, name, args, kwds):
+        self.recipe = (str(name), tuple(args), dict(kwds))
+
+    def __getattr__(self, attr):
+        if attr.startswith("__") or attr in ("recipe", "frozen"):
+            raise AttributeError(attr)
+        frozen = self.__dict__.get("frozen")
+        if frozen is None:
+            import scipy.stats
+
+            name, args, kwds = self.recipe
+            frozen = self.__dict__["frozen"] = getattr(scipy.stats, name)(*args, **kwds)
+        return getattr(frozen, attr)
+
+    def __reduce__(self):
+        return (_DistRecipe, self.recipe)
+
+
+def _recipe(dist):
+    """:class:`_DistRecipe` of a frozen scipy.stats distribution, or the distribution itself
+    when it is not one of scipy.stats' named distributions."""
+    if dist is None or isinstance(dist, _DistRecipe):
+        return dist
+    named = getattr(getattr(dist, "dist", None), "name", None)
+    stats = getattr(scipy, "stats", None)
+    if named is None or stats is None or type(getattr(stats, named, None)) is not type(dist.dist):
+        return dist
+    return _DistRecipe(named, getattr(dist, "args", ()), getattr(dist, "kwds", {}))
+
+
 @dataclass(frozen=True)
 class Marginal:
     """A univariate distribution of a physical property.
@@ -140,6 +180,12 @@ class Marginal:
     lower: float = -math.inf
     upper: float = math.inf
     _dist: object = field(default=None, repr=False, compare=False)
+
+    def __getstate__(self):
+        # the frozen distribution travels as its recipe (see _DistRecipe)
+        state = dict(self.__dict__)
+        state["_dist"] = _recipe(state.get("_dist"))
+        return state
 
     @property
     def cov(self) -> float:

@@ -7,11 +7,22 @@ running the demo again); ``demo_analysis(name)`` gives the same run as
 of the report against the typed results.
 """
 import json
+import sys
 from pathlib import Path
 
 import pytest
 
 from support.demos import CASES, DEMO_REALISATIONS
+
+
+@pytest.fixture(autouse=True)
+def _kernel_threads_restored():
+    """Commands bound this process's kernel threads by their ``--jobs`` (``limit_threads``): the
+    next test starts with every core, as a fresh process does."""
+    yield
+    numba = sys.modules.get("numba")
+    if numba is not None and numba.get_num_threads() != numba.config.NUMBA_NUM_THREADS:
+        numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
 
 
 @pytest.fixture(scope="session")

@@ -187,3 +187,28 @@ def test_a_scheduler_dying_mid_run_exits_2_keeps_blocks_and_resume_continues_loc
     assert main(["simulate", SMALL, "--out", str(fresh), "--realisations", "150", "--quiet"]) == 0
     np.testing.assert_array_equal(resumed, np.loadtxt(fresh / "fs_realisations.csv", delimiter=",", skiprows=1,
                                                       usecols=1))
+
+
+@linux
+def test_run_whose_case_checks_fail_ends_its_warming_pool_at_once(tmp_path, capsys):
+    # The pool starts before the case's checks (they run the search; the workers compile meanwhile): a
+    # case refused there must end with exit 2 and its message, nothing written, and no worker left.
+    from joblib.externals.loky import reusable_executor
+
+    from slipfield.slope.simulate import executors
+
+    text = Path(SMALL).read_text()
+    bad = tmp_path / "bad.toml"
+    # a normal marginal with cov 0.9 draws negative strengths by the thousand: refused by the checks
+    assert 'property = "c"\ncov = 0.4' in text
+    bad.write_text(text.replace('property = "c"\ncov = 0.4', 'property = "c"\ndistribution = "normal"\ncov = 0.9'))
+    out = tmp_path / "out"
+    assert main(["run", str(bad), "--out", str(out), "--jobs", "2", "--quiet"]) == 2
+    assert "negative" in capsys.readouterr().err
+    assert not out.exists()
+    assert executors._WARMING is None
+    executor = getattr(reusable_executor, "_executor", None)
+    pids = [p.pid for p in (getattr(executor, "_processes", None) or {}).values()] if executor else []
+    assert not any(_alive(p) for p in pids)
+    workers = [p for p in _children(os.getpid()) if "LokyProcess" in Path(f"/proc/{p}/cmdline").read_text()]
+    assert not any(_alive(p) for p in workers)

@@ -138,14 +138,19 @@ class CirculantGenerator(FieldGenerator):
         h = Ny // 2 + 1
         spec = buf.view(np.complex128)[..., 0]
         M = Nx * Ny
-        spec *= math.sqrt(M / 2.0)
+        # scalings of the real and imaginary parts as real products: the values of the
+        # complex products by (x + 0j), at half their cost
+        buf *= math.sqrt(M / 2.0)
         cols = [0] + ([h - 1] if Ny % 2 == 0 and Ny > 1 else [])
         kx = np.arange(1, (Nx + 1) // 2)
         selfc = [0] + ([Nx // 2] if Nx % 2 == 0 and Nx > 1 else [])
         for c in cols:
             spec[:, Nx - kx, c] = np.conj(spec[:, kx, c])
             spec[:, selfc, c] = spec[:, selfc, c].real * math.sqrt(2.0)
-        spec *= self._sqrt_lam
+        lam2 = self.__dict__.get("_sqrt_lam2")
+        if lam2 is None:  # sqrt(λ) for both parts, so that the product runs as one flat loop
+            lam2 = self._sqrt_lam2 = np.repeat(self._sqrt_lam[..., None], 2, axis=-1)
+        buf *= lam2
         # inverse transform, pruned: only rows i < nx are needed after the
         # transform along x, so the last transform runs on nx of Nx rows
         tmp = sfft.ifft(spec, axis=1, workers=self.workers, overwrite_x=True)[:, :nx, :]

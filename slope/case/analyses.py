@@ -107,8 +107,9 @@ def deterministic(case: Case) -> dict:
         per_method = {run_method: _search_dict(first, case.section)}
         for m in methods[1:]:
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
+            # the same surfaces and slices: the search's own slice bank, not built again per method
             res = evaluate_surfaces(case.section, first.surfaces, hypothesis=hyp, method=m,
-                                    n_slices=case.analysis["slices"], search=first.search, **opts)
+                                    n_slices=case.analysis["slices"], search=first.search, bank=first.bank, **opts)
             for k in ("shallower than search.min_depth",):  # dropped before the bank: counted for every method
                 if k in first.rejected:
                     res.rejected[k] = first.rejected[k]

@@ -90,7 +90,11 @@ def _option(value, option, lo):
 def settings(case, realisations, jobs, batch, seed, default_n=None):
     sim = case.simulation
     n = _option(realisations, "--realisations", 1) or int(default_n or sim["realisations"])
-    return (n, _option(jobs, "--jobs", 1) or int(sim["jobs"]),
+    n_jobs = _option(jobs, "--jobs", 1) or int(sim["jobs"])
+    from ..simulate.executors import limit_threads
+
+    limit_threads(n_jobs)  # --jobs N: N cores in all, this process's kernel threads included
+    return (n, n_jobs,
             _option(batch, "--batch", 1) or int(sim["batch"]),
             int(sim["seed"]) if seed is None else _option(seed, "--seed", 0))
 

@@ -223,13 +223,23 @@ def _version() -> str:
         return "unknown (not installed)"
 
 
-def _counts(case, realisations, jobs):
-    """Realisations and jobs of a run (options checked, then the case checked for them)."""
+def _counts(case, realisations, jobs, on_ready=None):
+    """Realisations and jobs of a run (options checked, then the case checked for them).
+
+    ``on_ready(case, n_jobs)`` is called between the two: the case's checks run its search
+    (seconds, and on a first run the compilation of its method), which the worker pool's start-up
+    and compilation of the other kernels then overlap.
+    """
     from ..case.preflight import check_option, preflight
 
     n = case.simulation["realisations"] if realisations is None else check_option(realisations, "--realisations", 1)
     n_jobs = case.simulation["jobs"] if jobs is None else check_option(jobs, "--jobs", 1)
+    if on_ready is not None:
+        on_ready(case, int(n_jobs))
     preflight(case, realisations=None if realisations is None else n)
+    from ..simulate.executors import limit_threads
+
+    limit_threads(n_jobs)  # --jobs N: N cores in all, this process's kernel threads included
     return int(n), int(n_jobs)
 
 
@@ -251,8 +261,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
         Override ``simulation.refine_search`` (``--refine-search``): a search
         of :data:`slope.simulate.refine_names.REFINE_SEARCHES` or ``off``.
     on_ready : callable, optional
-        ``on_ready(case, n_jobs)`` once the case and options are checked, before any computation
-        (``run_case`` checks its output folder and starts the worker pool there).
+        ``on_ready(case, n_jobs)`` once the case is read and the options are checked, before the
+        case's checks (which run its search) and any analysis (``run_case`` starts the worker pool
+        there, and ends it at once if the run then fails).
 
     Returns
     -------
@@ -273,9 +284,7 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
 
         RefineSettings.from_case(case.simulation, search=refine_search)  # checked before any computation
         case.simulation["refine_search"] = refine_search  # every analysis below reads it from the case
-    n, n_jobs = _counts(case, realisations, jobs)
-    if on_ready is not None:
-        on_ready(case, n_jobs)
+    n, n_jobs = _counts(case, realisations, jobs, on_ready)
     hyps = case.analysis["hypotheses"]
     progress.say(f"deterministic search ({', '.join(hyps)})")
     det = deterministic(case)
@@ -347,12 +356,22 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
         from ..simulate.driver import start_workers
 
         pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
-        # the pool starts while the search runs, and compiles the other methods' kernels meanwhile
-        start_workers(n_jobs, methods=case.analysis["methods"])
+        # The pool starts while the case's checks run the search, which compiles (first run) or loads the
+        # search method's kernel in this process: the workers take the other methods' kernels first
+        # instead of waiting behind that kernel's compile lock, and load it from the cache last.
+        search = case.analysis["method"]
+        start_workers(n_jobs, methods=[m for m in case.analysis["methods"] if m != search] + [search])
 
-    case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
-                             estimator=estimator, level_probability=level_probability,
-                             samples_per_level=samples_per_level, refine_search=refine_search)
+    try:
+        case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,
+                                 estimator=estimator, level_probability=level_probability,
+                                 samples_per_level=samples_per_level, refine_search=refine_search)
+    except BaseException:
+        if pool["n_jobs"] > 1:  # e.g. the case's checks failed while the pool was still compiling
+            from ..simulate.executors import stop_workers
+
+            stop_workers(wait=False)
+        raise
     return write_run(case, res, out, formats=formats, quiet=quiet, t_start=t_start, jobs=pool["n_jobs"])
 
 

@@ -9,7 +9,6 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from ..reliability.stats import beta_lognormal, beta_normal, binomial_interval
 from .bank_checks import bank_checks_apply, check_bank_polylines
 from .engine import batch_fs, prepare
 from .problem import RandomProblem
@@ -185,6 +184,8 @@ class SimulationResult:
         if nv == 0:
             return float("nan"), (float("nan"), float("nan")), 0
         k = int((fs[ok] < 1.0).sum())
+        from ..reliability.stats import binomial_interval  # scipy.stats: not in the workers
+
         lo, hi = binomial_interval(k, nv, 0.95, "wilson")
         return k / nv, (float(lo), float(hi)), nv  # plain floats: to_dict and messages show no numpy types
 
@@ -210,6 +211,8 @@ class SimulationResult:
         if f.size < 2:
             return {"normal": float("nan"), "lognormal": float("nan")}
         m, s = float(f.mean()), float(f.std(ddof=1))
+        from ..reliability.stats import beta_lognormal, beta_normal
+
         return {"normal": float(beta_normal(m, s)), "lognormal": float(beta_lognormal(m, s))}
 
     def to_dict(self) -> dict:

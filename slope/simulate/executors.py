@@ -13,7 +13,7 @@ import warnings
 from ..errors import InputError
 
 __all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers",
-           "stop_workers"]
+           "stop_workers", "limit_threads"]
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
 # stored); joblib's advice about unused results is not for the user.
@@ -105,6 +105,38 @@ def _in_worker(parent, fn, *args):
 
 
 SCHEDULER_TIMEOUT_S = 5.0
+
+
+def limit_threads(n_jobs: int) -> int:
+    """Bound the compute threads of this process by the jobs a command was given.
+
+    ``--jobs N`` is the number of cores a command may use: its worker
+    processes run their compiled kernels on one thread each (joblib gives
+    each of N workers ``cores // N`` threads, and :func:`_run_shipped_block`
+    sets one), and this process -- which runs the deterministic search, the
+    single-variable analyses and, with ``--jobs 1``, the whole simulation --
+    uses at most ``N`` threads for numba's parallel kernels and the BLAS and
+    OpenMP pools loaded so far. Without it ``--jobs 1`` ran the kernels on
+    every core, so ``--jobs 2`` against ``--jobs 1`` measured two processes
+    against two threads. Results do not depend on the thread count.
+
+    Parameters
+    ----------
+    n_jobs : int
+        Jobs the command was given (>= 1).
+
+    Returns
+    -------
+    int
+        Threads now used by this process's parallel kernels.
+    """
+    import numba
+    from threadpoolctl import threadpool_limits
+
+    n = max(1, min(int(n_jobs), int(numba.config.NUMBA_NUM_THREADS)))
+    numba.set_num_threads(n)
+    threadpool_limits(n)  # BLAS/OpenMP pools already loaded (numpy's, scipy's)
+    return n
 
 
 def connect_scheduler(address: str, timeout: float = SCHEDULER_TIMEOUT_S, option: str = "scheduler"):
@@ -272,7 +304,7 @@ def _warm_dynamic_programming():
             np.zeros(1, np.bool_), np.zeros(2, np.bool_))
 
 
-def stop_workers() -> int:
+def stop_workers(*, wait: bool = True) -> int:
     """End the local worker pool at once, when the command has no more work for it.
 
     A command that is about to exit calls this after its outputs are
@@ -282,11 +314,23 @@ def stop_workers() -> int:
     second at the end of every run on 2 cores. Nothing of theirs is lost:
     results come back with each task, and the files they read are the
     command's (:func:`_ship`). Later calls start a new pool. Returns the
-    number of workers ended (0 without a pool).
+    number of workers ended (0 without a pool). ``wait=False``: a command that failed (e.g. its
+    case checks, which run while the pool warms up) ends the pool at once, without waiting for the
+    warm-up's kernels to compile; the warm-up then stops with its workers (it only saves time).
     """
     global _WARMING
-    _await_workers()  # never while the warm-up still has tasks on the pool
-    _WARMING = None
+    if wait:
+        _await_workers()  # never while the warm-up still has tasks on the pool
+    warming, _WARMING = _WARMING, None
+    ended = _end_pool()
+    while warming is not None and warming.is_alive():  # wait=False: its pool may start after the first kill
+        warming.join(timeout=0.1)
+        ended += _end_pool()
+    return ended
+
+
+def _end_pool() -> int:
+    """Kill and reap the workers of joblib's reusable executor; how many there were."""
     try:
         from joblib.externals.loky import reusable_executor
     except ImportError:  # pragma: no cover - joblib without loky: the normal exit ends the pool

@@ -11,7 +11,7 @@ import hashlib
 import matplotlib.image as mpimg
 
 from slipfield.slope.report.figures.catalogue import CATALOGUE
-from slipfield.slope.report.render import render_figures
+from slipfield.slope.report.render import _built_banks, render_figures
 
 
 def _digests(folder):
@@ -21,6 +21,8 @@ def _digests(folder):
 def test_parallel_figures_are_the_serial_files(tmp_path, demo_analysis):
     case, res, out, _ = demo_analysis("levee_soft_clay.toml")
     serial = out / "figures"
+    # the slice banks built in this process go with the results (the workers do not build them again)
+    assert {(h, run) for h, run, _ in _built_banks(res)} >= {(h, "spatial") for h in res.spatial if res.spatial[h]}
     drawn = render_figures(case, res, tmp_path / "figures", ("png", "svg"), n_jobs=2)
     parallel = _digests(tmp_path / "figures")
     assert parallel == _digests(serial)
