@@ -201,6 +201,8 @@ def kinematic_measure(n_bank=200, n_refined=20):
     st = RefineSettings(below=10.0, search="dynamic-programming")
     col = REFINE_REASONS.index(KINEMATIC_REASON)
     judge = mech._judge_kinematically
+    from slipfield.slope.search.upper_bound import warm_up
+    warm_up()   # the rule's kernels compiled or loaded before timing (the warm-up realisation may judge no path)
     out = {}
     for label, fn in (("without", lambda *a, **k: {}), ("with", judge)):
         mech._judge_kinematically = fn
