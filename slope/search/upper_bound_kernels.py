@@ -17,6 +17,27 @@ __all__ = ["_work", "_solve_f", "_least_g", "_least_f"]
 
 
 @njit(cache=True)
+def _jump(ex, ey, vx, vy, six, siy, mix, miy, ti):  # pragma: no cover - compiled
+    """Velocity triangle at an interface: v_i = a e_i and v_i - v_(i-1) = b g, g inclined at the
+    interface's reduced friction angle, in the sense of shear that needs the least jump;
+    returns (a, b, cos, sin) of that angle, a <= 0 where no sense is admissible."""
+    cg = 1.0 / np.sqrt(1.0 + ti * ti)
+    sg = ti * cg
+    best_a, best_b = -1.0, np.inf
+    for sgn in (1.0, -1.0):        # the sense of shear on the interface
+        gx = sgn * cg * six + sg * mix
+        gy = sgn * cg * siy + sg * miy
+        det = gx * ey - ex * gy
+        if abs(det) < 1e-14:
+            continue
+        a = (gx * vy - gy * vx) / det
+        b = (ex * vy - ey * vx) / det
+        if a > 0.0 and b >= -1e-12 and b < best_b:
+            best_a, best_b = a, max(b, 0.0)
+    return best_a, best_b, cg, sg
+
+
+@njit(cache=True)
 def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """Work of the loads (incl. pore water) and dissipation (undivided by F) at trial F; (ok, drive, diss)."""
     n = tb.shape[0]
@@ -34,20 +55,8 @@ def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: 
         se = tb_ * ce
         ex = ce * tb[i, 0] + se * nb[i, 0]
         ey = ce * tb[i, 1] + se * nb[i, 1]
-        ti = Ti[i - 1, k] / F
-        cg = 1.0 / np.sqrt(1.0 + ti * ti)
-        sg = ti * cg
-        best_a, best_b = -1.0, np.inf
-        for sgn in (1.0, -1.0):        # the sense of shear on the interface
-            gx = sgn * cg * si[i - 1, k, 0] + sg * mi[i - 1, k, 0]
-            gy = sgn * cg * si[i - 1, k, 1] + sg * mi[i - 1, k, 1]
-            det = gx * ey - ex * gy
-            if abs(det) < 1e-14:
-                continue
-            a = (gx * vy - gy * vx) / det      # v_i = a e_i,  v_i - v_(i-1) = b g
-            b = (ex * vy - ey * vx) / det
-            if a > 0.0 and b >= -1e-12 and b < best_b:
-                best_a, best_b = a, max(b, 0.0)
+        best_a, best_b, cg, sg = _jump(ex, ey, vx, vy, si[i - 1, k, 0], si[i - 1, k, 1], mi[i - 1, k, 0],
+                                       mi[i - 1, k, 1], Ti[i - 1, k] / F)
         if best_a <= 0.0:
             return False, 0.0, 0.0
         dvx, dvy = best_a * ex - vx, best_a * ey - vy
@@ -147,20 +156,8 @@ def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pr
         for k in range(K):
             if not ok[i - 1, k]:
                 continue
-            ti = Ti[i - 1, k] / F
-            cg = 1.0 / np.sqrt(1.0 + ti * ti)
-            sg = ti * cg
-            best_a, best_b = -1.0, np.inf
-            for sgn in (1.0, -1.0):        # the sense of shear on the interface
-                gx = sgn * cg * si[i - 1, k, 0] + sg * mi[i - 1, k, 0]
-                gy = sgn * cg * si[i - 1, k, 1] + sg * mi[i - 1, k, 1]
-                det = gx * ey - ex * gy
-                if abs(det) < 1e-14:
-                    continue
-                a = (gx * vy - gy * vx) / det      # v_i = a e_i,  v_i - v_(i-1) = b g
-                b = (ex * vy - ey * vx) / det
-                if a > 0.0 and b >= -1e-12 and b < best_b:
-                    best_a, best_b = a, max(b, 0.0)
+            best_a, best_b, cg, sg = _jump(ex, ey, vx, vy, si[i - 1, k, 0], si[i - 1, k, 1], mi[i - 1, k, 0],
+                                           mi[i - 1, k, 1], Ti[i - 1, k] / F)
             if best_a <= 0.0:
                 continue
             dvx, dvy = best_a * ex - vx, best_a * ey - vy
