@@ -131,7 +131,7 @@ def refine(section, start, *, n_vertices=8, method="spencer", hypothesis="draine
         return f
 
     p0 = np.zeros(len(scale))
-    f0 = objective(p0)
+    objective(p0)   # the start surface: sets best and rejects a start with no clean solution
     if not np.isfinite(best["fs"]):
         why = ", ".join(f"{k}" for k in sorted(trials_rejected)) or "no factor of safety"
         raise InputError(

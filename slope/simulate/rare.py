@@ -433,7 +433,6 @@ def subset_simulate(problem, settings: SubsetSettings, seed, *, n_jobs=1, batch=
         refine = RefineSettings(below=refine) if not isinstance(refine, dict) else RefineSettings(**refine)
     layout = NoiseLayout(problem)
     st = settings
-    N, nc, ns = st.samples_per_level, st.n_chains, st.chain_length
     ckpt = None
     if store is not None:
         ckpt = LevelStore(store, subset_store_identity(problem, seed, st, refine, store_identity))
