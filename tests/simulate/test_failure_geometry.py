@@ -22,6 +22,7 @@ from slipfield.slope.simulate.failure_geometry import (SURFACE_HEADER, failure_m
                                                        read_surface_columns, sliding_mass_geometry)
 from slipfield.slope.surfaces import Circle, Polyline
 
+from support.geometry import shoelace_and_depth
 from support.problems import gf_problem
 
 SEED, N = 5, 16
@@ -45,20 +46,6 @@ def _failed_by_search(r):
     return ks, paths
 
 
-def _shoelace_and_depth(section, xy):
-    """Area (m² per m) and greatest depth (m) between the ground and a polyline whose ends lie on the ground."""
-    g = section.ground
-    x0, x1 = xy[0, 0], xy[-1, 0]
-    assert section.ground_y(x0) == pytest.approx(xy[0, 1], abs=1e-9)
-    assert section.ground_y(x1) == pytest.approx(xy[-1, 1], abs=1e-9)
-    inner = g[(g[:, 0] > x0) & (g[:, 0] < x1)][::-1]       # the ground back from the far end
-    assert len(xy) + len(inner) < 20                           # fewer bends than slices (see the fixture)
-    poly = np.vstack([xy, inner])
-    x, y = poly[:, 0], poly[:, 1]
-    area = 0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(np.roll(x, -1), y))
-    xs = np.union1d(xy[:, 0], inner[:, 0])
-    depth = np.max(section.ground_y(xs) - np.interp(xs, xy[:, 0], xy[:, 1]))
-    return area, depth
 
 
 def test_area_and_depth_of_a_free_search_failure_are_those_of_the_searched_polyline(searched):
@@ -68,7 +55,7 @@ def test_area_and_depth_of_a_free_search_failure_are_those_of_the_searched_polyl
     assert np.all(gov.searched[ks]) and set(gov.family[ks]) == {"dynamic-programming (per realisation)"}
     moved = 0
     for k in ks:
-        area, depth = _shoelace_and_depth(p.section, paths[k])
+        area, depth = shoelace_and_depth(p.section, paths[k])
         assert gov.area[k] == pytest.approx(area, rel=1e-9)
         assert gov.depth[k] == pytest.approx(depth, rel=1e-9)
         np.testing.assert_allclose([gov.x_upslope[k], gov.x_downslope[k]],

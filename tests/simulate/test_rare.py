@@ -41,6 +41,8 @@ from slipfield.slope.simulate.rare import GivenNoise, NoiseLayout, SubsetSetting
 from slipfield.slope.strength import Material
 from slipfield.slope.surfaces import Polyline
 
+from support.geometry import interrupted_after_saves
+
 TAN_B = 0.5     # 2H:1V face
 Z = 1.5         # m, vertical depth of the plane
 LF = 30.0       # m, horizontal length of the face
@@ -186,24 +188,11 @@ def test_level_zero_is_monte_carlo_and_chains_are_reproducible(block):
 
 
 def test_interrupted_run_resumes_between_levels(block, tmp_path, monkeypatch):
-    from slipfield.slope.simulate import rare_store
-
     mean = _mean_for(block, 1e-3)
     st = SubsetSettings(0.1, 100)
     whole = subset_simulate(_problem(mean), st, seed=4, batch=50)
-    save = rare_store.LevelStore.save
-    calls = []
-
-    def stop_after_two(self, *a, **k):
-        save(self, *a, **k)
-        calls.append(1)
-        if len(calls) == 2:
-            raise KeyboardInterrupt
-
-    monkeypatch.setattr(rare_store.LevelStore, "save", stop_after_two)
-    with pytest.raises(KeyboardInterrupt):
+    with interrupted_after_saves(monkeypatch, 2):
         subset_simulate(_problem(mean), st, seed=4, batch=50, store=tmp_path / "s")
-    monkeypatch.setattr(rare_store.LevelStore, "save", save)
     again = subset_simulate(_problem(mean), st, seed=4, batch=50, store=tmp_path / "s", resume=True)
     assert again.levels == whole.levels and again.pf == whole.pf and again.n_evaluations == whole.n_evaluations
     with pytest.raises(InputError, match="seed differs"):

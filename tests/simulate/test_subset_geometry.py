@@ -26,6 +26,7 @@ from slipfield.slope.simulate.driver import SEARCHED_VERTICES, _run_block
 from slipfield.slope.simulate.failure_geometry import sliding_mass_geometry
 from slipfield.slope.simulate.rare import GivenNoise, NoiseLayout, SubsetSettings, subset_simulate
 
+from support.geometry import interrupted_after_saves, shoelace_and_depth
 from support.problems import gf_problem
 
 SEED = 5
@@ -51,20 +52,6 @@ def run():
     return subset_simulate(_problem(), SETTINGS, SEED, refine=_search(), batch=16)
 
 
-def _shoelace_and_depth(section, xy):
-    """Area (m² per m) and greatest depth (m) between the ground and a polyline whose ends lie on the ground."""
-    g = section.ground
-    x0, x1 = xy[0, 0], xy[-1, 0]
-    assert section.ground_y(x0) == pytest.approx(xy[0, 1], abs=1e-9)
-    assert section.ground_y(x1) == pytest.approx(xy[-1, 1], abs=1e-9)
-    inner = g[(g[:, 0] > x0) & (g[:, 0] < x1)][::-1]       # the ground back from the far end
-    assert len(xy) + len(inner) < 20                           # fewer bends than slices
-    poly = np.vstack([xy, inner])
-    x, y = poly[:, 0], poly[:, 1]
-    area = 0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(np.roll(x, -1), y))
-    xs = np.union1d(xy[:, 0], inner[:, 0])
-    depth = np.max(section.ground_y(xs) - np.interp(xs, xy[:, 0], xy[:, 1]))
-    return area, depth
 
 
 def test_failures_on_searched_paths_report_the_paths_geometry(run):
@@ -76,7 +63,7 @@ def test_failures_on_searched_paths_report_the_paths_geometry(run):
     assert np.all(gov.searched[list(found)]) and set(gov.family[list(found)]) == {FAMILY}
     moved = 0
     for i, xy in found.items():
-        area, depth = _shoelace_and_depth(p.section, xy)
+        area, depth = shoelace_and_depth(p.section, xy)
         assert gov.area[i] == pytest.approx(area, rel=1e-9)
         assert gov.depth[i] == pytest.approx(depth, rel=1e-9)
         np.testing.assert_array_equal(gov.xy(i), xy)
@@ -163,21 +150,8 @@ def test_same_failures_and_paths_with_two_jobs_and_another_batch(run):
 
 
 def test_resume_from_a_checkpoint_gives_the_same_failures_and_paths(run, tmp_path, monkeypatch):
-    from slipfield.slope.simulate import rare_store
-
-    save = rare_store.LevelStore.save
-    calls = []
-
-    def stop_after_two(self, *a, **k):
-        save(self, *a, **k)
-        calls.append(1)
-        if len(calls) == 2:
-            raise KeyboardInterrupt
-
-    monkeypatch.setattr(rare_store.LevelStore, "save", stop_after_two)
-    with pytest.raises(KeyboardInterrupt):
+    with interrupted_after_saves(monkeypatch, 2):
         subset_simulate(_problem(), SETTINGS, SEED, refine=_search(), batch=16, store=tmp_path / "s")
-    monkeypatch.setattr(rare_store.LevelStore, "save", save)
     held = json.loads((tmp_path / "s" / "levels.json").read_text())
     with np.load(tmp_path / "s" / held["seeds_file"]) as z:
         assert z["surface_geometry"].size > 0          # the checkpoint's seeds carry searched paths
