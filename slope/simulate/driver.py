@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import math
-import os
 import warnings
 from dataclasses import dataclass, field
 
@@ -263,27 +262,17 @@ class SimulationResult:
         -------
         ndarray (len(x_edges)-1, len(y_edges)-1)
         """
-        from .failure_geometry import slice_searched
+        from .failure_geometry import failure_cells
 
         if self.problem is None:
             raise InputError("failure_map needs the result of simulate() (problem attached)")
-        xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
-        out = np.zeros((xe.size - 1, ye.size - 1))
         failed = np.isfinite(self.fs) & (self.fs < 1.0)
         searched = self.searched_surfaces()
         own = [k for k in sorted(searched) if failed[k]]
         failed[own] = False
-        banks = [(self.problem.bank, *np.unique(self.critical_index[failed], return_counts=True))]
-        if own:
-            banks.append((slice_searched(self.problem, [searched[k] for k in own]), np.arange(len(own)),
-                          np.ones(len(own), int)))
-        for bank, idx, counts in banks:
-            for j, cnt in zip(idx, counts):
-                # slice positions are in the sliding frame (x' = direction * x):
-                # back to the section frame, or the map is mirrored for slopes facing -x
-                h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
-                out += (h > 0) * cnt
-        return out / max(self.n, 1)
+        counts = failure_cells(self.problem, self.critical_index[failed], [searched[k] for k in own],
+                               np.asarray(x_edges, float), np.asarray(y_edges, float))
+        return counts / max(self.n, 1)
 
 
 def _reduce(problem, fs, conv, adm):

@@ -27,7 +27,7 @@ import numpy as np
 from ..errors import InputError
 from ..surfaces import Circle, Polyline
 
-__all__ = ["sliding_mass_geometry", "surface_ends", "surface_xy", "GoverningSurfaces", "governing_surfaces",
+__all__ = ["failure_cells", "sliding_mass_geometry", "surface_ends", "surface_xy", "GoverningSurfaces", "governing_surfaces",
            "governing_families", "gather_governing",
            "SURFACE_HEADER", "surface_columns", "read_surface_columns", "SurfaceGroup", "FailureMap", "failure_map",
            "slice_searched", "measure", "GEOMETRY_DTYPE", "VERTEX_DTYPE", "vertex_rows"]
@@ -183,6 +183,41 @@ def slice_searched(problem, vertices):
     from ..bank import build_bank
 
     return build_bank(problem.section, [Polyline(xy) for xy in vertices], problem.n_slices)
+
+
+def failure_cells(problem, bank_index, searched, x_edges, y_edges) -> np.ndarray:
+    """How many failures pass through each cell of a grid (a cell counts once per failure).
+
+    A failure passes through a cell when a slice-base midpoint of its
+    governing surface lies in it.
+
+    Parameters
+    ----------
+    problem : RandomProblem
+    bank_index : array_like of int
+        Bank surface of each failure that a bank surface governs.
+    searched : list of ndarray (m, 2)
+        Vertices (section frame, m) of each failure's own searched polyline,
+        sliced as :func:`slice_searched` measures it.
+    x_edges, y_edges : ndarray, m
+        Cell edges (section frame).
+
+    Returns
+    -------
+    ndarray (len(x_edges)-1, len(y_edges)-1)
+        Counts (divide by the number of samples for a density).
+    """
+    out = np.zeros((x_edges.size - 1, y_edges.size - 1))
+    groups = [(problem.bank, *np.unique(np.asarray(bank_index, int), return_counts=True))]
+    if len(searched):
+        groups.append((slice_searched(problem, searched), np.arange(len(searched)), np.ones(len(searched), int)))
+    for bank, idx, counts in groups:
+        for j, cnt in zip(idx, counts):
+            # slice positions are in the sliding frame (x' = direction * x): back to the section frame, or
+            # the map is mirrored for slopes facing -x
+            h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[x_edges, y_edges])
+            out += (h > 0) * cnt
+    return out
 
 
 def governing_surfaces(result, which=None) -> GoverningSurfaces:

@@ -187,25 +187,14 @@ class SubsetResult:
         -------
         ndarray (len(x_edges)-1, len(y_edges)-1)
         """
-        from .failure_geometry import slice_searched
+        from .failure_geometry import failure_cells
 
-        xe, ye = np.asarray(x_edges, float), np.asarray(y_edges, float)
-        out = np.zeros((xe.size - 1, ye.size - 1))
         crit = self.failures["crit"]
         found = _searched(self.failures)
         on_bank = (crit >= 0) & ~np.isin(np.arange(crit.size), list(found))
-        banks = [(self.problem.bank, *np.unique(crit[on_bank], return_counts=True))]
-        if found:
-            own = sorted(found)
-            banks.append((slice_searched(self.problem, [found[k] for k in own]), np.arange(len(own)),
-                          np.ones(len(own), int)))
-        for bank, idx, cnt in banks:
-            for j, c in zip(idx, cnt):
-                # slice positions are in the sliding frame (x' = direction * x): back to the section frame, or
-                # the map is mirrored for slopes facing -x (as SimulationResult.failure_map since issue 11)
-                h, _, _ = np.histogram2d(bank.direction[j] * bank.x_mid[j], bank.y_base[j], bins=[xe, ye])
-                out += (h > 0) * c
-        return out / max(crit.size, 1)
+        counts = failure_cells(self.problem, crit[on_bank], [found[k] for k in sorted(found)],
+                               np.asarray(x_edges, float), np.asarray(y_edges, float))
+        return counts / max(crit.size, 1)
 
     def typical_failure(self) -> int | None:
         """Position in ``failures`` of the most typical failure, or None.
