@@ -247,7 +247,7 @@ class Section:
         ye = self._e_y1 + self._e_slope * (x - self._e_x1)
         return np.where(crosses, ye, np.nan)
 
-    def column_lengths(self, x, lo, hi, moment: bool = False):
+    def column_lengths(self, x, lo, hi, moment: bool = False, *, edge_y=None):
         """Length of the vertical segment ``[lo, hi]`` at ``x`` inside each zone.
 
         Parameters
@@ -256,13 +256,16 @@ class Section:
             Abscissae and lower/upper elevations (``hi < lo`` gives zero).
         moment : bool
             Also return the first moment ``∫ y dy`` over the part in each zone.
+        edge_y : ndarray (P, E), optional
+            ``self._edge_y(x)`` when the caller already has it for these ``x``
+            (the same values: a caller reading several columns at one x computes them once).
 
         Returns
         -------
         length : ndarray (P, Z), m
         first_moment : ndarray (P, Z), m², only when ``moment`` is True.
         """
-        ye = self._edge_y(x)
+        ye = self._edge_y(x) if edge_y is None else edge_y
         lo = np.asarray(lo, dtype=float)[..., None]
         hi = np.maximum(np.asarray(hi, dtype=float)[..., None], lo)
         c = np.clip(ye, lo, hi)
@@ -272,9 +275,10 @@ class Section:
             return length
         return length, (0.5 * c * c) @ self._e_sign_zone
 
-    def zone_at(self, x, y) -> np.ndarray:
-        """Index of the zone containing each point (x, y), -1 where none."""
-        ye = self._edge_y(x)
+    def zone_at(self, x, y, *, edge_y=None) -> np.ndarray:
+        """Index of the zone containing each point (x, y), -1 where none (``edge_y`` as for
+        :meth:`column_lengths`)."""
+        ye = self._edge_y(x) if edge_y is None else edge_y
         above = np.where(np.isnan(ye), 0.0, (ye > np.asarray(y, dtype=float)[..., None]).astype(float))
         inside = above @ self._e_sign_zone  # 1 inside a CCW polygon, 0 outside
         idx = np.argmax(inside > 0.5, axis=-1)
