@@ -156,12 +156,12 @@ def zone_crossings_many(section, polys, x_lo, x_hi):
     a, b, za = x[line, j], x[line, j + 1], z[line, j]
     steps = np.array([int(np.ceil(np.log2((x[i, 1] - x[i, 0]) / (1e-9 * max(1.0, hi - lo))))) + 1
                       for i, (lo, hi) in enumerate(zip(x_lo, x_hi))])[line]
+    groups = [(polys[i], line == i) for i in np.unique(line)]    # the crossings of each line, fixed
     for step in range(int(steps.max())):
         m = 0.5 * (a + b)
         ym = np.empty_like(m)
-        for i in np.unique(line):
-            on = line == i
-            ym[on] = polys[i].y(m[on])
+        for poly, on in groups:
+            ym[on] = poly.y(m[on])
         same = section.zone_at(m, ym + eps) == za
         go = step < steps  # each line's own number of steps
         a, b = np.where(go & same, m, a), np.where(go & ~same, m, b)
