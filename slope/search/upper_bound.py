@@ -324,7 +324,8 @@ def _tops(section, xy, incl_deg):
 #: Geometry of mechanisms met before (strength-free: tops, weights, loads, lines' points and stresses),
 #: keyed by the section and the vertices (and the interfaces' inclinations): a start surface is judged
 #: again in every realisation that searches from it, with the same vertices and, at the first table,
-#: the same inclinations. Exact reuse of the same arrays, so results do not change.
+#: the same inclinations. Exact reuse of the same arrays, so results do not change. The line points
+#: kept here also keep where a realisation's fields are read on them (:class:`_LinePoints`).
 _GEOMETRY: dict = {}
 _GEOMETRY_MAX = 256
 
@@ -333,10 +334,11 @@ def _kept(key, section, build):
     """The value ``build()`` kept under ``key`` for ``section`` (built and kept when new)."""
     hit = _GEOMETRY.get(key)
     if hit is not None and hit[0] is section:
+        _GEOMETRY[key] = _GEOMETRY.pop(key)     # the last used last: a start met again outlives the paths
         return hit[1]
     value = build()
     if len(_GEOMETRY) >= _GEOMETRY_MAX:
-        _GEOMETRY.pop(next(iter(_GEOMETRY)))    # the oldest first
+        _GEOMETRY.pop(next(iter(_GEOMETRY)))    # the least recently used first
     _GEOMETRY[key] = (section, value)
     return value
 
