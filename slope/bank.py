@@ -156,12 +156,12 @@ def zone_crossings_many(section, polys, x_lo, x_hi):
     a, b, za = x[line, j], x[line, j + 1], z[line, j]
     steps = np.array([int(np.ceil(np.log2((x[i, 1] - x[i, 0]) / (1e-9 * max(1.0, hi - lo))))) + 1
                       for i, (lo, hi) in enumerate(zip(x_lo, x_hi))])[line]
+    groups = [(polys[i], line == i) for i in np.unique(line)]    # the crossings of each line, fixed
     for step in range(int(steps.max())):
         m = 0.5 * (a + b)
         ym = np.empty_like(m)
-        for i in np.unique(line):
-            on = line == i
-            ym[on] = polys[i].y(m[on])
+        for poly, on in groups:
+            ym[on] = poly.y(m[on])
         same = section.zone_at(m, ym + eps) == za
         go = step < steps  # each line's own number of steps
         a, b = np.where(go & same, m, a), np.where(go & ~same, m, b)
@@ -318,8 +318,9 @@ def _assemble(section, x1, x2, reason, kind, data, n, nq) -> SliceBank:
         ytop = section.ground_y(xm_sec)
         depth = ytop - ybase
         eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
-        zone_r = section.zone_at(xm_sec.ravel(), (ybase + eps).ravel()).reshape(xm.shape)
-        sig_soil = _column_weight(section, xm_sec, ybase, ytop)
+        ye = section._edge_y(xm_sec.ravel())    # the zones and the columns read the same edges
+        zone_r = section.zone_at(xm_sec.ravel(), (ybase + eps).ravel(), edge_y=ye).reshape(xm.shape)
+        sig_soil = _column_weight(section, xm_sec, ybase, ytop, edge_y=ye)
         sig_tot = sig_soil.copy()
         if loads is not None:
             sig_tot += loads.surcharge(xm_sec)
@@ -390,21 +391,25 @@ def _finish(out, zone, reason, dirn, kh, crack_force, crack_y, xc, yc, rad, sect
     )
 
 
-def _column_weight(section, x, lo, hi, moment=False):
-    """Soil weight per unit width (kPa) of the column [lo, hi] at x; optionally ∫γ y dy."""
+def _column_weight(section, x, lo, hi, moment=False, edge_y=None):
+    """Soil weight per unit width (kPa) of the column [lo, hi] at x; optionally ∫γ y dy.
+
+    ``edge_y``: ``section._edge_y`` of the raveled ``x`` when the caller has it.
+    """
     shp = np.shape(x)
     x, lo, hi = (np.broadcast_to(a, shp).ravel() for a in (x, lo, hi))
     mats = [section.materials[z.material] for z in section.zones]
     g_m = np.array([mt.unit_weight for mt in mats])
     g_s = np.array([mt.unit_weight_sat for mt in mats])
     water = section.water
+    ye = section._edge_y(x) if edge_y is None else edge_y   # once for both parts of the column
     if water is not None and water.phreatic is not None:
         yw = water.phreatic_y(x)
         split = np.clip(yw, lo, np.maximum(hi, lo))
-        r1 = section.column_lengths(x, split, hi, moment)  # moist, above the water
-        r2 = section.column_lengths(x, lo, split, moment)  # saturated
+        r1 = section.column_lengths(x, split, hi, moment, edge_y=ye)  # moist, above the water
+        r2 = section.column_lengths(x, lo, split, moment, edge_y=ye)  # saturated
     else:
-        r1 = section.column_lengths(x, lo, hi, moment)
+        r1 = section.column_lengths(x, lo, hi, moment, edge_y=ye)
         r2 = None
     if moment:
         w = r1[0] @ g_m + (r2[0] @ g_s if r2 is not None else 0.0)
@@ -603,11 +608,13 @@ def point_stresses(section, x, y):
     x, y = x.ravel(), y.ravel()
     ytop = section.ground_y(x)
     y = np.minimum(y, ytop)
-    zone, sig_tot, u = column_stresses(section, x, y, ytop, _column_weight(section, x, y, ytop))
+    ye = section._edge_y(x)    # the columns and the zones read the same edges at x
+    zone, sig_tot, u = column_stresses(section, x, y, ytop, _column_weight(section, x, y, ytop, edge_y=ye),
+                                       edge_y=ye)
     return zone.reshape(shp), (sig_tot - u).reshape(shp), u.reshape(shp)
 
 
-def column_stresses(section, x, y, ytop, sig_soil):
+def column_stresses(section, x, y, ytop, sig_soil, edge_y=None):
     """Zone, total vertical stress σv (kPa) and pore pressure u (kPa) at points under soil columns.
 
     Parameters
@@ -617,6 +624,8 @@ def column_stresses(section, x, y, ytop, sig_soil):
         Points and the ground elevation above each.
     sig_soil : ndarray (m,), kPa
         Weight of the soil column above each point per unit area.
+    edge_y : ndarray (m, E), optional
+        ``section._edge_y(x)`` when the caller has it.
 
     Returns
     -------
@@ -628,7 +637,7 @@ def column_stresses(section, x, y, ytop, sig_soil):
         Pore pressure of the case's water model (0 without water).
     """
     eps = 1e-7 * max(1.0, float(np.ptp(section.ground[:, 1])))
-    zone = section.zone_at(x, y + eps)
+    zone = section.zone_at(x, y + eps, edge_y=edge_y)
     sig_tot = sig_soil.copy()
     water, loads = section.water, section.loads
     if loads is not None:

@@ -243,11 +243,13 @@ class Section:
     def _edge_y(self, x):
         """Elevation of every edge at x: (P, E), NaN where the edge does not span x."""
         x = np.asarray(x, dtype=float)[..., None]
-        crosses = (x >= self._ex_lo) & (x < self._ex_hi)
-        ye = self._e_y1 + self._e_slope * (x - self._e_x1)
-        return np.where(crosses, ye, np.nan)
+        ye = x - self._e_x1
+        ye *= self._e_slope
+        ye += self._e_y1                 # y1 + slope (x - x1), in place (the same numbers)
+        ye[(x < self._ex_lo) | (x >= self._ex_hi)] = np.nan
+        return ye
 
-    def column_lengths(self, x, lo, hi, moment: bool = False):
+    def column_lengths(self, x, lo, hi, moment: bool = False, *, edge_y=None):
         """Length of the vertical segment ``[lo, hi]`` at ``x`` inside each zone.
 
         Parameters
@@ -256,26 +258,30 @@ class Section:
             Abscissae and lower/upper elevations (``hi < lo`` gives zero).
         moment : bool
             Also return the first moment ``∫ y dy`` over the part in each zone.
+        edge_y : ndarray (P, E), optional
+            ``self._edge_y(x)`` when the caller already has it for these ``x``
+            (the same values: a caller reading several columns at one x computes them once).
 
         Returns
         -------
         length : ndarray (P, Z), m
         first_moment : ndarray (P, Z), m², only when ``moment`` is True.
         """
-        ye = self._edge_y(x)
+        ye = self._edge_y(x) if edge_y is None else edge_y
         lo = np.asarray(lo, dtype=float)[..., None]
         hi = np.maximum(np.asarray(hi, dtype=float)[..., None], lo)
         c = np.clip(ye, lo, hi)
-        c = np.where(np.isnan(ye), 0.0, c)
+        np.copyto(c, 0.0, where=np.isnan(ye))
         length = c @ self._e_sign_zone
         if not moment:
             return length
         return length, (0.5 * c * c) @ self._e_sign_zone
 
-    def zone_at(self, x, y) -> np.ndarray:
-        """Index of the zone containing each point (x, y), -1 where none."""
-        ye = self._edge_y(x)
-        above = np.where(np.isnan(ye), 0.0, (ye > np.asarray(y, dtype=float)[..., None]).astype(float))
+    def zone_at(self, x, y, *, edge_y=None) -> np.ndarray:
+        """Index of the zone containing each point (x, y), -1 where none (``edge_y`` as for
+        :meth:`column_lengths`)."""
+        ye = self._edge_y(x) if edge_y is None else edge_y
+        above = (ye > np.asarray(y, dtype=float)[..., None]).astype(float)    # NaN (edge not over x): False
         inside = above @ self._e_sign_zone  # 1 inside a CCW polygon, 0 outside
         idx = np.argmax(inside > 0.5, axis=-1)
         return np.where(np.any(inside > 0.5, axis=-1), idx, -1)

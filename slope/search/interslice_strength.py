@@ -96,6 +96,9 @@ class _BoundaryPoints:
     """
 
     base_points_section_frame = SliceBank.base_points_section_frame
+    #: every base is one point, so its points along the base are all equal (a random field's overrides
+    #: read the grid there once: :func:`slope.simulate.refinement.realisation_overrides`)
+    zero_length = True
 
     def __init__(self, bank, x, y, zone, depth, sigma_v_eff):
         self.direction = bank.direction

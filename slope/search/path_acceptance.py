@@ -49,7 +49,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..surfaces import Circle
-from .upper_bound import KINEMATIC_REASON, mechanism_xy, upper_bound_fs
+from .upper_bound import KINEMATIC_REASON, Refinement, mechanism_xy
 
 __all__ = ["KINEMATIC_REASON", "UNSUPPORTED_REASON", "RULE_ID", "kinematic_reasons", "accepted_paths", "StartBound"]
 
@@ -70,24 +70,51 @@ UNSUPPORTED_REASON = "no rigid-block evaluation with a tension crack"
 
 
 class StartBound:
-    """Kinematic factor of safety of one start surface, kept per number of blocks."""
+    """Kinematic factor of safety of one start surface, kept per number of blocks (refined as far as
+    the paths judged against it needed, :class:`slope.search.upper_bound.Refinement`)."""
 
     def __init__(self, section, start, *, hypothesis, overrides=None):
         self.section, self.start, self.hypothesis, self.overrides = section, start, hypothesis, overrides
-        self._fs = {}
+        self._ref = {}
 
     def xy(self, n):
         if isinstance(self.start, Circle):
             return mechanism_xy(self.section, self.start, n)
         return np.asarray(self.start.points, float)
 
-    def fs(self, n) -> float:
+    def refinement(self, n) -> Refinement:
         if not isinstance(self.start, Circle):
             n = 0                      # a polyline is its own mechanism, whatever the path's count
-        if n not in self._fs:
-            self._fs[n] = upper_bound_fs(self.section, self.xy(n), hypothesis=self.hypothesis,
-                                         overrides=self.overrides).fs
-        return self._fs[n]
+        if n not in self._ref:
+            self._ref[n] = Refinement(self.section, self.xy(n), hypothesis=self.hypothesis,
+                                      overrides=self.overrides)
+        return self._ref[n]
+
+    def fs(self, n) -> float:
+        """The start's least F (fully refined) as a chain of ``n`` blocks (a circle) or of its own."""
+        r = self.refinement(n)
+        while not r.done:
+            r.step()
+        return r.fs
+
+
+def _as_critical(path: Refinement, start: Refinement) -> bool:
+    """F(path) <= F(start), both fully refined, F(path) finite: each refined only as far as the answer needs.
+
+    Refining never raises F, so the path is at least as critical once its F is not above a fully
+    refined start's, and less critical once a fully refined path's F is above the start's F so far.
+    """
+    while True:
+        if path.level == 0 or (path.fs > start.fs and not path.done):
+            path.step()           # the path may still come down to the start
+        elif path.done and not np.isfinite(path.fs):
+            return False          # no admissible mechanism through the path
+        elif path.fs <= start.fs:
+            if start.done:
+                return True
+            start.step()          # the start may still go below the path
+        else:
+            return False          # fully refined path above the start so far
 
 
 def kinematic_reasons(section, paths, start, *, hypothesis, overrides=None, bound: StartBound | None = None):
@@ -119,14 +146,11 @@ def kinematic_reasons(section, paths, start, *, hypothesis, overrides=None, boun
     out = []
     for p in paths:
         xy = np.asarray(p.points, float)
-        n = len(xy) - 1
-        fstart = bound.fs(n)
-        # refining the path's tables stops once it is at least as critical as its start (an infinite
-        # start: once it has a mechanism at all): finer
-        # tables never raise F, so the decision is the one the full refinement would give
-        fp = upper_bound_fs(section, xy, hypothesis=hypothesis, overrides=overrides,
-                            enough=fstart).fs
-        out.append("" if np.isfinite(fp) and fp <= fstart else KINEMATIC_REASON)
+        start_ref = bound.refinement(len(xy) - 1)
+        path = Refinement(section, xy, hypothesis=hypothesis, overrides=overrides)
+        # the path and its start are each refined only as far as the comparison needs: finer tables
+        # never raise F, so the decision is the one the full refinement of both would give
+        out.append("" if _as_critical(path, start_ref) else KINEMATIC_REASON)
     return out
 
 

@@ -60,7 +60,7 @@ from ..errors import InputError
 from ..strength import base_strength
 from .upper_bound_kernels import _least_f, _solve_f
 
-__all__ = ["BlockMechanism", "upper_bound_fs", "fixed_interfaces_fs", "mechanism_xy", "KINEMATIC_REASON", "warm_up"]
+__all__ = ["BlockMechanism", "Refinement", "upper_bound_fs", "fixed_interfaces_fs", "mechanism_xy", "KINEMATIC_REASON", "warm_up"]
 
 #: Reason under which a free path is not counted: its kinematic factor is above its start surface's.
 KINEMATIC_REASON = "less critical than its start surface as a mechanism of rigid blocks"
@@ -110,7 +110,13 @@ def mechanism_xy(section, surface, n_segments):
 class _LinePoints:
     """Quadrature points on lines, shaped as slice bases of zero length for the strength functions
     (as :class:`slope.search.interslice_strength._BoundaryPoints`): a random field's overrides read
-    the points themselves."""
+    the points themselves.
+
+    The points are kept with the lines' geometry (:data:`_GEOMETRY`), so the same object comes back
+    in every realisation that judges the same lines (a start's chords); ``reads_kept`` is where a
+    realisation's overrides keep what depends on the points only (their grid cells and weights, the
+    materials' values there: :func:`slope.simulate.refinement.realisation_overrides`), computed once.
+    """
 
     def __init__(self, section, x, y, zone, depth, sigma_v_eff):
         from ..slices import SliceBank
@@ -121,6 +127,8 @@ class _LinePoints:
         self.zone, self.depth, self.sigma_v_eff = zone, depth, sigma_v_eff
         self.zone_names, self.zone_materials = section.zone_names, section.zone_materials
         self._bpf = SliceBank.base_points_section_frame
+        self.reads_kept = {}
+        self.zero_length = True       # every base is one point: its points along the base are all equal
 
     def base_points_section_frame(self, n_per_base: int = 1):
         return self._bpf(self, n_per_base)
@@ -139,7 +147,10 @@ def _line_geometry(section, p0, p1):
     L = np.hypot(p1[..., 0] - p0[..., 0], p1[..., 1] - p0[..., 1])
     zone, sig_eff, u = point_stresses(section, x, y)
     depth = section.ground_y(x) - y
-    return w, x, y, L, zone, sig_eff, u, depth
+    flat = lambda v: np.ascontiguousarray(v, float).reshape(1, -1)   # noqa: E731 - points as bases
+    pts = _LinePoints(section, flat(x), flat(y), np.where(zone >= 0, zone, 0).reshape(1, -1), flat(depth),
+                      flat(sig_eff))
+    return w, x, y, L, zone, sig_eff, u, depth, pts
 
 
 def _line_terms(section, p0, p1, hypothesis, overrides, geometry=None):
@@ -147,10 +158,7 @@ def _line_terms(section, p0, p1, hypothesis, overrides, geometry=None):
 
     ``geometry`` is :func:`_line_geometry` of the same lines when already computed.
     """
-    w, x, y, L, zone, sig_eff, u, depth = _line_geometry(section, p0, p1) if geometry is None else geometry
-    flat = lambda v: np.ascontiguousarray(v, float).reshape(1, -1)   # noqa: E731 - points as bases
-    pts = _LinePoints(section, flat(x), flat(y), np.where(zone >= 0, zone, 0).reshape(1, -1), flat(depth),
-                      flat(sig_eff))
+    w, x, y, L, zone, sig_eff, u, depth, pts = _line_geometry(section, p0, p1) if geometry is None else geometry
     if callable(overrides):
         ov = overrides(pts)
     else:    # single numbers only: per-slice arrays belong to slice bases, not to these lines
@@ -186,7 +194,8 @@ def _pieces(a, b, brk):
     else:
         inner = np.zeros(a.shape + (0,))
     br = np.concatenate([a[..., None], np.clip(inner, a[..., None], b[..., None]), b[..., None]], axis=-1)
-    br = np.sort(br, axis=-1)
+    if not np.all(a <= b):   # else already in order: the window is sorted and clipped into [a, b]
+        br = np.sort(br, axis=-1)
     lo, hi = br[..., :-1], br[..., 1:]
     x = (lo[..., None] + (hi - lo)[..., None] * _GAUSS[0]).reshape(a.shape + (-1,))
     w = ((hi - lo)[..., None] * _GAUSS[1]).reshape(a.shape + (-1,))
@@ -225,18 +234,20 @@ def _right_of(section, xy, top, brk):
     g = section.ground[:, 0]
     wb = np.unique(np.r_[xy[:, 0], g[(g > xy[0, 0]) & (g < xn)]])
     xq, wq = _pieces(a, b, wb)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        yl = yb[..., None] + (xq - xb[..., None]) * np.where(xt != xb, (yt - yb) / (xt - xb), 0.0)[..., None]
-    ybase = np.interp(xq, xy[:, 0], xy[:, 1])
-    ygr = section.ground_y(xq)
-    lo = np.where(lean_right[..., None], ybase, yl)
-    hi = np.where(lean_right[..., None], yl, ygr)
     # the wedges are split at every breakpoint any of them holds, so most of their Gauss points lie on
     # pieces of zero width (weight exactly 0): the columns are weighed only where the weight is not
-    # zero, the rest count 0, the same sums as weighing them all
+    # zero, the rest count 0, the same sums as weighing them all (and the same numbers point by point)
     live = wq != 0.0
+    at = lambda v: np.broadcast_to(v[..., None], xq.shape)[live]   # noqa: E731 - per-wedge value at its points
+    x = xq[live]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        yl = at(np.broadcast_to(yb, xt.shape)) + (x - at(np.broadcast_to(xb, xt.shape))) * at(
+            np.where(xt != xb, (yt - yb) / (xt - xb), 0.0))
+    lean = at(lean_right)
+    lo = np.where(lean, np.interp(x, xy[:, 0], xy[:, 1]), yl)
+    hi = np.where(lean, yl, section.ground_y(x))
     cw = np.zeros(xq.shape)
-    cw[live] = _column_weight(section, xq[live], lo[live], hi[live])
+    cw[live] = _column_weight(section, x, lo, hi)
     W = (cw * wq).sum(-1)
     # whole columns from that end to the mass's right end: exact integrals between breakpoints, summed
     # from the right, plus the part of the piece the end falls in
@@ -246,11 +257,28 @@ def _right_of(section, xy, top, brk):
     j = np.clip(np.searchsorted(xs, b, side="right"), 1, len(xs) - 1)    # b lies in [xs[j-1], xs[j]]
     xq, wq = _pieces(b, xs[j], np.zeros(0))
     W = W + right[j] + (col(xq) * wq).sum(-1)
+    if not _kept((id(section), "ground loaded"), section, lambda: _ground_loaded(section)):
+        return W, np.zeros(W.shape), np.zeros(W.shape)     # the integrals of loads that are 0 everywhere
     xq, wq = _pieces(xt, np.broadcast_to(xn, xt.shape), allb)
     live = wq != 0.0
     fx, fy = np.zeros(xq.shape), np.zeros(xq.shape)
     fx[live], fy[live] = _surface_loads(section, xq[live])
     return W, (fx * wq).sum(-1), (fy * wq).sum(-1)
+
+
+def _ground_loaded(section) -> bool:
+    """Whether a strip load or ponded water (phreatic surface above the ground) loads the ground anywhere.
+
+    Both lines are straight between their vertices and level beyond them, so the water is above the
+    ground somewhere only if it is at one of their vertices.
+    """
+    loads, water = section.loads, section.water
+    if loads is not None and loads.strips:
+        return True
+    if water is None or water.phreatic is None:
+        return False
+    x = np.union1d(section.ground[:, 0], water.phreatic[:, 0])
+    return bool(np.any(water.phreatic_y(x) > section.ground_y(x)))
 
 
 def _columns_right(xy, allb, col):
@@ -296,7 +324,8 @@ def _tops(section, xy, incl_deg):
 #: Geometry of mechanisms met before (strength-free: tops, weights, loads, lines' points and stresses),
 #: keyed by the section and the vertices (and the interfaces' inclinations): a start surface is judged
 #: again in every realisation that searches from it, with the same vertices and, at the first table,
-#: the same inclinations. Exact reuse of the same arrays, so results do not change.
+#: the same inclinations. Exact reuse of the same arrays, so results do not change. The line points
+#: kept here also keep where a realisation's fields are read on them (:class:`_LinePoints`).
 _GEOMETRY: dict = {}
 _GEOMETRY_MAX = 256
 
@@ -305,10 +334,11 @@ def _kept(key, section, build):
     """The value ``build()`` kept under ``key`` for ``section`` (built and kept when new)."""
     hit = _GEOMETRY.get(key)
     if hit is not None and hit[0] is section:
+        _GEOMETRY[key] = _GEOMETRY.pop(key)     # the last used last: a start met again outlives the paths
         return hit[1]
     value = build()
     if len(_GEOMETRY) >= _GEOMETRY_MAX:
-        _GEOMETRY.pop(next(iter(_GEOMETRY)))    # the oldest first
+        _GEOMETRY.pop(next(iter(_GEOMETRY)))    # the least recently used first
     _GEOMETRY[key] = (section, value)
     return value
 
@@ -406,36 +436,72 @@ def upper_bound_fs(section, xy, *, hypothesis="drained", overrides=None, enough=
     InputError
         A section with a tension crack (not modelled), or fewer than two vertices.
     """
-    xy, d, kh, brk, tb, nb, Cb, Tb, Ub, Ftot = _setup(section, xy, hypothesis, overrides)
-    seg = np.diff(xy, axis=0)
-    Lb = np.hypot(seg[:, 0], seg[:, 1])
-    n = len(Lb)
-    if n == 1:
-        F = _solve_f(np.zeros(0, np.int64), 1.0, tb, nb, Cb, Tb, Ub, Ftot, np.zeros((0, 1, 2)), np.zeros((0, 1, 2)),
-                     np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1, 2)))
-        return _result(section, F, xy, np.zeros(0))
-    # tables of inclinations: the first spans ±60° from the vertical; each next one is finer, about
-    # the previous optimum. Every table is searched exactly (_least_g), so F never rises from one to
-    # the next (the previous optimum is in the next table).
-    # the first table also holds, at every vertex, inclinations about the normal to the mean direction
-    # of its two bases (the radii, for chords of a circle: the rigid rotation's own jumps), which a
-    # coarse table of absolute inclinations cannot hold for close vertices without crossing
-    beta = np.degrees(np.arctan2(seg[:, 1], seg[:, 0]))
-    normal = -0.5 * (beta[:-1] + beta[1:])
-    F, centre = np.inf, np.zeros(n - 1)
-    for level, table in enumerate(_TABLES):
-        incl = centre[:, None] + table[None, :]
-        if level == 0:
-            incl = np.concatenate([incl, normal[:, None] + _NORMAL_TABLE[None, :]], axis=1)
+    r = Refinement(section, xy, hypothesis=hypothesis, overrides=overrides)
+    while not r.done and not (r.level and enough is not None and r.fs <= enough):
+        r.step()
+    return r.result()
+
+
+class Refinement:
+    """The least upper bound of one polyline, refined one table of inclinations at a time.
+
+    The tables: the first spans ±60° from the vertical; each next one is finer, about the previous
+    optimum. Every table is searched exactly (``_least_f``), so ``fs`` never rises from one to the
+    next (the previous optimum is in the next table). The first table also holds, at every vertex,
+    inclinations about the normal to the mean direction of its two bases (the radii, for chords of a
+    circle: the rigid rotation's own jumps), which a coarse table of absolute inclinations cannot hold
+    for close vertices without crossing. :func:`upper_bound_fs` steps until ``done``; a caller that
+    only compares two surfaces (:mod:`slope.search.path_acceptance`) steps each as far as the
+    comparison needs.
+
+    Attributes
+    ----------
+    fs : float
+        F after the tables searched so far (-): inf before the first, non-increasing.
+    done : bool
+        No table left, or the last one did not lower F (``fs`` is then that of
+        :func:`upper_bound_fs`).
+    """
+
+    def __init__(self, section, xy, *, hypothesis="drained", overrides=None):
+        self.section, self.hypothesis, self.overrides = section, hypothesis, overrides
+        (self.xy, self.d, self.kh, self.brk, self.tb, self.nb, self.Cb, self.Tb, self.Ub,
+         self.Ftot) = _setup(section, xy, hypothesis, overrides)
+        seg = np.diff(self.xy, axis=0)
+        n = len(seg)
+        self.fs, self.centre, self.level, self.done = np.inf, np.zeros(n - 1), 0, False
+        if n == 1:
+            self.fs = float(_solve_f(np.zeros(0, np.int64), 1.0, self.tb, self.nb, self.Cb, self.Tb, self.Ub,
+                                     self.Ftot, np.zeros((0, 1, 2)), np.zeros((0, 1, 2)), np.zeros((0, 1)),
+                                     np.zeros((0, 1)), np.zeros((0, 1)), np.zeros((0, 1, 2))))
+            self.done = True
+            return
+        beta = np.degrees(np.arctan2(seg[:, 1], seg[:, 0]))
+        self._normal = -0.5 * (beta[:-1] + beta[1:])
+
+    def step(self):
+        """Search the next table (nothing when ``done``)."""
+        if self.done:
+            return
+        table, n1 = _TABLES[self.level], len(self.centre)
+        incl = self.centre[:, None] + table[None, :]
+        if self.level == 0:
+            incl = np.concatenate([incl, self._normal[:, None] + _NORMAL_TABLE[None, :]], axis=1)
         incl = np.clip(incl, -_STEEPEST, _STEEPEST)
-        ok, xt, tabs = _interface_tables(section, xy, incl, hypothesis, overrides, brk, kh, d)
-        Fk, idx = _least_f(F if np.isfinite(F) else 1e3, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, *tabs)
+        ok, xt, tabs = _interface_tables(self.section, self.xy, incl, self.hypothesis, self.overrides, self.brk,
+                                         self.kh, self.d)
+        F = self.fs
+        Fk, idx = _least_f(F if np.isfinite(F) else 1e3, xt, ok, self.tb, self.nb, self.Cb, self.Tb, self.Ub,
+                           self.Ftot, *tabs)
+        self.level += 1
         if not (np.isfinite(Fk) and Fk <= F):
-            break
-        F, centre = Fk, incl[np.arange(n - 1), idx]
-        if enough is not None and F <= enough:
-            break
-    return _result(section, F, xy, centre)
+            self.done = True
+            return
+        self.fs, self.centre = Fk, incl[np.arange(n1), idx]
+        self.done = self.level == len(_TABLES)
+
+    def result(self) -> BlockMechanism:
+        return _result(self.section, self.fs, self.xy, self.centre)
 
 
 def _interface_tables(section, xy, incl, hypothesis, overrides, brk, kh, d):

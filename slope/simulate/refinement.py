@@ -258,7 +258,10 @@ def realisation_overrides(problem, seed, k, section=None, values=None, n_per_bas
     mats = (problem.section if section is None else section).materials
 
     def overrides(bank):
-        where = _where_bases_read(bank, grid, npb, kept)
+        # bases of zero length (points on lines, slope.search.upper_bound) have npb equal points: their
+        # cells are read at one and the value repeated npb times before the mean (the same numbers)
+        same = getattr(bank, "zero_length", False)
+        where = _where_bases_read(bank, grid, 1 if same else npb, kept)
         zone = where["zone"]
         per_key = {p.key: np.full(zone.shape, np.nan) for p in problem.properties}
         for (i, z), v in values.items():
@@ -270,8 +273,8 @@ def realisation_overrides(problem, seed, k, section=None, values=None, n_per_bas
                 per_key[p.key][mask] = float(v.ravel()[0])
             else:
                 # engine.bilinear with the kept cells and weights (the same operations, the same bits)
-                per_key[p.key][mask] = (np.asarray(v).reshape(v.shape[0], -1)[:, cells] * w).sum(axis=-1)[0].mean(
-                    axis=-1)
+                at = (np.asarray(v).reshape(v.shape[0], -1)[:, cells] * w).sum(axis=-1)
+                per_key[p.key][mask] = (np.repeat(at, npb, axis=-1) if same else at)[0].mean(axis=-1)
         # unit weights are in the section's materials, not strengths (skipped here)
         return strength_overrides(problem, per_key, lambda prop: _deterministic(where, bank, mats, prop))
 
@@ -279,14 +282,25 @@ def realisation_overrides(problem, seed, k, section=None, values=None, n_per_bas
 
 
 def _where_bases_read(bank, grid, npb, kept):
-    """The points of ``bank``'s bases and their zones, kept in ``kept`` for that bank object (or computed)."""
-    got = None if kept is None else kept.get(id(bank))
-    if got is not None and got["bank"] is bank:  # the dict holds the bank, so its id is not reused
+    """The points of ``bank``'s bases and their zones, kept in ``kept`` for that bank object (or computed).
+
+    Without ``kept``, a bank that offers its own dict (``reads_kept``: an object kept across
+    realisations, as the rigid-block rule's line points, :mod:`slope.search.upper_bound`) keeps them
+    there (without a reference back to itself).
+    """
+    own = kept is None and getattr(bank, "reads_kept", None) is not None
+    if own:
+        kept = bank.reads_kept
+    key = (grid, npb) if own else (id(bank), grid, npb)    # a grid is a value (frozen dataclass)
+    got = None if kept is None else kept.get(key)
+    if got is not None and (own or got["bank"] is bank):  # a caller's dict holds the bank: its id is not reused
         return got
     xb, yb = bank.base_points_section_frame(npb)
-    got = {"bank": bank, "zone": np.asarray(bank.zone), "xb": xb, "yb": yb}
+    got = {"zone": np.asarray(bank.zone), "xb": xb, "yb": yb}
     if kept is not None:
-        kept[id(bank)] = got
+        if not own:
+            got["bank"] = bank
+        kept[key] = got
     return got
 
 

@@ -132,3 +132,30 @@ def test_simulation_reports_refinement_rejections():
     d = b.to_dict()
     assert isinstance(d["refine_rejected"], dict)
     assert b.n_refined > 0 and sum(d["refine_rejected"].values()) > 0
+
+
+def test_line_points_read_the_fields_as_bases_of_zero_length():
+    # The rigid-block rule samples a realisation's fields at points on lines, passed as slice bases of
+    # zero length (slope.search.upper_bound._LinePoints). Those keep where they read the grid across
+    # realisations and read it at one point instead of averaging the averaging's equal points: the
+    # numbers must be those of the general mapping (test above: the simulator's) on the same points,
+    # realisation by realisation, whichever realisation read them first.
+    import copy
+
+    from slipfield.slope.search.upper_bound import _line_geometry
+
+    p, _ = gf_problem(5.0, 0.5)
+    sec = p.section
+    p0 = np.array([[5.0, -3.0], [12.0, -6.0], [20.0, -4.0]])
+    p1 = np.array([[12.0, -6.0], [20.0, -4.0], [26.0, 8.0]])
+    pts = _line_geometry(sec, p0, p1)[-1]
+    plain = copy.copy(pts)
+    plain.zero_length, plain.reads_kept = False, None        # the general path: 4 equal points averaged
+    seen = []
+    for k in (0, 7, 0):
+        fast, ref = realisation_overrides(p, 3, k)(pts)["su"], realisation_overrides(p, 3, k)(plain)["su"]
+        np.testing.assert_array_equal(fast, ref)
+        seen.append(fast)
+    assert pts.reads_kept                                     # kept after the first realisation
+    assert not np.array_equal(seen[0], seen[1])               # two realisations differ (else this says little)
+    np.testing.assert_array_equal(seen[0], seen[2])

@@ -159,3 +159,30 @@ def test_refinement_stops_once_enough_and_never_above_it():
         f = upper_bound_fs(sec, xy, hypothesis="drained", enough=enough).fs
         assert full <= f <= enough
     assert upper_bound_fs(sec, xy, hypothesis="drained", enough=0.5 * full).fs == full   # never reached
+
+
+def test_path_judged_as_far_as_needed_gives_the_full_comparison():
+    # The rigid-block rule (slope.search.path_acceptance) keeps a path when F_kin(path) <= F_kin(start),
+    # both the least over the full refinement of the tables. Judging refines each only as far as the
+    # answer needs (refining never raises F); the decision must be that of the definition, checked on
+    # a start circle and polylines bent about its chords both ways (some kept, some refused).
+    from slipfield.slope.search.path_acceptance import KINEMATIC_REASON, StartBound, kinematic_reasons
+    from slipfield.slope.search.upper_bound import mechanism_xy
+    from slipfield.slope.surfaces import Circle, Polyline
+
+    mat = Material("soil", unit_weight=19.0, c=8.0, phi=25.0)
+    sec = simple_slope(10.0, 2.0, 4.0, material=mat)             # toe (0, 0), crest (20, 10)
+    start = Circle(12.0, 22.0, 22.5)
+    chords = mechanism_xy(sec, start, 8)
+    bump = np.sin(np.linspace(0.0, np.pi, len(chords)))
+    paths = [Polyline(chords + np.c_[np.zeros(len(chords)), a * bump]) for a in (-2.0, -1.0, -0.3, 0.3, 1.0)]
+    bound = StartBound(sec, start, hypothesis="drained")
+    got = kinematic_reasons(sec, paths, start, hypothesis="drained", bound=bound)
+    f_start = upper_bound_fs(sec, chords, hypothesis="drained").fs
+    want = []
+    for p in paths:
+        f = upper_bound_fs(sec, np.asarray(p.points, float), hypothesis="drained").fs
+        want.append("" if np.isfinite(f) and f <= f_start else KINEMATIC_REASON)
+    assert got == want
+    assert "" in want and KINEMATIC_REASON in want      # both outcomes met (else the test says little)
+    assert bound.fs(8) == f_start                          # the start, refined on to the end, as alone
