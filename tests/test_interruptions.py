@@ -189,14 +189,45 @@ def test_a_scheduler_dying_mid_run_exits_2_keeps_blocks_and_resume_continues_loc
                                                       usecols=1))
 
 
-@linux
-def test_run_whose_case_checks_fail_ends_its_warming_pool_at_once(tmp_path, capsys):
-    # The pool starts before the case's checks (they run the search; the workers compile meanwhile): a
-    # case refused there must end with exit 2 and its message, nothing written, and no worker left.
+def _no_worker_left():
     from joblib.externals.loky import reusable_executor
 
     from slipfield.slope.simulate import executors
 
+    assert executors._WARMING is None
+    executor = getattr(reusable_executor, "_executor", None)
+    pids = [p.pid for p in (getattr(executor, "_processes", None) or {}).values()] if executor else []
+    assert not any(_alive(p) for p in pids)
+    workers = [p for p in _children(os.getpid()) if "LokyProcess" in Path(f"/proc/{p}/cmdline").read_text()]
+    assert not any(_alive(p) for p in workers)
+
+
+@linux
+def test_run_refused_before_its_checks_ends_the_pool_started_from_the_case_file(tmp_path, capsys, monkeypatch):
+    # `slipfield run` starts its pool from the file's simulation.jobs before reading the case (its
+    # imports take seconds): a case refused when it is read ends that pool too (exit 2, nothing written).
+    from slipfield.slope.simulate import executors
+
+    started = []
+    real_start = executors.start_workers
+    monkeypatch.setattr(executors, "start_workers", lambda n, **kw: (started.append(n), real_start(n, **kw)))
+    text = Path(SMALL).read_text()
+    bad = tmp_path / "bad.toml"
+    assert "[simulation]\nrealisations = 40" in text
+    bad.write_text(text.replace("[simulation]\nrealisations = 40",
+                                "[simulation]\njobs = 2\nrealisations = 40\nno_such_key = 1"))
+    out = tmp_path / "out"
+    assert main(["run", str(bad), "--out", str(out), "--quiet"]) == 2
+    assert "no_such_key" in capsys.readouterr().err
+    assert started == [2]  # the pool was started (from the file) before the case was refused
+    assert not out.exists()
+    _no_worker_left()
+
+
+@linux
+def test_run_whose_case_checks_fail_ends_its_warming_pool_at_once(tmp_path, capsys):
+    # The pool starts before the case's checks (they run the search; the workers compile meanwhile): a
+    # case refused there must end with exit 2 and its message, nothing written, and no worker left.
     text = Path(SMALL).read_text()
     bad = tmp_path / "bad.toml"
     # a normal marginal with cov 0.9 draws negative strengths by the thousand: refused by the checks
@@ -206,9 +237,4 @@ def test_run_whose_case_checks_fail_ends_its_warming_pool_at_once(tmp_path, caps
     assert main(["run", str(bad), "--out", str(out), "--jobs", "2", "--quiet"]) == 2
     assert "negative" in capsys.readouterr().err
     assert not out.exists()
-    assert executors._WARMING is None
-    executor = getattr(reusable_executor, "_executor", None)
-    pids = [p.pid for p in (getattr(executor, "_processes", None) or {}).values()] if executor else []
-    assert not any(_alive(p) for p in pids)
-    workers = [p for p in _children(os.getpid()) if "LokyProcess" in Path(f"/proc/{p}/cmdline").read_text()]
-    assert not any(_alive(p) for p in workers)
+    _no_worker_left()

@@ -33,8 +33,9 @@ import re
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 
+from typing import TYPE_CHECKING
+
 from markupsafe import Markup
-from matplotlib.figure import Figure
 
 from ..errors import InputError
 from ..files import atomic_write_bytes, atomic_write_text
@@ -43,12 +44,26 @@ from .templating import render_page
 
 from ..caution import CAUTION
 
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
 __all__ = ["CAUTION", "save_figure", "figure_png_bytes", "figure_svg_text", "write_report", "render_report"]
 
 
 # --------------------------------------------------------------------------- figures
+def _is_figure(obj) -> bool:
+    """Whether ``obj`` is a matplotlib Figure (matplotlib is imported only when a figure may be about)."""
+    import sys
+
+    if "matplotlib.figure" not in sys.modules:
+        return False  # no Figure can exist in a process that never imported matplotlib's figures
+    from matplotlib.figure import Figure
+
+    return isinstance(obj, Figure)
+
+
 def _check_figure(fig, where: str) -> Figure:
-    if not isinstance(fig, Figure):
+    if not _is_figure(fig):
         raise InputError(f"{where}: expected a matplotlib Figure, got {type(fig).__name__}.")
     return fig
 
@@ -143,7 +158,7 @@ def _figure_item(item, number: int, embed: str, dpi: int, where: str) -> dict:
         fig = item
     out = {"number": number, "caption": caption, "alt": alt or caption or f"Figure {number}", "src": None,
            "svg": None}
-    if isinstance(fig, Figure):
+    if _is_figure(fig):
         if embed == "svg":
             out["svg"] = Markup(_inline_svg(figure_svg_text(fig), where))
         else:

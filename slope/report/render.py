@@ -64,11 +64,11 @@ def render_figures(case, res, fig_dir, formats=("png",), *, n_jobs: int = 1) -> 
     formats = tuple(formats)
     if int(n_jobs) <= 1:
         return [d for i in range(len(CATALOGUE)) for d in render_entry(case, res, i, fig_dir, formats)]
-    from ..simulate.executors import _ship, _unship, run_tasks
+    from ..simulate.executors import _unship, run_tasks
 
     order = sorted(range(len(CATALOGUE)),
                    key=lambda i: (_FIRST.index(CATALOGUE[i].name) if CATALOGUE[i].name in _FIRST else len(_FIRST), i))
-    path = _ship((case, res, _built_banks(res)))
+    path = _ship_for_figures((case, res, _built_banks(res)))
     try:
         done = dict(zip(order, run_tasks(_render_in_worker, [(path, i, str(fig_dir), formats) for i in order],
                                          n_jobs=int(n_jobs))))
@@ -102,6 +102,50 @@ def _restore_banks(res, banks) -> None:
     for h, run, prob in _problems(res):
         if getattr(prob, "_bank", None) is None and (h, run) in held:
             prob._bank = held[(h, run)]
+
+
+#: What the simulation alone reads, left out of what the figure workers get: a problem's stencil and
+#: strength map (with the problem's slice terms, 10-15 MB each on the levee demo) and the case's kept
+#: searches (``case.extras["trial_surfaces"]``, 12 MB). No figure reads them (the fields are drawn from the
+#: problem's generators and field boxes, the surfaces from its bank); the file was 46 MB with them, 8 MB
+#: without, read by every worker.
+_NOT_FOR_FIGURES = {"problem": ("_stencil", "_strength_map", "_terms"), "case": ("trial_surfaces",)}
+
+
+def _bare(cls):
+    """An instance of ``cls`` without ``__init__``: its state follows (unpickling a slimmed object)."""
+    return cls.__new__(cls)
+
+
+class _FigurePickler(pickle.Pickler):
+    """Pickles a run's case and results for the figure workers without :data:`_NOT_FOR_FIGURES`.
+
+    Only the pickled copies leave them out (the caches stay on this process's objects); an object
+    referenced from several places is still written once (the pickler's memo comes first).
+    """
+
+    def reducer_override(self, obj):
+        from ..case.build import Case
+        from ..simulate.problem import RandomProblem
+
+        if type(obj) is RandomProblem:
+            state = dict(obj.__dict__)
+            for k in _NOT_FOR_FIGURES["problem"]:
+                if k in state:
+                    state[k] = None  # the attributes stay (read as "not built yet")
+            return _bare, (RandomProblem,), state
+        if type(obj) is Case and any(k in obj.extras for k in _NOT_FOR_FIGURES["case"]):
+            state = dict(obj.__dict__)
+            state["extras"] = {k: v for k, v in obj.extras.items() if k not in _NOT_FOR_FIGURES["case"]}
+            return _bare, (Case,), state
+        return NotImplemented
+
+
+def _ship_for_figures(payload):
+    """:func:`slope.simulate.executors._ship` of the figures' (case, results, banks), slimmed."""
+    from ..simulate.executors import _ship
+
+    return _ship(payload, pickler=_FigurePickler)
 
 
 _LOADED: tuple = (None, None)  # in a worker: (file, (case, results)) read once per run

@@ -216,6 +216,7 @@ def _watch_parent(parent: int, period: float = 0.5) -> None:
 
 # ---------------------------------------------------------------- local pool: start and problem file
 _WARMING = None  # the thread starting the worker pool ahead of the first simulation
+_WARM_JOBS = 0  # its number of workers
 
 
 def start_workers(n_jobs, methods=()):
@@ -232,11 +233,15 @@ def start_workers(n_jobs, methods=()):
     then load it: splitting the list between workers was measured slower on
     an empty cache (59.6 s against 50.0 s for the levee demo, 92 s against
     77 s of CPU), because kernels sharing compiled callees then compile them
-    in several processes at once.
+    in several processes at once. A second call with the same ``n_jobs`` does nothing; with
+    another, the first pool is ended and a pool of ``n_jobs`` started.
     """
-    global _WARMING
-    if int(n_jobs) < 2 or _WARMING is not None:
+    global _WARMING, _WARM_JOBS
+    if int(n_jobs) < 2 or (_WARMING is not None and _WARM_JOBS == int(n_jobs)):
         return
+    if _WARMING is not None:  # started for another number of workers: that pool goes
+        stop_workers(wait=False)
+    _WARM_JOBS = int(n_jobs)
     import threading
 
     def warm():
@@ -348,8 +353,12 @@ def _end_pool() -> int:
     return len(workers)
 
 
-def _ship(problem):
-    """Write the prepared problem to a private temporary file; its path identifies it."""
+def _ship(problem, *, pickler=None):
+    """Write the prepared problem to a private temporary file; its path identifies it.
+
+    ``pickler``: a :class:`pickle.Pickler` subclass writing it (e.g. one leaving out what the
+    reader does not need); ``pickle.load`` reads the file either way.
+    """
     import pickle
     import tempfile
 
@@ -357,7 +366,7 @@ def _ship(problem):
     folder = tempfile.mkdtemp(prefix=f"slipfield-problem-{os.getpid()}-")
     path = os.path.join(folder, "problem.pickle")
     with open(path, "wb") as fh:
-        pickle.dump(problem, fh, protocol=pickle.HIGHEST_PROTOCOL)
+        (pickler or pickle.Pickler)(fh, protocol=pickle.HIGHEST_PROTOCOL).dump(problem)
     return path
 
 

@@ -34,3 +34,33 @@ def test_parallel_figures_are_the_serial_files(tmp_path, demo_analysis):
     # the report's items come back in catalogue order (whichever worker finished first)
     entry_of = {e.group: k for k, e in enumerate(CATALOGUE)}
     assert [entry_of[d.group] for d in drawn] == sorted(entry_of[d.group] for d in drawn)
+
+
+def test_figure_workers_get_the_results_without_the_simulation_caches(demo_analysis):
+    # What the workers read leaves out the problems' stencils and strength maps and the case's kept
+    # searches (no figure reads them; the file was 46 MB with them on the levee demo); this process's
+    # objects keep theirs. The files drawn from it are the serial ones (test above).
+    import pickle
+
+    from slipfield.slope.report.render import _problems, _ship_for_figures
+    from slipfield.slope.simulate.executors import _unship
+
+    case, res, _, _ = demo_analysis("levee_soft_clay.toml")
+    here = [p for _, _, p in _problems(res)]
+    assert here and all(p._stencil is not None and p.__dict__.get("_strength_map") is not None for p in here)
+    assert "trial_surfaces" in case.extras
+    path = _ship_for_figures((case, res, _built_banks(res)))
+    try:
+        with open(path, "rb") as fh:
+            case2, res2, banks = pickle.load(fh)
+    finally:
+        _unship(path)
+    shipped = [p for _, _, p in _problems(res2)]
+    assert len(shipped) == len(here)
+    assert all(p._stencil is None and p._terms is None and p.__dict__.get("_strength_map") is None for p in shipped)
+    assert all(p._bank is not None for p in shipped)  # the slice banks go along (drawn surfaces)
+    assert "trial_surfaces" not in case2.extras and case2.section.ground.tolist() == case.section.ground.tolist()
+    # one object referenced from several places is still one object
+    sp = res2.spatial["undrained"].spatial
+    assert sp.result.problem is sp.problem
+    assert here[0]._stencil is not None and "trial_surfaces" in case.extras  # this process's copies untouched

@@ -176,6 +176,7 @@ def test_report_failure_map_is_drawn_from_the_governing_surfaces(searched, monke
     from types import SimpleNamespace
 
     from slipfield.slope.report.figures import catalogue
+    from slipfield.slope.report.figures import failure as failure_figures
 
     p, r = searched
     ks, paths = _failed_by_search(r)
@@ -184,7 +185,8 @@ def test_report_failure_map_is_drawn_from_the_governing_surfaces(searched, monke
     run = SimpleNamespace(fs=r.fs, governing=gov, failed_area=gov.area[failed])
     res = SimpleNamespace(spatial={"undrained": SimpleNamespace(spatial=run)})
     got = {}
-    monkeypatch.setattr(catalogue, "plot_failure_map", lambda *a, **kw: got.update(kw) or "figure")
+    # the draw function imports its plotting function when called (no matplotlib in a command whose workers draw)
+    monkeypatch.setattr(failure_figures, "plot_failure_map", lambda *a, **kw: got.update(kw) or "figure")
     (drawn,) = catalogue._failure_map(SimpleNamespace(section=p.section), res)
     groups = {kind: (label, surfaces) for kind, label, surfaces in got["groups"]}
     assert set(groups) == {"bank", "search"} and got["n_failed"] == failed.size

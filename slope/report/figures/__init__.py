@@ -30,13 +30,19 @@ the simulator owns pf and its confidence interval; the figures show what
 they are given and, where they must compute (empirical CDF, fitted
 densities), they use the formulas stated in each docstring.
 """
-from .averaging import plot_variance_reduction, plot_variance_reduction_along_surface
-from .distributions import fit_fs_distributions, plot_fs_distribution, plot_pf_comparison, plot_pf_convergence
-from .failure import plot_failure_geometry, plot_failure_map
-from .fields import plot_field_realisation, plot_realisations
-from .section import plot_section
-from .sensitivity import plot_tornado
-from .sweep import plot_fs_vs_theta, plot_pf_vs_theta
+from slipfield.fields._lazy import lazy_exports
+
+# Loaded on first use: a run whose figures are drawn by its worker processes never imports
+# matplotlib in the command itself (about half a second of a warm run).
+_WHERE = {
+    "plot_variance_reduction": "averaging", "plot_variance_reduction_along_surface": "averaging",
+    "fit_fs_distributions": "distributions", "plot_fs_distribution": "distributions",
+    "plot_pf_comparison": "distributions", "plot_pf_convergence": "distributions",
+    "plot_failure_geometry": "failure", "plot_failure_map": "failure",
+    "plot_field_realisation": "fields", "plot_realisations": "fields",
+    "plot_section": "section", "plot_tornado": "sensitivity",
+    "plot_fs_vs_theta": "sweep", "plot_pf_vs_theta": "sweep",
+}
 
 __all__ = [
     "plot_section",
@@ -54,3 +60,5 @@ __all__ = [
     "plot_failure_geometry",
     "plot_realisations",
 ]
+
+__getattr__, __dir__ = lazy_exports(globals(), _WHERE)

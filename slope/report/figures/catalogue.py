@@ -15,14 +15,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..risk import plot_risk_chart
-from ..style import METHOD_LINESTYLES, hypothesis_colour
-from .averaging import plot_variance_reduction_along_surface
-from .distributions import plot_fs_distribution, plot_pf_comparison, plot_pf_convergence
-from .failure import plot_failure_geometry, plot_failure_map
-from .fields import plot_realisations
-from .section import plot_section
-from .sensitivity import plot_tornado
 
 __all__ = ["Drawn", "FigureEntry", "CATALOGUE", "SECTIONS", "draw_all"]
 
@@ -68,6 +60,9 @@ def _hyps(res, attr):
 
 # --------------------------------------------------------------------------- section
 def _section(case, res):
+    from ..style import METHOD_LINESTYLES, hypothesis_colour
+    from .section import plot_section
+
     sec = case.section
     zones = [{"name": z.name, "polygon_xy": z.polygon, "material": z.material} for z in sec.zones]
     water = sec.water
@@ -100,6 +95,8 @@ def _section(case, res):
 
 # --------------------------------------------------------------------------- single random variables
 def _fs_single(case, res):
+    from .distributions import plot_fs_distribution
+
     out = []
     for h, sv in _hyps(res, "single_variable"):
         for m in ("monte-carlo", "latin-hypercube"):
@@ -116,6 +113,8 @@ def _fs_single(case, res):
 
 
 def _tornado(case, res):
+    from .sensitivity import plot_tornado
+
     out = []
     for h, sv in _hyps(res, "single_variable"):
         tr = sv.tornado
@@ -128,6 +127,8 @@ def _tornado(case, res):
 
 # --------------------------------------------------------------------------- spatial simulation
 def _fs_spatial(case, res):
+    from .distributions import plot_fs_distribution
+
     out = []
     for h, sp in _hyps(res, "spatial"):
         fs = sp.spatial.fs
@@ -139,6 +140,7 @@ def _fs_spatial(case, res):
 
 
 def _convergence(case, res):
+    from .distributions import plot_pf_convergence
     from ...reliability.stats import convergence_history
 
     out = []
@@ -161,6 +163,9 @@ def _convergence(case, res):
 
 
 def _comparison(case, res):
+    from ..style import hypothesis_colour
+    from .distributions import plot_pf_comparison
+
     out = []
     for h, sp in _hyps(res, "spatial"):
         rows = [("spatial (θ as given)", sp.spatial.searched),
@@ -184,6 +189,8 @@ def _comparison(case, res):
 
 def _site_data(case, res):
     """pf with and without the site data, and where the data reduce the uncertainty (issue 16)."""
+    from ..style import hypothesis_colour
+    from .distributions import plot_pf_comparison
     from ...commands.site_effect import conditional_sd_figure
 
     out = []
@@ -257,6 +264,8 @@ def _physical(case, p, grid, values):
 
 
 def _fields(case, res):
+    from ..style import hypothesis_colour
+    from .fields import plot_realisations
     from ...case.analyses import surface_xy
     from ...simulate import realise_fields
 
@@ -286,6 +295,7 @@ def _fields(case, res):
 
 # --------------------------------------------------------------------------- averaging
 def _averaging(case, res):
+    from .averaging import plot_variance_reduction_along_surface
     from slipfield.fields import get_model, variance_function
 
     from ...case.build import theta_value
@@ -326,6 +336,7 @@ def _averaging(case, res):
 
 # --------------------------------------------------------------------------- failure
 def _failure_map(case, res):
+    from .failure import plot_failure_map
     from ...simulate.failure_geometry import failure_map
 
     sec = case.section
@@ -369,6 +380,8 @@ def _mechanisms(case, res):
 
 
 def _failure_geometry(case, res):
+    from .failure import plot_failure_geometry
+
     out = []
     for h, sp in _hyps(res, "spatial"):
         if sp.spatial.failed_area.size:
@@ -384,6 +397,8 @@ _MARKERS = {"spatial simulation": "o"}
 
 def risk_scenarios(res) -> list[dict]:
     """The risk chart's points as scenario dicts, in the order of ``res.risk["points"]`` (then the input)."""
+    from ..style import hypothesis_colour
+
     scen = []
     for p in res.risk["points"]:
         scen.append({"label": p.label, "consequence": p.consequence, "pf": p.pf,
@@ -398,6 +413,8 @@ def risk_scenarios(res) -> list[dict]:
 
 
 def _risk(case, res):
+    from ..risk import plot_risk_chart
+
     if res.risk is None:
         return []
     scen = risk_scenarios(res)
