@@ -386,6 +386,12 @@ def exit_now(code: int) -> None:
     import os
     import threading
 
+    executors = sys.modules.get("slipfield.slope.simulate.executors")
+    if executors is not None:
+        # a pool the command left running (simulate, subset, sweep...) is ended here: its idle workers
+        # are ended by loky's exit hook, which os._exit skips, and would otherwise live on until their
+        # idle timeout (5 minutes), holding the command's standard streams open
+        executors.stop_workers(wait=False)
     if any(t is not threading.main_thread() and not t.daemon and t.is_alive() for t in threading.enumerate()):
         sys.exit(code)
     atexit._run_exitfuncs()

@@ -7,6 +7,7 @@ written, and a working non-daemon thread waited for.
 import subprocess
 import sys
 import textwrap
+from pathlib import Path
 
 
 def _python(code):
@@ -39,3 +40,24 @@ def test_exit_now_waits_for_a_working_thread_as_a_normal_exit_does():
     """)
     assert r.returncode == 0
     assert "thread finished" in r.stdout
+
+
+
+def test_a_command_with_workers_closes_its_output_when_it_ends(tmp_path):
+    # multiprocessing's exit handler joins the pool's (non-daemon) workers, which only end when the
+    # pool is shut down -- by joblib's exit hook of the threading module, which os._exit skips. Unless
+    # exit_now ends the pool first, the command waits for their 5-minute idle timeout after its last
+    # line, holding its standard streams open. The timeout below only guards against that hang.
+    case = Path(__file__).resolve().parents[1] / "cases" / "levee_soft_clay.toml"   # invented demo
+    proc = subprocess.Popen([sys.executable, "-m", "slipfield.slope.cli", "simulate", str(case),
+                             "--realisations", "40", "--jobs", "2", "--refine-search", "off", "--quiet",
+                             "--out", str(tmp_path / "out")], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True)
+    try:
+        out, err = proc.communicate(timeout=200)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        proc.communicate()
+        raise AssertionError("the command's output stayed open: its worker pool outlived it")
+    assert proc.returncode == 0, err
+    assert "40 realisations" in out
