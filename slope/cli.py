@@ -63,14 +63,13 @@ def _run_pool_early(args) -> bool:
         n = section("simulation").get("jobs")
     if isinstance(n, bool) or not isinstance(n, int) or n < 2:
         return False
-    from .simulate.executors import start_workers
+    from .simulate.executors import start_workers, warm_up_order
 
     analysis = section("analysis")
-    search = analysis.get("method")
+    search = analysis.get("method") if isinstance(analysis.get("method"), str) else None
     methods = analysis.get("methods") if isinstance(analysis.get("methods"), list) else []
-    # as run_case's own start would order them (the search method's kernel last)
-    start_workers(n, methods=[m for m in methods + [search] if isinstance(m, str) and m != search]
-                  + ([search] if isinstance(search, str) else []))
+    # the case is not checked yet: names that are not text are left out (the warm-up ignores unknown ones)
+    start_workers(n, methods=warm_up_order([m for m in methods if isinstance(m, str)], search))
     return True
 
 

@@ -354,13 +354,11 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
 
     def ready(case, n_jobs):
         from ..simulate.driver import start_workers
+        from ..simulate.executors import warm_up_order
 
         pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
-        # The pool starts while the case's checks run the search, which compiles (first run) or loads the
-        # search method's kernel in this process: the workers take the other methods' kernels first
-        # instead of waiting behind that kernel's compile lock, and load it from the cache last.
-        search = case.analysis["method"]
-        start_workers(n_jobs, methods=[m for m in case.analysis["methods"] if m != search] + [search])
+        # the pool starts while the case's checks run the search (its kernel in this process)
+        start_workers(n_jobs, methods=warm_up_order(case.analysis["methods"], case.analysis["method"]))
 
     try:
         case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,

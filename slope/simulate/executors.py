@@ -12,7 +12,7 @@ import warnings
 
 from ..errors import InputError
 
-__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers",
+__all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers", "warm_up_order",
            "stop_workers", "limit_threads"]
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
@@ -217,6 +217,17 @@ def _watch_parent(parent: int, period: float = 0.5) -> None:
 # ---------------------------------------------------------------- local pool: start and problem file
 _WARMING = None  # the thread starting the worker pool ahead of the first simulation
 _WARM_JOBS = 0  # its number of workers
+
+
+def warm_up_order(methods, search):
+    """The methods whose kernels a pool warms, in the order it should: ``search`` (the method of the
+    case's search) last.
+
+    The command compiles (first run) or loads the search method's kernel itself while the pool warms
+    up, so the workers take the other methods' kernels first instead of waiting behind that kernel's
+    compile lock, and load it from the cache last. ``search`` None: the methods as given.
+    """
+    return [m for m in methods if m != search] + ([search] if search is not None else [])
 
 
 def start_workers(n_jobs, methods=()):
