@@ -33,6 +33,7 @@ from typing import Mapping
 import numpy as np
 
 from .errors import InputError
+from .tangent import tan_degrees
 
 __all__ = ["Material", "base_strength", "HYPOTHESES", "SU_MODELS"]
 
@@ -209,7 +210,7 @@ def base_strength(bank, materials: Mapping, hypothesis: str = "drained", overrid
 
     c = take("c", c)
     phi = take("phi", phi)
-    tan_phi = np.tan(np.radians(phi))
+    tan_phi = tan_degrees(phi)
 
     if np.any(undrained_zone):
         model = [m.su_model for m in mats]
