@@ -239,13 +239,15 @@ def start_workers(n_jobs, methods=()):
     run then uses the same pool (joblib's reusable executor). No effect for
     ``n_jobs`` 1. Results do not depend on it. ``methods``: methods of slices the
     command will call (the workers compile their kernels meanwhile, see
-    :mod:`slope.methods.compiled`). Every worker walks the same list, so a
-    kernel is compiled by one process while the others wait for its lock and
-    then load it: splitting the list between workers was measured slower on
-    an empty cache (59.6 s against 50.0 s for the levee demo, 92 s against
-    77 s of CPU), because kernels sharing compiled callees then compile them
-    in several processes at once. A second call with the same ``n_jobs`` does nothing; with
-    another, the first pool is ended and a pool of ``n_jobs`` started.
+    :mod:`slope.methods.compiled`). Every worker walks every step of
+    :func:`warm_up_steps`, worker k starting at step k: on an empty cache the
+    longest compilations (Morgenstern-Price, Spencer's λ scan, the simulator's
+    kernels) then run in different processes at once, and a worker reaching a
+    kernel another one is compiling waits for its lock and loads it. (Splitting
+    the methods' list between workers without that lock was measured slower:
+    kernels sharing compiled callees compiled them in several processes.) A
+    second call with the same ``n_jobs`` does nothing; with another, the first
+    pool is ended and a pool of ``n_jobs`` started.
     """
     global _WARMING, _WARM_JOBS
     if int(n_jobs) < 2 or (_WARMING is not None and _WARM_JOBS == int(n_jobs)):
@@ -260,7 +262,7 @@ def start_workers(n_jobs, methods=()):
             from joblib import Parallel, delayed
 
             parent = os.getpid()
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent, tuple(methods)) for _ in range(int(n_jobs)))
+            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent, tuple(methods), k) for k in range(int(n_jobs)))
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
@@ -274,33 +276,63 @@ def _await_workers():
         _WARMING.join()
 
 
-def _warm_worker(parent=None, methods=()):
+#: Methods of slices by the CPU their kernels take to compile on an empty cache, longest first
+#: (measured, levee demo's machine: Morgenstern-Price 7.6 s, Spencer's λ scan 3.9 s, Bishop and Janbu
+#: 2.9 s; scripts/bench_speed.py --parts run --run-kinds cold). Only the order is used.
+_COMPILE_COST_ORDER = ("morgenstern-price", "spencer", "bishop", "janbu")
+
+
+def warm_up_steps(methods):
+    """The steps of a worker's warm-up: one per method of ``methods`` but the last, longest compilation
+    first, then the simulator's kernels, then the last method (the case's search method, which the command
+    compiles itself meanwhile; see :func:`warm_up_order`).
+
+    Returns
+    -------
+    list of (str, tuple)
+        ``("method", (name,))`` or ``("simulator", ())``.
+    """
+    methods = list(dict.fromkeys(methods))
+    head, tail = methods[:-1], methods[-1:]
+    rank = {m: i for i, m in enumerate(_COMPILE_COST_ORDER)}
+    head = sorted(head, key=lambda m: rank.get(m, len(rank)))  # stable: unknown names keep their order
+    return [("method", (m,)) for m in head] + [("simulator", ())] + [("method", (m,)) for m in tail]
+
+
+def _warm_worker(parent=None, methods=(), k=0):
     """In a worker: import the simulator and load its compiled kernels (tiny calls).
 
-    The methods' kernels first (the command needs them after its search,
-    which compiles Bishop), then the simulator's: the strength map, Bishop,
-    and the dynamic-programming kernel of the per-realisation search (under
-    its compile lock: without this, every worker compiled it at its first
-    searched realisation). The worker also starts watching ``parent`` (it
-    ends if the run is killed during the search, before any task reached it).
+    The steps of :func:`warm_up_steps` from step ``k`` round (worker k of the pool): the methods'
+    kernels (the command needs them after its search, which compiles the search method), and the
+    simulator's: the strength map, Bishop, and the dynamic-programming kernel of the per-realisation
+    search and the rigid-block rule of its paths (each under its compile lock: without this, every
+    worker compiled them at its first searched realisation). The worker also starts watching
+    ``parent`` (it ends if the run is killed during the search, before any task reached it).
     """
     if parent is not None:
         _watch_parent(parent)
     from slipfield.fields import marginals  # noqa: F401
     from slipfield.fields.generators import circulant  # noqa: F401
 
+    steps = warm_up_steps(methods)
+    k = int(k) % len(steps)
+    for kind, args in steps[k:] + steps[:k]:
+        if kind == "method":
+            from ..methods.compiled import warm_up
+
+            warm_up(args)
+        else:
+            _warm_simulator()
+    return os.getpid()
+
+
+def _warm_simulator():
+    from ..search.upper_bound import warm_up as warm_rigid_blocks
     from . import fused
 
-    if methods:
-        from ..methods.compiled import warm_up
-
-        warm_up(methods)
-    fused.warm_up()
     _warm_dynamic_programming()
-    from ..search.upper_bound import warm_up as warm_rigid_blocks
-
     warm_rigid_blocks()  # the rule for free paths of the same search (slope.search.path_acceptance)
-    return os.getpid()
+    fused.warm_up()  # last: it also calls Bishop's kernel, which a first run's command is compiling
 
 
 def _warm_dynamic_programming():
