@@ -13,16 +13,26 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
 
 __all__ = ["tan_degrees"]
 
 
-@njit(cache=True)
-def _tan_degrees(phi, out):
+def _tan_degrees_py(phi, out):
     deg = np.pi / 180.0  # the constant np.radians multiplies by
     for i in range(phi.size):
         out[i] = math.tan(phi[i] * deg)
+
+
+_KERNEL = []
+
+
+def _kernel():
+    """The compiled loop, made on first use (importing the strength law does not import numba)."""
+    if not _KERNEL:
+        from numba import njit
+
+        _KERNEL.append(njit(cache=True)(_tan_degrees_py))
+    return _KERNEL[0]
 
 
 def tan_degrees(phi):
@@ -41,6 +51,7 @@ def tan_degrees(phi):
 
     phi = np.ascontiguousarray(phi, dtype=np.float64)
     out = np.empty_like(phi)
-    with first_call(_tan_degrees):  # one process of a run compiles it, the others load it
-        _tan_degrees(phi.reshape(-1), out.reshape(-1))
+    kernel = _kernel()
+    with first_call(kernel):  # one process of a run compiles it, the others load it
+        kernel(phi.reshape(-1), out.reshape(-1))
     return out
