@@ -203,9 +203,12 @@ def _no_worker_left():
 
 
 @linux
-def test_run_refused_before_its_checks_ends_the_pool_started_from_the_case_file(tmp_path, capsys, monkeypatch):
-    # `slipfield run` starts its pool from the file's simulation.jobs before reading the case (its
-    # imports take seconds): a case refused when it is read ends that pool too (exit 2, nothing written).
+@pytest.mark.parametrize("command", ["run", "simulate"])
+def test_command_refused_before_its_checks_ends_the_pool_started_from_the_case_file(command, tmp_path, capsys,
+                                                                                   monkeypatch):
+    # `slipfield run` and `simulate` start their pool from the file's simulation.jobs before reading the
+    # case (their imports take a second or more): a case refused when it is read ends that pool too
+    # (exit 2, nothing written).
     from slipfield.slope.simulate import executors
 
     started = []
@@ -217,7 +220,7 @@ def test_run_refused_before_its_checks_ends_the_pool_started_from_the_case_file(
     bad.write_text(text.replace("[simulation]\nrealisations = 40",
                                 "[simulation]\njobs = 2\nrealisations = 40\nno_such_key = 1"))
     out = tmp_path / "out"
-    assert main(["run", str(bad), "--out", str(out), "--quiet"]) == 2
+    assert main([command, str(bad), "--out", str(out), "--quiet"]) == 2
     assert "no_such_key" in capsys.readouterr().err
     assert started == [2]  # the pool was started (from the file) before the case was refused
     assert not out.exists()
@@ -239,25 +242,3 @@ def test_run_whose_case_checks_fail_ends_its_warming_pool_at_once(tmp_path, caps
     assert not out.exists()
     _no_worker_left()
 
-
-@linux
-def test_simulate_refused_when_its_case_is_read_ends_the_pool_started_from_the_case_file(tmp_path, capsys,
-                                                                                      monkeypatch):
-    # `slipfield simulate` too starts its pool from --jobs or the file's simulation.jobs before its
-    # imports; a case refused when read ends it (exit 2, nothing written, no worker left).
-    from slipfield.slope.simulate import executors
-
-    started = []
-    real_start = executors.start_workers
-    monkeypatch.setattr(executors, "start_workers", lambda n, **kw: (started.append(n), real_start(n, **kw)))
-    text = Path(SMALL).read_text()
-    bad = tmp_path / "bad.toml"
-    assert "[simulation]\nrealisations = 40" in text
-    bad.write_text(text.replace("[simulation]\nrealisations = 40",
-                                "[simulation]\njobs = 2\nrealisations = 40\nno_such_key = 1"))
-    out = tmp_path / "out"
-    assert main(["simulate", str(bad), "--out", str(out), "--quiet"]) == 2
-    assert "no_such_key" in capsys.readouterr().err
-    assert started[:1] == [2]  # started from the file, before the case was read
-    assert not out.exists()
-    _no_worker_left()
