@@ -15,13 +15,16 @@ the chord midpoint), the textbook form. For other surfaces the moment point
 matters (see :func:`slope.methods.terms.default_moment_point`).
 
 The equation is solved per (sample, surface) by Newton's method on F in a
-compiled kernel (numba, parallel over samples x surfaces), falling back to a
-fixed-point step where a Newton step would leave F > 0.
+compiled kernel (numba, one loop over samples x surfaces), falling back to a
+fixed-point step where a Newton step would leave F > 0. The kernel is serial:
+the simulator runs it in one process per core, where numba's parallel version
+was 20-30 % slower per CPU second (its per-call scheduling, on the
+simulator's chunks) and took 1.7 s more CPU to compile on a first run.
 """
 from __future__ import annotations
 
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 from .compiled import first_call
 from .result import NEGATIVE_NORMAL, NONPOSITIVE, SMALL_M_ALPHA
@@ -33,7 +36,7 @@ _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 _FMAX = float(np.finfo(float).max)
 
 
-@njit(parallel=True, cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")  # numpy's model: the sums vectorise
 def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA_ca, lsa,
                             ulsa, use_mn, den0, valid, tol, max_iter, m_alpha_min,
                             fs, iters, conv, flags, neff, want_forces):
@@ -54,7 +57,7 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
     # solve_single_equation): checked here, in the pass that reads them anyway, instead of
     # in passes of their own over the arrays (a fifth of the whole call)
     n_bad = 0
-    for k in prange(S * M):
+    for k in range(S * M):
         s = k // M
         m = k - s * M
         if not valid[m]:
@@ -63,7 +66,7 @@ def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA
             conv[s, m] = False
             continue
         # row indices, not row views: a view costs reference counting per
-        # (sample, surface) in every thread
+        # (sample, surface)
         cs = s if sc_all else 0
         cm = m if mc_all else 0
         ts = s if st_all else 0
