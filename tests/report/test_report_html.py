@@ -155,12 +155,14 @@ def test_format_value():
 
 
 def test_csv_round_trip_full_precision(tmp_path):
-    rows = [["bishop", 1 / 3, 10, None, True], ["spencer", np.float64(2.0) / 7, 0, np.inf, False]]
+    rows = [["bishop", 1 / 3, 10, None, True], ["spencer", np.float64(2.0) / 7, 0, np.inf, False],
+            ["janbu", float("nan"), np.int64(3), -np.inf, np.bool_(True)]]
     path = write_csv(tmp_path / "fs.csv", ["method", "FS (-)", "n", "pf (-)", "converged"], rows)
     got = list(csv.reader(io.StringIO(path.read_text())))
     assert got[0] == ["method", "FS (-)", "n", "pf (-)", "converged"]
     assert float(got[1][1]) == 1 / 3 and float(got[2][1]) == 2.0 / 7  # exact float round trip
     assert got[1][3] == "" and got[2][3] == "inf" and got[1][4] == "true"
+    assert got[3][1:] == ["nan", "3", "-inf", "true"]
     with pytest.raises(InputError, match="row 1"):
         write_csv(tmp_path / "bad.csv", ["a", "b"], [[1]])
     assert not (tmp_path / "bad.csv").exists()
