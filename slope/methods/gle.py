@@ -54,7 +54,12 @@ from .compiled import first_call
 
 __all__ = ["morgenstern_price", "bracketed_roots", "reverse_circles", "SCAN_LAMBDAS", "REVERSE_MOMENT"]
 
-_FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
+# No fastmath: these kernels call each other, and LLVM inlines a callee compiled in the same process
+# (its IR at hand) but not one loaded from numba's cache, so with reassoc/contract the same source
+# gave other bits on a first run than on later runs (a 1-ulp FS difference in the dam demo's
+# search). Strict IEEE arithmetic is the same inlined or not; it cost 15 % of Morgenstern-Price's
+# speed (62-71 -> 54-59 M slice-evaluations/s, bench_speed --parts kernel).
+_FASTMATH = False
 #: boundaries where E is below this fraction of the largest E on the surface
 #: are not checked for the thrust-line position: the height is the ratio of
 #: a moment to E, so near the ends of the surface and where E changes sign

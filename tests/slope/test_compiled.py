@@ -79,3 +79,40 @@ def test_two_installations_do_not_share_a_compile_lock(tmp_path, monkeypatch):
     before = lock_path(a)
     monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "elsewhere"))
     assert lock_path(a) != before
+
+
+_SAME_BITS_CHILD = r"""
+import hashlib, numpy as np
+from slipfield.slope.examples import two_zone_section
+from slipfield.slope.bank import build_bank
+from slipfield.slope.search import lattice_circles
+from slipfield.slope.methods import prepare_bank, factor_of_safety
+sec = two_zone_section()
+terms = prepare_bank(build_bank(sec, lattice_circles(sec, nx=6, ny=5, n_radii=4), n_slices=20))
+rng = np.random.default_rng(5)
+shape = (40,) + terms.x_bound.shape[:1] + (20,)
+c = rng.lognormal(np.log(8.0), 0.3, shape)
+tp = np.tan(np.radians(rng.uniform(18.0, 34.0, shape)))
+h = hashlib.sha256()
+for m in ("morgenstern-price", "spencer", "bishop"):
+    fs = factor_of_safety(terms, c, tp, m).fs
+    assert np.isfinite(fs).sum() > 1000
+    h.update(np.ascontiguousarray(fs).tobytes())
+print(h.hexdigest())
+"""
+
+
+def test_a_first_run_and_a_later_run_give_the_same_bits(tmp_path):
+    # The first process compiles every kernel (an empty numba cache, as after installing); the second
+    # loads them from the cache. Stored and resumed results are compared with ==, so the compiled code
+    # must not depend on which kernels a process compiled itself: with fastmath's reassoc/contract in
+    # the general-limit-equilibrium kernels, LLVM's inlining of callees compiled in the same process
+    # changed Morgenstern-Price's and Spencer's FS in the last bit (this test failed so).
+    import os
+    import subprocess
+    import sys
+
+    env = dict(os.environ, NUMBA_CACHE_DIR=str(tmp_path / "numba"))
+    runs = [subprocess.run([sys.executable, "-c", _SAME_BITS_CHILD], env=env, capture_output=True, text=True,
+                           check=True).stdout.split()[-1] for _ in range(2)]
+    assert len(runs[0]) == 64 and runs[0] == runs[1]
