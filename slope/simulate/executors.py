@@ -277,8 +277,8 @@ def _await_workers():
 
 
 #: Methods of slices by the CPU their kernels take to compile on an empty cache, longest first
-#: (measured, levee demo's machine: Morgenstern-Price 7.6 s, Spencer's λ scan 3.9 s, Bishop and Janbu
-#: 2.9 s; scripts/bench_speed.py --parts run --run-kinds cold). Only the order is used.
+#: (measured into an empty cache, one process: Morgenstern-Price 7.7 s, Spencer's λ scan 4.1 s, Bishop
+#: and Janbu, one serial kernel, 1.2 s). Only the order is used.
 _COMPILE_COST_ORDER = ("morgenstern-price", "spencer", "bishop", "janbu")
 
 
