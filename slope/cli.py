@@ -7,6 +7,7 @@ fix) or a dask scheduler that stopped answering, 130 interrupted (Ctrl-C),
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import signal
 import sys
@@ -80,21 +81,29 @@ def _run_pool_early(args, *, methods: bool = True) -> bool:
     return True
 
 
-def _cmd_run(args) -> int:
-    early = _run_pool_early(args)
-    formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
+@contextlib.contextmanager
+def _pool_started_early(args, *, methods: bool = True):
+    """Around a command's work: its pool started by :func:`_run_pool_early`, ended at once if the
+    work fails (e.g. the case is refused), so that no worker is left behind."""
+    early = _run_pool_early(args, methods=methods)
     try:
+        yield
+    except BaseException:
+        if early:
+            from .simulate.executors import stop_workers
+
+            stop_workers(wait=False)
+        raise
+
+
+def _cmd_run(args) -> int:
+    formats = tuple(f.strip() for f in str(args.figure_formats).split(",") if f.strip())
+    with _pool_started_early(args):
         from .commands.run import run_case
 
         results = run_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, quiet=args.quiet,
                            figure_formats=formats, overwrite=args.overwrite, refine_search=args.refine_search,
                            **_estimator_kw(args))
-    except BaseException:
-        if early:  # e.g. the case was refused: no worker is left behind
-            from .simulate.executors import stop_workers
-
-            stop_workers(wait=False)
-        raise
     if args.json:
         print(json.dumps({k: results[k] for k in ("case", "deterministic", "spatial_simulation")}, indent=2))
     else:
@@ -141,8 +150,7 @@ def _cmd_check(args) -> int:
 
 
 def _cmd_simulate(args) -> int:
-    early = _run_pool_early(args, methods=False)
-    try:
+    with _pool_started_early(args, methods=False):
         from .commands.simulate import simulate_case
 
         r = simulate_case(args.case, args.out, realisations=args.realisations, jobs=args.jobs, batch=args.batch,
@@ -151,12 +159,6 @@ def _cmd_simulate(args) -> int:
                           progress=not args.quiet, refine_below=args.refine_below,
                           refine_method=args.refine_method, refine_search=args.refine_search,
                           overwrite=args.overwrite, **_estimator_kw(args))
-    except BaseException:
-        if early:  # e.g. the case was refused: no worker is left behind
-            from .simulate.executors import stop_workers
-
-            stop_workers(wait=False)
-        raise
     if r.get("estimator") == "subset":
         _print_subset(r, args)
     elif args.json:
