@@ -148,13 +148,17 @@ def table_to_html(table: Mapping, *, digits: int = 4, table_id: str | None = Non
     return str(macro({"id": table_id, "caption": cap, "columns": t["columns"], "rows": rows}))
 
 
+def _float_text(f: float) -> str:
+    # repr keeps every digit: CSV files are for further computation.
+    return repr(f) if f - f == 0.0 else ("nan" if f != f else ("inf" if f > 0 else "-inf"))
+
+
 def _csv_value(v):
     # the common exact types first: the ABC checks below cost more than the formatting (a
     # 16,000-realisation fs_realisations.csv is 256,000 values, written after the workers end)
     t = type(v)
     if t is float or t is np.float64:
-        f = float(v)
-        return repr(f) if f - f == 0.0 else ("nan" if f != f else ("inf" if f > 0 else "-inf"))
+        return _float_text(float(v))
     if t is str:
         return v
     if t is int or t is np.int64:
@@ -166,9 +170,7 @@ def _csv_value(v):
     if isinstance(v, numbers.Integral):
         return str(int(v))
     if isinstance(v, numbers.Real):
-        # repr keeps every digit: CSV files are for further computation.
-        f = float(v)
-        return "nan" if math.isnan(f) else ("inf" if f == math.inf else ("-inf" if f == -math.inf else repr(f)))
+        return _float_text(float(v))
     return str(v)
 
 
