@@ -5,11 +5,13 @@ differs from the C library's ``tan`` in the last bit for about 0.6 % of
 friction angles (measured on 10⁵ angles in 17–35°). The compiled strength
 pass of the simulator (:mod:`slope.simulate.fused`) calls the C library's
 ``tan``; if the strength law used ``np.tan``, a base's tan φ -- and so FS --
-would depend on which path computed it and on the machine's SIMD. Every tan φ
-of the strength law goes through :func:`tan_degrees`.
+would depend on which path computed it and on the machine's SIMD. The tan φ of
+:func:`slope.strength.base_strength` (deterministic analyses, searches, the
+simulator's array path) goes through :func:`tan_degrees`.
 """
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -23,16 +25,12 @@ def _tan_degrees_py(phi, out):
         out[i] = math.tan(phi[i] * deg)
 
 
-_KERNEL = []
-
-
+@functools.cache
 def _kernel():
     """The compiled loop, made on first use (importing the strength law does not import numba)."""
-    if not _KERNEL:
-        from numba import njit
+    from numba import njit
 
-        _KERNEL.append(njit(cache=True)(_tan_degrees_py))
-    return _KERNEL[0]
+    return njit(cache=True)(_tan_degrees_py)
 
 
 def tan_degrees(phi):
