@@ -402,7 +402,7 @@ def make_marginal(
         _need(nm, mean=mean)
         s = _spread(nm, mean, cov, std)
         return Marginal("normal", mean, s, {"mu": mean, "sigma": s},
-                        _dist=scipy.stats.norm(mean, s))
+                        _dist=_DistRecipe("norm", (mean, s), {}))
 
     if key == "lognormal":
         _need(nm, mean=mean)
@@ -416,7 +416,7 @@ def make_marginal(
         mu_ln = math.log(mean) - 0.5 * s2
         sig_ln = math.sqrt(s2)
         return Marginal("lognormal", mean, s, {"mu_ln": mu_ln, "sigma_ln": sig_ln},
-                        0.0, math.inf, scipy.stats.lognorm(sig_ln, scale=math.exp(mu_ln)))
+                        0.0, math.inf, _DistRecipe("lognorm", (sig_ln,), {"scale": math.exp(mu_ln)}))
 
     if key == "uniform":
         if lower is not None or upper is not None:
@@ -431,7 +431,7 @@ def make_marginal(
             s = _spread(nm, mean, cov, std)
             lo, hi = mean - math.sqrt(3.0) * s, mean + math.sqrt(3.0) * s
         return Marginal("uniform", 0.5 * (lo + hi), (hi - lo) / math.sqrt(12.0),
-                        {"lower": lo, "upper": hi}, lo, hi, scipy.stats.uniform(lo, hi - lo))
+                        {"lower": lo, "upper": hi}, lo, hi, _DistRecipe("uniform", (lo, hi - lo), {}))
 
     if key == "triangular":
         _need(nm, lower=lower, mode=mode, upper=upper)
@@ -443,7 +443,7 @@ def make_marginal(
             raise InputError("triangular: give lower, mode and upper only")
         m = (lo + md + hi) / 3.0
         var = (lo * lo + md * md + hi * hi - lo * md - lo * hi - md * hi) / 18.0
-        d = scipy.stats.triang((md - lo) / (hi - lo), loc=lo, scale=hi - lo)
+        d = _DistRecipe("triang", ((md - lo) / (hi - lo),), {"loc": lo, "scale": hi - lo})
         return Marginal("triangular", m, math.sqrt(var),
                         {"lower": lo, "mode": md, "upper": hi}, lo, hi, d)
 
@@ -463,7 +463,7 @@ def make_marginal(
         k = m * (1.0 - m) / v - 1.0
         a, b = m * k, (1.0 - m) * k
         return Marginal("beta", mean, s, {"alpha": a, "beta": b, "lower": lo, "upper": hi},
-                        lo, hi, scipy.stats.beta(a, b, loc=lo, scale=hi - lo))
+                        lo, hi, _DistRecipe("beta", (a, b), {"loc": lo, "scale": hi - lo}))
 
     # truncated-normal
     _need(nm, mean=mean)

@@ -387,9 +387,11 @@ def _site_data(case: Case, rp, theta_override=None) -> dict:
     run, a sweep's "inf") the properties are no longer fields and the data
     are left out: that comparison is unconditional.
     """
-    from ..site_data import gaussian_site_data
-
     readings = case.extras.get("site_data") or []
+    if not readings:
+        return {}
+    from ..site_data import gaussian_site_data  # scipy.stats: half a second, only for cases with data
+
     return {p.key: gaussian_site_data([r for r in readings if r.key == p.key], p, case.section)
             for p in rp if any(r.key == p.key for r in readings)
             and not (theta_override is not None and p.single)}

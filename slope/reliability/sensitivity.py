@@ -17,7 +17,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from ..errors import InputError
 from .limit_state import as_limit_state
@@ -122,6 +121,8 @@ def rank_correlations(X, fs, names, valid=None) -> dict:
     X = np.asarray(X, float)
     fs = np.asarray(fs, float)
     ok = np.isfinite(fs) if valid is None else np.asarray(valid, bool)
+    from scipy import stats  # here: importing it costs every command half a second
+
     out = {}
     for j, nm in enumerate(names):
         col = X[ok, j]

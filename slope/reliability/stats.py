@@ -17,7 +17,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 from ..errors import InputError
 
@@ -65,8 +65,8 @@ def binomial_interval(k: int, n: int, level: float = 0.95, method: str = "wilson
         # c = h exactly at k = 0 (and c + h = 1 at k = n): round-off must not print a bound of 2e-19
         return (0.0 if k == 0 else max(0.0, c - h)), (1.0 if k == n else min(1.0, c + h))
     if method == "clopper-pearson":
-        lo = 0.0 if k == 0 else float(stats.beta.ppf(a / 2, k, n - k + 1))
-        hi = 1.0 if k == n else float(stats.beta.ppf(1 - a / 2, k + 1, n - k))
+        lo = 0.0 if k == 0 else float(special.betaincinv(k, n - k + 1, a / 2))
+        hi = 1.0 if k == n else float(special.betaincinv(k + 1, n - k, 1 - a / 2))
         return lo, hi
     raise InputError(f"interval method must be 'wilson' or 'clopper-pearson', got {method!r}")
 
