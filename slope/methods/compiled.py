@@ -61,20 +61,19 @@ def first_call(kernel):
             fcntl.flock(fh, fcntl.LOCK_UN)
 
 
-def warm_up(methods=()):
+def warm_up(methods=(), *, scan=True):
     """Compile (or load from the cache) the kernels of ``methods`` with tiny inputs of the real types.
 
     Morgenstern-Price with and without forces (the deterministic analysis
-    writes its slice tables) and the lam scan it shares with Spencer (whose
-    Newton is numpy); Bishop and Janbu share one kernel. Names unknown to the
-    registry are ignored: this only saves time.
+    writes its slice tables); Bishop and Janbu share one kernel; Spencer's
+    Newton is numpy. ``scan``: then also the lam scan that Spencer and
+    Morgenstern-Price run on the cells Newton missed (:func:`warm_up_scan`),
+    when one of them is named. Names unknown to the registry are ignored: this
+    only saves time.
     """
     import numpy as np
 
-    from . import factor_of_safety, method_spec, prepare_bank
-    from ..bank import build_bank
-    from ..examples import simple_slope
-    from ..surfaces import Circle
+    from . import factor_of_safety, method_spec
 
     names = []
     for m in methods:
@@ -84,17 +83,8 @@ def warm_up(methods=()):
             continue
     if not names:
         return
-    bank = build_bank(simple_slope(), [Circle(8.0, 16.0, 14.0)], n_slices=8)
-    terms = prepare_bank(bank)
-    c = np.full((1, 1, 8), 10.0)
-    tp = np.full((1, 1, 8), 0.5)
+    terms, c, tp = _tiny_bank()
     for name in dict.fromkeys(names):
-        if name in ("spencer", "morgenstern-price"):
-            from .gle import bracketed_roots
-
-            # the lam scan both use for the cells Newton missed (the demos' searches reach it)
-            one = np.zeros(1, dtype=np.int64)
-            bracketed_roots(terms, c, tp, np.ones((1, 9)), (one, one), np.ones(1))
         if name == "morgenstern-price":
             from .gle import morgenstern_price
             from .interslice import interslice_function
@@ -105,3 +95,35 @@ def warm_up(methods=()):
             morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)), return_forces=True)
         elif name in ("bishop", "janbu"):
             factor_of_safety(terms, c, tp, name)
+    if scan and uses_scan(names):
+        warm_up_scan()
+
+
+def uses_scan(methods) -> bool:
+    """Whether any of ``methods`` (registry names) may run the lam scan of :func:`warm_up_scan`."""
+    return any(m in ("spencer", "morgenstern-price") for m in methods)
+
+
+def warm_up_scan():
+    """Compile (or load) the lam scan over both signs (``gle.bracketed_roots``) that Spencer and
+    Morgenstern-Price run on the cells their Newton missed; searches reach it on some cases only."""
+    import numpy as np
+
+    from .gle import bracketed_roots
+
+    terms, c, tp = _tiny_bank()
+    one = np.zeros(1, dtype=np.int64)
+    bracketed_roots(terms, c, tp, np.ones((1, 9)), (one, one), np.ones(1))
+
+
+def _tiny_bank():
+    """Terms of one circle of 8 slices on the example slope, and its strengths (c, tan phi)."""
+    import numpy as np
+
+    from . import prepare_bank
+    from ..bank import build_bank
+    from ..examples import simple_slope
+    from ..surfaces import Circle
+
+    bank = build_bank(simple_slope(), [Circle(8.0, 16.0, 14.0)], n_slices=8)
+    return prepare_bank(bank), np.full((1, 1, 8), 10.0), np.full((1, 1, 8), 0.5)

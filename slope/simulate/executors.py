@@ -241,8 +241,8 @@ def start_workers(n_jobs, methods=()):
     command will call (the workers compile their kernels meanwhile, see
     :mod:`slope.methods.compiled`). Every worker walks every step of
     :func:`warm_up_steps`, worker k starting at step k: on an empty cache the
-    longest compilations (Morgenstern-Price, Spencer's λ scan, the simulator's
-    kernels) then run in different processes at once, and a worker reaching a
+    longest compilations (Morgenstern-Price, the simulator's kernels, then the
+    λ scan of Spencer and Morgenstern-Price) then run in different processes at once, and a worker reaching a
     kernel another one is compiling waits for its lock and loads it. (Splitting
     the methods' list between workers without that lock was measured slower:
     kernels sharing compiled callees compiled them in several processes.) A
@@ -277,26 +277,34 @@ def _await_workers():
 
 
 #: Methods of slices by the CPU their kernels take to compile on an empty cache, longest first
-#: (measured into an empty cache, one process: Morgenstern-Price 7.7 s, Spencer's λ scan 4.1 s, Bishop
-#: and Janbu, one serial kernel, 1.2 s). Only the order is used.
-_COMPILE_COST_ORDER = ("morgenstern-price", "spencer", "bishop", "janbu")
+#: (measured into an empty cache, one process: Morgenstern-Price 7.7 s; Bishop and Janbu, one serial
+#: kernel, 1.2 s; Spencer's Newton is numpy, its λ scan a step of its own). Only the order is used.
+_COMPILE_COST_ORDER = ("morgenstern-price", "bishop", "janbu")
 
 
 def warm_up_steps(methods):
-    """The steps of a worker's warm-up: one per method of ``methods`` but the last, longest compilation
-    first, then the simulator's kernels, then the last method (the case's search method, which the command
+    """The steps of a worker's warm-up: the method of ``methods`` (but the last) whose kernels take
+    longest to compile, the simulator's kernels, the λ scan of Spencer and Morgenstern-Price when one of
+    them is named, the other methods, then the last method (the case's search method, which the command
     compiles itself meanwhile; see :func:`warm_up_order`).
 
     Returns
     -------
     list of (str, tuple)
-        ``("method", (name,))`` or ``("simulator", ())``.
+        ``("method", (name,))``, ``("simulator", ())`` or ``("scan", ())``.
     """
     methods = list(dict.fromkeys(methods))
     head, tail = methods[:-1], methods[-1:]
     rank = {m: i for i, m in enumerate(_COMPILE_COST_ORDER)}
     head = sorted(head, key=lambda m: rank.get(m, len(rank)))  # stable: unknown names keep their order
-    return [("method", (m,)) for m in head] + [("simulator", ())] + [("method", (m,)) for m in tail]
+    from ..methods.compiled import uses_scan
+
+    scan = [("scan", ())] if uses_scan(methods) else []
+    # the longest compilation, the simulator's kernels (every run needs them), the lam scan (only some
+    # searches reach it), then the others: on a first run the worker that starts with the scan no longer
+    # delays the methods' kernels, and a run that never needs it compiles it once the others are done
+    return ([("method", (m,)) for m in head[:1]] + [("simulator", ())] + scan
+            + [("method", (m,)) for m in head[1:] + tail])
 
 
 def _warm_worker(parent=None, methods=(), k=0):
@@ -320,7 +328,11 @@ def _warm_worker(parent=None, methods=(), k=0):
         if kind == "method":
             from ..methods.compiled import warm_up
 
-            warm_up(args)
+            warm_up(args, scan=False)
+        elif kind == "scan":
+            from ..methods.compiled import warm_up_scan
+
+            warm_up_scan()
         else:
             _warm_simulator()
     return os.getpid()
