@@ -11,7 +11,7 @@ import json
 import sys
 
 #: keys that differ between two runs of the same case for reasons other than results
-VOLATILE = {"wall_time_s", "path", "date", "created", "elapsed_s", "case_sha256", "slipfield_version"}
+VOLATILE = {"wall_time_s", "path", "date", "created", "elapsed_s", "case_sha256", "slipfield_version", "started_utc"}
 
 
 def differences(a, b, path=""):

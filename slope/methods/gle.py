@@ -451,9 +451,14 @@ def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
 
 @njit(cache=True, fastmath=_FASTMATH)
 def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
-          lscale, F, lam, E_out, X_out, yt_out, neff_out, want):
-    """Flags of a solution (F, lam); with ``want`` also its forces and line of thrust."""
+          lscale, F, lam, E_out, X_out, yt_out, neff_out):
+    """Flags of a solution (F, lam); also its forces and line of thrust when ``E_out`` has room for
+    them (shape (s, m, n + 1); callers that want the flags only pass a (1, 1, 1) placeholder).
+
+    Not a bool argument: numba compiled this function once per literal True/False its callers wrote
+    (0.7 s of CPU on a first run)."""
     N = ca.shape[1]
+    want = N > 0 and E_out.shape[2] == N + 1
     fl = 0
     E = 0.0
     Emax = 0.0
@@ -639,7 +644,7 @@ def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm
         if not done or not (F > 0.0) or not np.isfinite(F):
             continue
         fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
-                   lscale, F, lam, E_out, X_out, yt_out, neff_out, False)
+                   lscale, F, lam, E_out, X_out, yt_out, neff_out)
         if (fl & 104) != 0:
             continue
         if not found or (fl == 0 and bfl != 0):
@@ -891,7 +896,7 @@ def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b
                 break
         if ok:
             fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
-                        couple, fscale, lscale, F2, lam2, none, none, none, none, False)
+                        couple, fscale, lscale, F2, lam2, none, none, none, none)
             if (fl2 & 32) == 0:
                 F = F2
                 lam = lam2
@@ -920,7 +925,7 @@ def _forces_kernel(c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple
         F = fs[s, m]
         if valid[m] and F > 0.0 and np.isfinite(F):
             flags[s, m] = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple,
-                                fscale, lscale, F, lam[s, m], E_out, X_out, yt_out, neff_out, True)
+                                fscale, lscale, F, lam[s, m], E_out, X_out, yt_out, neff_out)
 
 
 def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=None,
