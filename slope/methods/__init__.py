@@ -78,6 +78,10 @@ class MethodOfSlices:
         it reads them, and says so with ``strengths_ok`` in its dict
         (:func:`factor_of_safety` then skips its own passes over them, and
         makes them, with their messages, whenever ``strengths_ok`` is not True).
+    compiled : tuple of str
+        The groups of compiled kernels ``run`` may call, which a run's idle
+        workers compile ahead of it (:data:`slope.methods.compiled.KERNEL_GROUPS`;
+        empty for a method in numpy only).
     """
 
     name: str
@@ -86,6 +90,7 @@ class MethodOfSlices:
     polylines: bool = False
     aliases: tuple = ()
     checks_strengths: bool = False
+    compiled: tuple = ()
 
 
 #: name -> MethodOfSlices; the case schema, the command line and the refinement read their lists here.
@@ -95,6 +100,12 @@ _ALIASES: dict[str, str] = {}
 
 def register_method(spec: MethodOfSlices) -> MethodOfSlices:
     """Add a method of slices to the registry (one line per method)."""
+    from .compiled import KERNEL_GROUPS
+
+    unknown = set(spec.compiled) - set(KERNEL_GROUPS)
+    if unknown:
+        raise ValueError(f"method {spec.name!r}: unknown kernel groups {sorted(unknown)}; "
+                         f"known: {sorted(KERNEL_GROUPS)}")
     METHODS[spec.name] = spec
     for a in (spec.name, *spec.aliases):
         _ALIASES[a] = spec.name
@@ -119,15 +130,15 @@ def _gle(terms, c, tp, *, tol, max_iter, return_forces, interslice, f_ends=(0.5,
 
 register_method(MethodOfSlices("ordinary", _ordinary, aliases=("fellenius",)))
 register_method(MethodOfSlices("bishop", _iterative(_bishop), options=("m_alpha_min",),
-                               checks_strengths=True))
+                               checks_strengths=True, compiled=("single-equation",)))
 register_method(MethodOfSlices("janbu", _iterative(_janbu), options=("m_alpha_min", "correction"),
-                               polylines=True, checks_strengths=True))
+                               polylines=True, checks_strengths=True, compiled=("single-equation",)))
 register_method(MethodOfSlices("spencer", _iterative(_spencer), options=("F_start", "lam_start"),
-                               polylines=True))
+                               polylines=True, compiled=("lam-scan",)))
 register_method(MethodOfSlices("morgenstern-price", _gle,
                                options=("F_start", "lam_start", "f_ends", "interslice_table"),
                                polylines=True, aliases=("m-p", "mp", "gle", "morgenstern_price"),
-                               checks_strengths=True))
+                               checks_strengths=True, compiled=("general", "lam-scan")))
 
 #: Every method's name, in registry order.
 METHOD_NAMES = tuple(METHODS)

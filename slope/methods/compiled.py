@@ -61,59 +61,80 @@ def first_call(kernel):
             fcntl.flock(fh, fcntl.LOCK_UN)
 
 
+#: Groups of compiled kernels a method of slices may call (``MethodOfSlices.compiled``), each warmed
+#: by one tiny call of the real types, longest compilation first (CPU into an empty cache, one
+#: process, 2026-12-04): the general limit-equilibrium kernels of Morgenstern-Price, with and without
+#: forces (the deterministic analysis writes its slice tables), 9-10 s; the λ scan over both signs that
+#: Spencer and Morgenstern-Price run on the cells their Newton missed (only some searches reach it),
+#: 4.5-5 s; Bishop's and Janbu's single-equation kernel, 1.0-1.2 s.
+KERNEL_GROUPS = ("general", "lam-scan", "single-equation")
+
+
 def warm_up(methods=(), *, scan=True):
     """Compile (or load from the cache) the kernels of ``methods`` with tiny inputs of the real types.
 
-    Morgenstern-Price with and without forces (the deterministic analysis
-    writes its slice tables); Bishop and Janbu share one kernel; Spencer's
-    Newton is numpy. ``scan``: then also the lam scan that Spencer and
-    Morgenstern-Price run on the cells Newton missed (:func:`warm_up_scan`),
-    when one of them is named. Names unknown to the registry are ignored: this
-    only saves time.
+    Each method's groups of :data:`KERNEL_GROUPS` (``MethodOfSlices.compiled``), once each;
+    ``scan`` False leaves out the ``"lam-scan"`` group (:func:`warm_up_scan`, a worker's step of its
+    own). Names unknown to the registry are ignored: this only saves time.
     """
-    import numpy as np
+    from . import method_spec
 
-    from . import factor_of_safety, method_spec
-
-    names = []
+    groups = {}
     for m in methods:
         try:
-            names.append(method_spec(m).name)
+            spec = method_spec(m)
         except Exception:  # noqa: BLE001 - a warm-up never fails a run
             continue
-    if not names:
+        for g in spec.compiled:
+            groups.setdefault(g, spec.name)
+    if not scan:
+        groups.pop("lam-scan", None)
+    if not groups:
         return
     terms, c, tp = _tiny_bank()
-    for name in dict.fromkeys(names):
-        if name == "morgenstern-price":
-            from .gle import morgenstern_price
-            from .interslice import interslice_function
-
-            # started from a given F, not Bishop's: this need not wait for Bishop's kernel
-            f = interslice_function(terms.x_bound, "half-sine")
-            morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)))
-            morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)), return_forces=True)
-        elif name in ("bishop", "janbu"):
-            factor_of_safety(terms, c, tp, name)
-    if scan and uses_scan(names):
-        warm_up_scan()
+    for group, name in groups.items():
+        _warm_group(group, name, terms, c, tp)
 
 
 def uses_scan(methods) -> bool:
-    """Whether any of ``methods`` (registry names) may run the lam scan of :func:`warm_up_scan`."""
-    return any(m in ("spencer", "morgenstern-price") for m in methods)
+    """Whether any of ``methods`` may run the λ scan of :func:`warm_up_scan` (its ``"lam-scan"`` group)."""
+    from . import method_spec
+
+    for m in methods:
+        try:
+            if "lam-scan" in method_spec(m).compiled:
+                return True
+        except Exception:  # noqa: BLE001 - unknown names warm nothing
+            continue
+    return False
 
 
 def warm_up_scan():
-    """Compile (or load) the lam scan over both signs (``gle.bracketed_roots``) that Spencer and
-    Morgenstern-Price run on the cells their Newton missed; searches reach it on some cases only."""
+    """Compile (or load) the λ scan over both signs (``gle.bracketed_roots``)."""
+    terms, c, tp = _tiny_bank()
+    _warm_group("lam-scan", None, terms, c, tp)
+
+
+def _warm_group(group, name, terms, c, tp):
     import numpy as np
 
-    from .gle import bracketed_roots
+    if group == "single-equation":
+        from . import factor_of_safety
 
-    terms, c, tp = _tiny_bank()
-    one = np.zeros(1, dtype=np.int64)
-    bracketed_roots(terms, c, tp, np.ones((1, 9)), (one, one), np.ones(1))
+        factor_of_safety(terms, c, tp, name)
+    elif group == "general":
+        from .gle import morgenstern_price
+        from .interslice import interslice_function
+
+        # started from a given F, not Bishop's: this need not wait for Bishop's kernel
+        f = interslice_function(terms.x_bound, "half-sine")
+        morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)))
+        morgenstern_price(terms, c, tp, f, F_start=np.ones((1, 1)), return_forces=True)
+    elif group == "lam-scan":
+        from .gle import bracketed_roots
+
+        one = np.zeros(1, dtype=np.int64)
+        bracketed_roots(terms, c, tp, np.ones((1, 9)), (one, one), np.ones(1))
 
 
 def _tiny_bank():

@@ -276,12 +276,6 @@ def _await_workers():
         _WARMING.join()
 
 
-#: Methods of slices by the CPU their kernels take to compile on an empty cache, longest first
-#: (measured into an empty cache, one process: Morgenstern-Price 7.7 s; Bishop and Janbu, one serial
-#: kernel, 1.2 s; Spencer's Newton is numpy, its λ scan a step of its own). Only the order is used.
-_COMPILE_COST_ORDER = ("morgenstern-price", "bishop", "janbu")
-
-
 def warm_up_steps(methods):
     """The steps of a worker's warm-up: the method of ``methods`` (but the last) whose kernels take
     longest to compile, the simulator's kernels, the λ scan of Spencer and Morgenstern-Price when one of
@@ -293,11 +287,11 @@ def warm_up_steps(methods):
     list of (str, tuple)
         ``("method", (name,))``, ``("simulator", ())`` or ``("scan", ())``.
     """
+    from ..methods.compiled import uses_scan
+
     methods = list(dict.fromkeys(methods))
     head, tail = methods[:-1], methods[-1:]
-    rank = {m: i for i, m in enumerate(_COMPILE_COST_ORDER)}
-    head = sorted(head, key=lambda m: rank.get(m, len(rank)))  # stable: unknown names keep their order
-    from ..methods.compiled import uses_scan
+    head = sorted(head, key=_compile_rank)  # stable: methods of equal rank keep their order
 
     scan = [("scan", ())] if uses_scan(methods) else []
     # the longest compilation, the simulator's kernels (every run needs them), the lam scan (only some
@@ -305,6 +299,19 @@ def warm_up_steps(methods):
     # delays the methods' kernels, and a run that never needs it compiles it once the others are done
     return ([("method", (m,)) for m in head[:1]] + [("simulator", ())] + scan
             + [("method", (m,)) for m in head[1:] + tail])
+
+
+def _compile_rank(method) -> int:
+    """Where ``method``'s own kernels come in :data:`slope.methods.compiled.KERNEL_GROUPS` (longest
+    compilation first; its λ scan is a step of its own); methods with none, or unknown, come last."""
+    from ..methods import method_spec
+    from ..methods.compiled import KERNEL_GROUPS
+
+    try:
+        groups = [g for g in method_spec(method).compiled if g != "lam-scan"]
+    except Exception:  # noqa: BLE001 - a warm-up never fails a run
+        groups = []
+    return min((KERNEL_GROUPS.index(g) for g in groups), default=len(KERNEL_GROUPS))
 
 
 def _warm_worker(parent=None, methods=(), k=0):

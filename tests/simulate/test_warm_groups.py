@@ -14,6 +14,8 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
 
 TESTS = Path(__file__).resolve().parents[1]
 
@@ -112,3 +114,15 @@ def test_workers_start_their_warm_up_on_different_long_compilations():
     assert warm_up_steps([]) == [("simulator", ())]  # `simulate`: no methods named, the simulator's kernels
     # no method that runs the scan: no scan step
     assert warm_up_steps(["janbu", "bishop"]) == [("method", ("janbu",)), ("simulator", ()), ("method", ("bishop",))]
+
+
+def test_a_method_names_only_kernel_groups_the_warm_up_knows():
+    # the groups of MethodOfSlices.compiled are what a worker compiles ahead of the run: a misspelt
+    # group would silently warm nothing, so registering it is refused
+    from slipfield.slope.methods import METHODS, MethodOfSlices, register_method
+    from slipfield.slope.methods.compiled import KERNEL_GROUPS
+
+    assert all(set(m.compiled) <= set(KERNEL_GROUPS) for m in METHODS.values())
+    with pytest.raises(ValueError, match="unknown kernel groups"):
+        register_method(MethodOfSlices("misspelt", METHODS["bishop"].run, compiled=("single_equation",)))
+    assert "misspelt" not in METHODS
