@@ -888,7 +888,9 @@ def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b
             tw = 0.5 * step
             for i in range(f.shape[1]):
                 ft[0, i] = (1.0 - tw) + tw * f[m, i]
-            F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, 0,
+            # np.int64(0), not 0: a literal row index is a specialisation of its own, and _rescue
+            # passes a variable one (_newton compiled twice: 0.55 s of CPU on a first run)
+            F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, np.int64(0),
                                        G0[m], s1, s2, tol, max_iter, F2, lam2)
             n_it += k2
             if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
