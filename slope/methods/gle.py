@@ -50,7 +50,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from .compiled import first_call
+from .compiled import CALLEE_ONLY, first_call
 
 __all__ = ["morgenstern_price", "bracketed_roots", "reverse_circles", "SCAN_LAMBDAS", "REVERSE_MOMENT"]
 
@@ -76,7 +76,7 @@ THRUST_E_FRACTION = 0.1
 NEGATIVE_STRENGTH_FRACTION = 0.5
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, max_iter,
             F, lam):
     """Newton on (F, lam) for one (sample, surface) with the interslice
@@ -167,7 +167,7 @@ def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, m
     return F, lam, n_it, done
 
 
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, max_iter, F, lam,
                   n_it, done):
     """:func:`_newton` for every sample of surface ``m`` at once (interslice function ``f[fr]``).
@@ -306,7 +306,7 @@ SCAN_LAMBDAS = np.tan(np.radians(np.r_[np.arange(0.0, 80.01, 2.0), -np.arange(2.
 _MAX_BRACKETS = 6
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam):
     """Force residual E_n, moment residual and its F derivative at (F, lam).
 
@@ -345,7 +345,7 @@ def _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam):
     return E, g2, g2F, neg
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, F0, lams):
     """Starting points (F, lam) bracketed by a scan over lam (both signs).
 
@@ -449,7 +449,7 @@ def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
     return (E * (Phi - lam * fi * Psi) + F * T - R) / (Phi - lam * f[m, i + 1] * Psi)
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
           lscale, F, lam, E_out, X_out, yt_out, neff_out):
     """Flags of a solution (F, lam); also its forces and line of thrust when ``E_out`` has room for
@@ -524,7 +524,7 @@ def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, f
     return fl
 
 
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale, lscale,
                 F, lam, fl_out):
     """:func:`_post`'s flags (no forces) for every sample of surface ``m`` at once.
@@ -617,7 +617,7 @@ def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, coupl
         fl_out[j] = fl[j] | (32 if s_neg[j] > NEGATIVE_STRENGTH_FRACTION * s_pos[j] else 0)
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple,
             fscale, lscale, tol, max_iter, F0, lams, E_out, X_out, yt_out, neff_out):
     """Bracket-then-Newton solve for a (sample, surface) that Newton from lam = 0 missed.
@@ -811,7 +811,7 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
                  fs, lam_out, iters, conv, flags, rescue)
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
              couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
              fs, lam_out, iters, conv, flags, rescue):
@@ -862,7 +862,7 @@ def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
                      couple, fscale, lscale, reverse, tol, max_iter, F0L[s], FL[s], lamL[s], itL[s],
                      doneL[s], flL[s], fs, lam_out, iters, conv, flags, rescue, none)
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
 def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                  couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
                  fl_lanes, fs, lam_out, iters, conv, flags, rescue, none):
