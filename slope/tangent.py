@@ -30,7 +30,9 @@ def _kernel():
     """The compiled loop, made on first use (importing the strength law does not import numba)."""
     from numba import njit
 
-    return njit(cache=True)(_tan_degrees_py)
+    from .methods.compiled import FROM_PYTHON
+
+    return njit(cache=True, **FROM_PYTHON)(_tan_degrees_py)
 
 
 def tan_degrees(phi):

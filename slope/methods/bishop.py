@@ -26,7 +26,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from .compiled import first_call
+from .compiled import FROM_PYTHON, first_call
 from .result import NEGATIVE_NORMAL, NONPOSITIVE, SMALL_M_ALPHA
 
 __all__ = ["bishop", "solve_single_equation"]
@@ -36,7 +36,7 @@ _FASTMATH = {"contract", "arcp", "nsz", "reassoc"}
 _FMAX = float(np.finfo(float).max)
 
 
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy")  # numpy's model: the sums vectorise
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)  # numpy's model: the sums vectorise
 def _single_equation_kernel(c, tp, ca, sa, wb, wa, inv_ca, l, A, ub, ul, mn, mnA_ca, lsa,
                             ulsa, use_mn, den0, valid, tol, max_iter, m_alpha_min,
                             fs, iters, conv, flags, neff, want_forces):

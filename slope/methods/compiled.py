@@ -21,13 +21,17 @@ try:  # POSIX; elsewhere every process compiles for itself, as before
 except ImportError:  # pragma: no cover - Windows
     fcntl = None
 
-__all__ = ["first_call", "lock_path", "warm_up", "CALLEE_ONLY"]
+__all__ = ["first_call", "lock_path", "warm_up", "CALLEE_ONLY", "FROM_PYTHON"]
 
-#: ``njit`` options of a compiled function that only other compiled functions call: numba then makes
-#: neither its Python wrapper (unboxing every argument, boxing the result) nor its C wrapper, which
-#: it otherwise generates and optimises for every function (Morgenstern-Price's kernels and λ scan
-#: into an empty cache: 10.0 -> 9.0 s of CPU). Calling such a function from Python raises.
-CALLEE_ONLY = {"no_cpython_wrapper": True, "no_cfunc_wrapper": True}
+#: ``njit`` options of a kernel that Python calls: no C wrapper, which numba otherwise generates and
+#: optimises for every function and only a first-class function value needs (Morgenstern-Price's
+#: three kernels: 0.3 s less CPU to compile into an empty cache).
+FROM_PYTHON = {"no_cfunc_wrapper": True}
+#: ``njit`` options of a compiled function that only other compiled functions call: neither the C
+#: wrapper nor the Python one (unboxing every argument, boxing the result). Morgenstern-Price's
+#: kernels and λ scan into an empty cache: 10.0 -> 9.0 s of CPU. Calling such a function from
+#: Python raises.
+CALLEE_ONLY = {**FROM_PYTHON, "no_cpython_wrapper": True}
 
 
 def lock_path(kernel) -> str:

@@ -50,7 +50,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit, prange
 
-from .compiled import CALLEE_ONLY, first_call
+from .compiled import CALLEE_ONLY, FROM_PYTHON, first_call
 
 __all__ = ["morgenstern_price", "bracketed_roots", "reverse_circles", "SCAN_LAMBDAS", "REVERSE_MOMENT"]
 
@@ -657,7 +657,7 @@ def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm
     return bF, bl, n_it, found, bfl
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **FROM_PYTHON)
 def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb, couple,
                    fscale, lscale, tol, max_iter, F0, lams, F_out, lam_out, it_out, found_out, fl_out):
     """:func:`_rescue` for a list of (sample, surface) pairs (Spencer's misses, and
@@ -793,7 +793,7 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
     return F, lam, its, found, fl
 
 
-@njit(parallel=True, cache=True, fastmath=_FASTMATH)
+@njit(parallel=True, cache=True, fastmath=_FASTMATH, **FROM_PYTHON)
 def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                 couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
                 fs, lam_out, iters, conv, flags, rescue):
@@ -918,7 +918,7 @@ def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b
     flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
 
 
-@njit(cache=True, fastmath=_FASTMATH)
+@njit(cache=True, fastmath=_FASTMATH, **FROM_PYTHON)
 def _forces_kernel(c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale, lscale,
                    valid, fs, lam, flags, E_out, X_out, yt_out, neff_out):
     """Interslice forces, line of thrust and base normals of the solutions (on request)."""

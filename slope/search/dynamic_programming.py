@@ -43,6 +43,7 @@ import numpy as np
 from numba import njit
 
 from ..errors import InputError
+from ..methods.compiled import FROM_PYTHON
 from .dp_grid import NodeGrid, SegmentTerms, band_grid, segment_terms, start_xy as _start_xy
 from ..strength import base_strength
 from ..surfaces import Polyline
@@ -98,7 +99,7 @@ class DPSettings:
                 raise InputError(f"dynamic-programming {name}: {getattr(self, name)!r}; give a fraction > 0")
 
 
-@njit(cache=True)
+@njit(cache=True, **FROM_PYTHON)
 def _dp(Rc, T, tp, ca, sa, slope, ok, F, theta, entry, leave):  # pragma: no cover - compiled
     """Least ΣQ over admissible paths of the grid at trial F and interslice inclination θ.
 

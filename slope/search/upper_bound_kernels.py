@@ -13,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from ..methods.compiled import CALLEE_ONLY
+from ..methods.compiled import CALLEE_ONLY, FROM_PYTHON
 
 __all__ = ["_work", "_solve_f", "_least_g", "_least_f"]
 
@@ -68,7 +68,7 @@ def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: 
     return True, drive, diss
 
 
-@njit(cache=True)
+@njit(cache=True, **FROM_PYTHON)
 def _solve_f(idx, F0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """F of the work equation F·drive(F) = diss(F) for one set of interfaces; inf without a mechanism.
 
@@ -195,7 +195,7 @@ def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pr
     return h0 + best, idx
 
 
-@njit(cache=True)
+@njit(cache=True, **FROM_PYTHON)
 def _least_f(F0, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """Least F over the table: the least trial F at which some mechanism of the table has G <= 0.
 

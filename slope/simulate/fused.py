@@ -34,6 +34,7 @@ import math
 import numpy as np
 from numba import njit
 
+from ..methods.compiled import FROM_PYTHON
 from ..strength import base_strength
 
 __all__ = ["StrengthMap", "strength_map", "CHUNK_VALUES"]
@@ -46,7 +47,7 @@ CHUNK_VALUES = 1 << 19
 _C, _TAN = 0, 1
 
 
-@njit(cache=True)
+@njit(cache=True, **FROM_PYTHON)
 def _fill(c, tp, phys_t, row_base, row_ptr, col, w, mult, target):
     """Write the random values of rows into c and tp, both (k, B) with B = m × n.
 
