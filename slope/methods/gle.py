@@ -76,7 +76,7 @@ THRUST_E_FRACTION = 0.1
 NEGATIVE_STRENGTH_FRACTION = 0.5
 
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, tol, max_iter,
             F, lam):
     """Newton on (F, lam) for one (sample, surface) with the interslice
@@ -306,7 +306,7 @@ SCAN_LAMBDAS = np.tan(np.radians(np.r_[np.arange(0.0, 80.01, 2.0), -np.arange(2.
 _MAX_BRACKETS = 6
 
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam):
     """Force residual E_n, moment residual and its F derivative at (F, lam).
 
@@ -345,7 +345,7 @@ def _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam):
     return E, g2, g2F, neg
 
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, F0, lams):
     """Starting points (F, lam) bracketed by a scan over lam (both signs).
 
@@ -437,7 +437,7 @@ def _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, F0, l
     return sF, sl, k
 
 
-@njit(cache=True, fastmath=_FASTMATH, inline="always")
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", inline="always")
 def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
     """Interslice normal force on the right of slice i from the one on its left (force recursion)."""
     t = tp[s, m, i]
@@ -449,7 +449,7 @@ def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
     return (E * (Phi - lam * fi * Psi) + F * T - R) / (Phi - lam * f[m, i + 1] * Psi)
 
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
           lscale, F, lam, E_out, X_out, yt_out, neff_out):
     """Flags of a solution (F, lam); also its forces and line of thrust when ``E_out`` has room for
@@ -617,7 +617,7 @@ def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, coupl
         fl_out[j] = fl[j] | (32 if s_neg[j] > NEGATIVE_STRENGTH_FRACTION * s_pos[j] else 0)
 
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple,
             fscale, lscale, tol, max_iter, F0, lams, E_out, X_out, yt_out, neff_out):
     """Bracket-then-Newton solve for a (sample, surface) that Newton from lam = 0 missed.
@@ -657,7 +657,7 @@ def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm
     return bF, bl, n_it, found, bfl
 
 
-@njit(cache=True, fastmath=_FASTMATH, **FROM_PYTHON)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
 def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb, couple,
                    fscale, lscale, tol, max_iter, F0, lams, F_out, lam_out, it_out, found_out, fl_out):
     """:func:`_rescue` for a list of (sample, surface) pairs (Spencer's misses, and
@@ -793,7 +793,7 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
     return F, lam, its, found, fl
 
 
-@njit(parallel=True, cache=True, fastmath=_FASTMATH, **FROM_PYTHON)
+@njit(parallel=True, cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
 def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                 couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
                 fs, lam_out, iters, conv, flags, rescue):
@@ -811,7 +811,7 @@ def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
                  fs, lam_out, iters, conv, flags, rescue)
 
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
              couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
              fs, lam_out, iters, conv, flags, rescue):
@@ -862,7 +862,7 @@ def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
                      couple, fscale, lscale, reverse, tol, max_iter, F0L[s], FL[s], lamL[s], itL[s],
                      doneL[s], flL[s], fs, lam_out, iters, conv, flags, rescue, none)
 
-@njit(cache=True, fastmath=_FASTMATH, **CALLEE_ONLY)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
 def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                  couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
                  fl_lanes, fs, lam_out, iters, conv, flags, rescue, none):
@@ -918,7 +918,7 @@ def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b
     flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
 
 
-@njit(cache=True, fastmath=_FASTMATH, **FROM_PYTHON)
+@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
 def _forces_kernel(c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale, lscale,
                    valid, fs, lam, flags, E_out, X_out, yt_out, neff_out):
     """Interslice forces, line of thrust and base normals of the solutions (on request)."""
