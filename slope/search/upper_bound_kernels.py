@@ -18,7 +18,7 @@ from ..methods.compiled import CALLEE_ONLY, FROM_PYTHON
 __all__ = ["_work", "_solve_f", "_least_g", "_least_f"]
 
 
-@njit(cache=True, **CALLEE_ONLY)
+@njit(cache=True, error_model="numpy", **CALLEE_ONLY)
 def _jump(ex, ey, vx, vy, six, siy, mix, miy, ti):  # pragma: no cover - compiled
     """Velocity triangle at an interface: v_i = a e_i and v_i - v_(i-1) = b g, g inclined at the
     interface's reduced friction angle, in the sense of shear that needs the least jump;
@@ -39,7 +39,7 @@ def _jump(ex, ey, vx, vy, six, siy, mix, miy, ti):  # pragma: no cover - compile
     return best_a, best_b, cg, sg
 
 
-@njit(cache=True, **CALLEE_ONLY)
+@njit(cache=True, error_model="numpy", **CALLEE_ONLY)
 def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """Work of the loads (incl. pore water) and dissipation (undivided by F) at trial F; (ok, drive, diss)."""
     n = tb.shape[0]
@@ -68,7 +68,7 @@ def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: 
     return True, drive, diss
 
 
-@njit(cache=True, **FROM_PYTHON)
+@njit(cache=True, error_model="numpy", **FROM_PYTHON)
 def _solve_f(idx, F0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """F of the work equation F·drive(F) = diss(F) for one set of interfaces; inf without a mechanism.
 
@@ -126,7 +126,7 @@ def _solve_f(idx, F0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # prag
     return hi
 
 
-@njit(cache=True, **CALLEE_ONLY)
+@njit(cache=True, error_model="numpy", **CALLEE_ONLY)
 def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """min over the table of interface inclinations of G = diss - F·drive (first block's speed 1).
 
@@ -195,7 +195,7 @@ def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pr
     return h0 + best, idx
 
 
-@njit(cache=True, **FROM_PYTHON)
+@njit(cache=True, error_model="numpy", **FROM_PYTHON)
 def _least_f(F0, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """Least F over the table: the least trial F at which some mechanism of the table has G <= 0.
 
