@@ -103,17 +103,17 @@ def test_stop_workers_ends_the_idle_pool_and_a_later_call_starts_another():
 
 def test_workers_start_their_warm_up_on_different_long_compilations():
     # Each worker walks every step from its own index: on an empty cache worker 0 compiles
-    # Morgenstern-Price while worker 1 compiles the simulator's kernels, whatever order the case lists
-    # the methods in; the lam scan (which only some searches reach) follows, and the case's search
-    # method (compiled by the command meanwhile) comes last.
+    # Morgenstern-Price while worker 1 compiles the case's search method (the command's first need,
+    # which it then loads), whatever order the case lists the methods in; the simulator's kernels and
+    # the lam scan (which only some searches reach) follow.
     from slipfield.slope.simulate.executors import warm_up_order, warm_up_steps
 
     steps = warm_up_steps(warm_up_order(["spencer", "bishop", "morgenstern-price"], "bishop"))
-    assert steps == [("method", ("morgenstern-price",)), ("simulator", ()), ("scan", ()),
-                     ("method", ("spencer",)), ("method", ("bishop",))]
+    assert steps == [("method", ("morgenstern-price",)), ("method", ("bishop",)), ("simulator", ()),
+                     ("scan", ()), ("method", ("spencer",))]
     assert warm_up_steps([]) == [("simulator", ())]  # `simulate`: no methods named, the simulator's kernels
     # no method that runs the scan: no scan step
-    assert warm_up_steps(["janbu", "bishop"]) == [("method", ("janbu",)), ("simulator", ()), ("method", ("bishop",))]
+    assert warm_up_steps(["janbu", "bishop"]) == [("method", ("janbu",)), ("method", ("bishop",)), ("simulator", ())]
 
 
 def test_a_method_names_only_kernel_groups_the_warm_up_knows():
