@@ -21,7 +21,8 @@ try:  # POSIX; elsewhere every process compiles for itself, as before
 except ImportError:  # pragma: no cover - Windows
     fcntl = None
 
-__all__ = ["first_call", "lock_path", "warm_up", "CALLEE_ONLY", "FROM_PYTHON"]
+__all__ = ["first_call", "lock_path", "warm_up", "warm_up_scan", "kernel_groups", "uses_scan", "KERNEL_GROUPS",
+           "CALLEE_ONLY", "FROM_PYTHON"]
 
 #: ``njit`` options of a kernel that Python calls: no C wrapper, which numba otherwise generates and
 #: optimises for every function and only a first-class function value needs (Morgenstern-Price's
@@ -73,11 +74,23 @@ def first_call(kernel):
 
 #: Groups of compiled kernels a method of slices may call (``MethodOfSlices.compiled``), each warmed
 #: by one tiny call of the real types, longest compilation first (CPU into an empty cache, one
-#: process, 2026-12-04): the general limit-equilibrium kernels of Morgenstern-Price, with and without
-#: forces (the deterministic analysis writes its slice tables), 9-10 s; the λ scan over both signs that
-#: Spencer and Morgenstern-Price run on the cells their Newton missed (only some searches reach it),
-#: 4.5-5 s; Bishop's and Janbu's single-equation kernel, 1.0-1.2 s.
+#: process, 2026-12-04, after that day's cuts): the general limit-equilibrium kernels of
+#: Morgenstern-Price, with and without forces (the deterministic analysis writes its slice tables),
+#: 6.5-7 s; the λ scan over both signs that Spencer and Morgenstern-Price run on the cells their
+#: Newton missed (only some searches reach it), 1.9 s; Bishop's and Janbu's single-equation kernel,
+#: 0.75-0.85 s.
 KERNEL_GROUPS = ("general", "lam-scan", "single-equation")
+
+
+def kernel_groups(method) -> tuple:
+    """The groups of :data:`KERNEL_GROUPS` that ``method`` (a registry name or alias) may call; none
+    for a name the registry does not know (a warm-up never fails a run: the case is checked later)."""
+    from . import method_spec
+
+    try:
+        return tuple(method_spec(method).compiled)
+    except Exception:  # noqa: BLE001
+        return ()
 
 
 def warm_up(methods=(), *, scan=True):
@@ -91,12 +104,8 @@ def warm_up(methods=(), *, scan=True):
 
     groups = {}
     for m in methods:
-        try:
-            spec = method_spec(m)
-        except Exception:  # noqa: BLE001 - a warm-up never fails a run
-            continue
-        for g in spec.compiled:
-            groups.setdefault(g, spec.name)
+        for g in kernel_groups(m):
+            groups.setdefault(g, method_spec(m).name)
     if not scan:
         groups.pop("lam-scan", None)
     if not groups:
@@ -108,15 +117,7 @@ def warm_up(methods=(), *, scan=True):
 
 def uses_scan(methods) -> bool:
     """Whether any of ``methods`` may run the λ scan of :func:`warm_up_scan` (its ``"lam-scan"`` group)."""
-    from . import method_spec
-
-    for m in methods:
-        try:
-            if "lam-scan" in method_spec(m).compiled:
-                return True
-        except Exception:  # noqa: BLE001 - unknown names warm nothing
-            continue
-    return False
+    return any("lam-scan" in kernel_groups(m) for m in methods)
 
 
 def warm_up_scan():

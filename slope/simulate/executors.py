@@ -237,9 +237,9 @@ def start_workers(n_jobs, methods=()):
     command will call (the workers compile their kernels meanwhile, see
     :mod:`slope.methods.compiled`). Every worker walks every step of
     :func:`warm_up_steps`, worker k starting at step k: on an empty cache the
-    longest compilations (Morgenstern-Price, the simulator's kernels, then the
-    λ scan of Spencer and Morgenstern-Price) then run in different processes at once, and a worker reaching a
-    kernel another one is compiling waits for its lock and loads it. (Splitting
+    longest compilation (Morgenstern-Price) and the search method's kernel then
+    compile in different processes at once, and a worker reaching a kernel
+    another one is compiling waits for its lock and loads it. (Splitting
     the methods' list between workers without that lock was measured slower:
     kernels sharing compiled callees compiled them in several processes.) A
     second call with the same ``n_jobs`` does nothing; with another, the first
@@ -304,21 +304,17 @@ def warm_up_steps(methods):
 def _compile_rank(method) -> int:
     """Where ``method``'s own kernels come in :data:`slope.methods.compiled.KERNEL_GROUPS` (longest
     compilation first; its λ scan is a step of its own); methods with none, or unknown, come last."""
-    from ..methods import method_spec
-    from ..methods.compiled import KERNEL_GROUPS
+    from ..methods.compiled import KERNEL_GROUPS, kernel_groups
 
-    try:
-        groups = [g for g in method_spec(method).compiled if g != "lam-scan"]
-    except Exception:  # noqa: BLE001 - a warm-up never fails a run
-        groups = []
-    return min((KERNEL_GROUPS.index(g) for g in groups), default=len(KERNEL_GROUPS))
+    return min((KERNEL_GROUPS.index(g) for g in kernel_groups(method) if g != "lam-scan"),
+               default=len(KERNEL_GROUPS))
 
 
 def _warm_worker(parent=None, methods=(), k=0):
     """In a worker: import the simulator and load its compiled kernels (tiny calls).
 
     The steps of :func:`warm_up_steps` from step ``k`` round (worker k of the pool): the methods'
-    kernels (the command needs them after its search, which compiles the search method), and the
+    kernels (the search method's first in the command, the others after its search), and the
     simulator's: the strength map, Bishop, and the dynamic-programming kernel of the per-realisation
     search and the rigid-block rule of its paths (each under its compile lock: without this, every
     worker compiled them at its first searched realisation). The worker also starts watching
@@ -351,7 +347,7 @@ def _warm_simulator():
 
     _warm_dynamic_programming()
     warm_rigid_blocks()  # the rule for free paths of the same search (slope.search.path_acceptance)
-    fused.warm_up()  # last: it also calls Bishop's kernel, which a first run's command is compiling
+    fused.warm_up()  # last: it also calls Bishop's kernel, which the search method's step may be compiling
 
 
 def _warm_dynamic_programming():
