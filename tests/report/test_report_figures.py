@@ -166,6 +166,38 @@ def test_fits_match_closed_form_mle_and_recover_parameters():
     assert fits["lognormal"]["pf"] == pytest.approx(stats.norm.cdf(np.log(1 / fits["lognormal"]["scale"]) / fits["lognormal"]["s"]), rel=1e-9)
 
 
+def test_fits_are_scipy_stats_fits_to_the_last_bit():
+    # The closed forms are written out (drawing must not import scipy.stats, below); they must stay the
+    # numbers scipy.stats.norm.fit / lognorm.fit(floc=0) and their CDFs at FS = 1 give (scipy as the
+    # reference library), for lognormal-like FS and for samples with FS <= 0 (normal fit only).
+    rng = np.random.default_rng(17)
+    for k in range(40):
+        fs = np.exp(rng.normal(0.2, rng.uniform(0.02, 0.5), int(rng.integers(2, 2000))))
+        if k % 4 == 0:
+            fs = fs - 0.9   # some FS <= 0
+        fits = fit_fs_distributions(fs)
+        mu, sd = stats.norm.fit(fs)
+        assert fits["normal"] == {"mean": float(mu), "std": float(sd), "pf": float(stats.norm.cdf(1.0, mu, sd))}
+        if np.all(fs > 0):
+            s, _, scale = stats.lognorm.fit(fs, floc=0.0)
+            assert fits["lognormal"] == {"s": float(s), "scale": float(scale), "median": float(scale),
+                                         "pf": float(stats.lognorm.cdf(1.0, s, 0.0, scale))}
+        else:
+            assert fits["lognormal"] is None
+
+
+def test_drawing_the_fs_distribution_does_not_import_scipy_stats():
+    # each worker that draws a run's figures imported scipy.stats for these fits alone (issue 17)
+    import subprocess
+    import sys
+
+    code = ("import sys, numpy as np; from slipfield.slope.report.figures.distributions import plot_fs_distribution; "
+            "plot_fs_distribution(np.random.default_rng(3).lognormal(0.2, 0.1, 500)); "
+            "print('scipy.stats' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
+
+
 def test_fs_distribution_curves_are_scipy_densities_and_ecdf():
     rng = np.random.default_rng(11)
     fs = rng.lognormal(np.log(1.25), 0.2, 1500)

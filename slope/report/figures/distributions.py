@@ -7,7 +7,7 @@ import numpy as np
 
 from ...errors import InputError
 from matplotlib.ticker import FuncFormatter, NullFormatter
-from scipy import stats
+from scipy.special import ndtr
 
 from ..style import PALETTE, new_figure, report_style
 from ._common import _axes, _vector
@@ -18,11 +18,14 @@ __all__ = ['fit_fs_distributions', 'plot_fs_distribution', 'plot_pf_convergence'
 def fit_fs_distributions(fs_samples) -> dict:
     """Maximum-likelihood normal and lognormal fits to factors of safety.
 
-    Normal: ``scipy.stats.norm.fit`` (mean and the ddof=0 standard
-    deviation). Lognormal: ``scipy.stats.lognorm.fit`` with the location
-    fixed at zero (two-parameter lognormal), i.e. ``s`` = standard deviation
-    of ln FS (ddof=0) and ``scale`` = exp(mean of ln FS). The lognormal fit is
-    skipped (``None``) when any FS is not positive.
+    Normal: mean and the ddof=0 standard deviation. Lognormal with the
+    location fixed at zero (two-parameter lognormal): ``scale`` = exp(mean of
+    ln FS) and ``s`` = root mean square of ln FS - ln ``scale``. Both are the
+    closed forms ``scipy.stats.norm.fit`` and ``scipy.stats.lognorm.fit(...,
+    floc=0)`` evaluate, in the same order (the same numbers, tested); written
+    out so that drawing figures does not import scipy.stats (a second per
+    worker of a run). The lognormal fit is skipped (``None``) when any FS is
+    not positive.
 
     Parameters
     ----------
@@ -39,12 +42,16 @@ def fit_fs_distributions(fs_samples) -> dict:
     fs = _vector(fs_samples, "fs_samples", min_len=2)
     if not np.all(np.isfinite(fs)):
         raise InputError("fs_samples: contains NaN/inf; pass only converged, admissible FS and count the rest separately.")
-    mu, sd = stats.norm.fit(fs)
-    out = {"n": int(fs.size), "normal": {"mean": float(mu), "std": float(sd), "pf": float(stats.norm.cdf(1.0, mu, sd)) if sd > 0 else float(mu < 1.0)}}
+    mu = fs.mean()
+    sd = np.sqrt(((fs - mu) ** 2).mean())
+    out = {"n": int(fs.size), "normal": {"mean": float(mu), "std": float(sd),
+                                         "pf": float(ndtr((1.0 - mu) / sd)) if sd > 0 else float(mu < 1.0)}}
     if np.all(fs > 0):
-        s, _, scale = stats.lognorm.fit(fs, floc=0.0)
+        ln_fs = np.log(fs)
+        scale = np.exp(ln_fs.mean())
+        s = np.sqrt(np.mean((ln_fs - np.log(scale)) ** 2))
         out["lognormal"] = {"s": float(s), "scale": float(scale), "median": float(scale),
-                            "pf": float(stats.lognorm.cdf(1.0, s, 0.0, scale)) if s > 0 else float(scale < 1.0)}
+                            "pf": float(ndtr(np.log(1.0 / scale) / s)) if s > 0 else float(scale < 1.0)}
     else:
         out["lognormal"] = None
     return out
@@ -111,11 +118,14 @@ def plot_fs_distribution(
         nrm = fits["normal"]
         # A constant FS (e.g. no random input) has no density to draw.
         if nrm["std"] > 1e-9 * abs(nrm["mean"]):
-            ax_h.plot(x, stats.norm.pdf(x, nrm["mean"], nrm["std"]), color=PALETTE["blue"],
+            z = (x - nrm["mean"]) / nrm["std"]
+            ax_h.plot(x, np.exp(-0.5 * z * z) / (np.sqrt(2.0 * np.pi) * nrm["std"]), color=PALETTE["blue"],
                       label=f"normal fit (μ = {nrm['mean']:.3f}, σ = {nrm['std']:.3f})", gid="fit-normal")
         if fits["lognormal"] is not None and fits["lognormal"]["s"] > 1e-9:
             ln = fits["lognormal"]
-            ax_h.plot(x, stats.lognorm.pdf(x, ln["s"], 0.0, ln["scale"]), color=PALETTE["vermillion"], linestyle="--",
+            z = np.log(x / ln["scale"]) / ln["s"]
+            ax_h.plot(x, np.exp(-0.5 * z * z) / (np.sqrt(2.0 * np.pi) * ln["s"] * x), color=PALETTE["vermillion"],
+                      linestyle="--",
                       label=f"lognormal fit (median = {ln['median']:.3f}, σ_ln = {ln['s']:.3f})", gid="fit-lognormal")
         ax_h.axvline(1.0, color=PALETTE["black"], linewidth=1.0, linestyle=":", label="FS = 1")
         ax_h.set_xlabel("factor of safety FS")
