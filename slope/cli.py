@@ -45,7 +45,9 @@ def _run_pool_early(args, *, methods: bool = True) -> bool:
     """Start the worker pool of ``slipfield run`` or ``simulate`` before the command imports its analyses.
 
     Importing them takes about 1.3 s of one core, while the workers' own start-up (interpreter,
-    imports, compiled kernels) takes about 1 s on each of the others; started here they overlap.
+    imports, compiled kernels) takes about 1 s on each of the others; started here they overlap
+    (``--jobs N``: N - 1 workers, the command's process being the N-th, see
+    :func:`slope.simulate.executors.run_tasks`).
     The pool's size is read from ``--jobs`` or the case file's ``simulation.jobs`` as written (a
     whole number >= 2; anything else starts nothing here and is checked with the case as before), so
     it is the size the checked case gives. ``methods``: the workers also warm the kernels of the

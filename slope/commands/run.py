@@ -354,11 +354,14 @@ def run_case(case_path, out_dir, *, realisations=None, jobs=None, quiet=True,
 
     def ready(case, n_jobs):
         from ..simulate.driver import start_workers
-        from ..simulate.executors import warm_up_order
+        from ..simulate.executors import warm_here, warm_up_order
 
         pool["n_jobs"] = n_jobs  # the figures are drawn by the same workers
-        # the pool starts while the case's checks run the search (its kernel in this process)
-        start_workers(n_jobs, methods=warm_up_order(case.analysis["methods"], case.analysis["method"]))
+        # the pool starts while the case's checks run the search; this process takes its own share of
+        # the compilations first (the search method's kernel, which the checks need, comes first in it)
+        methods = warm_up_order(case.analysis["methods"], case.analysis["method"])
+        start_workers(n_jobs, methods=methods)
+        warm_here(n_jobs, methods)
 
     try:
         case, res = analyse_case(case_path, realisations=realisations, jobs=jobs, quiet=quiet, on_ready=ready,

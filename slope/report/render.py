@@ -1,13 +1,13 @@
-"""The figures of a run drawn and written, in this process or by a pool of worker processes.
+"""The figures of a run drawn and written, in this process alone or with the run's pool of workers.
 
 Each entry of :data:`~slope.report.figures.catalogue.CATALOGUE` is one task:
 it draws its figures from the typed results and writes each to
 ``figures/<stem>.png`` (and ``.svg`` when asked) at once, so neither this
 process nor a worker holds more than one entry's figures. With ``n_jobs`` ≥ 2
 the case and the typed results are written once to a private temporary file
-that each worker reads once; the tasks run on the run's worker pool
-(:func:`slope.simulate.executors.run_tasks`, the pool the simulations used),
-and each worker draws with matplotlib's Agg renderer (figures are made as
+that each worker reads once; the tasks run on the run's pool and in this
+process (:func:`slope.simulate.executors.run_tasks`, as the simulations),
+and each process draws with matplotlib's Agg renderer (figures are made as
 :class:`matplotlib.figure.Figure`, never through pyplot). The files are the
 same whichever way they are drawn; the items come back in catalogue order.
 """
@@ -71,7 +71,8 @@ def render_figures(case, res, fig_dir, formats=("png",), *, n_jobs: int = 1) -> 
     path = _ship_for_figures((case, res, _built_banks(res)))
     try:
         done = dict(zip(order, run_tasks(_render_in_worker, [(path, i, str(fig_dir), formats) for i in order],
-                                         n_jobs=int(n_jobs))))
+                                         n_jobs=int(n_jobs),
+                                         here=lambda _path, i, d, f: render_entry(case, res, i, Path(d), f))))
     finally:
         _unship(path)
     return [d for i in range(len(CATALOGUE)) for d in done[i]]

@@ -1,4 +1,4 @@
-"""Where simulation tasks run: in this process, in a local joblib pool, or on a dask cluster.
+"""Where simulation tasks run: in this process (beside a local pool of workers), or on a dask cluster.
 
 :func:`run_tasks` is the one way to run a stream of tasks;
 :func:`connect_scheduler` the one dask connector (every step bounded).
@@ -13,7 +13,7 @@ import warnings
 from ..errors import InputError
 
 __all__ = ["run_tasks", "connect_scheduler", "SchedulerLost", "SCHEDULER_TIMEOUT_S", "start_workers", "warm_up_order",
-           "stop_workers", "limit_threads"]
+           "warm_here", "stop_workers", "limit_threads"]
 
 # An interrupted run closes the pool's result stream on purpose (the finished blocks are
 # stored); joblib's advice about unused results is not for the user.
@@ -56,12 +56,22 @@ def _cancelled_errors():
     return tuple(e for e in errs if isinstance(e, type) and issubclass(e, BaseException))
 
 
-def run_tasks(fn, tasks, *, n_jobs=1, scheduler=None):
+def run_tasks(fn, tasks, *, n_jobs=1, scheduler=None, here=None):
     """``fn(*task)`` for each task, yielded in task order as they complete.
 
     One stream of tasks for the whole run, so workers never wait for each
     other at block boundaries. Results must not depend on where a task runs
     (streams keyed by realisation, see DEVELOPERS.md "Seeds").
+
+    With ``n_jobs`` >= 2 the tasks run in this process and in a pool of
+    ``n_jobs - 1`` worker processes (:func:`start_workers`): ``n_jobs`` cores in
+    all, one process fewer to start than a pool of ``n_jobs`` beside an idle
+    command (``slipfield simulate`` of 16,000 realisations, search off, 2 cores:
+    ``--jobs 1`` / ``--jobs 2`` 1.67-1.72 against 1.52-1.56). Each worker holds
+    one task at a time, the next handed out as its task ends, and this process
+    takes the next task in between: whoever is free takes the next, so a long
+    task holds up no other (none waits queued behind it). One task queued per
+    worker ahead of time measured no faster.
 
     Parameters
     ----------
@@ -70,12 +80,16 @@ def run_tasks(fn, tasks, *, n_jobs=1, scheduler=None):
     tasks : sequence of tuple
         Positional arguments of each call.
     n_jobs : int
-        Local joblib worker processes (1: in this process). Workers end when
-        this process dies and leave Ctrl-C to it.
+        Cores: this process and ``n_jobs - 1`` local worker processes (1: this
+        process only). Workers end when this process dies and leave Ctrl-C to it.
     scheduler : dask.distributed.Client, optional
         Run the tasks on a cluster instead; a scheduler that stops answering
         raises :class:`SchedulerLost`. After an interruption the outstanding
         tasks are cancelled.
+    here : callable, optional
+        What runs a task in this process (default ``fn``), with the same
+        arguments and the same result: e.g. on an object this process holds
+        where ``fn`` loads it from a file in a worker.
     """
     tasks = list(tasks)
     if scheduler is not None:
@@ -88,15 +102,90 @@ def run_tasks(fn, tasks, *, n_jobs=1, scheduler=None):
             except Exception:  # noqa: BLE001 - a lost scheduler has nothing left to cancel
                 pass
         return
+    here = fn if here is None else here
     if n_jobs == 1 or len(tasks) == 1:
         for t in tasks:
-            yield fn(*t)
+            yield here(*t)
         return
-    from joblib import Parallel, delayed
+    yield from _here_and_pool(fn, here, tasks, int(n_jobs))
 
+
+def _here_and_pool(fn, here, tasks, n_jobs):
+    """:func:`run_tasks` on this process and the pool of ``n_jobs - 1`` workers."""
+    import threading
+
+    pool = _pool(n_jobs)
     parent = os.getpid()
-    yield from Parallel(n_jobs=n_jobs, return_as="generator")(
-        delayed(_in_worker)(parent, fn, *t) for t in tasks)
+    n = len(tasks)
+    lock = threading.Lock()
+    out = {}        # task index -> future of the task in a worker
+    done = {}       # task index -> result
+    state = {"next": 0, "closed": False}
+    ahead = n_jobs - 1  # one task per worker: the next is handed out by the pool's result thread
+
+    def take():
+        with lock:
+            i = state["next"]
+            if i >= n or state["closed"]:
+                return None
+            state["next"] = i + 1
+            return i
+
+    def feed(_ended=None):
+        while True:
+            with lock:
+                if state["closed"] or state["next"] >= n or sum(not f.done() for f in out.values()) >= ahead:
+                    return
+                i = state["next"]
+                state["next"] = i + 1
+                f = out[i] = pool.submit(_in_worker, parent, fn, *tasks[i])
+            f.add_done_callback(feed)
+
+    feed()
+    try:
+        for k in range(n):
+            while k not in done:
+                f = out.get(k)
+                if f is not None and f.done():
+                    done[k] = f.result()
+                    break
+                i = take()
+                if i is not None:  # this process takes the next task
+                    done[i] = here(*tasks[i])
+                    continue
+                done[k] = out[k].result()  # nothing left to take: wait for the worker
+            with lock:  # the pool's result thread counts the tasks out under it
+                out.pop(k, None)
+            yield done.pop(k)
+    finally:
+        with lock:
+            state["closed"] = True
+        for f in out.values():
+            f.cancel()
+
+
+def _pool_env(n_jobs):
+    """Environment of the workers: their thread pools (OpenMP, BLAS, numba) share the cores out as
+    joblib's pools did (``cores // n_jobs`` threads each, at least one)."""
+    threads = str(max((os.cpu_count() or 1) // int(n_jobs), 1))
+    names = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "BLIS_NUM_THREADS",
+             "VECLIB_MAXIMUM_THREADS", "NUMBA_NUM_THREADS", "NUMEXPR_NUM_THREADS")
+    return {name: os.environ.get(name, threads) for name in names}
+
+
+#: Seconds an idle worker waits for work before it ends (a run's serial phases are shorter).
+IDLE_WORKER_S = 300
+
+
+def _pool(n_jobs):
+    """The reusable pool of ``n_jobs - 1`` workers, started at the first call, then reused.
+
+    joblib's (its memmapping wrapper of loky's reusable executor), so that a ``joblib.Parallel`` in
+    the same process finds a pool it can use (it restarts one whose settings differ from its own).
+    """
+    from joblib.executor import get_memmapping_executor
+
+    return get_memmapping_executor(int(n_jobs) - 1, timeout=IDLE_WORKER_S, env=_pool_env(n_jobs))
 
 
 def _in_worker(parent, fn, *args):
@@ -110,13 +199,14 @@ SCHEDULER_TIMEOUT_S = 5.0
 def limit_threads(n_jobs: int) -> int:
     """Bound the compute threads of this process by the jobs a command was given.
 
-    ``--jobs N`` is the number of cores a command may use: its worker
-    processes run their compiled kernels on one thread each (joblib gives
-    each of N workers ``cores // N`` threads, and :func:`_run_shipped_block`
-    sets one), and this process -- which runs the deterministic search, the
-    single-variable analyses and, with ``--jobs 1``, the whole simulation --
-    uses at most ``N`` threads for numba's parallel kernels and the BLAS and
-    OpenMP pools loaded so far. Without it ``--jobs 1`` ran the kernels on
+    ``--jobs N`` is the number of cores a command may use: its N - 1 worker
+    processes run their compiled kernels on one thread each (their thread
+    pools get ``cores // N`` threads, and :func:`_run_shipped_block` sets one),
+    and so does this process while it runs simulation blocks beside them
+    (:func:`run_tasks`); otherwise this process -- which runs the
+    deterministic search, the single-variable analyses and, with ``--jobs 1``,
+    the whole simulation -- uses at most ``N`` threads for numba's parallel
+    kernels and the BLAS and OpenMP pools loaded so far. Without it ``--jobs 1`` ran the kernels on
     every core, so ``--jobs 2`` against ``--jobs 1`` measured two processes
     against two threads. Results do not depend on the thread count.
 
@@ -227,23 +317,25 @@ def warm_up_order(methods, search):
 
 
 def start_workers(n_jobs, methods=()):
-    """Start the pool of ``n_jobs`` workers in the background and load the simulator in them.
+    """Start the pool of ``n_jobs - 1`` workers in the background and load the simulator in them.
 
     A command calls this before its serial work (case, deterministic search)
     so that the workers' start-up (interpreter, imports, compiled kernels
     loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
-    run then uses the same pool (joblib's reusable executor). No effect for
-    ``n_jobs`` 1. Results do not depend on it. ``methods``: methods of slices the
-    command will call (the workers compile their kernels meanwhile, see
+    run then uses the same pool (loky's reusable executor), with this process
+    as the ``n_jobs``-th (:func:`run_tasks`). No effect for ``n_jobs`` 1.
+    Results do not depend on it. ``methods``: methods of slices the command
+    will call (the workers compile their kernels meanwhile, see
     :mod:`slope.methods.compiled`). Every worker walks every step of
-    :func:`warm_up_steps`, worker k starting at step k: on an empty cache the
-    longest compilation (Morgenstern-Price) and the search method's kernel then
-    compile in different processes at once, and a worker reaching a kernel
-    another one is compiling waits for its lock and loads it. (Splitting
-    the methods' list between workers without that lock was measured slower:
-    kernels sharing compiled callees compiled them in several processes.) A
-    second call with the same ``n_jobs`` does nothing; with another, the first
-    pool is ended and a pool of ``n_jobs`` started.
+    :func:`warm_up_steps`, worker k starting at step k, and this process may
+    walk them from step ``n_jobs - 1`` (:func:`warm_here`): on an empty cache
+    the longest compilation (Morgenstern-Price) and the search method's kernel
+    then compile in different processes at once, and a process reaching a
+    kernel another one is compiling waits for its lock and loads it.
+    (Splitting the methods' list between workers without that lock was
+    measured slower: kernels sharing compiled callees compiled them in several
+    processes.) A second call with the same ``n_jobs`` does nothing; with
+    another, the first pool is ended and a pool for ``n_jobs`` started.
     """
     global _WARMING, _WARM_JOBS
     if int(n_jobs) < 2 or (_WARMING is not None and _WARM_JOBS == int(n_jobs)):
@@ -255,15 +347,26 @@ def start_workers(n_jobs, methods=()):
 
     def warm():
         try:
-            from joblib import Parallel, delayed
-
             parent = os.getpid()
-            Parallel(n_jobs=int(n_jobs))(delayed(_warm_worker)(parent, tuple(methods), k) for k in range(int(n_jobs)))
+            pool = _pool(n_jobs)
+            for f in [pool.submit(_warm_worker, parent, tuple(methods), k) for k in range(int(n_jobs) - 1)]:
+                f.result()
         except Exception:  # noqa: BLE001 - a failed warm-up only costs the time it would have saved
             pass
 
     _WARMING = threading.Thread(target=warm, name="slipfield-start-workers", daemon=True)
     _WARMING.start()
+
+
+def warm_here(n_jobs, methods=()):
+    """This process's share of the warm-up of :func:`start_workers`: the steps of
+    :func:`warm_up_steps` from step ``n_jobs - 1`` (the workers take steps 0 .. n_jobs - 2).
+
+    ``slipfield run`` calls it before its case checks run the search: on an empty cache this process
+    compiles the search method's kernel, then the simulator's, while the worker compiles the
+    longest one; on later runs it loads them (it runs simulation blocks itself)."""
+    if int(n_jobs) >= 2:
+        _warm_worker(None, tuple(methods), int(n_jobs) - 1)
 
 
 def _await_workers():
@@ -278,10 +381,11 @@ def warm_up_steps(methods):
     simulator's kernels, the λ scan of Spencer and Morgenstern-Price when one of them is named, then
     the other methods.
 
-    Worker 1 starts at the search method's step: on a first run it compiles that kernel while worker
-    0 compiles the longest one, and the command, which needs the search method first, waits for it
-    under its compile lock instead of compiling it beside both workers (levee demo, cold, 3 pairs:
-    16.5-16.8 s against 16.9-17.6 s; warm unchanged).
+    Step 1 (``slipfield run``'s own process with ``--jobs 2``, :func:`warm_here`; worker 1 with
+    more jobs) starts at the search method's step: on a first run that kernel compiles while worker
+    0 compiles the longest one, and the command, which needs the search method first, has it
+    without a third compiling process on 2 cores (levee demo, cold, 3 pairs: 16.5-16.8 s against
+    16.9-17.6 s when the command compiled it beside both workers; warm unchanged).
 
     Returns
     -------

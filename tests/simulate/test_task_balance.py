@@ -39,3 +39,38 @@ def test_a_long_task_does_not_hold_up_the_others(tmp_path):
     # every other task ran while task 0 held its worker: on the other worker
     assert seen == N_TASKS - 1
     assert all(pid != pid0 for _, _, pid in out[1:])
+
+
+def _marked(folder, k):
+    # task 0 waits (bounded) for a task run by another process; every task leaves a mark with its pid
+    if k == 0:
+        deadline = time.monotonic() + WAIT_BOUND_S
+        while time.monotonic() < deadline and not any(
+                not name.startswith(f"{os.getpid()}-") for name in os.listdir(folder)):
+            time.sleep(0.02)
+    with open(os.path.join(folder, f"{os.getpid()}-{k}"), "w"):
+        pass
+    return os.getpid()
+
+
+def test_the_command_runs_tasks_beside_its_workers(tmp_path):
+    # --jobs N: this process and N - 1 workers take the tasks (one process fewer to start); results
+    # still come back in task order, and both kinds of process ran some
+    pids = list(run_tasks(_marked, [(str(tmp_path), k) for k in range(6)], n_jobs=2))
+    assert len(pids) == 6 and len(set(pids)) == 2
+    assert os.getpid() in pids
+    assert sorted(int(name.split("-")[1]) for name in os.listdir(tmp_path)) == list(range(6))
+
+
+def test_a_joblib_parallel_in_the_same_process_after_and_before_the_pool():
+    # the pool is joblib's own kind: a joblib.Parallel after it, and the pool again after that, work
+    from joblib import Parallel, delayed
+
+    from slipfield.slope.simulate.executors import stop_workers
+
+    try:
+        assert list(run_tasks(abs, [(-k,) for k in range(5)], n_jobs=2)) == [0, 1, 2, 3, 4]
+        assert Parallel(n_jobs=2)(delayed(abs)(-k) for k in range(5)) == [0, 1, 2, 3, 4]
+        assert list(run_tasks(abs, [(-k,) for k in range(5)], n_jobs=2)) == [0, 1, 2, 3, 4]
+    finally:
+        stop_workers()
