@@ -31,7 +31,7 @@ from ..search import evaluate_surfaces, search_from_case
 from ..search.families import add_families
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "trial_surfaces", "single_variable_reliability", "random_problem",
+__all__ = ["deterministic", "add_other_methods", "trial_surfaces", "single_variable_reliability", "random_problem",
            "surface_xy", "properties_for", "marginal_of"]
 
 
@@ -84,12 +84,20 @@ def _search_dict(res, section) -> dict:
     }
 
 
-def deterministic(case: Case) -> dict:
+def deterministic(case: Case, *, other_methods: bool = True) -> dict:
     """Critical surface and FS for every hypothesis × method of the case.
 
     The surface bank is searched with the case's random-run method; every
     other method is evaluated on the same bank, so all methods see the same
     trial surfaces.
+
+    Parameters
+    ----------
+    case : Case
+    other_methods : bool
+        Also evaluate the case's other methods (:func:`add_other_methods`);
+        False: the run method's search only, which is all the random analyses
+        start from (``slipfield run`` evaluates the others after them).
 
     Returns
     -------
@@ -99,12 +107,23 @@ def deterministic(case: Case) -> dict:
         ``critical_index``, trial counts, reasons for not counted trials and
         the critical surface's points (m).
     """
-    out = {}
     run_method = case.analysis["method"]
-    methods = list(dict.fromkeys([run_method] + list(case.analysis["methods"])))
+    out = {}
     for hyp in case.analysis["hypotheses"]:
         first = trial_surfaces(case, hyp, run_method)
-        per_method = {run_method: _search_dict(first, case.section)}
+        out[hyp] = {"bank": first, "methods": {run_method: _search_dict(first, case.section)}}
+    if other_methods:
+        add_other_methods(case, out)
+    return out
+
+
+def add_other_methods(case: Case, det: dict) -> None:
+    """The case's methods other than the run method, evaluated on each hypothesis's bank of ``det``
+    (:func:`deterministic`), added to its ``"methods"`` in the case's order (in place)."""
+    run_method = case.analysis["method"]
+    methods = list(dict.fromkeys([run_method] + list(case.analysis["methods"])))
+    for hyp, d in det.items():
+        first = d["bank"]
         for m in methods[1:]:
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
             # the same surfaces and slices: the search's own slice bank, not built again per method
@@ -114,9 +133,7 @@ def deterministic(case: Case) -> dict:
                 if k in first.rejected:
                     res.rejected[k] = first.rejected[k]
                     res.n_trials = first.n_trials
-            per_method[m] = _search_dict(res, case.section)
-        out[hyp] = {"bank": first, "methods": per_method}
-    return out
+            d["methods"][m] = _search_dict(res, case.section)
 
 
 def properties_for(case: Case, hypothesis: str) -> list[dict]:

@@ -26,7 +26,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case.analyses import deterministic, random_problem, single_variable_reliability
+from ..case.analyses import add_other_methods, deterministic, random_problem, single_variable_reliability
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import estimate_pf
@@ -287,19 +287,26 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     n, n_jobs = _counts(case, realisations, jobs, on_ready)
     hyps = case.analysis["hypotheses"]
     progress.say(f"deterministic search ({', '.join(hyps)})")
-    det = deterministic(case)
+    # the random analyses start from the run method's bank; the other methods are evaluated on it after
+    # them (the same numbers), so that on a first run they do not wait for their kernels, which the
+    # pool is still compiling (Morgenstern-Price: the longest)
+    det = deterministic(case, other_methods=False)
     res = RunResults(
         case_path=str(case_path), case_sha256=hashlib.sha256(raw).hexdigest(), title=case.title,
         note=case.data["case"].get("note", ""), version=_version(),
         started_utc=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC"),
-        seed=int(case.simulation["seed"]), realisations=n, deterministic=_deterministic(case, det),
-        single_variable={}, spatial={})
+        seed=int(case.simulation["seed"]), realisations=n, deterministic={}, single_variable={}, spatial={})
     for h in hyps:
         methods = ", ".join(case.data.get("reliability", {}).get("methods", []))
         progress.say(f"{h} · single random variables ({methods})")
         res.single_variable[h] = _single_variable(case, det, h, est)
     for h in hyps:
         res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress, estimator=est)
+    others = [m for m in dict.fromkeys(case.analysis["methods"]) if m != case.analysis["method"]]
+    if others:
+        progress.say(f"deterministic FS by {', '.join(others)} on the same trial surfaces")
+        add_other_methods(case, det)
+    res.deterministic = _deterministic(case, det)
     res.risk = risk_points(case, res)
     res.analysis_time_s = round(time.perf_counter() - t_start, 2)
     return case, res

@@ -360,13 +360,14 @@ def start_workers(n_jobs, methods=()):
 
 def warm_here(n_jobs, methods=()):
     """This process's share of the warm-up of :func:`start_workers`: the steps of
-    :func:`warm_up_steps` from step ``n_jobs - 1`` (the workers take steps 0 .. n_jobs - 2).
+    :func:`warm_up_steps` from step ``n_jobs - 1`` to the last (the workers start at steps
+    0 .. n_jobs - 2, which this process does not wait for).
 
     ``slipfield run`` calls it before its case checks run the search: on an empty cache this process
     compiles the search method's kernel, then the simulator's, while the worker compiles the
     longest one; on later runs it loads them (it runs simulation blocks itself)."""
     if int(n_jobs) >= 2:
-        _warm_worker(None, tuple(methods), int(n_jobs) - 1)
+        _warm_worker(None, tuple(methods), int(n_jobs) - 1, round_=False)
 
 
 def _await_workers():
@@ -414,15 +415,16 @@ def _compile_rank(method) -> int:
                default=len(KERNEL_GROUPS))
 
 
-def _warm_worker(parent=None, methods=(), k=0):
+def _warm_worker(parent=None, methods=(), k=0, *, round_=True):
     """In a worker: import the simulator and load its compiled kernels (tiny calls).
 
-    The steps of :func:`warm_up_steps` from step ``k`` round (worker k of the pool): the methods'
-    kernels (the search method's first in the command, the others after its search), and the
-    simulator's: the strength map, Bishop, and the dynamic-programming kernel of the per-realisation
-    search and the rigid-block rule of its paths (each under its compile lock: without this, every
-    worker compiled them at its first searched realisation). The worker also starts watching
-    ``parent`` (it ends if the run is killed during the search, before any task reached it).
+    The steps of :func:`warm_up_steps` from step ``k`` round (worker k of the pool; ``round_``
+    False: from step ``k`` to the last only): the methods' kernels (the search method's first in
+    the command, the others after its search), and the simulator's: the strength map, Bishop, and
+    the dynamic-programming kernel of the per-realisation search and the rigid-block rule of its
+    paths (each under its compile lock: without this, every worker compiled them at its first
+    searched realisation). The worker also starts watching ``parent`` (it ends if the run is killed
+    during the search, before any task reached it).
     """
     if parent is not None:
         _watch_parent(parent)
@@ -431,7 +433,7 @@ def _warm_worker(parent=None, methods=(), k=0):
 
     steps = warm_up_steps(methods)
     k = int(k) % len(steps)
-    for kind, args in steps[k:] + steps[:k]:
+    for kind, args in steps[k:] + (steps[:k] if round_ else []):
         if kind == "method":
             from ..methods.compiled import warm_up
 

@@ -126,3 +126,23 @@ def test_a_method_names_only_kernel_groups_the_warm_up_knows():
     with pytest.raises(ValueError, match="unknown kernel groups"):
         register_method(MethodOfSlices("misspelt", METHODS["bishop"].run, compiled=("single_equation",)))
     assert "misspelt" not in METHODS
+
+
+def test_the_command_takes_its_own_steps_and_never_waits_for_the_workers_first(monkeypatch):
+    # --jobs 2: the worker starts at step 0 (the longest compilation), the command at step 1 (the search
+    # method, which its case checks need) to the last step; it never reaches step 0, which would make
+    # it wait for the worker's compilation instead of going on with the run
+    from slipfield.slope.methods import compiled
+    from slipfield.slope.simulate import executors
+
+    walked = []
+    monkeypatch.setattr(compiled, "warm_up", lambda methods, scan=True: walked.append(("method", tuple(methods))))
+    monkeypatch.setattr(compiled, "warm_up_scan", lambda: walked.append(("scan", ())))
+    monkeypatch.setattr(executors, "_warm_simulator", lambda: walked.append(("simulator", ())))
+    methods = executors.warm_up_order(["spencer", "bishop", "morgenstern-price"], "bishop")
+    executors.warm_here(2, methods)
+    assert walked == executors.warm_up_steps(methods)[1:]
+    assert ("method", ("morgenstern-price",)) not in walked
+    walked.clear()
+    executors.warm_here(1, methods)  # --jobs 1: no pool, nothing ahead of the run
+    assert walked == []

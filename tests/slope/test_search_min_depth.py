@@ -54,3 +54,24 @@ def test_min_depth_excludes_shallower_surfaces(tmp_path):
     for m in ("bishop", "spencer"):  # counted, with their own reason, for every method's row
         assert deep[m]["not_counted"][MIN_DEPTH_REASON] > shallow[m]["not_counted"].get(MIN_DEPTH_REASON, 0)
         assert deep[m]["n_trials"] == shallow[m]["n_trials"]
+
+
+def test_other_methods_added_later_give_the_same_results_in_the_same_order(tmp_path):
+    # `slipfield run` evaluates the methods other than the run method after its random analyses (their
+    # kernels may still be compiling in the pool): on the same bank they must give the same numbers,
+    # listed in the case's order, as evaluating them with the search
+    from slipfield.slope.case.analyses import add_other_methods
+
+    p = tmp_path / "sand.toml"
+    p.write_text(SAND.replace('methods = ["bishop", "spencer"]', 'methods = ["spencer", "bishop", "ordinary"]'),
+                 encoding="utf-8")
+    case = load_case(p)
+    whole = deterministic(case)
+    later = deterministic(case, other_methods=False)
+    assert list(later["drained"]["methods"]) == ["bishop"]
+    add_other_methods(case, later)
+    for h in whole:
+        assert list(later[h]["methods"]) == list(whole[h]["methods"]) == ["bishop", "spencer", "ordinary"]
+        for m, block in whole[h]["methods"].items():
+            assert later[h]["methods"][m]["fs"] == block["fs"]
+            assert later[h]["methods"][m]["critical_index"] == block["critical_index"]
