@@ -322,7 +322,7 @@ def start_workers(n_jobs, methods=()):
     A command calls this before its serial work (case, deterministic search)
     so that the workers' start-up (interpreter, imports, compiled kernels
     loaded from numba's cache: seconds) overlaps it; every ``simulate`` of the
-    run then uses the same pool (loky's reusable executor), with this process
+    run then uses the same pool (joblib's reusable executor), with this process
     as the ``n_jobs``-th (:func:`run_tasks`). No effect for ``n_jobs`` 1.
     Results do not depend on it. ``methods``: methods of slices the command
     will call (the workers compile their kernels meanwhile, see
@@ -432,7 +432,7 @@ def _warm_worker(parent=None, methods=(), k=0, *, round_=True):
     from slipfield.fields.generators import circulant  # noqa: F401
 
     steps = warm_up_steps(methods)
-    k = int(k) % len(steps)
+    k = int(k) % len(steps) if round_ else int(k)  # not round: no step of its own past the last
     for kind, args in steps[k:] + (steps[:k] if round_ else []):
         if kind == "method":
             from ..methods.compiled import warm_up

@@ -146,3 +146,5 @@ def test_the_command_takes_its_own_steps_and_never_waits_for_the_workers_first(m
     walked.clear()
     executors.warm_here(1, methods)  # --jobs 1: no pool, nothing ahead of the run
     assert walked == []
+    executors.warm_here(len(methods) + 9, methods)  # more workers than steps: every step is a worker's first
+    assert walked == []
