@@ -488,18 +488,12 @@ def _execute(problem, seed, ranges, n_jobs, scheduler, refine=None):
                              n_jobs=1, scheduler=scheduler)
         return
     # the problem (stencil, slice terms, generators: ~20 MB for the levee demo) goes to
-    # each worker once through a file, not pickled with every task; this process runs blocks too,
-    # on one thread as the workers (--jobs N: N processes on N cores)
-    import numba
-
+    # each worker once through a file, not pickled with every task; this process runs blocks too
     path = _ship(problem)
-    threads = numba.get_num_threads()
-    numba.set_num_threads(1)
     try:
         yield from run_tasks(_run_shipped_block, [(path, seed, a, b, refine) for a, b in ranges], n_jobs=n_jobs,
                              here=lambda _path, *args: _run_block(problem, *args))
     finally:
-        numba.set_num_threads(threads)
         _unship(path)
 
 

@@ -121,6 +121,7 @@ def _here_and_pool(fn, here, tasks, n_jobs):
     out = {}        # task index -> future of the task in a worker
     done = {}       # task index -> result
     state = {"next": 0, "closed": False}
+    threads = {}    # numba's threads in this process before its first task here
     ahead = n_jobs - 1  # one task per worker: the next is handed out by the pool's result thread
 
     def take():
@@ -150,8 +151,8 @@ def _here_and_pool(fn, here, tasks, n_jobs):
                     done[k] = f.result()
                     break
                 i = take()
-                if i is not None:  # this process takes the next task
-                    done[i] = here(*tasks[i])
+                if i is not None:  # this process takes the next task, on one thread as the workers
+                    done[i] = _on_one_thread(here, tasks[i], threads)
                     continue
                 done[k] = out[k].result()  # nothing left to take: wait for the worker
             with lock:  # the pool's result thread counts the tasks out under it
@@ -162,6 +163,21 @@ def _here_and_pool(fn, here, tasks, n_jobs):
             state["closed"] = True
         for f in out.values():
             f.cancel()
+        if threads:
+            threads["numba"].set_num_threads(threads["n"])
+
+
+def _on_one_thread(here, task, threads):
+    """``here(*task)`` with numba's parallel kernels on one thread, when numba is loaded (by whatever
+    the tasks compute: it is not imported for them); ``threads`` keeps the count to restore."""
+    import sys
+
+    numba = sys.modules.get("numba")
+    if numba is not None:
+        if not threads:
+            threads.update(numba=numba, n=numba.get_num_threads())
+        numba.set_num_threads(1)
+    return here(*task)
 
 
 def _pool_env(n_jobs):

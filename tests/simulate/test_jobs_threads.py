@@ -44,3 +44,22 @@ def test_jobs_beyond_the_cores_use_every_core_and_no_more():
     assert limit_threads(1) == 1 and numba.get_num_threads() == 1
     assert limit_threads(10 * numba.config.NUMBA_NUM_THREADS) == numba.config.NUMBA_NUM_THREADS
     assert numba.get_num_threads() == numba.config.NUMBA_NUM_THREADS
+
+
+def _threads(_k):
+    return numba.get_num_threads()
+
+
+@needs_cores
+def test_jobs_2_runs_this_process_s_tasks_on_one_thread_and_restores_its_own():
+    # --jobs 2 is this process and one worker: both run their tasks' kernels on one thread (two cores
+    # in all), and this process gets back its own thread count for what it runs after them
+    from slipfield.slope.simulate.executors import run_tasks, stop_workers
+
+    try:
+        assert limit_threads(2) == 2
+        assert list(run_tasks(_threads, [(k,) for k in range(6)], n_jobs=2)) == [1] * 6
+        assert numba.get_num_threads() == 2
+    finally:
+        stop_workers()
+        limit_threads(numba.config.NUMBA_NUM_THREADS)
