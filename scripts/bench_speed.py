@@ -30,8 +30,9 @@ Parts (``--parts``, default all):
     realisations, chunks from ``fused.StrengthMap.chunk``, one numba thread
     as in a worker), Bishop (undrained) and Morgenstern-Price (drained), in
     M slice-evaluations per CPU second (samples x surfaces x slices / CPU
-    time); the targets, 200 M and 40 M per second, are for the two workers
-    of a 2-core machine, so twice the one-thread rate is compared with them.
+    time); the targets, 200 M and 40 M per second, are for the two processes
+    of a 2-core machine (with ``--jobs 2``: the command and its worker, one
+    thread each), so twice the one-thread rate is compared with them.
     Each tree is measured in a fresh process, the trees alternated.
 ``jobs``
     ``slipfield simulate`` of 16,000 realisations, ``--jobs 1`` against
@@ -113,7 +114,7 @@ t = time.process_time()
 fs = [engine.batch_fs(p, 1, range(a, a + 100))[0] for a in range({n_cpu} // 100 * 100, {n_cpu} // 100 * 200, 100)]
 cpu = (time.process_time() - t) / ({n_cpu} // 100 * 100) * 1e3
 numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
-simulate(p, 200, 1, n_jobs=2, batch=100)  # workers started, kernels loaded
+simulate(p, 200, 1, n_jobs=2, batch=100)  # worker started, kernels loaded
 t = time.perf_counter()
 res = simulate(p, {n_sim}, 1, n_jobs=2, batch=100)
 wall = (time.perf_counter() - t) / {n_sim} * 1e3
@@ -201,7 +202,7 @@ def part_sim(args):
     numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
     walls = []
     n = args.n_sim
-    simulate(p, 200, 1, n_jobs=2, batch=100)  # workers started, kernels loaded
+    simulate(p, 200, 1, n_jobs=2, batch=100)  # worker started, kernels loaded
     for _ in range(args.repeat):
         t = time.perf_counter()
         simulate(p, n, 1, n_jobs=2, batch=100)
@@ -213,7 +214,7 @@ def part_sim(args):
           f"array path {spread(cpu['array'])}; ratio {spread(ratio, '{:.2f}')}x; results identical: {same}")
     print(f"  simulate --jobs 2, {n} realisations: {spread(walls)} ms/realisation wall "
           f"(target <= 0.6 ms: {verdict(min(walls) <= 0.6)} at best, {verdict(max(walls) <= 0.6)} at worst)")
-    print(f"  CPU time / 2 cores (the wall time of two workers on an idle machine): "
+    print(f"  CPU time / 2 cores (the wall time of two single-threaded processes on an idle machine): "
           f"{spread([c / 2 for c in cpu['fused']])} ms/realisation (target <= 0.6 ms: "
           f"{verdict(min(cpu['fused']) / 2 <= 0.6)} at best)")
 
@@ -365,7 +366,7 @@ def part_kernel(args):
             cpu = rows[label][method]["cpu"]
             wall = rows[label][method]["wall"]
             print(f"  {label:>9}: {spread(cpu, '{:.0f}')} M slice-eval per CPU second on one thread "
-                  f"(as in a worker); x 2 workers = {spread([2 * c for c in cpu], '{:.0f}')} M/s "
+                  f"(as in a worker); x 2 processes = {spread([2 * c for c in cpu], '{:.0f}')} M/s "
                   f"(target >= {target:.0f}: {verdict(2 * max(cpu) >= target)} at best, "
                   f"{verdict(2 * min(cpu) >= target)} at worst); wall, "
                   f"{os.cpu_count()} threads in one process: {spread(wall, '{:.0f}')} M/s")
