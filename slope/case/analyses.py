@@ -31,7 +31,7 @@ from ..search import evaluate_surfaces, search_from_case
 from ..search.families import add_families
 from ..surfaces import Circle
 
-__all__ = ["deterministic", "add_other_methods", "trial_surfaces", "single_variable_reliability", "random_problem",
+__all__ = ["deterministic", "other_methods", "add_other_methods", "trial_surfaces", "single_variable_reliability", "random_problem",
            "surface_xy", "properties_for", "marginal_of"]
 
 
@@ -117,14 +117,17 @@ def deterministic(case: Case, *, other_methods: bool = True) -> dict:
     return out
 
 
+def other_methods(case: Case) -> list[str]:
+    """The case's methods of slices other than its run method, in the case's order, each once."""
+    return [m for m in dict.fromkeys(case.analysis["methods"]) if m != case.analysis["method"]]
+
+
 def add_other_methods(case: Case, det: dict) -> None:
-    """The case's methods other than the run method, evaluated on each hypothesis's bank of ``det``
+    """The case's :func:`other_methods`, evaluated on each hypothesis's bank of ``det``
     (:func:`deterministic`), added to its ``"methods"`` in the case's order (in place)."""
-    run_method = case.analysis["method"]
-    methods = list(dict.fromkeys([run_method] + list(case.analysis["methods"])))
     for hyp, d in det.items():
         first = d["bank"]
-        for m in methods[1:]:
+        for m in other_methods(case):
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
             # the same surfaces and slices: the search's own slice bank, not built again per method
             res = evaluate_surfaces(case.section, first.surfaces, hypothesis=hyp, method=m,

@@ -26,7 +26,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case.analyses import add_other_methods, deterministic, random_problem, single_variable_reliability
+from ..case.analyses import (add_other_methods, deterministic, other_methods, random_problem,
+                              single_variable_reliability)
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import estimate_pf
@@ -302,7 +303,7 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
         res.single_variable[h] = _single_variable(case, det, h, est)
     for h in hyps:
         res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress, estimator=est)
-    others = [m for m in dict.fromkeys(case.analysis["methods"]) if m != case.analysis["method"]]
+    others = other_methods(case)
     if others:
         progress.say(f"deterministic FS by {', '.join(others)} on the same trial surfaces")
         add_other_methods(case, det)

@@ -222,9 +222,9 @@ def limit_threads(n_jobs: int) -> int:
     (:func:`run_tasks`); otherwise this process -- which runs the
     deterministic search, the single-variable analyses and, with ``--jobs 1``,
     the whole simulation -- uses at most ``N`` threads for numba's parallel
-    kernels and the BLAS and OpenMP pools loaded so far. Without it ``--jobs 1`` ran the kernels on
-    every core, so ``--jobs 2`` against ``--jobs 1`` measured two processes
-    against two threads. Results do not depend on the thread count.
+    kernels and the BLAS and OpenMP pools loaded so far. Without it
+    ``--jobs 1`` ran the kernels on every core, so ``--jobs 2`` against
+    ``--jobs 1`` measured two processes against two threads. Results do not depend on the thread count.
 
     Parameters
     ----------
@@ -382,8 +382,8 @@ def warm_here(n_jobs, methods=()):
     ``slipfield run`` calls it before its case checks run the search: on an empty cache this process
     compiles the search method's kernel, then the simulator's, while the worker compiles the
     longest one; on later runs it loads them (it runs simulation blocks itself)."""
-    if int(n_jobs) >= 2:
-        _warm_worker(None, tuple(methods), int(n_jobs) - 1, round_=False)
+    if int(n_jobs) >= 2:  # more workers than steps: every step is a worker's first, none is left here
+        _walk(warm_up_steps(methods)[int(n_jobs) - 1:])
 
 
 def _await_workers():
@@ -431,25 +431,30 @@ def _compile_rank(method) -> int:
                default=len(KERNEL_GROUPS))
 
 
-def _warm_worker(parent=None, methods=(), k=0, *, round_=True):
+def _warm_worker(parent=None, methods=(), k=0):
     """In a worker: import the simulator and load its compiled kernels (tiny calls).
 
-    The steps of :func:`warm_up_steps` from step ``k`` round (worker k of the pool; ``round_``
-    False: from step ``k`` to the last only): the methods' kernels (the search method's first in
-    the command, the others after its search), and the simulator's: the strength map, Bishop, and
-    the dynamic-programming kernel of the per-realisation search and the rigid-block rule of its
-    paths (each under its compile lock: without this, every worker compiled them at its first
-    searched realisation). The worker also starts watching ``parent`` (it ends if the run is killed
-    during the search, before any task reached it).
+    The steps of :func:`warm_up_steps` from step ``k`` round (worker k of the pool): the methods'
+    kernels, and the simulator's: the strength map, Bishop, and the dynamic-programming kernel of
+    the per-realisation search and the rigid-block rule of its paths (each under its compile lock:
+    without this, every worker compiled them at its first searched realisation). The worker also
+    starts watching ``parent`` (it ends if the run is killed during the search, before any task
+    reached it).
     """
     if parent is not None:
         _watch_parent(parent)
+    steps = warm_up_steps(methods)
+    k = int(k) % len(steps)
+    _walk(steps[k:] + steps[:k])
+    return os.getpid()
+
+
+def _walk(steps):
+    """Take the warm-up ``steps`` (of :func:`warm_up_steps`) in order, in this process."""
     from slipfield.fields import marginals  # noqa: F401
     from slipfield.fields.generators import circulant  # noqa: F401
 
-    steps = warm_up_steps(methods)
-    k = int(k) % len(steps) if round_ else int(k)  # not round: no step of its own past the last
-    for kind, args in steps[k:] + (steps[:k] if round_ else []):
+    for kind, args in steps:
         if kind == "method":
             from ..methods.compiled import warm_up
 
@@ -460,7 +465,6 @@ def _warm_worker(parent=None, methods=(), k=0, *, round_=True):
             warm_up_scan()
         else:
             _warm_simulator()
-    return os.getpid()
 
 
 def _warm_simulator():
