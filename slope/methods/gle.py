@@ -24,7 +24,7 @@ equilibrium about any point is
 where ``G0`` sums the moments of each slice's loads about its own base
 midpoint. Both are solved together by Newton's method on ``(F, lam)`` with
 derivatives carried through the recursion (forward mode), in a compiled
-kernel parallel over samples x surfaces. Where the Jacobian is singular
+kernel, parts of the bank on threads (:mod:`slope.methods.surface_threads`). Where the Jacobian is singular
 (interslice forces vanish for every ``lam``, as on an infinite slope) the
 step is taken on F alone.
 
@@ -48,9 +48,10 @@ its base midpoint, marching from the upslope end.
 from __future__ import annotations
 
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 from .compiled import CALLEE_ONLY, FROM_PYTHON, first_call
+from .surface_threads import borrowed, over_surfaces
 
 __all__ = ["morgenstern_price", "bracketed_roots", "reverse_circles", "SCAN_LAMBDAS", "REVERSE_MOMENT"]
 
@@ -793,19 +794,29 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
     return F, lam, its, found, fl
 
 
-@njit(parallel=True, cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
-def _gle_kernel(c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
+@njit(cache=True, nogil=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
+def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                 couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
                 fs, lam_out, iters, conv, flags, rescue):
-    """Newton from (F_start, lam_start), then the continuation where needed.
+    """Surfaces ``m0 <= m < m1``: Newton from (F_start, lam_start), then the continuation where needed.
 
     Cells that still miss a clean root are marked in ``rescue`` for the lam
     scan (:func:`_rescue_kernel`, run after this kernel on those cells only).
+    Serial, without the GIL: :func:`slope.methods.surface_threads.over_surfaces` runs parts of
+    the bank on threads (numba's ``parallel=True`` cost 2 s more CPU to compile).
     """
-    M = fs.shape[1]
-    # one surface per task (_surface): the parallel loop's body stays one call, which
-    # keeps numba's parallel passes, and the kernel's compilation, short
-    for m in prange(M):
+    # uncounted views: the threads' calls of _surface and its callees would contend for each
+    # array's reference count (surface_threads.borrowed); the caller holds them all
+    c, tp, ca, sa, l, A, B, ul = (borrowed(c), borrowed(tp), borrowed(ca), borrowed(sa), borrowed(l), borrowed(A),
+                                  borrowed(B), borrowed(ul))
+    dx, dy, f, G0, xb, yb_b, yt_b = borrowed(dx), borrowed(dy), borrowed(f), borrowed(G0), borrowed(xb), \
+        borrowed(yb_b), borrowed(yt_b)
+    xm, yb, couple, fscale, lscale, valid, reverse = borrowed(xm), borrowed(yb), borrowed(couple), \
+        borrowed(fscale), borrowed(lscale), borrowed(valid), borrowed(reverse)
+    F_start, lam_start, fs, lam_out, iters, conv, flags, rescue = (borrowed(F_start), borrowed(lam_start),
+                                                                   borrowed(fs), borrowed(lam_out), borrowed(iters),
+                                                                   borrowed(conv), borrowed(flags), borrowed(rescue))
+    for m in range(m0, m1):
         _surface(np.int64(m), c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                  couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
                  fs, lam_out, iters, conv, flags, rescue)
@@ -816,11 +827,16 @@ def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
              couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
              fs, lam_out, iters, conv, flags, rescue):
     """Surface ``m`` of :func:`_gle_kernel`: Newton on all its samples at once
-    (:func:`_newton_lanes`), their flags (:func:`_post_lanes`), then each sample's
-    continuation where needed (:func:`_finish_cell`)."""
+    (:func:`_newton_lanes`), their flags (:func:`_post_lanes`), then the continuation
+    (:func:`_continuation`) for the samples that need it, and the outputs.
+
+    Each call of a compiled function counts a reference to every array it is passed (an atomic
+    add and subtract each), so the per-sample work that every sample needs is written here, and
+    the continuation, which takes some 30 arrays, is called only where it runs: called for every
+    sample, those counts took 25 % of the kernel's time on one thread (``perf``, levee drained).
+    """
     S = fs.shape[0]
     N = ca.shape[1]
-    none = np.empty((1, 1, 1))
     if not valid[m]:
         for s in range(S):
             rescue[s, m] = False
@@ -857,65 +873,63 @@ def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, y
     _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
                 lscale, FL, lamL, flL)
     for s in range(S):
-        rescue[s, m] = False
-        _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-                     couple, fscale, lscale, reverse, tol, max_iter, F0L[s], FL[s], lamL[s], itL[s],
-                     doneL[s], flL[s], fs, lam_out, iters, conv, flags, rescue, none)
+        F = FL[s]
+        lam = lamL[s]
+        n_it = itL[s]
+        done = doneL[s]
+        fl = flL[s] if F > 0.0 and np.isfinite(F) else 8
+        # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
+        # reverse_circles): neither the continuation nor the scan can replace it
+        if (fl & 40) != 0 and not reverse[m]:
+            F, lam, n_it, done, fl = _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb,
+                                                   yb_b, yt_b, xm, yb, couple, fscale, lscale, tol, max_iter,
+                                                   F0L[s], F, lam, n_it, done, fl)
+        # Newton from lam = 0 (and the continuation) missed, or reached a
+        # root across a pole of the recursion: the lam scan over both signs
+        # looks for a root on the physical branch (after this kernel)
+        rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
+        fs[s, m] = F
+        lam_out[s, m] = lam
+        iters[s, m] = n_it
+        conv[s, m] = done
+        flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
+
 
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
-def _finish_cell(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-                 couple, fscale, lscale, reverse, tol, max_iter, F0, F, lam, n_it, done,
-                 fl_lanes, fs, lam_out, iters, conv, flags, rescue, none):
-    """After Newton on one cell: its flags (``fl_lanes``, :func:`_post_lanes`), the
-    continuation where needed, its outputs."""
+def _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                  lscale, tol, max_iter, F0, F, lam, n_it, done, fl):
+    """Newton from (Bishop's F, lam = 0) on cell (s, m) diverged or reached a spurious root
+    (negative base strength, flags ``fl`` & 40): continuation from Spencer's constant function,
+    whose root is found reliably from that start, to f in two steps, each started from the root
+    of the previous one. Its root replaces (F, lam, done, fl) when it converges without the
+    negative-strength flag; ``n_it`` counts its steps either way. Not run when Newton merely ran
+    out of iterations: on the demo and benchmark banks the continuation rescued none of those and
+    cost a fifth of the M-P throughput. Returns (F, lam, n_it, done, fl)."""
     s1 = fscale[m]
     s2 = fscale[m] * lscale[m]
-    fl = 8
-    if F > 0.0 and np.isfinite(F):
-        fl = fl_lanes
-    # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
-    # reverse_circles): neither the continuation nor the scan can replace it
-    if (fl & 40) != 0 and not reverse[m]:
-        # Newton from (Bishop's F, lam = 0) diverged or reached a spurious
-        # root (negative base strength): continuation from Spencer's
-        # constant function, whose root is found reliably from that start,
-        # to f in two steps, each started from the root of the previous
-        # one. Not retried when Newton merely ran out of iterations: on the
-        # demo and benchmark banks the continuation rescued none of those
-        # and cost a fifth of the M-P throughput.
-        F2 = F0
-        lam2 = 0.0
-        ok = True
-        ft = np.empty((1, f.shape[1]))
-        for step in range(3):
-            tw = 0.5 * step
-            for i in range(f.shape[1]):
-                ft[0, i] = (1.0 - tw) + tw * f[m, i]
-            # np.int64(0), not 0: a literal row index is a specialisation of its own, and _rescue
-            # passes a variable one (_newton compiled twice: 0.55 s of CPU on a first run)
-            F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, np.int64(0),
-                                       G0[m], s1, s2, tol, max_iter, F2, lam2)
-            n_it += k2
-            if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
-                ok = False
-                break
-        if ok:
-            fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
-                        couple, fscale, lscale, F2, lam2, none, none, none, none)
-            if (fl2 & 32) == 0:
-                F = F2
-                lam = lam2
-                done = True
-                fl = fl2
-    # Newton from lam = 0 (and the continuation) missed, or reached a
-    # root across a pole of the recursion: the lam scan over both signs
-    # looks for a root on the physical branch (after this kernel)
-    rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
-    fs[s, m] = F
-    lam_out[s, m] = lam
-    iters[s, m] = n_it
-    conv[s, m] = done
-    flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
+    F2 = F0
+    lam2 = 0.0
+    ok = True
+    ft = np.empty((1, f.shape[1]))
+    for step in range(3):
+        tw = 0.5 * step
+        for i in range(f.shape[1]):
+            ft[0, i] = (1.0 - tw) + tw * f[m, i]
+        # np.int64(0), not 0: a literal row index is a specialisation of its own, and _rescue
+        # passes a variable one (_newton compiled twice: 0.55 s of CPU on a first run)
+        F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, np.int64(0),
+                                   G0m, s1, s2, tol, max_iter, F2, lam2)
+        n_it += k2
+        if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
+            ok = False
+            break
+    if ok:
+        none = np.empty((1, 1, 1))
+        fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
+                    couple, fscale, lscale, F2, lam2, none, none, none, none)
+        if (fl2 & 32) == 0:
+            return F2, lam2, n_it, True, fl2
+    return F, lam, n_it, done, fl
 
 
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
@@ -984,8 +998,8 @@ def morgenstern_price(terms, c, tan_phi, f, *, tol=1e-6, max_iter=50, F_start=No
     f = np.ascontiguousarray(f, dtype=float)
     g = _geometry(terms)
     with first_call(_gle_kernel):
-        _gle_kernel(c, tan_phi, *g[:8], f, *g[8:], reverse_circles(terms), float(tol), int(max_iter),
-                    F_start, lam_start, fs, lam, iters, conv, flags, rescue)
+        over_surfaces(_gle_kernel, M, c, tan_phi, *g[:8], f, *g[8:], reverse_circles(terms), float(tol),
+                      int(max_iter), F_start, lam_start, fs, lam, iters, conv, flags, rescue)
     if rescue.any():
         si, mi = np.nonzero(rescue)
         Fr, lr, kr, found, flr = bracketed_roots(terms, c, tan_phi, f, (si, mi), F_start[si, mi],
