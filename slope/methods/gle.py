@@ -189,7 +189,7 @@ def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, to
     """
     N = ca.shape[1]
     S = F.shape[0]
-    active = np.ones(S, dtype=np.bool_)
+    active = np.empty(S, dtype=np.bool_)  # np.empty and loops: np.ones / np.zeros compile on their own
     E = np.empty(S)
     EF = np.empty(S)
     El = np.empty(S)
@@ -197,6 +197,7 @@ def _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, s2, to
     g2F = np.empty(S)
     g2l = np.empty(S)
     for j in range(S):
+        active[j] = True
         n_it[j] = 0
         done[j] = False
     n_active = S
@@ -366,10 +367,12 @@ def _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, F0, l
     G = lams.size
     Fm = np.empty(G)
     r1 = np.empty(G)
-    negs = np.zeros(G, dtype=np.int64)
-    good = np.zeros(G, dtype=np.bool_)
+    negs = np.empty(G, dtype=np.int64)  # np.empty and loops: np.zeros compiles on its own
+    good = np.empty(G, dtype=np.bool_)
     F = F0
     for g in range(G):
+        negs[g] = 0
+        good[g] = False
         lam = lams[g]
         if g > 0 and lams[g] < 0.0 and lams[g - 1] >= 0.0:
             F = F0    # the negative half starts again from lam = 0's start
@@ -540,12 +543,19 @@ def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, coupl
     N = ca.shape[1]
     S = F.shape[0]
     E_next = np.empty((N, S))
-    E = np.zeros(S)
-    Emax = np.zeros(S)
-    ZE = np.zeros(S)
-    s_pos = np.zeros(S)
-    s_neg = np.zeros(S)
-    fl = np.zeros(S, dtype=np.int64)
+    E = np.empty(S)  # np.empty and a loop: np.zeros compiles on its own
+    Emax = np.empty(S)
+    ZE = np.empty(S)
+    s_pos = np.empty(S)
+    s_neg = np.empty(S)
+    fl = np.empty(S, dtype=np.int64)
+    for j in range(S):
+        E[j] = 0.0
+        Emax[j] = 0.0
+        ZE[j] = 0.0
+        s_pos[j] = 0.0
+        s_neg[j] = 0.0
+        fl[j] = 0
     # the forces are marched once and kept: the checks below need the largest E first
     for i in range(N):
         cai = ca[m, i]
@@ -618,66 +628,59 @@ def _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, coupl
         fl_out[j] = fl[j] | (32 if s_neg[j] > NEGATIVE_STRENGTH_FRACTION * s_pos[j] else 0)
 
 
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
-def _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple,
-            fscale, lscale, tol, max_iter, F0, lams, E_out, X_out, yt_out, neff_out):
-    """Bracket-then-Newton solve for a (sample, surface) that Newton from lam = 0 missed.
-
-    Tries the starts of :func:`_scan_starts`, nearest lam = 0 first, and
-    returns the first converged root without a flag; failing that, the first
-    converged root flagged only by the tolerable flags (negative normal,
-    thrust line outside); failing that, ``found = False``.
-
-    Returns F, lam, iterations (of the scan's Newton runs), found, flags.
-    """
-    s1 = fscale[m]
-    s2 = fscale[m] * lscale[m]
-    sF, sl, k = _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, F0, lams)
-    bF = np.nan
-    bl = np.nan
-    bfl = 8
-    found = False
-    n_it = 0
-    for j in range(k):
-        F, lam, it, done = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, s2, tol,
-                                   max_iter, sF[j], sl[j])
-        n_it += it
-        if not done or not (F > 0.0) or not np.isfinite(F):
-            continue
-        fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
-                   lscale, F, lam, E_out, X_out, yt_out, neff_out)
-        if (fl & 104) != 0:
-            continue
-        if not found or (fl == 0 and bfl != 0):
-            bF = F
-            bl = lam
-            bfl = fl
-            found = True
-        if fl == 0:
-            break
-    return bF, bl, n_it, found, bfl
-
-
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
 def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb, couple,
                    fscale, lscale, tol, max_iter, F0, lams, F_out, lam_out, it_out, found_out, fl_out):
-    """:func:`_rescue` for a list of (sample, surface) pairs (Spencer's misses, and
-    Morgenstern-Price's: kept out of :func:`_gle_kernel`, which compiles faster without it).
+    """Bracket-then-Newton solve for the (sample, surface) pairs ``(ss, ms)`` that Newton from
+    lam = 0 missed (Spencer's misses, and Morgenstern-Price's: kept out of :func:`_gle_kernel`,
+    which compiles faster without it).
+
+    Each pair tries the starts of :func:`_scan_starts`, nearest lam = 0 first, and
+    takes the first converged root without a flag; failing that, the first
+    converged root flagged only by the tolerable flags (negative normal,
+    thrust line outside); failing that, ``found = False``. Outputs per pair: F, lam,
+    iterations (of the scan's Newton runs), found, flags.
 
     Serial: the pairs are few (170 in the whole cut demo, 20 ms of CPU), and numba's parallel
-    version took 1.1 s more CPU to compile on a first run."""
+    version took 1.1 s more CPU to compile on a first run. One function with the loop over a
+    pair's starts, not a call per pair: numba optimises and translates again, at each level of
+    calls, everything the level calls.
+    """
     E_out = np.empty((1, 1, 1))
     for k in range(ss.size):
         s = ss[k]
         m = ms[k]
-        F, lam, n_it, found, fl = _rescue(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb, yb_b,
-                                          yt_b, xm, yb, couple, fscale, lscale, tol, max_iter, F0[k],
-                                          lams, E_out, E_out, E_out, E_out)
-        F_out[k] = F
-        lam_out[k] = lam
+        G0m = G0[m]
+        s1 = fscale[m]
+        s2 = fscale[m] * lscale[m]
+        sF, sl, n_starts = _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, F0[k], lams)
+        bF = np.nan
+        bl = np.nan
+        bfl = 8
+        found = False
+        n_it = 0
+        for j in range(n_starts):
+            F, lam, it, done = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, s2, tol,
+                                       max_iter, sF[j], sl[j])
+            n_it += it
+            if not done or not (F > 0.0) or not np.isfinite(F):
+                continue
+            fl = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                       lscale, F, lam, E_out, E_out, E_out, E_out)
+            if (fl & 104) != 0:
+                continue
+            if not found or (fl == 0 and bfl != 0):
+                bF = F
+                bl = lam
+                bfl = fl
+                found = True
+            if fl == 0:
+                break
+        F_out[k] = bF
+        lam_out[k] = bl
         it_out[k] = n_it
         found_out[k] = found
-        fl_out[k] = fl
+        fl_out[k] = bfl
 
 
 #: a circle is a *reverse* circle when the moment of its loads about its
@@ -798,101 +801,88 @@ def bracketed_roots(terms, c, tan_phi, f, pairs, F_start, *, tol=1e-6, max_iter=
 def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
                 couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
                 fs, lam_out, iters, conv, flags, rescue):
-    """Surfaces ``m0 <= m < m1``: Newton from (F_start, lam_start), then the continuation where needed.
+    """Surfaces ``m0 <= m < m1``: Newton from (F_start, lam_start) on all the samples of a surface
+    at once (:func:`_newton_lanes`), their flags (:func:`_post_lanes`), then the continuation
+    (:func:`_continuation`) for the samples that need it, and the outputs.
 
     Cells that still miss a clean root are marked in ``rescue`` for the lam
     scan (:func:`_rescue_kernel`, run after this kernel on those cells only).
     Serial, without the GIL: :func:`slope.methods.surface_threads.over_surfaces` runs parts of
     the bank on threads (numba's ``parallel=True`` cost 2 s more CPU to compile).
+
+    One function, not a loop calling a function per surface: numba optimises and translates to
+    machine code again, at each level of calls, everything the level calls (0.7 s of CPU on a
+    first run for that level). Each call of a compiled function counts a reference to every array
+    it is passed (an atomic add and subtract each): the continuation, which takes some 30 arrays,
+    is called only where it runs (called for every sample, those counts took 25 % of the kernel's
+    time on one thread, ``perf``, levee drained), and the arrays are passed as uncounted views.
     """
-    # uncounted views: the threads' calls of _surface and its callees would contend for each
-    # array's reference count (surface_threads.borrowed); the caller holds them all
+    # uncounted views: the threads' calls of the callees would contend for each array's reference
+    # count (surface_threads.borrowed); the caller holds them all
     c, tp, ca, sa, l, A, B, ul = (borrowed(c), borrowed(tp), borrowed(ca), borrowed(sa), borrowed(l), borrowed(A),
                                   borrowed(B), borrowed(ul))
     dx, dy, f, G0, xb, yb_b, yt_b = borrowed(dx), borrowed(dy), borrowed(f), borrowed(G0), borrowed(xb), \
         borrowed(yb_b), borrowed(yt_b)
-    xm, yb, couple, fscale, lscale, valid, reverse = borrowed(xm), borrowed(yb), borrowed(couple), \
-        borrowed(fscale), borrowed(lscale), borrowed(valid), borrowed(reverse)
-    F_start, lam_start, fs, lam_out, iters, conv, flags, rescue = (borrowed(F_start), borrowed(lam_start),
-                                                                   borrowed(fs), borrowed(lam_out), borrowed(iters),
-                                                                   borrowed(conv), borrowed(flags), borrowed(rescue))
-    for m in range(m0, m1):
-        _surface(np.int64(m), c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-                 couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
-                 fs, lam_out, iters, conv, flags, rescue)
-
-
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
-def _surface(m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_b, xm, yb,
-             couple, fscale, lscale, valid, reverse, tol, max_iter, F_start, lam_start,
-             fs, lam_out, iters, conv, flags, rescue):
-    """Surface ``m`` of :func:`_gle_kernel`: Newton on all its samples at once
-    (:func:`_newton_lanes`), their flags (:func:`_post_lanes`), then the continuation
-    (:func:`_continuation`) for the samples that need it, and the outputs.
-
-    Each call of a compiled function counts a reference to every array it is passed (an atomic
-    add and subtract each), so the per-sample work that every sample needs is written here, and
-    the continuation, which takes some 30 arrays, is called only where it runs: called for every
-    sample, those counts took 25 % of the kernel's time on one thread (``perf``, levee drained).
-    """
+    xm, yb, couple, fscale, lscale = borrowed(xm), borrowed(yb), borrowed(couple), borrowed(fscale), borrowed(lscale)
     S = fs.shape[0]
     N = ca.shape[1]
-    if not valid[m]:
-        for s in range(S):
-            rescue[s, m] = False
-            fs[s, m] = np.nan
-            lam_out[s, m] = np.nan
-            conv[s, m] = False
-            iters[s, m] = 0
-        return
-    s1 = fscale[m]
-    s2 = fscale[m] * lscale[m]
-    ct = np.empty((N, S))
+    ct = np.empty((N, S))  # one surface's strengths, samples inner (the lanes)
     tt = np.empty((N, S))
     FL = np.empty(S)
     lamL = np.empty(S)
     F0L = np.empty(S)
     itL = np.empty(S, dtype=np.int64)
     doneL = np.empty(S, dtype=np.bool_)
-    for s in range(S):
-        for i in range(N):
-            ct[i, s] = c[s, m, i]
-            tt[i, s] = tp[s, m, i]
-        F0 = F_start[s, m]
-        if not (F0 > 0.0) or not np.isfinite(F0):
-            F0 = 1.0
-        lam0 = lam_start[s, m]
-        if not np.isfinite(lam0):
-            lam0 = 0.0
-        F0L[s] = F0
-        FL[s] = F0
-        lamL[s] = lam0
-    _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, m, G0[m], s1, s2, tol,
-                  max_iter, FL, lamL, itL, doneL)
     flL = np.empty(S, dtype=np.int64)
-    _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
-                lscale, FL, lamL, flL)
-    for s in range(S):
-        F = FL[s]
-        lam = lamL[s]
-        n_it = itL[s]
-        done = doneL[s]
-        fl = flL[s] if F > 0.0 and np.isfinite(F) else 8
-        # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
-        # reverse_circles): neither the continuation nor the scan can replace it
-        if (fl & 40) != 0 and not reverse[m]:
-            F, lam, n_it, done, fl = _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb,
-                                                   yb_b, yt_b, xm, yb, couple, fscale, lscale, tol, max_iter,
-                                                   F0L[s], F, lam, n_it, done, fl)
-        # Newton from lam = 0 (and the continuation) missed, or reached a
-        # root across a pole of the recursion: the lam scan over both signs
-        # looks for a root on the physical branch (after this kernel)
-        rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
-        fs[s, m] = F
-        lam_out[s, m] = lam
-        iters[s, m] = n_it
-        conv[s, m] = done
-        flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
+    for m in range(m0, m1):
+        if not valid[m]:
+            for s in range(S):
+                rescue[s, m] = False
+                fs[s, m] = np.nan
+                lam_out[s, m] = np.nan
+                conv[s, m] = False
+                iters[s, m] = 0
+            continue
+        s1 = fscale[m]
+        s2 = fscale[m] * lscale[m]
+        for s in range(S):
+            for i in range(N):
+                ct[i, s] = c[s, m, i]
+                tt[i, s] = tp[s, m, i]
+            F0 = F_start[s, m]
+            if not (F0 > 0.0) or not np.isfinite(F0):
+                F0 = 1.0
+            lam0 = lam_start[s, m]
+            if not np.isfinite(lam0):
+                lam0 = 0.0
+            F0L[s] = F0
+            FL[s] = F0
+            lamL[s] = lam0
+        _newton_lanes(ct, tt, m, ca, sa, l, A, B, ul, dx, dy, f, m, G0[m], s1, s2, tol,
+                      max_iter, FL, lamL, itL, doneL)
+        _post_lanes(ct, tt, m, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb, couple, fscale,
+                    lscale, FL, lamL, flL)
+        for s in range(S):
+            F = FL[s]
+            lam = lamL[s]
+            n_it = itL[s]
+            done = doneL[s]
+            fl = flL[s] if F > 0.0 and np.isfinite(F) else 8
+            # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
+            # reverse_circles): neither the continuation nor the scan can replace it
+            if (fl & 40) != 0 and not reverse[m]:
+                F, lam, n_it, done, fl = _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb,
+                                                       yb_b, yt_b, xm, yb, couple, fscale, lscale, tol,
+                                                       max_iter, F0L[s], F, lam, n_it, done, fl)
+            # Newton from lam = 0 (and the continuation) missed, or reached a
+            # root across a pole of the recursion: the lam scan over both signs
+            # looks for a root on the physical branch (after this kernel)
+            rescue[s, m] = (not done or (fl & 104) != 0) and not reverse[m]
+            fs[s, m] = F
+            lam_out[s, m] = lam
+            iters[s, m] = n_it
+            conv[s, m] = done
+            flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
 
 
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
@@ -915,7 +905,7 @@ def _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt
         tw = 0.5 * step
         for i in range(f.shape[1]):
             ft[0, i] = (1.0 - tw) + tw * f[m, i]
-        # np.int64(0), not 0: a literal row index is a specialisation of its own, and _rescue
+        # np.int64(0), not 0: a literal row index is a specialisation of its own, and _rescue_kernel
         # passes a variable one (_newton compiled twice: 0.55 s of CPU on a first run)
         F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, np.int64(0),
                                    G0m, s1, s2, tol, max_iter, F2, lam2)

@@ -40,6 +40,15 @@ def _jump(ex, ey, vx, vy, six, siy, mix, miy, ti):  # pragma: no cover - compile
 
 
 @njit(cache=True, error_model="numpy", **CALLEE_ONLY)
+def _no_mechanism(m):  # pragma: no cover - compiled
+    """Table entries (m,) all -1: no interface chosen."""
+    idx = np.empty(m, np.int64)
+    for i in range(m):
+        idx[i] = -1
+    return idx
+
+
+@njit(cache=True, error_model="numpy", **CALLEE_ONLY)
 def _work(idx, F, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pragma: no cover - compiled
     """Work of the loads (incl. pore water) and dissipation (undivided by F) at trial F; (ok, drive, diss)."""
     n = tb.shape[0]
@@ -77,7 +86,9 @@ def _solve_f(idx, F0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # prag
     [1e-3, 1e3] (a trial F at which the mechanism is not admissible counts as below the root: the
     jumps' inclination φ_d grows as F falls).
     """
-    frictional = Tb.max() > 0.0
+    frictional = False
+    for i in range(Tb.shape[0]):  # a loop, not Tb.max(): numba's max compiled in 0.5 s of CPU
+        frictional = frictional or Tb[i] > 0.0
     if not frictional:
         for i in range(idx.shape[0]):
             if Ti[i, idx[i]] > 0.0:
@@ -148,8 +159,18 @@ def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pr
     t0 = Tb[0] / F
     c0 = 1.0 / np.sqrt(1.0 + t0 * t0)
     h0 = Cb[0] * c0 - F * (Ftot[0] * E[0, 0] + Ftot[1] * E[0, 1] + Ub[0] * t0 * c0)
-    rho = np.zeros((m, K))
-    h = np.full((m, K), np.inf)
+    # np.empty and loops, not np.zeros / np.full: each of their specialisations is a compilation of
+    # its own (0.05-0.1 s of CPU each on a first run)
+    rho = np.empty((m, K))
+    h = np.empty((m, K))
+    V = np.empty((m, K))
+    nxt = np.empty((m, K), np.int64)
+    for i in range(m):
+        for k in range(K):
+            rho[i, k] = 0.0
+            h[i, k] = np.inf
+            V[i, k] = np.inf
+            nxt[i, k] = -1
     for i in range(1, n):
         ce = 1.0 / np.sqrt(1.0 + (Tb[i] / F) ** 2)
         se = (Tb[i] / F) * ce
@@ -167,8 +188,6 @@ def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pr
             diss = Ci[i - 1, k] * best_b * cg + Cb[i] * best_a * ce
             rho[i - 1, k] = best_a
             h[i - 1, k] = diss - F * drive
-    V = np.full((m, K), np.inf)
-    nxt = np.full((m, K), -1, np.int64)
     for k in range(K):
         V[m - 1, k] = h[m - 1, k]
     for i in range(m - 2, -1, -1):
@@ -182,7 +201,7 @@ def _least_g(F, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # pr
             if arg >= 0:
                 V[i, k] = h[i, k] + rho[i, k] * best
                 nxt[i, k] = arg
-    idx = np.full(m, -1, np.int64)
+    idx = _no_mechanism(m)
     best, arg = np.inf, -1
     for k in range(K):
         if V[0, k] < best:
@@ -211,7 +230,7 @@ def _least_f(F0, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # p
         hi = 1e3
         G, idx = _least_g(hi, xt, ok, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
         if not (idx[0] >= 0 and G <= 0.0):
-            return np.inf, np.full(m, -1, np.int64)
+            return np.inf, _no_mechanism(m)
     lo = 1e-3
     for _ in range(200):
         Fn = _solve_f(idx, hi, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr)
