@@ -15,13 +15,15 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
+import threading
 
 try:  # POSIX; elsewhere every process compiles for itself, as before
     import fcntl
 except ImportError:  # pragma: no cover - Windows
     fcntl = None
 
-__all__ = ["first_call", "lock_path", "warm_up", "warm_up_scan", "kernel_groups", "uses_scan", "KERNEL_GROUPS",
+__all__ = ["first_call", "skipping_busy", "CompilingElsewhere", "lock_path", "warm_up", "warm_up_scan",
+           "kernel_groups", "uses_scan", "KERNEL_GROUPS",
            "CALLEE_ONLY", "FROM_PYTHON"]
 
 #: ``njit`` options of a kernel that Python calls: no C wrapper, which numba otherwise generates and
@@ -51,6 +53,30 @@ def lock_path(kernel) -> str:
     return os.path.join(tempfile.gettempdir(), f"slipfield-compile-{os.getuid()}-{name}-{tag}.lock")
 
 
+class CompilingElsewhere(Exception):
+    """:func:`first_call` within :func:`skipping_busy`: another process holds the kernel's lock."""
+
+
+_SKIP_BUSY = threading.local()
+
+
+@contextlib.contextmanager
+def skipping_busy():
+    """Within: :func:`first_call` of a kernel that another process is compiling raises
+    :class:`CompilingElsewhere` at once instead of waiting for it (in this thread).
+
+    For warm-ups, which only save time: a process that waited there sat idle on its core while
+    the other compiled; it can compile or load the next kernel instead, and the first real call
+    of the skipped one still waits for that compilation and loads it.
+    """
+    before = getattr(_SKIP_BUSY, "on", False)
+    _SKIP_BUSY.on = True
+    try:
+        yield
+    finally:
+        _SKIP_BUSY.on = before
+
+
 @contextlib.contextmanager
 def first_call(kernel):
     """Around a call of numba dispatcher ``kernel``: hold its machine-wide lock if it has no
@@ -65,7 +91,13 @@ def first_call(kernel):
         yield
         return
     with fh:
-        fcntl.flock(fh, fcntl.LOCK_EX)
+        if getattr(_SKIP_BUSY, "on", False):
+            try:
+                fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            except BlockingIOError:
+                raise CompilingElsewhere(kernel.py_func.__qualname__) from None
+        else:
+            fcntl.flock(fh, fcntl.LOCK_EX)
         try:
             yield
         finally:

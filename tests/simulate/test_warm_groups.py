@@ -141,10 +141,32 @@ def test_the_command_takes_its_own_steps_and_never_waits_for_the_workers_first(m
     monkeypatch.setattr(executors, "_warm_simulator", lambda: walked.append(("simulator", ())))
     methods = executors.warm_up_order(["spencer", "bishop", "morgenstern-price"], "bishop")
     executors.warm_here(2, methods)
-    assert walked == executors.warm_up_steps(methods)[1:]
-    assert ("method", ("morgenstern-price",)) not in walked
+    # nor the lam scan: the worker compiles it after the longest (this process needs it late, if at all)
+    assert walked == [step for step in executors.warm_up_steps(methods)[1:] if step != ("scan", ())]
+    assert ("method", ("morgenstern-price",)) not in walked and ("scan", ()) not in walked
     walked.clear()
     executors.warm_here(1, methods)  # --jobs 1: no pool, nothing ahead of the run
     assert walked == []
     executors.warm_here(len(methods) + 9, methods)  # more workers than steps: every step is a worker's first
     assert walked == []
+
+
+def test_a_step_another_process_is_compiling_is_skipped_not_waited_for(monkeypatch):
+    # the worker, done with the longest compilation, waited for the command's kernels before the
+    # lam scan; now a step reaching a kernel being compiled elsewhere ends, and the next one runs
+    from slipfield.slope.methods import compiled
+    from slipfield.slope.simulate import executors
+
+    walked = []
+
+    def busy():
+        assert getattr(compiled._SKIP_BUSY, "on", False)  # the walk skips busy kernels
+        raise compiled.CompilingElsewhere("_dp")
+
+    monkeypatch.setattr(compiled, "warm_up", lambda methods, scan=True: walked.append(("method", tuple(methods))))
+    monkeypatch.setattr(compiled, "warm_up_scan", lambda: walked.append(("scan", ())))
+    monkeypatch.setattr(executors, "_warm_simulator", busy)
+    steps = [("method", ("morgenstern-price",)), ("simulator", ()), ("scan", ()), ("method", ("spencer",))]
+    executors._walk(steps)
+    assert walked == [steps[0], steps[2], steps[3]]
+    assert not getattr(compiled._SKIP_BUSY, "on", False)  # real calls after the walk wait as before

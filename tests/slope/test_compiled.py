@@ -8,6 +8,7 @@ count the compiled specialisations before and after real calls of every layout t
 package makes.
 """
 import numpy as np
+import pytest
 
 from slipfield.slope.bank import build_bank
 from slipfield.slope.examples import two_zone_section
@@ -79,6 +80,29 @@ def test_two_installations_do_not_share_a_compile_lock(tmp_path, monkeypatch):
     before = lock_path(a)
     monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "elsewhere"))
     assert lock_path(a) != before
+
+
+def test_a_warm_up_skips_a_kernel_another_process_is_compiling(tmp_path, monkeypatch):
+    # A warm-up step that reached a kernel another process was compiling waited for its lock, idle on
+    # its core; within skipping_busy first_call gives up at once instead (the real call still waits).
+    import fcntl
+
+    from slipfield.slope.methods.compiled import CompilingElsewhere, first_call, lock_path, skipping_busy
+
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "cache"))
+    k = _load_kernel(_source_in(tmp_path / "tree"))
+    assert not k.signatures
+    with open(lock_path(k), "a") as other:  # another open file: its lock conflicts as another process's
+        fcntl.flock(other, fcntl.LOCK_EX)
+        with skipping_busy():
+            with pytest.raises(CompilingElsewhere):
+                with first_call(k):
+                    k(1.0)
+        assert not k.signatures  # nothing was compiled
+        fcntl.flock(other, fcntl.LOCK_UN)
+    with skipping_busy():
+        with first_call(k):  # free: compiled here
+            assert k(1.0) == 2.0
 
 
 _SAME_BITS_CHILD = r"""
