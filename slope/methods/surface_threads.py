@@ -3,7 +3,7 @@
 Morgenstern-Price's kernel was numba ``parallel=True`` over surfaces. numba's
 parallel compilation (parfor passes and the gufunc around the loop) took
 2 s of the kernel's 6.6 s of CPU on a first run, in every process that
-compiled it, and the loop's body is one call per surface anyway. The kernel
+compiled it. The kernel
 is now serial over a range of surfaces and releases the GIL (``nogil``);
 this module calls it on contiguous parts of the bank from a few Python
 threads. Each surface is computed by the same code whatever the split, so
@@ -53,9 +53,12 @@ def over_surfaces(kernel, n_surfaces: int, *args) -> None:
     ranges = list(zip(bounds[:-1], bounds[1:]))
     if not kernel.signatures:  # not compiled (or loaded) in this process yet: once, here, first
         kernel(*ranges.pop(0), *args)
-    with ThreadPoolExecutor(max_workers=min(threads, len(ranges)), thread_name_prefix="slipfield-surfaces") as pool:
+    pool = ThreadPoolExecutor(max_workers=min(threads, len(ranges)), thread_name_prefix="slipfield-surfaces")
+    try:
         for f in [pool.submit(kernel, m0, m1, *args) for m0, m1 in ranges]:
             f.result()
+    finally:  # an error or Ctrl-C: the parts not started are dropped (a running part cannot be stopped)
+        pool.shutdown(wait=True, cancel_futures=True)
 
 
 @intrinsic

@@ -103,3 +103,24 @@ def test_parts_cover_every_surface_once(threads, surfaces):
     finally:
         numba.set_num_threads(before)
     np.testing.assert_array_equal(seen, 1)
+
+
+def test_a_part_that_fails_fails_the_call():
+    # an error in a thread is raised in the caller, not lost with the thread
+    if numba.config.NUMBA_NUM_THREADS < 2:
+        pytest.skip("one numba thread on this machine")
+
+    class Kernel:
+        signatures = ["compiled"]
+
+        def __call__(self, m0, m1):
+            if m0 > 0:
+                raise ValueError(f"part {m0}..{m1}")
+
+    before = numba.get_num_threads()
+    numba.set_num_threads(2)
+    try:
+        with pytest.raises(ValueError, match="part"):
+            over_surfaces(Kernel(), 500)
+    finally:
+        numba.set_num_threads(before)
