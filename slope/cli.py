@@ -12,6 +12,7 @@ import json
 import signal
 import sys
 import traceback
+from concurrent.futures import BrokenExecutor
 
 from slipfield.fields.cli import whole_number as _whole
 from slipfield.fields.errors import InputError
@@ -345,6 +346,16 @@ _CONTINUE = {"simulate": "the finished blocks are kept in --out/store: run the s
              "sweep": "nothing was written to --out; run the command again"}
 
 
+def _worker_lost(exc) -> str:
+    """What to say when a worker process ended under a command (``BrokenExecutor``: loky's
+    TerminatedWorkerError, which names the workers' exit codes, or the standard library's)."""
+    lines = [line.strip() for line in str(exc).splitlines() if line.strip()]
+    codes = next((line for line in lines if "exit code" in line.lower()), "")
+    return ("a worker process ended before its task did" + (f" ({codes.rstrip('.')})" if codes else "")
+            + ": it was killed from outside, or ran out of memory (fewer --jobs, or a smaller [simulation] "
+            "batch, need less)")
+
+
 def main(argv=None) -> int:
     given = sys.argv[1:] if argv is None else list(argv)
     if given[:1] == ["run"] and not {"--quiet", "-h", "--help", "--json"} & set(given):
@@ -381,6 +392,10 @@ def main(argv=None) -> int:
         what = "terminated" if isinstance(exc, Terminated) else "interrupted"
         print(f"slipfield: {what}; {how}", file=sys.stderr)
         return 143 if isinstance(exc, Terminated) else 130
+    except BrokenExecutor as exc:  # a worker died under the run: not the case's fault, nor a bug of ours
+        print(f"slipfield: error: {_worker_lost(exc)}; {_CONTINUE.get(args.command, 'run the command again')}",
+              file=sys.stderr)
+        return 1
     except Exception as exc:  # noqa: BLE001 - an internal failure: report it, exit 1
         traceback.print_exc(file=sys.stderr)
         print(f"slipfield: internal error: {type(exc).__name__}: {exc} (please report it with the case file)",

@@ -61,3 +61,23 @@ def test_a_command_with_workers_closes_its_output_when_it_ends(tmp_path):
         raise AssertionError("the command's output stayed open: its worker pool outlived it")
     assert proc.returncode == 0, err
     assert "40 realisations" in out
+
+
+def test_a_worker_killed_under_a_command_is_reported_plainly(monkeypatch, capsys):
+    # It was "internal error: TerminatedWorkerError ..." with a traceback and a request to report a bug;
+    # a worker killed from outside (or by the out-of-memory killer) is neither the case's fault nor ours.
+    from joblib.externals.loky.process_executor import TerminatedWorkerError
+
+    from slipfield.slope import cli
+
+    def killed(args):
+        raise TerminatedWorkerError("A worker process managed by the executor was unexpectedly terminated.\n\n"
+                                    "The exit codes of the workers are {SIGKILL(-9)}")
+
+    monkeypatch.setattr(cli, "_cmd_simulate", killed)
+    case = Path(__file__).resolve().parents[1] / "cases" / "levee_soft_clay.toml"
+    assert cli.main(["simulate", str(case), "--out", "unused"]) == 1
+    err = capsys.readouterr().err
+    assert "internal error" not in err and "Traceback" not in err
+    assert "a worker process ended before its task did (The exit codes of the workers are {SIGKILL(-9)})" in err
+    assert "--resume" in err  # how to go on: the finished blocks are kept

@@ -113,6 +113,7 @@ def run_tasks(fn, tasks, *, n_jobs=1, scheduler=None, here=None):
 def _here_and_pool(fn, here, tasks, n_jobs):
     """:func:`run_tasks` on this process and the pool of ``n_jobs - 1`` workers."""
     import threading
+    from concurrent.futures import BrokenExecutor, Future
 
     pool = _pool(n_jobs)
     parent = os.getpid()
@@ -139,7 +140,12 @@ def _here_and_pool(fn, here, tasks, n_jobs):
                     return
                 i = state["next"]
                 state["next"] = i + 1
-                f = out[i] = pool.submit(_in_worker, parent, fn, *tasks[i])
+                try:
+                    f = out[i] = pool.submit(_in_worker, parent, fn, *tasks[i])
+                except BrokenExecutor as exc:  # a worker died: the task fails where it is awaited,
+                    out[i] = Future()          # not as a traceback of the pool's result thread
+                    out[i].set_exception(exc)
+                    return
             f.add_done_callback(feed)
 
     feed()

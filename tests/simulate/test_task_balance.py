@@ -74,3 +74,31 @@ def test_a_joblib_parallel_in_the_same_process_after_and_before_the_pool():
         assert list(run_tasks(abs, [(-k,) for k in range(5)], n_jobs=2)) == [0, 1, 2, 3, 4]
     finally:
         stop_workers()
+
+
+def _dies_in_a_worker(parent, k):
+    # a worker killed under its task (as by the kernel's out-of-memory killer); the command's own tasks run
+    if os.getpid() != parent:
+        os._exit(9)
+    time.sleep(0.05)
+    return k
+
+
+def test_a_worker_that_dies_fails_the_tasks_plainly(capfd, caplog):
+    # the pool's result thread handed the next task to the broken pool and printed the error as a
+    # traceback of its own; the error must come out once, where the tasks are awaited
+    from concurrent.futures import BrokenExecutor
+
+    import pytest
+
+    from slipfield.slope.simulate.executors import stop_workers
+
+    try:
+        with pytest.raises(BrokenExecutor):
+            list(run_tasks(_dies_in_a_worker, [(os.getpid(), k) for k in range(8)], n_jobs=2))
+    finally:
+        stop_workers(wait=False)
+    assert "Traceback" not in capfd.readouterr().err
+    assert not [r for r in caplog.records if r.exc_info]  # nor logged with its traceback (loky's callbacks log)
+    assert list(run_tasks(abs, [(-k,) for k in range(4)], n_jobs=2)) == [0, 1, 2, 3]  # a new pool serves
+    stop_workers()
