@@ -347,100 +347,6 @@ def _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam):
     return E, g2, g2F, neg
 
 
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
-def _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, s1, F0, lams):
-    """Starting points (F, lam) bracketed by a scan over lam (both signs).
-
-    For each lam of ``lams`` (ordered outward from 0: the positive half, then
-    the negative half) the moment equation is solved for F by a damped 1-D
-    Newton (warm-started from the previous lam), and the force residual
-    E_n(F_m(lam), lam) is evaluated: the Spencer / Fredlund-Krahn picture of
-    the moment and force factors of safety as functions of lam, whose
-    crossing is the solution. A sign change of E_n between neighbouring lam
-    values, both with every denominator positive, brackets a root; its
-    linear interpolation is returned as a start for the 2-D Newton.
-
-    Returns
-    -------
-    starts_F, starts_lam : ndarray (_MAX_BRACKETS,), count : int
-    """
-    G = lams.size
-    Fm = np.empty(G)
-    r1 = np.empty(G)
-    negs = np.empty(G, dtype=np.int64)  # np.empty and loops: np.zeros compiles on its own
-    good = np.empty(G, dtype=np.bool_)
-    F = F0
-    for g in range(G):
-        negs[g] = 0
-        good[g] = False
-        lam = lams[g]
-        if g > 0 and lams[g] < 0.0 and lams[g - 1] >= 0.0:
-            F = F0    # the negative half starts again from lam = 0's start
-        found = False
-        for it in range(40):
-            E, g2, g2F, neg = _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam)
-            if not (np.isfinite(g2) and np.isfinite(g2F)) or g2F == 0.0:
-                break
-            dF = -g2 / g2F
-            if abs(dF) > 0.5 * F:
-                dF = 0.5 * F * (1.0 if dF > 0 else -1.0)
-            F = F + dF
-            if abs(dF) <= 1e-9 * F:
-                found = True
-                break
-        if found and F > 0.0 and np.isfinite(F):
-            E, g2, g2F, neg = _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, fr, G0m, F, lam)
-            if np.isfinite(E):
-                Fm[g] = F
-                r1[g] = E / s1
-                negs[g] = neg
-                good[g] = True
-        if not good[g]:
-            F = F0
-    sF = np.empty(_MAX_BRACKETS)
-    sl = np.empty(_MAX_BRACKETS)
-    key = np.empty(_MAX_BRACKETS)
-    k = 0
-    for g in range(G - 1):
-        a = g
-        b = g + 1
-        if lams[b] < 0.0 and lams[a] >= 0.0:
-            a = 0   # the negative half's first interval is [0, -step]
-        # only the branch on which every recursion denominator is positive
-        # (the analogue of Bishop's m_alpha > 0): beyond a pole, roots exist
-        # between every two poles and none is physical
-        if not (good[a] and good[b]) or negs[a] != 0 or negs[b] != 0:
-            continue
-        if r1[a] == 0.0 or (r1[a] > 0.0) != (r1[b] > 0.0):
-            w = r1[a] / (r1[a] - r1[b]) if r1[a] != r1[b] else 0.0
-            lam_s = lams[a] + w * (lams[b] - lams[a])
-            F_s = Fm[a] + w * (Fm[b] - Fm[a])
-            kk = abs(lam_s)
-            if k < _MAX_BRACKETS:
-                sF[k] = F_s
-                sl[k] = lam_s
-                key[k] = kk
-                k += 1
-            else:
-                worst = 0
-                for j in range(1, _MAX_BRACKETS):
-                    if key[j] > key[worst]:
-                        worst = j
-                if kk < key[worst]:
-                    sF[worst] = F_s
-                    sl[worst] = lam_s
-                    key[worst] = kk
-    # nearest lam = 0 first (insertion sort of at most _MAX_BRACKETS)
-    for i in range(1, k):
-        j = i
-        while j > 0 and key[j - 1] > key[j]:
-            key[j - 1], key[j] = key[j], key[j - 1]
-            sF[j - 1], sF[j] = sF[j], sF[j - 1]
-            sl[j - 1], sl[j] = sl[j], sl[j - 1]
-            j -= 1
-    return sF, sl, k
-
-
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy", inline="always")
 def _next_E(s, m, i, E, c, tp, ca, sa, l, A, B, ul, f, F, lam):
     """Interslice normal force on the right of slice i from the one on its left (force recursion)."""
@@ -635,25 +541,109 @@ def _rescue_kernel(ss, ms, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, 
     lam = 0 missed (Spencer's misses, and Morgenstern-Price's: kept out of :func:`_gle_kernel`,
     which compiles faster without it).
 
-    Each pair tries the starts of :func:`_scan_starts`, nearest lam = 0 first, and
-    takes the first converged root without a flag; failing that, the first
-    converged root flagged only by the tolerable flags (negative normal,
-    thrust line outside); failing that, ``found = False``. Outputs per pair: F, lam,
-    iterations (of the scan's Newton runs), found, flags.
+    Starting points (F, lam) of each pair are bracketed by a scan over lam (both signs): for each
+    lam of ``lams`` (ordered outward from 0: the positive half, then the negative half) the moment
+    equation is solved for F by a damped 1-D Newton (warm-started from the previous lam), and the
+    force residual E_n(F_m(lam), lam) is evaluated: the Spencer / Fredlund-Krahn picture of the
+    moment and force factors of safety as functions of lam, whose crossing is the solution. A sign
+    change of E_n between neighbouring lam values, both with every denominator positive, brackets
+    a root; its linear interpolation is a start for the 2-D Newton (at most ``_MAX_BRACKETS``,
+    nearest lam = 0 first).
+
+    Each pair tries its starts in that order and takes the first converged root without a flag;
+    failing that, the first converged root flagged only by the tolerable flags (negative normal,
+    thrust line outside); failing that, ``found = False``. Outputs per pair: F, lam, iterations
+    (of the Newton runs from the starts), found, flags.
 
     Serial: the pairs are few (170 in the whole cut demo, 20 ms of CPU), and numba's parallel
-    version took 1.1 s more CPU to compile on a first run. One function with the loop over a
-    pair's starts, not a call per pair: numba optimises and translates again, at each level of
-    calls, everything the level calls.
+    version took 1.1 s more CPU to compile on a first run. One function with the scan and the
+    loop over a pair's starts, not calls per pair: numba optimises and translates again, at each
+    level of calls, everything the level calls.
     """
     E_out = np.empty((1, 1, 1))
+    G = lams.size
+    Fm = np.empty(G)
+    r1 = np.empty(G)
+    negs = np.empty(G, dtype=np.int64)  # np.empty and loops: np.zeros compiles on its own
+    good = np.empty(G, dtype=np.bool_)
+    sF = np.empty(_MAX_BRACKETS)
+    sl = np.empty(_MAX_BRACKETS)
+    key = np.empty(_MAX_BRACKETS)
     for k in range(ss.size):
         s = ss[k]
         m = ms[k]
         G0m = G0[m]
         s1 = fscale[m]
         s2 = fscale[m] * lscale[m]
-        sF, sl, n_starts = _scan_starts(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, s1, F0[k], lams)
+        # the scan: F_m(lam) and the scaled force residual at each lam
+        F = F0[k]
+        for g in range(G):
+            negs[g] = 0
+            good[g] = False
+            lam = lams[g]
+            if g > 0 and lams[g] < 0.0 and lams[g - 1] >= 0.0:
+                F = F0[k]    # the negative half starts again from lam = 0's start
+            root = False
+            for it in range(40):
+                E, g2, g2F, neg = _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, F, lam)
+                if not (np.isfinite(g2) and np.isfinite(g2F)) or g2F == 0.0:
+                    break
+                dF = -g2 / g2F
+                if abs(dF) > 0.5 * F:
+                    dF = 0.5 * F * (1.0 if dF > 0 else -1.0)
+                F = F + dF
+                if abs(dF) <= 1e-9 * F:
+                    root = True
+                    break
+            if root and F > 0.0 and np.isfinite(F):
+                E, g2, g2F, neg = _residuals(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, m, G0m, F, lam)
+                if np.isfinite(E):
+                    Fm[g] = F
+                    r1[g] = E / s1
+                    negs[g] = neg
+                    good[g] = True
+            if not good[g]:
+                F = F0[k]
+        # the brackets: sign changes of the residual on the physical branch
+        n_starts = 0
+        for g in range(G - 1):
+            a = g
+            b = g + 1
+            if lams[b] < 0.0 and lams[a] >= 0.0:
+                a = 0   # the negative half's first interval is [0, -step]
+            # only the branch on which every recursion denominator is positive
+            # (the analogue of Bishop's m_alpha > 0): beyond a pole, roots exist
+            # between every two poles and none is physical
+            if not (good[a] and good[b]) or negs[a] != 0 or negs[b] != 0:
+                continue
+            if r1[a] == 0.0 or (r1[a] > 0.0) != (r1[b] > 0.0):
+                w = r1[a] / (r1[a] - r1[b]) if r1[a] != r1[b] else 0.0
+                lam_s = lams[a] + w * (lams[b] - lams[a])
+                F_s = Fm[a] + w * (Fm[b] - Fm[a])
+                kk = abs(lam_s)
+                if n_starts < _MAX_BRACKETS:
+                    sF[n_starts] = F_s
+                    sl[n_starts] = lam_s
+                    key[n_starts] = kk
+                    n_starts += 1
+                else:
+                    worst = 0
+                    for j in range(1, _MAX_BRACKETS):
+                        if key[j] > key[worst]:
+                            worst = j
+                    if kk < key[worst]:
+                        sF[worst] = F_s
+                        sl[worst] = lam_s
+                        key[worst] = kk
+        # nearest lam = 0 first (insertion sort of at most _MAX_BRACKETS)
+        for i in range(1, n_starts):
+            j = i
+            while j > 0 and key[j - 1] > key[j]:
+                key[j - 1], key[j] = key[j], key[j - 1]
+                sF[j - 1], sF[j] = sF[j], sF[j - 1]
+                sl[j - 1], sl[j] = sl[j], sl[j - 1]
+                j -= 1
+        # the 2-D Newton from each start
         bF = np.nan
         bl = np.nan
         bfl = 8
@@ -803,7 +793,7 @@ def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_
                 fs, lam_out, iters, conv, flags, rescue):
     """Surfaces ``m0 <= m < m1``: Newton from (F_start, lam_start) on all the samples of a surface
     at once (:func:`_newton_lanes`), their flags (:func:`_post_lanes`), then the continuation
-    (:func:`_continuation`) for the samples that need it, and the outputs.
+    for the samples that need it, and the outputs.
 
     Cells that still miss a clean root are marked in ``rescue`` for the lam
     scan (:func:`_rescue_kernel`, run after this kernel on those cells only).
@@ -813,9 +803,10 @@ def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_
     One function, not a loop calling a function per surface: numba optimises and translates to
     machine code again, at each level of calls, everything the level calls (0.7 s of CPU on a
     first run for that level). Each call of a compiled function counts a reference to every array
-    it is passed (an atomic add and subtract each): the continuation, which takes some 30 arrays,
-    is called only where it runs (called for every sample, those counts took 25 % of the kernel's
-    time on one thread, ``perf``, levee drained), and the arrays are passed as uncounted views.
+    it is passed (an atomic add and subtract each): the continuation's calls, which take some 30
+    arrays, are made only where it runs (made for every sample, those counts took 25 % of the
+    kernel's time on one thread, ``perf``, levee drained), and the arrays are passed as uncounted
+    views.
     """
     # uncounted views: the threads' calls of the callees would contend for each array's reference
     # count (surface_threads.borrowed); the caller holds them all
@@ -834,6 +825,8 @@ def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_
     itL = np.empty(S, dtype=np.int64)
     doneL = np.empty(S, dtype=np.bool_)
     flL = np.empty(S, dtype=np.int64)
+    ft = np.empty((1, f.shape[1]))  # the continuation's interslice function
+    none = np.empty((1, 1, 1))      # _post: flags only, no forces
     for m in range(m0, m1):
         if not valid[m]:
             for s in range(S):
@@ -871,9 +864,36 @@ def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_
             # on a reverse circle every root is flagged NEGATIVE_STRENGTH (see
             # reverse_circles): neither the continuation nor the scan can replace it
             if (fl & 40) != 0 and not reverse[m]:
-                F, lam, n_it, done, fl = _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0[m], xb,
-                                                       yb_b, yt_b, xm, yb, couple, fscale, lscale, tol,
-                                                       max_iter, F0L[s], F, lam, n_it, done, fl)
+                # Newton from (Bishop's F, lam = 0) diverged or reached a spurious root (negative
+                # base strength): continuation from Spencer's constant function, whose root is
+                # found reliably from that start, to f in two steps, each started from the root of
+                # the previous one; its root replaces Newton's when it converges without the
+                # negative-strength flag. Not run when Newton merely ran out of iterations: on the
+                # demo and benchmark banks the continuation rescued none of those and cost a fifth
+                # of the M-P throughput.
+                F2 = F0L[s]
+                lam2 = 0.0
+                ok = True
+                for step in range(3):
+                    tw = 0.5 * step
+                    for i in range(f.shape[1]):
+                        ft[0, i] = (1.0 - tw) + tw * f[m, i]
+                    # np.int64(0), not 0: a literal row index is a specialisation of its own, and
+                    # _rescue_kernel passes a variable one (_newton compiled twice: 0.55 s of CPU)
+                    F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, np.int64(0),
+                                               G0[m], s1, s2, tol, max_iter, F2, lam2)
+                    n_it += k2
+                    if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
+                        ok = False
+                        break
+                if ok:
+                    fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
+                                couple, fscale, lscale, F2, lam2, none, none, none, none)
+                    if (fl2 & 32) == 0:
+                        F = F2
+                        lam = lam2
+                        done = True
+                        fl = fl2
             # Newton from lam = 0 (and the continuation) missed, or reached a
             # root across a pole of the recursion: the lam scan over both signs
             # looks for a root on the physical branch (after this kernel)
@@ -883,43 +903,6 @@ def _gle_kernel(m0, m1, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0, xb, yb_b, yt_
             iters[s, m] = n_it
             conv[s, m] = done
             flags[s, m] = fl if F > 0.0 and np.isfinite(F) else 8
-
-
-@njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **CALLEE_ONLY)
-def _continuation(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, f, G0m, xb, yb_b, yt_b, xm, yb, couple, fscale,
-                  lscale, tol, max_iter, F0, F, lam, n_it, done, fl):
-    """Newton from (Bishop's F, lam = 0) on cell (s, m) diverged or reached a spurious root
-    (negative base strength, flags ``fl`` & 40): continuation from Spencer's constant function,
-    whose root is found reliably from that start, to f in two steps, each started from the root
-    of the previous one. Its root replaces (F, lam, done, fl) when it converges without the
-    negative-strength flag; ``n_it`` counts its steps either way. Not run when Newton merely ran
-    out of iterations: on the demo and benchmark banks the continuation rescued none of those and
-    cost a fifth of the M-P throughput. Returns (F, lam, n_it, done, fl)."""
-    s1 = fscale[m]
-    s2 = fscale[m] * lscale[m]
-    F2 = F0
-    lam2 = 0.0
-    ok = True
-    ft = np.empty((1, f.shape[1]))
-    for step in range(3):
-        tw = 0.5 * step
-        for i in range(f.shape[1]):
-            ft[0, i] = (1.0 - tw) + tw * f[m, i]
-        # np.int64(0), not 0: a literal row index is a specialisation of its own, and _rescue_kernel
-        # passes a variable one (_newton compiled twice: 0.55 s of CPU on a first run)
-        F2, lam2, k2, d2 = _newton(s, m, c, tp, ca, sa, l, A, B, ul, dx, dy, ft, np.int64(0),
-                                   G0m, s1, s2, tol, max_iter, F2, lam2)
-        n_it += k2
-        if not d2 or not (F2 > 0.0) or not np.isfinite(F2):
-            ok = False
-            break
-    if ok:
-        none = np.empty((1, 1, 1))
-        fl2 = _post(s, m, c, tp, ca, sa, l, A, B, ul, f, xb, yb_b, yt_b, xm, yb,
-                    couple, fscale, lscale, F2, lam2, none, none, none, none)
-        if (fl2 & 32) == 0:
-            return F2, lam2, n_it, True, fl2
-    return F, lam, n_it, done, fl
 
 
 @njit(cache=True, fastmath=_FASTMATH, error_model="numpy", **FROM_PYTHON)
