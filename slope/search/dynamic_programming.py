@@ -116,14 +116,13 @@ def _dp(Rc, T, tp, ca, sa, slope, ok, F, theta, entry, leave):  # pragma: no cov
     for a in range(nn):
         for b in range(nn):
             V[a, b] = big
-            for j in range(ns):
-                pred[j, a, b] = -2
     best, bj, ba = big, -1, -1
     for j in range(ns):
         Vn = np.empty((nn, nn))
         for a in range(nn):
             for b in range(nn):
                 Vn[a, b] = big
+                pred[j, a, b] = -2
         for a in range(nn):
             for b in range(nn):
                 if not ok[j, a, b]:
