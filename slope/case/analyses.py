@@ -122,11 +122,14 @@ def other_methods(case: Case) -> list[str]:
     return [m for m in dict.fromkeys(case.analysis["methods"]) if m != case.analysis["method"]]
 
 
-def add_other_methods(case: Case, det: dict) -> None:
-    """The case's :func:`other_methods`, evaluated on each hypothesis's bank of ``det``
-    (:func:`deterministic`), added to its ``"methods"`` in the case's order (in place)."""
-    for hyp, d in det.items():
+def other_methods_results(case: Case, banks: dict) -> dict:
+    """The case's :func:`other_methods` evaluated on each hypothesis's bank: ``{hypothesis: {method:
+    result}}``, methods in the case's order. ``banks``: ``{hypothesis: {"bank": search result}}``
+    (the ``"bank"`` entries of :func:`deterministic`; ``run`` sends only those to a worker)."""
+    out = {}
+    for hyp, d in banks.items():
         first = d["bank"]
+        out[hyp] = {}
         for m in other_methods(case):
             opts = dict(interslice=case.analysis["interslice"]) if m == "morgenstern-price" else {}
             # the same surfaces and slices: the search's own slice bank, not built again per method
@@ -136,7 +139,18 @@ def add_other_methods(case: Case, det: dict) -> None:
                 if k in first.rejected:
                     res.rejected[k] = first.rejected[k]
                     res.n_trials = first.n_trials
-            d["methods"][m] = _search_dict(res, case.section)
+            out[hyp][m] = _search_dict(res, case.section)
+    return out
+
+
+def add_other_methods(case: Case, det: dict, results: dict | None = None) -> None:
+    """The case's :func:`other_methods`, evaluated on each hypothesis's bank of ``det``
+    (:func:`deterministic`), added to its ``"methods"`` in the case's order (in place).
+    ``results``: :func:`other_methods_results` already computed (e.g. by a worker)."""
+    if results is None:
+        results = other_methods_results(case, det)
+    for hyp, d in det.items():
+        d["methods"].update(results[hyp])
 
 
 def properties_for(case: Case, hypothesis: str) -> list[dict]:

@@ -26,8 +26,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..case.analyses import (add_other_methods, deterministic, other_methods, random_problem,
-                              single_variable_reliability)
+from ..case.analyses import (add_other_methods, deterministic, other_methods, other_methods_results,
+                              random_problem, single_variable_reliability)
 from ..case.build import load_case
 from ..errors import InputError
 from ..reliability.stats import estimate_pf
@@ -292,6 +292,15 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     # them (the same numbers), so that on a first run they do not wait for their kernels, which the
     # pool is still compiling (Morgenstern-Price: the longest)
     det = deterministic(case, other_methods=False)
+    others = other_methods(case)
+    later = None
+    if others and n_jobs > 1:
+        # on a worker, which takes it after its warm-up, while this process goes on: it compiles
+        # only what the case needs (Spencer's and Morgenstern-Price's λ scan: only some banks reach it)
+        from ..simulate.executors import submit_to_worker
+
+        later = submit_to_worker(other_methods_results, case, {h: {"bank": d["bank"]} for h, d in det.items()},
+                                 n_jobs=n_jobs)
     res = RunResults(
         case_path=str(case_path), case_sha256=hashlib.sha256(raw).hexdigest(), title=case.title,
         note=case.data["case"].get("note", ""), version=_version(),
@@ -303,10 +312,9 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
         res.single_variable[h] = _single_variable(case, det, h, est)
     for h in hyps:
         res.spatial[h] = _spatial(case, det, h, n=n, n_jobs=n_jobs, progress=progress, estimator=est)
-    others = other_methods(case)
     if others:
         progress.say(f"deterministic FS by {', '.join(others)} on the same trial surfaces")
-        add_other_methods(case, det)
+        add_other_methods(case, det, later.result() if later is not None else None)
     res.deterministic = _deterministic(case, det)
     res.risk = risk_points(case, res)
     res.analysis_time_s = round(time.perf_counter() - t_start, 2)

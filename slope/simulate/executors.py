@@ -215,6 +215,17 @@ def _in_worker(parent, fn, *args):
     return fn(*args)
 
 
+def submit_to_worker(fn, *args, n_jobs):
+    """``fn(*args)`` on a worker of the pool of ``n_jobs - 1`` workers (:func:`start_workers`),
+    after the tasks already queued there: a ``concurrent.futures.Future``.
+
+    For work whose result the command needs later (``run``: the methods other than the run
+    method, evaluated on the search's bank), so that it runs beside the command's own work.
+    ``fn`` is a module-level function (it is pickled), and so are ``args``.
+    """
+    return _pool(n_jobs).submit(_in_worker, os.getpid(), fn, *args)
+
+
 SCHEDULER_TIMEOUT_S = 5.0
 
 
@@ -403,8 +414,8 @@ def _await_workers():
 def warm_up_steps(methods):
     """The steps of a worker's warm-up: the method of ``methods`` (but the last) whose kernels take
     longest to compile, the last method (the case's search method, see :func:`warm_up_order`), the
-    simulator's kernels, the λ scan of Spencer and Morgenstern-Price when one of them is named, then
-    the other methods.
+    simulator's kernels, the λ scan of Spencer and Morgenstern-Price when the search method is one
+    of them, then the other methods.
 
     Step 1 (``slipfield run``'s own process with ``--jobs 2``, :func:`warm_here`; worker 1 with
     more jobs) starts at the search method's step: on a first run that kernel compiles while worker
@@ -423,7 +434,10 @@ def warm_up_steps(methods):
     head, tail = methods[:-1], methods[-1:]
     head = sorted(head, key=_compile_rank)  # stable: methods of equal rank keep their order
 
-    scan = [("scan", ())] if uses_scan(methods) else []
+    # the λ scan only when the search method may run it (in its search and its simulations): `run`
+    # evaluates the other methods on a worker (submit_to_worker), which compiles it there only if
+    # their bank reaches it (the levee demo's never does: 1.7 s of CPU on a first run)
+    scan = [("scan", ())] if uses_scan(tail) else []
     # the longest compilation, the search method (the command's first need), the simulator's kernels
     # (every run needs them), the λ scan (only some searches reach it), then the others
     return ([("method", (m,)) for m in head[:1] + tail] + [("simulator", ())] + scan

@@ -110,7 +110,11 @@ def test_workers_start_their_warm_up_on_different_long_compilations():
 
     steps = warm_up_steps(warm_up_order(["spencer", "bishop", "morgenstern-price"], "bishop"))
     assert steps == [("method", ("morgenstern-price",)), ("method", ("bishop",)), ("simulator", ()),
-                     ("scan", ()), ("method", ("spencer",))]
+                     ("method", ("spencer",))]
+    # the scan only for a search method that may run it (the others' is compiled where they run)
+    steps = warm_up_steps(warm_up_order(["spencer", "bishop", "morgenstern-price"], "spencer"))
+    assert steps == [("method", ("morgenstern-price",)), ("method", ("spencer",)), ("simulator", ()),
+                     ("scan", ()), ("method", ("bishop",))]
     assert warm_up_steps([]) == [("simulator", ())]  # `simulate`: no methods named, the simulator's kernels
     # no method that runs the scan: no scan step
     assert warm_up_steps(["janbu", "bishop"]) == [("method", ("janbu",)), ("method", ("bishop",)), ("simulator", ())]
@@ -139,10 +143,12 @@ def test_the_command_takes_its_own_steps_and_never_waits_for_the_workers_first(m
     monkeypatch.setattr(compiled, "warm_up", lambda methods, scan=True: walked.append(("method", tuple(methods))))
     monkeypatch.setattr(compiled, "warm_up_scan", lambda: walked.append(("scan", ())))
     monkeypatch.setattr(executors, "_warm_simulator", lambda: walked.append(("simulator", ())))
-    methods = executors.warm_up_order(["spencer", "bishop", "morgenstern-price"], "bishop")
+    methods = executors.warm_up_order(["bishop", "morgenstern-price", "spencer"], "spencer")
     executors.warm_here(2, methods)
-    # nor the lam scan: the worker compiles it after the longest (this process needs it late, if at all)
-    assert walked == [step for step in executors.warm_up_steps(methods)[1:] if step != ("scan", ())]
+    # nor the lam scan (a step here: Spencer searches): the worker compiles it after the longest
+    steps = executors.warm_up_steps(methods)
+    assert ("scan", ()) in steps[1:]
+    assert walked == [step for step in steps[1:] if step != ("scan", ())]
     assert ("method", ("morgenstern-price",)) not in walked and ("scan", ()) not in walked
     walked.clear()
     executors.warm_here(1, methods)  # --jobs 1: no pool, nothing ahead of the run

@@ -75,3 +75,31 @@ def test_other_methods_added_later_give_the_same_results_in_the_same_order(tmp_p
         for m, block in whole[h]["methods"].items():
             assert later[h]["methods"][m]["fs"] == block["fs"]
             assert later[h]["methods"][m]["critical_index"] == block["critical_index"]
+
+
+def test_other_methods_on_a_worker_give_the_same_results(tmp_path):
+    # `slipfield run --jobs N` (N > 1) sends them to a worker of its pool while it goes on, so that only
+    # the kernels they reach are compiled, there: the same dicts (numbers, order) as in this process
+    import os
+
+    from slipfield.slope.case.analyses import add_other_methods, other_methods_results
+    from slipfield.slope.simulate.executors import stop_workers, submit_to_worker
+
+    p = tmp_path / "sand.toml"
+    p.write_text(SAND.replace('methods = ["bishop", "spencer"]', 'methods = ["spencer", "bishop", "ordinary"]'),
+                 encoding="utf-8")
+    case = load_case(p)
+    here = deterministic(case, other_methods=False)
+    there = deterministic(case, other_methods=False)
+    banks = {h: {"bank": d["bank"]} for h, d in there.items()}
+    try:
+        pid = submit_to_worker(os.getpid, n_jobs=2).result()
+        results = submit_to_worker(other_methods_results, case, banks, n_jobs=2).result()
+    finally:
+        stop_workers()
+    assert pid != os.getpid()  # it ran in a worker
+    add_other_methods(case, here)
+    add_other_methods(case, there, results)
+    for h in here:
+        assert here[h]["methods"] == there[h]["methods"]  # every number and name, in the same order
+        assert list(here[h]["methods"]) == list(there[h]["methods"]) == ["bishop", "spencer", "ordinary"]
