@@ -353,7 +353,7 @@ def _worker_lost(exc) -> str:
     codes = next((line for line in lines if "exit code" in line.lower()), "")
     return ("a worker process ended before its task did" + (f" ({codes.rstrip('.')})" if codes else "")
             + ": it was killed from outside, or ran out of memory (fewer --jobs, or a smaller [simulation] "
-            "batch, need less)")
+            "batch, use less memory)")
 
 
 def main(argv=None) -> int:

@@ -288,15 +288,15 @@ def analyse_case(case_path, *, realisations=None, jobs=None, quiet=True, on_read
     n, n_jobs = _counts(case, realisations, jobs, on_ready)
     hyps = case.analysis["hypotheses"]
     progress.say(f"deterministic search ({', '.join(hyps)})")
-    # the random analyses start from the run method's bank; the other methods are evaluated on it after
-    # them (the same numbers), so that on a first run they do not wait for their kernels, which the
+    # the random analyses start from the run method's bank; the other methods are evaluated on it apart
+    # from them (the same numbers), so that on a first run nothing waits for their kernels, which the
     # pool is still compiling (Morgenstern-Price: the longest)
     det = deterministic(case, other_methods=False)
     others = other_methods(case)
     later = None
     if others and n_jobs > 1:
-        # on a worker, which takes it after its warm-up, while this process goes on: it compiles
-        # only what the case needs (Spencer's and Morgenstern-Price's λ scan: only some banks reach it)
+        # on a worker, which takes them after its warm-up, while this process goes on; it compiles
+        # only what they reach (Spencer's and Morgenstern-Price's λ scan: only some banks need it)
         from ..simulate.executors import submit_to_worker
 
         later = submit_to_worker(other_methods_results, case, {h: {"bank": d["bank"]} for h, d in det.items()},

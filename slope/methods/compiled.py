@@ -108,8 +108,9 @@ def first_call(kernel):
 #: by one tiny call of the real types, longest compilation first (CPU into an empty cache, one
 #: process, 2026-12-04, after that day's cuts): the general limit-equilibrium kernels of
 #: Morgenstern-Price, with and without forces (the deterministic analysis writes its slice tables),
-#: 4.9-5.1 s (6.5-7 s while its kernel was numba ``parallel=True``); the λ scan over both signs that Spencer and Morgenstern-Price run on the cells their
-#: Newton missed (only some searches reach it), 1.9 s; Bishop's and Janbu's single-equation kernel,
+#: 4.0 s (6.5-7 s while the kernel was numba ``parallel=True`` with more levels of calls); the λ
+#: scan over both signs that Spencer and Morgenstern-Price run on the cells their Newton missed
+#: (only some searches reach it), 1.2 s after them; Bishop's and Janbu's single-equation kernel,
 #: 0.75-0.85 s.
 KERNEL_GROUPS = ("general", "lam-scan", "single-equation")
 

@@ -86,8 +86,12 @@ def _solve_f(idx, F0, tb, nb, Cb, Tb, Ub, Ftot, si, mi, Ci, Ti, Ui, Fr):  # prag
     [1e-3, 1e3] (a trial F at which the mechanism is not admissible counts as below the root: the
     jumps' inclination φ_d grows as F falls).
     """
+    # Tb.max() > 0 (False with a NaN, which max propagates), as a loop: numba's max compiled in 0.5 s
     frictional = False
-    for i in range(Tb.shape[0]):  # a loop, not Tb.max(): numba's max compiled in 0.5 s of CPU
+    for i in range(Tb.shape[0]):
+        if Tb[i] != Tb[i]:
+            frictional = False
+            break
         frictional = frictional or Tb[i] > 0.0
     if not frictional:
         for i in range(idx.shape[0]):
