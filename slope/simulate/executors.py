@@ -174,7 +174,8 @@ def _here_and_pool(fn, here, tasks, n_jobs):
 
 
 def _on_one_thread(here, task, threads):
-    """``here(*task)`` with numba's parallel kernels on one thread, when numba is loaded (by whatever
+    """``here(*task)`` with numba's thread count at one (the threads Morgenstern-Price's kernel
+    spreads a bank over, :mod:`slope.methods.surface_threads`), when numba is loaded (by whatever
     the tasks compute: it is not imported for them); ``threads`` keeps the count to restore."""
     import sys
 
@@ -238,8 +239,9 @@ def limit_threads(n_jobs: int) -> int:
     and so does this process while it runs simulation blocks beside them
     (:func:`run_tasks`); otherwise this process -- which runs the
     deterministic search, the single-variable analyses and, with ``--jobs 1``,
-    the whole simulation -- uses at most ``N`` threads for numba's parallel
-    kernels and the BLAS and OpenMP pools loaded so far. Without it
+    the whole simulation -- uses at most ``N`` threads for its compiled kernels
+    (numba's thread count, which :mod:`slope.methods.surface_threads` reads)
+    and the BLAS and OpenMP pools loaded so far. Without it
     ``--jobs 1`` ran the kernels on every core, so ``--jobs 2`` against
     ``--jobs 1`` measured two processes against two threads. Results do not depend on the thread count.
 
@@ -251,7 +253,7 @@ def limit_threads(n_jobs: int) -> int:
     Returns
     -------
     int
-        Threads now used by this process's parallel kernels.
+        Threads now used by this process's compiled kernels (numba's thread count).
     """
     import numba
     from threadpoolctl import threadpool_limits
@@ -364,7 +366,8 @@ def start_workers(n_jobs, methods=()):
     walk them from step ``n_jobs - 1`` (:func:`warm_here`): on an empty cache
     the longest compilation (Morgenstern-Price) and the search method's kernel
     then compile in different processes at once, and a process reaching a
-    kernel another one is compiling waits for its lock and loads it.
+    kernel another one is compiling goes on with its next step (:func:`_walk`);
+    its first real call of that kernel waits for the lock and loads it.
     (Splitting the methods' list between workers without that lock was
     measured slower: kernels sharing compiled callees compiled them in several
     processes.) A second call with the same ``n_jobs`` does nothing; with
